@@ -1,0 +1,1 @@
+"""Shipped example workbooks, installed as ``leakbudget.examples``."""

@@ -1,0 +1,3 @@
+from leakbudget.cli import main
+
+main()

@@ -1,0 +1,130 @@
+"""The workbook contract: sheet names, column names, their default units and meaning.
+
+One place for the names the user types; the reader, the template and the README all use these. Names match
+case-insensitively, ignoring surrounding spaces and the difference between a space and an underscore.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+
+def normalise(name: object) -> str:
+    """Normalise a sheet or column name for matching: lower case, ``_`` as space, spaces folded."""
+    text = str(name).replace("_", " ").replace("\u00a0", " ")
+    return re.sub(r"\s+", " ", text).strip().lower()
+
+
+@dataclass(frozen=True, slots=True)
+class Column:
+    name: str
+    unit: str | None  # default unit for bare numbers (a pint unit string), None for text/flags
+    required: bool
+    help: str
+
+
+@dataclass(frozen=True, slots=True)
+class Sheet:
+    name: str
+    required: bool
+    help: str
+    columns: tuple[Column, ...]
+
+    def column(self, name: str) -> Column:
+        for c in self.columns:
+            if normalise(c.name) == normalise(name):
+                return c
+        raise KeyError(name)
+
+
+CIRCUITS = Sheet(
+    "Circuits",
+    True,
+    "One row per circuit in the panel, protected or not.",
+    (
+        Column("Circuit", None, True, "Unique circuit id, e.g. K1 or 'Kitchen counter 1'."),
+        Column("Device", None, True, "Protective device key (see `leakbudget devices`), or 'none'."),
+        Column("RCD type", None, False, "AC, A, F or B (IEC 60755 / IEC 62423); blank if unknown."),
+        Column("Voltage", "V", False, "Line-to-neutral supply voltage; blank takes the Settings default."),
+        Column("Frequency", "Hz", False, "Supply frequency; blank takes the Settings default."),
+        Column("System", None, False, "single (line-neutral), split (120/240 V two-pole) or three (three-phase)."),
+        Column("Rating", "A", False, "Overcurrent rating of the circuit."),
+        Column("Cable length", "m", False, "Load-side cable run; bare numbers in the 'Length unit' setting."),
+        Column("Cable", None, False, "Cable catalogue key (see `leakbudget cables`); blank takes the default."),
+        Column("Rooms", None, False, "Rooms the circuit serves, comma-separated."),
+        Column("Note", None, False, "Free text, copied to the results."),
+    ),
+)
+
+LOADS = Sheet(
+    "Loads",
+    True,
+    "One row per load (or group of identical loads) on a circuit.",
+    (
+        Column("Load", None, True, "Name of the load, e.g. 'Dishwasher'."),
+        Column("Circuit", None, False, "Circuit it is on now; blank = not yet placed."),
+        Column("Appliance", None, False, "Catalogue key (see `leakbudget appliances`)."),
+        Column("Quantity", None, False, "Number of identical units (default 1)."),
+        Column("Leakage", "mA", False, "Measured or datasheet leakage per unit, at this circuit's supply."),
+        Column("Y capacitance", "nF", False, "Line-to-earth capacitance per unit (EMI-filter Y-capacitors)."),
+        Column("Insulation resistance", "Mohm", False, "Insulation resistance to earth per unit."),
+        Column("Power", "W", False, "Rated power per unit."),
+        Column("Current", "A", False, "Rated current per unit."),
+        Column("Leg", None, False, "L1, L2, L3, or L1-L2 etc. for line-to-line loads (default L1)."),
+        Column("Room", None, False, "Room the load is in."),
+        Column("Fixed", None, False, "yes if the load must stay on its circuit."),
+        Column("Note", None, False, "Free text, copied to the results."),
+    ),
+)
+
+SETTINGS = Sheet(
+    "Settings",
+    False,
+    "Two columns, Setting and Value; every setting is optional.",
+    (
+        Column("Setting", None, True, "Name of the setting."),
+        Column("Value", None, True, "Its value."),
+    ),
+)
+
+APPLIANCES = Sheet(
+    "Appliances",
+    False,
+    "Your own catalogue rows; same columns as the built-in catalogue. They add to it and override same keys.",
+    (
+        Column("Key", None, True, "Appliance key used in the Loads sheet."),
+        Column("Description", None, False, "What it is."),
+        Column("Category", None, False, "kitchen, bathroom, laundry, outdoor, garage, office, shop or general."),
+        Column("Class", None, False, "Insulation class: 0I, I, II or III."),
+        Column("Connection", None, False, "plug (cord-and-plug) or fixed (permanently connected)."),
+        Column("Nature", None, False, "capacitive, resistive or mixed (default capacitive)."),
+        Column("Waveform", None, False, "sine, pulsating-dc, high-frequency or smooth-dc (default sine)."),
+        Column("Heating", None, False, "yes for a heating or cooking element (moist switch-on leakage)."),
+        Column("Typical leakage", "mA", True, "Typical standing leakage per unit at the reference supply."),
+        Column("Upper leakage", "mA", False, "Upper (limit or high-percentile) leakage per unit."),
+        Column("Reference voltage", "V", False, "Supply voltage the leakage values hold at (default 230 V)."),
+        Column("Reference frequency", "Hz", False, "Supply frequency the leakage values hold at (default 50 Hz)."),
+        Column("Typical power", "W", False, "Typical rated power per unit."),
+        Column("Typical source", None, False, "Where the typical value comes from."),
+        Column("Upper source", None, False, "Where the upper value comes from."),
+    ),
+)
+
+CABLES = Sheet(
+    "Cables",
+    False,
+    "Your own cable rows: key, description, capacitance of one line conductor to earth per length, source.",
+    (
+        Column("Key", None, True, "Cable key used in the Circuits sheet."),
+        Column("Description", None, False, "What it is."),
+        Column("Capacitance", "pF/m", True, "Capacitance of one line conductor to earth per length."),
+        Column("Source", None, False, "Where the value comes from."),
+    ),
+)
+
+SHEETS: tuple[Sheet, ...] = (CIRCUITS, LOADS, SETTINGS, APPLIANCES, CABLES)
+
+# Result sheets written back into the workbook; these names are reserved (replaced on every run).
+CIRCUIT_RESULTS = "Circuit results"
+LOAD_RESULTS = "Load results"
