@@ -1,0 +1,188 @@
+"""The appliance and cable catalogue: built-in CSV rows plus the user's own rows from the workbook.
+
+Every row carries a typical and an upper leakage, the supply they hold at, and a source for each (a published
+limit with clause, or "typical, from memory"). User rows from an ``Appliances`` / ``Cables`` sheet add to the
+built-in rows and override rows with the same key; the results say so.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+from dataclasses import dataclass
+from functools import lru_cache
+from importlib import resources
+from pathlib import Path
+
+from leakbudget.errors import CatalogueError, WorkbookError
+from leakbudget.provenance import Kind, Source, classify
+from leakbudget.schema import APPLIANCES, CABLES, Sheet
+from leakbudget.tables import RawTable
+
+NATURES = ("capacitive", "resistive", "mixed")
+WAVEFORMS = ("sine", "pulsating-dc", "high-frequency", "smooth-dc")
+CLASSES = ("0I", "I", "II", "III")
+CONNECTIONS = ("plug", "fixed")
+CATEGORIES = ("kitchen", "bathroom", "laundry", "outdoor", "garage", "office", "shop", "general")
+DEFAULT_REFERENCE_VOLTAGE_V = 230.0
+DEFAULT_REFERENCE_FREQUENCY_HZ = 50.0
+DEFAULT_CABLE = "generic"
+BUILT_IN = "built-in catalogue"
+
+
+@dataclass(frozen=True, slots=True)
+class Appliance:
+    """One catalogue row. Leakage values are per unit [mA] at the reference supply."""
+
+    key: str
+    description: str
+    category: str
+    insulation_class: str | None
+    connection: str | None
+    nature: str
+    waveform: str
+    heating: bool
+    typical_ma: float
+    upper_ma: float
+    reference_voltage_v: float
+    reference_frequency_hz: float
+    typical_power_w: float | None
+    typical_source: Source
+    upper_source: Source
+    origin: str  # "built-in catalogue" or "workbook sheet 'Appliances' row N"
+
+
+@dataclass(frozen=True, slots=True)
+class Cable:
+    """A cable kind: capacitance of one line conductor to earth per metre [pF/m]."""
+
+    key: str
+    description: str
+    capacitance_pf_per_m: float
+    source: Source
+    origin: str
+
+
+@dataclass(frozen=True)
+class Catalogue:
+    appliances: dict[str, Appliance]
+    cables: dict[str, Cable]
+    overridden: tuple[str, ...] = ()  # keys of built-in rows the user's workbook replaced
+
+    def with_user_rows(self, appliances: list[Appliance], cables: list[Cable]) -> "Catalogue":
+        merged_a = dict(self.appliances)
+        merged_c = dict(self.cables)
+        overridden = [a.key for a in appliances if a.key in merged_a] + [c.key for c in cables if c.key in merged_c]
+        merged_a.update({a.key: a for a in appliances})
+        merged_c.update({c.key: c for c in cables})
+        return Catalogue(merged_a, merged_c, tuple(overridden))
+
+    def search(self, word: str | None = None) -> list[Appliance]:
+        """Rows whose key, description or category contain ``word`` (case-insensitive); all rows for None."""
+        rows = sorted(self.appliances.values(), key=lambda a: (a.category, a.key))
+        if not word:
+            return rows
+        w = word.lower()
+        return [a for a in rows if w in a.key or w in a.description.lower() or w in a.category]
+
+
+def _data_file(name: str) -> tuple[Path, str]:
+    """The path and text of a shipped catalogue file (inside the wheel, or the source tree)."""
+    try:
+        ref = resources.files("leakbudget.appliance_data").joinpath(name)
+        return Path(str(ref)), ref.read_text(encoding="utf-8")
+    except (ModuleNotFoundError, FileNotFoundError):
+        path = Path(__file__).resolve().parent.parent / "appliance_data" / name
+        return path, path.read_text(encoding="utf-8")
+
+
+def _csv_table(name: str, spec: Sheet) -> RawTable:
+    path, text = _data_file(name)
+    grid: list[list[object]] = [list(r) for r in csv.reader(io.StringIO(text))]
+    try:
+        return RawTable.from_grid(path, name, grid, spec)
+    except WorkbookError as exc:
+        raise CatalogueError(str(exc)) from None
+
+
+def appliances_from_table(table: RawTable, origin_prefix: str | None = None) -> list[Appliance]:
+    """Parse catalogue rows (built-in CSV or the user's Appliances sheet) into :class:`Appliance` rows."""
+    out: list[Appliance] = []
+    seen: dict[str, int] = {}
+    for row in table.rows:
+        key = (table.text(row, "Key") or "").lower()
+        if not key:
+            raise table.error(row, "Key", "the key is blank", hint="give every catalogue row a key")
+        if key in seen:
+            raise table.error(row, "Key", f"the key '{key}' is used twice (also row {seen[key]})",
+                              hint="keep one row per key")
+        seen[key] = row[0]
+        typical = table.number(row, "Typical leakage", "mA", positive=False)
+        if typical is None:
+            raise table.error(row, "Typical leakage", "the typical leakage is blank",
+                              hint="type the typical leakage per unit in mA")
+        upper = table.number(row, "Upper leakage", "mA")
+        if upper is None:
+            upper = typical
+        if upper < typical:
+            raise table.error(row, "Upper leakage", f"the upper leakage {upper:g} mA is below the typical {typical:g} mA",
+                              hint="the upper value must be at least the typical value")
+        origin = BUILT_IN if origin_prefix is None else f"{origin_prefix} row {row[0]}"
+        user = origin_prefix is not None
+        typical_src = table.text(row, "Typical source")
+        upper_src = table.text(row, "Upper source")
+        out.append(
+            Appliance(
+                key=key,
+                description=table.text(row, "Description") or key,
+                category=table.choice(row, "Category", CATEGORIES, "general") or "general",
+                insulation_class=table.choice(row, "Class", CLASSES),
+                connection=table.choice(row, "Connection", CONNECTIONS),
+                nature=table.choice(row, "Nature", NATURES, "capacitive") or "capacitive",
+                waveform=table.choice(row, "Waveform", WAVEFORMS, "sine") or "sine",
+                heating=bool(table.flag(row, "Heating")),
+                typical_ma=typical,
+                upper_ma=upper,
+                reference_voltage_v=table.number(row, "Reference voltage", "V", positive=True)
+                or DEFAULT_REFERENCE_VOLTAGE_V,
+                reference_frequency_hz=table.number(row, "Reference frequency", "Hz", positive=True)
+                or DEFAULT_REFERENCE_FREQUENCY_HZ,
+                typical_power_w=table.number(row, "Typical power", "W"),
+                typical_source=classify(typical_src) if typical_src else
+                (Source(Kind.USER, f"{origin} (no source given)") if user else Source.from_memory()),
+                upper_source=classify(upper_src) if upper_src else
+                (Source(Kind.USER, f"{origin} (no source given)") if user else Source.from_memory()),
+                origin=origin,
+            )
+        )
+    return out
+
+
+def cables_from_table(table: RawTable, origin_prefix: str | None = None) -> list[Cable]:
+    """Parse cable rows (built-in CSV or the user's Cables sheet)."""
+    out: list[Cable] = []
+    for row in table.rows:
+        key = (table.text(row, "Key") or "").lower()
+        if not key:
+            raise table.error(row, "Key", "the key is blank", hint="give every cable row a key")
+        capacitance = table.number(row, "Capacitance", "pF/m", positive=True)
+        if capacitance is None:
+            raise table.error(row, "Capacitance", "the capacitance is blank",
+                              hint="type the capacitance of one line conductor to earth in pF/m")
+        source = table.text(row, "Source")
+        out.append(Cable(
+            key=key,
+            description=table.text(row, "Description") or key,
+            capacitance_pf_per_m=capacitance,
+            source=classify(source) if source else Source.from_memory(),
+            origin=BUILT_IN if origin_prefix is None else f"{origin_prefix} row {row[0]}",
+        ))
+    return out
+
+
+@lru_cache(maxsize=1)
+def built_in() -> Catalogue:
+    """The shipped catalogue (parsed once per process)."""
+    appliances = appliances_from_table(_csv_table("appliances.csv", APPLIANCES))
+    cables = cables_from_table(_csv_table("cables.csv", CABLES))
+    return Catalogue({a.key: a for a in appliances}, {c.key: c for c in cables})

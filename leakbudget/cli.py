@@ -1,0 +1,258 @@
+"""The command line: parse, call one library function, render, translate errors (exit 2) in one place."""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from pathlib import Path
+from typing import Annotated, Any, Optional
+
+import typer
+from rich import box
+from rich.console import Console
+from rich.table import Table
+
+from leakbudget import CAUTION, __version__
+from leakbudget.errors import LeakbudgetError
+
+app = typer.Typer(
+    name="leakbudget",
+    help=(
+        "Standing earth-leakage budgets for GFCI/RCD-protected circuits: estimate each load's leakage, sum it "
+        "per circuit, check it against the device's levels, and write the results back into the workbook.\n\n"
+        "A planning aid, not a substitute for measurement, the local code and licensed practice; test every "
+        "protective device after installation and never remove protection to cure nuisance trips."
+    ),
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+    rich_markup_mode=None,
+)
+out_console = Console()
+err_console = Console(stderr=True)
+
+STATUS_STYLE = {"ok": "green", "over-budget": "yellow", "trip-risk": "bold red", "unprotected": "magenta"}
+
+PathArg = Annotated[Path, typer.Argument(help="The workbook (.xlsx).", show_default=False)]
+OutOpt = Annotated[
+    Optional[Path],
+    typer.Option("--out", "-o", help="Write the results into this new file and leave PATH untouched."),
+]
+JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON document to stdout instead of tables.")]
+
+
+def _fmt(value: float | None, digits: int = 3) -> str:
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "-"
+    return f"{value:.{digits}f}"
+
+
+def _print_json(doc: Any) -> None:
+    sys.stdout.write(json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n")
+
+
+def _caution() -> None:
+    err_console.print(f"[dim]Caution: {CAUTION}[/dim]", highlight=False)
+
+
+def render_check(job: Any) -> None:
+    from leakbudget.results import circuit_dict
+
+    result = job.result
+    project = result.project
+    gate = "phasor" if project.settings.sum_rule == "phasor" else "arithmetic"
+    table = Table(title=f"Standing leakage per circuit (mA): {project.path.name}", title_justify="left",
+                  box=box.SIMPLE_HEAD, pad_edge=False, padding=(0, 1, 0, 0))
+    table.add_column("Circuit", overflow="fold", max_width=14)
+    for header in ("Device", "Sum", "Phasor", "Budget", "No-trip", "Used", "Status"):
+        table.add_column(header, justify="left" if header in ("Device", "Status") else "right", no_wrap=True)
+    table.add_column("Largest contributor", overflow="fold", min_width=14)
+    for c in result.circuits:
+        d = circuit_dict(c)
+        used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"
+        largest = f"{d['largest_contributor']} ({_fmt(d['largest_contributor_ma'], 2)})" if d["largest_contributor"] else "-"
+        table.add_row(
+            d["circuit"], d["device"], _fmt(d["leakage_ma"], 2), _fmt(d["phasor_ma"], 2), _fmt(d["budget_ma"], 2),
+            _fmt(d["no_trip_ma"], 2), used, f"[{STATUS_STYLE[d['status']]}]{d['status']}[/]", largest,
+        )
+    out_console.print(table)
+    s = project.settings
+    out_console.print(
+        f"Budget = {s.budget_fraction:g} × trip level ({s.sources['Budget fraction']}); gated by the {gate} sum; "
+        f"catalogue basis: {s.basis}.", highlight=False,
+    )
+    for line in project.defaults_used:
+        out_console.print(f"Default used: {line}", highlight=False)
+    for line in project.warnings:
+        err_console.print(f"[yellow]Warning:[/] {line}", highlight=False)
+    if result.unplaced:
+        out_console.print(f"{len(result.unplaced)} load(s) have no circuit yet; `leakbudget split` can place them.")
+    bad = [c for c in result.circuits if c.status.value in ("over-budget", "trip-risk")]
+    if not result.circuits:
+        out_console.print("The Circuits sheet has no circuits yet: add one row per circuit.")
+    elif bad:
+        out_console.print(
+            f"[bold]{len(bad)} circuit(s) over budget.[/] Split loads across circuits (`leakbudget split`), measure "
+            "the largest contributors, and repair appliances that leak far above their typical value; never remove "
+            "or up-rate protection."
+        )
+    else:
+        out_console.print("Every protected circuit is within its budget.")
+    if job.written is not None:
+        out_console.print(f"Results written to {job.written.path} (sheets: "
+                          f"{', '.join(job.written.replaced + job.written.added)}).", highlight=False)
+        if job.written.backup is not None:
+            out_console.print(f"Previous version kept as {job.written.backup}.", highlight=False)
+    _caution()
+
+
+@app.command()
+def check(
+    path: PathArg,
+    out: OutOpt = None,
+    as_json: JsonOpt = False,
+    no_write: Annotated[bool, typer.Option("--no-write", help="Check only; write nothing.")] = False,
+) -> None:
+    """Estimate standing leakage per protected circuit and write 'Circuit results' and 'Load results'.
+
+    Exit code 0 when every protected circuit is within budget, 1 when any is not, 2 on bad input.
+    """
+    from leakbudget.jobs import check_workbook
+
+    job = check_workbook(path, out, write=not no_write)
+    if as_json:
+        from leakbudget.results import to_json
+
+        doc = to_json(job.result)
+        doc["written_to"] = str(job.written.path) if job.written else None
+        doc["backup"] = str(job.written.backup) if job.written and job.written.backup else None
+        _print_json(doc)
+    else:
+        render_check(job)
+    raise typer.Exit(0 if job.result.all_ok else 1)
+
+
+@app.command()
+def demo(
+    folder: Annotated[Path, typer.Option("--folder", help="Where to put the example workbook.")] = Path("."),
+) -> None:
+    """Copy the shipped example (an invented remodel) into FOLDER and check it there."""
+    from leakbudget.jobs import check_workbook, copy_example
+
+    dest = copy_example(folder)
+    out_console.print(f"Copied the example workbook to {dest}.", highlight=False)
+    job = check_workbook(dest)
+    render_check(job)
+    out_console.print(f"Open {dest} to see the 'Circuit results' and 'Load results' sheets.", highlight=False)
+
+
+@app.command()
+def template(
+    path: Annotated[Path, typer.Argument(help="The new workbook to create (.xlsx).", show_default=False)],
+) -> None:
+    """Create a blank workbook with the sheets, headers, instructions and drop-down lists."""
+    from leakbudget.template import write_template
+
+    write_template(path)
+    out_console.print(f"Created {path}. Fill in Circuits and Loads, then run: leakbudget check {path}",
+                      highlight=False)
+
+
+@app.command()
+def appliances(
+    word: Annotated[Optional[str], typer.Argument(help="Show only rows whose key, description or category "
+                                                       "contain this word.")] = None,
+    as_json: JsonOpt = False,
+) -> None:
+    """List or search the built-in appliance catalogue, with the source of every value."""
+    from leakbudget.catalogue import built_in
+
+    rows = built_in().search(word)
+    if as_json:
+        _print_json([
+            {"key": a.key, "description": a.description, "category": a.category, "class": a.insulation_class,
+             "connection": a.connection, "nature": a.nature, "waveform": a.waveform, "heating": a.heating,
+             "typical_ma": a.typical_ma, "upper_ma": a.upper_ma, "reference_voltage_v": a.reference_voltage_v,
+             "reference_frequency_hz": a.reference_frequency_hz, "typical_power_w": a.typical_power_w,
+             "typical_source": str(a.typical_source), "upper_source": str(a.upper_source)}
+            for a in rows
+        ])
+        return
+    table = Table(title=f"Appliance catalogue ({len(rows)} rows)", title_justify="left")
+    for h in ("Key", "Description", "Typical mA", "Upper mA", "At", "Nature", "Waveform", "Typical source",
+              "Upper source"):
+        table.add_column(h, overflow="fold")
+    for a in rows:
+        table.add_row(a.key, a.description, f"{a.typical_ma:g}", f"{a.upper_ma:g}",
+                      f"{a.reference_voltage_v:g} V {a.reference_frequency_hz:g} Hz", a.nature, a.waveform,
+                      str(a.typical_source), str(a.upper_source))
+    out_console.print(table)
+    if not rows:
+        out_console.print(f"No catalogue row matches '{word}'.", highlight=False)
+
+
+@app.command()
+def cables(as_json: JsonOpt = False) -> None:
+    """List the cable catalogue (capacitance of one line conductor to earth per metre)."""
+    from leakbudget.catalogue import built_in
+
+    rows = list(built_in().cables.values())
+    if as_json:
+        _print_json([{"key": c.key, "description": c.description, "capacitance_pf_per_m": c.capacitance_pf_per_m,
+                      "source": str(c.source)} for c in rows])
+        return
+    table = Table(title="Cable catalogue", title_justify="left")
+    for h in ("Key", "Description", "pF/m to earth", "Source"):
+        table.add_column(h, overflow="fold")
+    for c in rows:
+        table.add_row(c.key, c.description, f"{c.capacitance_pf_per_m:g}", str(c.source))
+    out_console.print(table)
+
+
+@app.command()
+def devices(as_json: JsonOpt = False) -> None:
+    """List the protective device keys with their trip and no-trip levels and sources."""
+    from leakbudget.devices import DEVICES
+
+    rows = [d for d in DEVICES.values() if d.protected]
+    if as_json:
+        _print_json([{"key": d.key, "label": d.label, "trip_ma": d.trip_ma, "no_trip_ma": d.no_trip_ma,
+                      "trip_source": str(d.trip_source), "no_trip_source": str(d.no_trip_source)} for d in rows]
+                    + [{"key": "none", "label": DEVICES["none"].label, "trip_ma": None, "no_trip_ma": None,
+                        "trip_source": None, "no_trip_source": None}])
+        return
+    table = Table(title="Protective devices", title_justify="left")
+    for h in ("Key", "Device", "Trip mA", "No-trip mA", "Trip source", "No-trip source"):
+        table.add_column(h, overflow="fold")
+    for d in rows:
+        table.add_row(d.key, d.label, f"{d.trip_ma:g}", f"{d.no_trip_ma:g}", str(d.trip_source),
+                      str(d.no_trip_source))
+    table.add_row("none", DEVICES["none"].label, "-", "-", "-", "-")
+    out_console.print(table)
+
+
+def version_callback(value: bool) -> None:
+    if value:
+        out_console.print(f"leakbudget {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def root(
+    version: Annotated[bool, typer.Option("--version", callback=version_callback, is_eager=True,
+                                          help="Show the version and exit.")] = False,
+) -> None:
+    """Standing earth-leakage budgets for GFCI/RCD-protected circuits."""
+
+
+def main() -> None:
+    """Entry point: run the app, turning every LeakbudgetError into one line and exit code 2."""
+    try:
+        app()
+    except LeakbudgetError as exc:
+        err_console.print(f"Error: {exc}", highlight=False, markup=False, soft_wrap=True)
+        sys.exit(2)
+    except KeyboardInterrupt:
+        err_console.print("Interrupted; nothing was written.", highlight=False)
+        sys.exit(130)

@@ -1,0 +1,211 @@
+"""Estimate each load's standing leakage and sum it per circuit.
+
+Order of preference per load (the results say which was used):
+1. ``Leakage`` given → measured (per unit, at the circuit's supply);
+2. ``Y capacitance`` and/or ``Insulation resistance`` → computed, I = 2π f C V and I = V / R;
+3. catalogue row → typical or upper value (the ``Basis`` setting), rescaled from the row's reference supply
+   (capacitive part ∝ V·f, resistive part ∝ V).
+Times quantity. The cable run of each circuit adds its own computed line (capacitance to earth × length).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from leakbudget import leakage as phys
+from leakbudget.catalogue import Appliance
+from leakbudget.devices import Status, budget_ma, budget_source, status
+from leakbudget.model import Circuit, Load, Project
+from leakbudget.provenance import Source
+
+MEASURED = "measured"
+COMPUTED = "computed"
+CATALOGUE = "catalogue"
+
+
+@dataclass(slots=True)
+class LoadResult:
+    """One load's estimate (or a circuit's cable run, with ``load`` None)."""
+
+    name: str
+    circuit_id: str | None
+    load: Load | None
+    appliance: Appliance | None
+    quantity: int
+    per_unit_ma: float
+    leakage_ma: float  # magnitude × quantity [mA]
+    phasor_ma: complex  # × quantity, in the circuit's reference frame (line L1 voltage at 0°) [mA]
+    basis: str  # measured / computed / catalogue
+    source: str  # where the figure comes from, in words
+    voltage_v: float
+    frequency_hz: float
+
+
+@dataclass(slots=True)
+class CircuitResult:
+    circuit: Circuit
+    leakage_ma: float  # arithmetic sum incl. cable [mA]
+    phasor_ma: float  # magnitude of the phasor sum incl. cable [mA]
+    gate_ma: float  # the sum that gates the budget (Sum setting) [mA]
+    cable_ma: float
+    budget_ma: float
+    budget_source: Source
+    status: Status
+    headroom_used: float  # gate / budget (1.0 = budget fully used); NaN when unprotected
+    largest: str | None  # name of the largest contributor
+    largest_ma: float
+    load_count: int
+
+
+@dataclass
+class CheckResult:
+    project: Project
+    circuits: list[CircuitResult]
+    loads: list[LoadResult]  # loads in sheet order, then cable lines
+
+    @property
+    def all_ok(self) -> bool:
+        return all(c.status in (Status.OK, Status.UNPROTECTED) for c in self.circuits)
+
+    @property
+    def unplaced(self) -> list[LoadResult]:
+        return [r for r in self.loads if r.load is not None and r.circuit_id is None]
+
+
+def _supply_text(v: float, f: float) -> str:
+    return f"{v:g} V {f:g} Hz"
+
+
+def estimate_load(load: Load, appliance: Appliance | None, voltage_v: float, frequency_hz: float, basis: str
+                  ) -> tuple[complex, str, str]:
+    """Per-unit leakage phasor of one load relative to its own line voltage [mA], with basis and source text.
+
+    The phasor's real part is resistive (in phase), its imaginary part capacitive (leading by 90°).
+    """
+    if load.leakage_ma is not None:
+        nature = appliance.nature if appliance is not None else "capacitive"
+        r, c = phys.split_by_nature(load.leakage_ma, nature)
+        return complex(r, c), MEASURED, "measured (your Leakage value)"
+    if load.y_capacitance_nf is not None or load.insulation_resistance_mohm is not None:
+        parts = []
+        c = r = 0.0
+        if load.y_capacitance_nf is not None:
+            c = float(phys.capacitive_current_ma(load.y_capacitance_nf, voltage_v, frequency_hz))
+            parts.append(f"2πfCV, C = {load.y_capacitance_nf:g} nF")
+        if load.insulation_resistance_mohm is not None:
+            r = float(phys.resistive_current_ma(load.insulation_resistance_mohm, voltage_v))
+            parts.append(f"V/R, R = {load.insulation_resistance_mohm:g} MΩ")
+        return complex(r, c), COMPUTED, f"computed: {'; '.join(parts)} at {_supply_text(voltage_v, frequency_hz)}"
+    assert appliance is not None  # the reader guarantees a leakage source
+    value = appliance.upper_ma if basis == "upper" else appliance.typical_ma
+    src = appliance.upper_source if basis == "upper" else appliance.typical_source
+    r0, c0 = phys.split_by_nature(value, appliance.nature)
+    r, c = phys.rescale(r0, c0, appliance.reference_voltage_v, appliance.reference_frequency_hz,
+                        voltage_v, frequency_hz)
+    text = f"catalogue '{appliance.key}' {basis} {value:g} mA: {src}"
+    if (appliance.reference_voltage_v, appliance.reference_frequency_hz) != (voltage_v, frequency_hz):
+        text += (f"; rescaled from {_supply_text(appliance.reference_voltage_v, appliance.reference_frequency_hz)}"
+                 f" ({appliance.nature})")
+    if appliance.origin != "built-in catalogue":
+        text += f"; row from {appliance.origin}"
+    return complex(float(r), float(c)), CATALOGUE, text
+
+
+def _fallback_supply(project: Project, load: Load) -> tuple[float, float]:
+    """Supply for an unplaced load: a circuit serving its room, else the first circuit, else 120 V 60 Hz."""
+    if load.room:
+        for c in project.circuits:
+            if any(r.lower() == load.room.lower() for r in c.rooms):
+                return c.voltage_v, c.frequency_hz
+    if project.circuits:
+        return project.circuits[0].voltage_v, project.circuits[0].frequency_hz
+    return 120.0, 60.0
+
+
+def cable_result(circuit: Circuit, project: Project) -> LoadResult | None:
+    """The cable run's own computed line: one line conductor's C × length, for every line conductor."""
+    if not circuit.cable_length_m:
+        return None
+    cable = project.catalogue.cables[circuit.cable_key]
+    c_nf = cable.capacitance_pf_per_m * circuit.cable_length_m * 1e-3
+    per_conductor = float(phys.capacitive_current_ma(c_nf, circuit.voltage_v, circuit.frequency_hz))
+    n = len(phys.LEG_ANGLES_DEG[circuit.system])
+    phasor = 1j * per_conductor * phys.conductor_rotation_sum(circuit.system)
+    return LoadResult(
+        name=f"cable run ({circuit.cable_length_m:g} m {cable.key})", circuit_id=circuit.circuit_id, load=None,
+        appliance=None, quantity=n, per_unit_ma=per_conductor, leakage_ma=per_conductor * n, phasor_ma=phasor,
+        basis=COMPUTED,
+        source=(f"computed: 2πfCV per line conductor, {cable.capacitance_pf_per_m:g} pF/m × "
+                f"{circuit.cable_length_m:g} m ({cable.source}) at {_supply_text(circuit.voltage_v, circuit.frequency_hz)}"),
+        voltage_v=circuit.voltage_v, frequency_hz=circuit.frequency_hz,
+    )
+
+
+def estimate(project: Project) -> list[LoadResult]:
+    """Per-load estimates in sheet order, then one cable line per circuit with a cable length."""
+    circuits = {c.circuit_id: c for c in project.circuits}
+    appliances = project.catalogue.appliances
+    basis = project.settings.basis
+    results: list[LoadResult] = []
+    for load in project.loads:
+        circuit = circuits.get(load.circuit_id) if load.circuit_id else None
+        v, f = (circuit.voltage_v, circuit.frequency_hz) if circuit else _fallback_supply(project, load)
+        appliance = appliances.get(load.appliance_key) if load.appliance_key else None
+        z, kind, text = estimate_load(load, appliance, v, f, basis)
+        rotation = phys.leg_rotation(load.leg, circuit.system) if circuit else 1.0
+        per_unit = abs(z)
+        results.append(LoadResult(
+            name=load.name, circuit_id=load.circuit_id, load=load, appliance=appliance, quantity=load.quantity,
+            per_unit_ma=per_unit, leakage_ma=per_unit * load.quantity, phasor_ma=z * rotation * load.quantity,
+            basis=kind, source=text, voltage_v=v, frequency_hz=f,
+        ))
+    for circuit in project.circuits:
+        line = cable_result(circuit, project)
+        if line is not None:
+            results.append(line)
+    return results
+
+
+def evaluate(project: Project, loads: list[LoadResult]) -> list[CircuitResult]:
+    """Sum the estimates per circuit (arithmetic and phasor) and compare with each device's levels."""
+    index = project.circuit_index()
+    n = len(project.circuits)
+    placed = [r for r in loads if r.circuit_id is not None]
+    idx = np.fromiter((index[r.circuit_id.lower()] for r in placed), dtype=np.int64, count=len(placed))
+    mags = np.fromiter((r.leakage_ma for r in placed), dtype=float, count=len(placed))
+    phasors = np.fromiter((r.phasor_ma for r in placed), dtype=complex, count=len(placed))
+    arithmetic = phys.arithmetic_sums(idx, mags, n)
+    vector = np.abs(phys.phasor_sums(idx, phasors, n))
+    counts = np.bincount(idx, minlength=n)
+    cable = np.zeros(n)
+    largest: list[tuple[float, str | None]] = [(-1.0, None)] * n
+    for i, r in zip(idx.tolist(), placed):
+        if r.load is None:
+            cable[i] += r.leakage_ma
+            counts[i] -= 1
+        if r.leakage_ma > largest[i][0]:
+            largest[i] = (r.leakage_ma, r.name)
+    settings = project.settings
+    fraction = settings.budget_fraction
+    results: list[CircuitResult] = []
+    for i, circuit in enumerate(project.circuits):
+        dev = circuit.device
+        gate = float(vector[i] if settings.sum_rule == "phasor" else arithmetic[i])
+        budget = budget_ma(dev, fraction) if dev.protected else math.nan
+        results.append(CircuitResult(
+            circuit=circuit, leakage_ma=float(arithmetic[i]), phasor_ma=float(vector[i]), gate_ma=gate,
+            cable_ma=float(cable[i]), budget_ma=budget,
+            budget_source=budget_source(dev, fraction, "Budget fraction" in settings.from_user),
+            status=status(dev, gate, budget), headroom_used=gate / budget if dev.protected and budget > 0 else math.nan,
+            largest=largest[i][1], largest_ma=max(largest[i][0], 0.0), load_count=int(counts[i]),
+        ))
+    return results
+
+
+def check(project: Project) -> CheckResult:
+    """Estimate every load and evaluate every circuit."""
+    loads = estimate(project)
+    return CheckResult(project, evaluate(project, loads), loads)

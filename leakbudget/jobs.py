@@ -1,0 +1,59 @@
+"""The jobs behind the commands: read → validate → estimate → evaluate → write, one function per command.
+
+Pure library code (no typer, no rich); the CLI calls one of these and renders what it returns.
+"""
+
+from __future__ import annotations
+
+import shutil
+from dataclasses import dataclass
+from pathlib import Path
+
+from leakbudget.errors import WorkbookError
+from leakbudget.estimate import CheckResult, check
+from leakbudget.workbook import read_project
+from leakbudget.xlsx_package import WriteResult
+
+
+@dataclass
+class CheckJob:
+    result: CheckResult
+    written: WriteResult | None
+
+
+def check_workbook(path: str | Path, out: str | Path | None = None, write: bool = True) -> CheckJob:
+    """Check a workbook and (unless ``write`` is False) write the result sheets into it, or into ``out``."""
+    from leakbudget.results import result_sheets
+    from leakbudget.xlsx_package import write_sheets
+
+    path = Path(path)
+    if out is not None and Path(out).resolve() == path.resolve():
+        out = None
+    project = read_project(path)
+    result = check(project)
+    written = write_sheets(path, result_sheets(result), Path(out) if out is not None else None) if write else None
+    return CheckJob(result, written)
+
+
+def example_path(name: str = "alder-quay-remodel.xlsx") -> Path:
+    """The shipped example workbook (inside the wheel, or the source tree)."""
+    from importlib import resources
+
+    try:
+        ref = resources.files("leakbudget.examples").joinpath(name)
+        if ref.is_file():
+            return Path(str(ref))
+    except ModuleNotFoundError:
+        pass
+    return Path(__file__).resolve().parent.parent / "examples" / name
+
+
+def copy_example(folder: str | Path, name: str = "alder-quay-remodel.xlsx") -> Path:
+    """Copy the shipped example into ``folder`` (refusing to overwrite a file of the user's) and return it."""
+    src = example_path(name)
+    dest = Path(folder) / name
+    if dest.exists():
+        raise WorkbookError("a file of this name is already here; the demo will not overwrite it", path=dest,
+                            hint="run the demo in another folder, or move the file away")
+    shutil.copyfile(src, dest)
+    return dest

@@ -1,0 +1,66 @@
+"""The validated input: circuits, loads, settings and catalogue, as read from one workbook.
+
+Plain dataclasses with unit-suffixed fields; ``row`` is the 1-based row in the user's sheet, kept for messages.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from leakbudget.catalogue import Catalogue
+from leakbudget.devices import Device
+from leakbudget.provenance import Source
+from leakbudget.settings import Settings
+
+
+@dataclass(slots=True)
+class Circuit:
+    circuit_id: str
+    device: Device
+    rcd_type: str | None
+    voltage_v: float
+    frequency_hz: float
+    supply_source: Source  # where voltage and frequency came from
+    system: str  # "single", "split" or "three"
+    rating_a: float | None
+    cable_length_m: float | None
+    cable_key: str
+    rooms: tuple[str, ...]
+    note: str | None
+    row: int
+
+
+@dataclass(slots=True)
+class Load:
+    name: str
+    circuit_id: str | None  # None = not yet placed
+    appliance_key: str | None
+    quantity: int
+    leakage_ma: float | None  # measured / datasheet, per unit, at the circuit's supply
+    y_capacitance_nf: float | None  # per unit, line to earth
+    insulation_resistance_mohm: float | None  # per unit, to earth
+    power_w: float | None
+    current_a: float | None
+    leg: tuple[str, ...]  # line conductors, e.g. ("L1",) or ("L1", "L2")
+    leg_text: str
+    room: str | None
+    fixed: bool
+    note: str | None
+    row: int
+
+
+@dataclass
+class Project:
+    """Everything ``check`` needs, validated."""
+
+    path: Path
+    circuits: list[Circuit]
+    loads: list[Load]
+    settings: Settings
+    catalogue: Catalogue
+    warnings: list[str] = field(default_factory=list)
+    defaults_used: list[str] = field(default_factory=list)  # plain sentences: "Voltage 120 V (…) for K1, K2"
+
+    def circuit_index(self) -> dict[str, int]:
+        return {c.circuit_id.lower(): i for i, c in enumerate(self.circuits)}

@@ -1,0 +1,133 @@
+"""The optional Settings sheet: supply defaults, the budget rule's fraction, the catalogue basis, and so on.
+
+Each setting has a default with its source; the results say which settings came from the workbook and which
+defaults were used.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+from leakbudget.devices import BUDGET_FRACTION_DEFAULT
+from leakbudget.provenance import Kind, Source
+from leakbudget.schema import normalise
+from leakbudget.units import UnitProblem, to_unit
+
+# Default supplies by market, used when neither the circuit nor the Settings sheet gives one.
+US_SUPPLY = (120.0, 60.0)  # NEC nominal 120 V, 60 Hz (common practice for US dwellings)
+IEC_SUPPLY = (230.0, 50.0)  # IEC 60038 nominal 230 V, 50 Hz
+SUPPLY_SOURCES = {
+    "us": Source.common_practice("US dwelling supply 120 V 60 Hz"),
+    "iec": Source.published("IEC 60038 nominal 230 V 50 Hz"),
+}
+LOAD_FACTOR_DEFAULT = 0.8  # continuous load at 80 % of rating, common practice (cf. NEC 210.19/210.20)
+MAX_PLAUSIBLE_LEAKAGE_MA = 100.0  # per unit; above this a value is a unit typo or a fault (common practice)
+
+
+def _fraction(value: Any) -> float:
+    result = to_unit(value, "dimensionless")
+    if not 0.0 < result <= 1.0:
+        raise UnitProblem(f"'{value}' is not a fraction between 0 and 1 (type 0.30 or 30 %)")
+    return result
+
+
+def _choice(*allowed: str) -> Callable[[Any], str]:
+    def parse(value: Any) -> str:
+        text = str(value).strip().lower()
+        if text not in allowed:
+            raise UnitProblem(f"'{value}' is not one of {', '.join(allowed)}")
+        return text
+    return parse
+
+
+def _positive(unit: str) -> Callable[[Any], float]:
+    def parse(value: Any) -> float:
+        result = to_unit(value, unit)
+        if result <= 0:
+            raise UnitProblem(f"'{value}' must be greater than zero")
+        return result
+    return parse
+
+
+def _length_unit(value: Any) -> str:
+    text = str(value).strip()
+    try:
+        to_unit(f"1 {text}", "m")
+    except UnitProblem:
+        raise UnitProblem(f"'{value}' is not a unit of length (use m or ft)") from None
+    return text
+
+
+def _text(value: Any) -> str:
+    return str(value).strip().lower()
+
+
+@dataclass(frozen=True, slots=True)
+class SettingSpec:
+    name: str
+    parse: Callable[[Any], Any]
+    default: Any
+    default_source: Source
+    help: str
+
+
+SETTING_SPECS: tuple[SettingSpec, ...] = (
+    SettingSpec("Voltage", _positive("V"), None, SUPPLY_SOURCES["us"],
+                "Supply line-to-neutral voltage for circuits that give none (default by device: 120 V for UL "
+                "devices, 230 V for RCDs)."),
+    SettingSpec("Frequency", _positive("Hz"), None, SUPPLY_SOURCES["us"],
+                "Supply frequency for circuits that give none (default 60 Hz for UL devices, 50 Hz for RCDs)."),
+    SettingSpec("Budget fraction", _fraction, BUDGET_FRACTION_DEFAULT,
+                Source.published("BS 7671:2018 reg. 531.3.2"),
+                "Share of the trip level standing leakage may use (default 0.30)."),
+    SettingSpec("Basis", _choice("typical", "upper"), "typical", Source(Kind.DEFAULT, "default"),
+                "Which catalogue value to use: typical or upper."),
+    SettingSpec("Sum", _choice("arithmetic", "phasor"), "arithmetic",
+                Source(Kind.DEFAULT, "default (the conservative figure)"),
+                "Which per-circuit sum gates the budget: arithmetic (conservative) or phasor."),
+    SettingSpec("Length unit", _length_unit, "m", Source(Kind.DEFAULT, "default"),
+                "Unit of bare numbers in the Cable length column (m or ft)."),
+    SettingSpec("Default cable", _text, "generic", Source(Kind.DEFAULT, "default"),
+                "Cable catalogue key for circuits whose Cable cell is blank."),
+    SettingSpec("Load factor", _fraction, LOAD_FACTOR_DEFAULT,
+                Source.common_practice("80 % of rating for continuous load"),
+                "Share of a circuit's rating the split planner may load it to (default 0.8)."),
+)
+SPECS_BY_NAME = {normalise(s.name): s for s in SETTING_SPECS}
+
+
+@dataclass
+class Settings:
+    """Parsed settings; ``sources`` says for each setting where its value came from."""
+
+    values: dict[str, Any] = field(default_factory=lambda: {s.name: s.default for s in SETTING_SPECS})
+    sources: dict[str, Source] = field(default_factory=lambda: {s.name: s.default_source for s in SETTING_SPECS})
+    from_user: set[str] = field(default_factory=set)
+    extra: dict[str, Any] = field(default_factory=dict)  # settings later features read (normalised name → raw)
+
+    def __getitem__(self, name: str) -> Any:
+        return self.values[name]
+
+    @property
+    def budget_fraction(self) -> float:
+        return float(self.values["Budget fraction"])
+
+    @property
+    def basis(self) -> str:
+        return str(self.values["Basis"])
+
+    @property
+    def sum_rule(self) -> str:
+        return str(self.values["Sum"])
+
+    @property
+    def length_unit(self) -> str:
+        return str(self.values["Length unit"])
+
+    def set(self, name: str, raw: Any, where: str) -> None:
+        spec = SPECS_BY_NAME[normalise(name)]
+        self.values[spec.name] = spec.parse(raw)
+        self.sources[spec.name] = Source(Kind.USER, f"Settings sheet, {where}")
+        self.from_user.add(spec.name)

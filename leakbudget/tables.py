@@ -1,0 +1,174 @@
+"""Validated access to one table of the user's input (a workbook sheet or a catalogue CSV).
+
+A :class:`RawTable` keeps the header as the user typed it and each data row with its row number in the file, so
+every problem can be reported as "file, sheet, row, column (cell): what is wrong; what to do".
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from datetime import date, datetime, time, timedelta
+from pathlib import Path
+from typing import Any
+
+from leakbudget.errors import WorkbookError
+from leakbudget.schema import Sheet, normalise
+from leakbudget.units import UnitProblem, to_unit
+
+HEADER_SEARCH_ROWS = 20  # a header may sit below a title block; look this far down for it
+
+YES = frozenset({"yes", "y", "true", "1", "x", "fixed"})
+NO = frozenset({"no", "n", "false", "0", ""})
+
+
+def column_letter(index: int) -> str:
+    """Spreadsheet column letter for a 0-based column index (0 → A, 27 → AB)."""
+    letters = ""
+    n = index + 1
+    while n:
+        n, rem = divmod(n - 1, 26)
+        letters = chr(65 + rem) + letters
+    return letters
+
+
+def is_blank(value: Any) -> bool:
+    return value is None or (isinstance(value, str) and not value.strip()) or (
+        isinstance(value, float) and math.isnan(value)
+    )
+
+
+@dataclass
+class RawTable:
+    """One sheet's header and data rows, with positions for error messages."""
+
+    path: Path
+    sheet: str
+    header_row: int  # 1-based row number of the header in the file
+    columns: dict[str, int]  # normalised column name -> 0-based column index
+    typed_names: dict[str, str]  # normalised column name -> the name as the user typed it
+    rows: list[tuple[int, list[Any]]] = field(default_factory=list)  # (1-based row number, cell values)
+
+    @classmethod
+    def from_grid(cls, path: Path, sheet_name: str, grid: list[list[Any]], spec: Sheet) -> "RawTable":
+        """Find the header row (the first of the top rows that names the sheet's first required column) and
+        keep the non-blank rows below it. Raises WorkbookError when no header is found or a required column is
+        missing."""
+        key = normalise(next(c.name for c in spec.columns if c.required))
+        header_index = None
+        for i, row in enumerate(grid[:HEADER_SEARCH_ROWS]):
+            if any(isinstance(v, str) and normalise(v) == key for v in row):
+                header_index = i
+                break
+        if header_index is None:
+            raise WorkbookError(
+                f"no header row with a '{spec.columns[0].name}' column in the first {HEADER_SEARCH_ROWS} rows",
+                path=path, sheet=sheet_name,
+                hint=f"put the column names ({', '.join(c.name for c in spec.columns if c.required)}, …) in one row",
+            )
+        columns: dict[str, int] = {}
+        typed: dict[str, str] = {}
+        for j, value in enumerate(grid[header_index]):
+            if isinstance(value, str) and value.strip():
+                name = normalise(value)
+                if name in columns:
+                    raise WorkbookError(
+                        f"the column '{value.strip()}' appears twice (also column {column_letter(columns[name])})",
+                        path=path, sheet=sheet_name, row=header_index + 1, cell=f"{column_letter(j)}{header_index + 1}",
+                        hint="rename or delete one of them",
+                    )
+                columns[name] = j
+                typed[name] = value.strip()
+        for col in spec.columns:
+            if col.required and normalise(col.name) not in columns:
+                raise WorkbookError(
+                    f"the required column '{col.name}' is missing", path=path, sheet=sheet_name,
+                    row=header_index + 1, hint=f"add a '{col.name}' column to the header row ({col.help})",
+                )
+        rows = [
+            (header_index + 2 + k, row)
+            for k, row in enumerate(grid[header_index + 1:])
+            if any(not is_blank(v) for v in row)
+        ]
+        return cls(path, sheet_name, header_index + 1, columns, typed, rows)
+
+    def has(self, column: str) -> bool:
+        return normalise(column) in self.columns
+
+    def raw(self, row: tuple[int, list[Any]], column: str) -> Any:
+        j = self.columns.get(normalise(column))
+        if j is None or j >= len(row[1]):
+            return None
+        value = row[1][j]
+        return None if is_blank(value) else value
+
+    def error(self, row: tuple[int, list[Any]] | int, column: str | None, message: str, hint: str | None = None
+              ) -> WorkbookError:
+        number = row if isinstance(row, int) else row[0]
+        cell = None
+        name = None
+        if column is not None:
+            key = normalise(column)
+            name = self.typed_names.get(key, column)
+            if key in self.columns:
+                cell = f"{column_letter(self.columns[key])}{number}"
+        return WorkbookError(message, path=self.path, sheet=self.sheet, row=number, column=name, cell=cell, hint=hint)
+
+    def text(self, row: tuple[int, list[Any]], column: str) -> str | None:
+        """The cell as stripped text (numbers as written, 12.0 → '12'), or None when blank."""
+        value = self.raw(row, column)
+        if value is None:
+            return None
+        if isinstance(value, bool):
+            return "yes" if value else "no"
+        if isinstance(value, float) and value.is_integer():
+            return str(int(value))
+        if isinstance(value, (datetime, date, time, timedelta)):
+            return str(value)
+        return str(value).strip()
+
+    def number(self, row: tuple[int, list[Any]], column: str, default_unit: str, target_unit: str | None = None,
+               *, positive: bool = False, non_negative: bool = True) -> float | None:
+        """The cell as a float in ``target_unit`` (bare numbers in ``default_unit``), or None when blank."""
+        value = self.raw(row, column)
+        if value is None:
+            return None
+        if isinstance(value, (datetime, date, time, timedelta)):
+            raise self.error(row, column, f"'{value}' is a date or time, not a quantity",
+                             hint=f"format the cell as a number and type the value in {default_unit}")
+        try:
+            result = to_unit(value, default_unit, target_unit)
+        except UnitProblem as exc:
+            raise self.error(row, column, str(exc),
+                             hint=f"type a number (taken in {default_unit}) or a number with a unit") from None
+        if positive and result <= 0:
+            raise self.error(row, column, f"'{value}' must be greater than zero")
+        if non_negative and result < 0:
+            raise self.error(row, column, f"'{value}' must not be negative")
+        return result
+
+    def flag(self, row: tuple[int, list[Any]], column: str) -> bool | None:
+        """The cell as yes/no (yes, y, true, 1, x / no, n, false, 0), or None when blank."""
+        value = self.raw(row, column)
+        if value is None:
+            return None
+        text = self.text(row, column)
+        low = (text or "").lower()
+        if low in YES:
+            return True
+        if low in NO:
+            return False
+        raise self.error(row, column, f"'{text}' is not yes or no", hint="type yes or no")
+
+    def choice(self, row: tuple[int, list[Any]], column: str, allowed: tuple[str, ...], default: str | None = None
+               ) -> str | None:
+        """The cell as one of ``allowed`` (case-insensitive), or ``default`` when blank."""
+        text = self.text(row, column)
+        if text is None:
+            return default
+        low = text.lower().replace("_", "-")
+        for a in allowed:
+            if low == a.lower():
+                return a
+        raise self.error(row, column, f"'{text}' is not one of {', '.join(allowed)}",
+                         hint=f"use one of {', '.join(allowed)}")
