@@ -142,9 +142,9 @@ class RawTable:
             raise self.error(row, column, str(exc),
                              hint=f"type a number (taken in {default_unit}) or a number with a unit") from None
         if positive and result <= 0:
-            raise self.error(row, column, f"'{value}' must be greater than zero")
+            raise self.error(row, column, f"'{self.text(row, column)}' must be greater than zero")
         if non_negative and result < 0:
-            raise self.error(row, column, f"'{value}' must not be negative")
+            raise self.error(row, column, f"'{self.text(row, column)}' must not be negative")
         return result
 
     def flag(self, row: tuple[int, list[Any]], column: str) -> bool | None:

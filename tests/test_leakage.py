@@ -1,0 +1,101 @@
+"""Leakage physics against independent computations (pint as the reference for units, numpy for phasors)."""
+
+from __future__ import annotations
+
+import cmath
+import math
+
+import numpy as np
+import pint
+import pytest
+
+from leakbudget import leakage as phys
+
+UREG = pint.UnitRegistry()
+
+
+def independent_capacitive_ma(c_nf: float, v: float, f: float) -> float:
+    """I = 2π f C V computed by pint from SI quantities, independently of leakbudget."""
+    q = 2 * math.pi * UREG.Quantity(f, "Hz") * UREG.Quantity(c_nf, "nF") * UREG.Quantity(v, "V")
+    return q.to("mA").magnitude
+
+
+@pytest.mark.parametrize(
+    ("c_nf", "v", "f", "expected_ma"),
+    [
+        (4.7, 120, 60, 0.2126),  # I = 2πfCV: 4.7 nF at 120 V 60 Hz (physics, textbook formula)
+        (4.7, 230, 50, 0.3396),  # I = 2πfCV: 4.7 nF at 230 V 50 Hz
+    ],
+    ids=["2pi-f-C-V-4.7nF-120V-60Hz", "2pi-f-C-V-4.7nF-230V-50Hz"],
+)
+def test_capacitive_current_matches_independent_value(c_nf, v, f, expected_ma):
+    got = float(phys.capacitive_current_ma(c_nf, v, f))
+    assert got == pytest.approx(expected_ma, abs=5e-5)
+    assert got == pytest.approx(independent_capacitive_ma(c_nf, v, f), rel=1e-12)
+
+
+def test_resistive_current_is_ohms_law():  # Ohm's law I = V/R, computed by pint
+    expected = (UREG.Quantity(230, "V") / UREG.Quantity(2, "megaohm")).to("mA").magnitude
+    assert float(phys.resistive_current_ma(2.0, 230.0)) == pytest.approx(expected, rel=1e-12)
+    assert expected == pytest.approx(0.115)
+
+
+def test_arrays_give_the_same_as_scalars():
+    c = np.array([1.0, 2.2, 4.7, 10.0])
+    v = np.array([120.0, 230.0, 120.0, 277.0])
+    f = np.array([60.0, 50.0, 60.0, 60.0])
+    vector = phys.capacitive_current_ma(c, v, f)
+    loop = [float(phys.capacitive_current_ma(ci, vi, fi)) for ci, vi, fi in zip(c, v, f)]
+    np.testing.assert_allclose(vector, loop, rtol=1e-15)
+
+
+def test_rescale_capacitive_with_v_times_f_and_resistive_with_v():
+    # Capacitive leakage I = 2πfCV scales with V·f; resistive I = V/R scales with V (physics).
+    r, c = phys.rescale(1.0, 1.0, 230.0, 50.0, 120.0, 60.0)
+    assert float(c) == pytest.approx(independent_capacitive_ma(1.0, 120, 60) / independent_capacitive_ma(1.0, 230, 50))
+    assert float(c) == pytest.approx(120 / 230 * 60 / 50)
+    assert float(r) == pytest.approx(120 / 230)
+
+
+def test_split_phase_equal_capacitive_leakage_cancels():
+    # 120/240 V split phase: L1 and L2 are 180° apart, so equal leakage on each leg cancels (phasor physics).
+    z = 1j * 0.5
+    total = z * phys.leg_rotation(("L1",), "split") + z * phys.leg_rotation(("L2",), "split")
+    assert abs(total) == pytest.approx(0.0, abs=1e-12)
+
+
+def test_three_phase_balanced_cancels_and_two_phases_sum_to_one():
+    # Three phases 120° apart: equal leakage on all three cancels; on two of them the sum has the size of one.
+    z = 1j * 0.8
+    three = sum(z * phys.leg_rotation((leg,), "three") for leg in ("L1", "L2", "L3"))
+    two = sum(z * phys.leg_rotation((leg,), "three") for leg in ("L1", "L2"))
+    assert abs(three) == pytest.approx(0.0, abs=1e-12)
+    assert abs(two) == pytest.approx(0.8, rel=1e-12)
+    # independent: numpy complex exponentials
+    ref = abs(0.8 * (np.exp(1j * 0) + np.exp(-1j * 2 * np.pi / 3)))
+    assert abs(two) == pytest.approx(ref, rel=1e-12)
+
+
+def test_line_to_line_load_on_split_phase_has_no_net_leakage():
+    rot = phys.leg_rotation(("L1", "L2"), "split")
+    assert abs(rot) == pytest.approx(0.0, abs=1e-12)
+
+
+def test_phasor_and_arithmetic_sums_per_circuit():
+    idx = np.array([0, 0, 1, 1, 1])
+    ph = np.array([1j, -1j, 1j, cmath.rect(1, math.radians(90 - 120)), cmath.rect(1, math.radians(90 + 120))])
+    mags = np.abs(ph)
+    np.testing.assert_allclose(phys.arithmetic_sums(idx, mags, 2), [2.0, 3.0])
+    np.testing.assert_allclose(np.abs(phys.phasor_sums(idx, ph, 2)), [0.0, 0.0], atol=1e-12)
+
+
+@pytest.mark.parametrize(("leg", "system"), [("L2", "single"), ("L3", "split"), ("L4", "three"), ("L1-L1", "three")])
+def test_legs_that_do_not_exist_are_refused(leg, system):
+    with pytest.raises(ValueError, match="does not exist"):
+        phys.parse_leg(leg, system)
+
+
+def test_nature_split_keeps_magnitude():
+    for nature in phys.NATURE_ANGLE_DEG:
+        r, c = phys.split_by_nature(2.0, nature)
+        assert math.hypot(r, c) == pytest.approx(2.0)

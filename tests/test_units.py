@@ -1,0 +1,35 @@
+"""Unit parsing: pint is the reference; every accepted spelling converts to the column's unit."""
+
+from __future__ import annotations
+
+import pytest
+
+from leakbudget.units import UnitProblem, to_unit
+
+
+@pytest.mark.parametrize(
+    ("text", "unit", "expected"),
+    [
+        ("0.75 mA", "mA", 0.75), ("750 uA", "mA", 0.75), ("750 µA", "mA", 0.75), ("750 μA", "mA", 0.75),
+        ("4.7 nF", "nF", 4.7), ("4700 pF", "nF", 4.7), ("30 ft", "m", 9.144), ("2.2 kW", "W", 2200.0),
+        ("2 MΩ", "Mohm", 2.0), ("2 megohm", "Mohm", 2.0), (0.5, "mA", 0.5), ("0.5", "mA", 0.5),
+        ("1,500", "W", 1500.0), ("30 %", "dimensionless", 0.30),
+    ],
+)
+def test_accepted_spellings(text, unit, expected):
+    assert to_unit(text, unit) == pytest.approx(expected)  # 1 ft = 0.3048 m exactly (international foot)
+
+
+def test_bare_numbers_take_the_default_unit_and_convert():
+    assert to_unit(50, "ft", "m") == pytest.approx(15.24)
+
+
+@pytest.mark.parametrize("bad", ["5 kg", "abc", True, float("nan"), float("inf"), "1 mA mA"])
+def test_refused(bad):
+    with pytest.raises(UnitProblem):
+        to_unit(bad, "mA")
+
+
+def test_wrong_dimension_names_it():
+    with pytest.raises(UnitProblem, match="not a current"):
+        to_unit("5 kg", "mA")

@@ -1,0 +1,129 @@
+"""Reading and validating the workbook contract; every error names file, sheet, row and column."""
+
+from __future__ import annotations
+
+import copy
+
+import pytest
+
+from leakbudget.errors import WorkbookError
+from leakbudget.workbook import read_project
+from tests.conftest import basic_sheets
+
+
+def test_reads_the_basic_workbook(make_workbook):
+    p = read_project(make_workbook())
+    assert [c.circuit_id for c in p.circuits] == ["K1", "E1"]
+    assert p.loads[0].y_capacitance_nf == pytest.approx(4.7)
+    assert p.loads[1].leakage_ma == pytest.approx(0.75) and p.loads[1].quantity == 2
+
+
+def test_sheet_and_column_names_match_loosely(make_workbook):
+    sheets = basic_sheets()
+    sheets = {"  circuits ": sheets["Circuits"], "LOADS": sheets["Loads"]}
+    sheets["  circuits "][0] = [h.upper().replace(" ", "_") for h in sheets["  circuits "][0]]
+    sheets["LOADS"][0] = ["  " + h.lower() + " " for h in sheets["LOADS"][0]]
+    p = read_project(make_workbook(sheets))
+    assert p.circuits[0].voltage_v == 120.0
+
+
+def _broken(mutate):
+    sheets = copy.deepcopy(basic_sheets())
+    mutate(sheets)
+    return sheets
+
+
+CASES = [
+    ("missing-sheet", lambda s: s.pop("Loads"), "plan.xlsx: the required sheet 'Loads' is missing"),
+    ("missing-column", lambda s: s["Circuits"][0].__setitem__(1, "Breaker"),
+     "plan.xlsx, sheet 'Circuits', row 1: the required column 'Device' is missing"),
+    ("unknown-device", lambda s: s["Circuits"][1].__setitem__(1, "gfci-z"),
+     "plan.xlsx, sheet 'Circuits', row 2, column 'Device', cell B2: 'gfci-z' is not a known device key"),
+    ("unknown-appliance", lambda s: s["Loads"][1].__setitem__(2, "flux-capacitor"),
+     "plan.xlsx, sheet 'Loads', row 2, column 'Appliance', cell C2: 'flux-capacitor' is not in the appliance catalogue"),
+    ("negative", lambda s: s["Loads"][2].__setitem__(4, -0.5),
+     "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '-0.5' must not be negative"),
+    ("unparseable", lambda s: s["Loads"][2].__setitem__(4, "lots"),
+     "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: 'lots' is not a number with a unit"),
+    ("wrong-dimension", lambda s: s["Loads"][2].__setitem__(4, "5 kg"),
+     "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '5 kg' is in kg, which is not a current"),
+    ("duplicate-circuit", lambda s: s["Circuits"][2].__setitem__(0, "k1"),
+     "plan.xlsx, sheet 'Circuits', row 3, column 'Circuit', cell A3: the circuit id 'k1' is used twice (also row 2)"),
+    ("unknown-circuit", lambda s: s["Loads"][1].__setitem__(1, "K9"),
+     "plan.xlsx, sheet 'Loads', row 2, column 'Circuit', cell B2: 'K9' is not a circuit in the Circuits sheet"),
+    ("no-leakage-figure", lambda s: s["Loads"][1].__setitem__(5, None),
+     "plan.xlsx, sheet 'Loads', row 2, column 'Appliance', cell C2: the load has no leakage figure"),
+    ("bad-leg", lambda s: s["Loads"][1].__setitem__(7, "L2"),
+     "plan.xlsx, sheet 'Loads', row 2, column 'Leg', cell H2: leg 'L2' does not exist on a single circuit"),
+    ("implausible", lambda s: s["Loads"][2].__setitem__(4, "3 A"),
+     "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: 3000 mA per unit is not a plausible standing leakage"),
+    ("zero-voltage", lambda s: s["Circuits"][1].__setitem__(2, 0),
+     "plan.xlsx, sheet 'Circuits', row 2, column 'Voltage', cell C2: '0' must be greater than zero"),
+]
+
+
+@pytest.mark.parametrize(("mutate", "message"), [c[1:] for c in CASES], ids=[c[0] for c in CASES])
+def test_bad_input_is_one_sentence_with_location(make_workbook, mutate, message):
+    with pytest.raises(WorkbookError) as info:
+        read_project(make_workbook(_broken(mutate)))
+    text = str(info.value)
+    assert text.startswith(message)
+    assert text.endswith(".") and "\n" not in text
+
+
+def test_not_a_workbook(tmp_path):
+    p = tmp_path / "notes.xlsx"
+    p.write_text("hello")
+    with pytest.raises(WorkbookError, match="not a readable .xlsx workbook"):
+        read_project(p)
+
+
+def test_wrong_extension(tmp_path):
+    p = tmp_path / "plan.csv"
+    p.write_text("a,b")
+    with pytest.raises(WorkbookError, match="reads .xlsx workbooks"):
+        read_project(p)
+
+
+def test_header_below_a_title_block(make_workbook):
+    sheets = basic_sheets()
+    sheets["Circuits"] = [["Panel schedule, 9 Tamsin Row"], [], *sheets["Circuits"]]
+    p = read_project(make_workbook(sheets))
+    assert p.circuits[1].row == 5
+
+
+def test_settings_are_read_with_their_source(make_workbook):
+    sheets = basic_sheets()
+    sheets["Settings"] = [["Setting", "Value"], ["Budget fraction", "25 %"], ["Basis", "upper"],
+                          ["Length unit", "ft"], ["Something else", 3]]
+    p = read_project(make_workbook(sheets))
+    assert p.settings.budget_fraction == pytest.approx(0.25)
+    assert p.settings.basis == "upper"
+    assert "Settings sheet, row 2" in str(p.settings.sources["Budget fraction"])
+    assert any("something else" in w for w in p.warnings)
+
+
+def test_bad_setting_names_the_cell(make_workbook):
+    sheets = basic_sheets()
+    sheets["Settings"] = [["Setting", "Value"], ["Budget fraction", 30]]
+    with pytest.raises(WorkbookError, match=r"sheet 'Settings', row 2, column 'Value', cell B2: setting 'Budget fraction'"):
+        read_project(make_workbook(sheets))
+
+
+def test_default_supply_is_reported(make_workbook):
+    sheets = basic_sheets()
+    sheets["Circuits"][1][2:4] = [None, None]
+    p = read_project(make_workbook(sheets))
+    assert p.circuits[0].voltage_v == 120.0 and p.circuits[0].frequency_hz == 60.0
+    assert any("120 V 60 Hz" in d and "K1" in d for d in p.defaults_used)
+
+
+def test_user_appliance_rows_override_and_are_reported(make_workbook):
+    sheets = basic_sheets()
+    sheets["Appliances"] = [["Key", "Description", "Typical leakage", "Upper leakage", "Reference voltage",
+                             "Reference frequency", "Typical source"],
+                            ["kettle", "Our kettle", 0.1, 0.2, 120, 60, "measured on site 2026-11-03"]]
+    sheets["Loads"].append(["Kettle", "K1", "kettle", 1, None, None, None, None, "Kitchen"])
+    p = read_project(make_workbook(sheets))
+    assert p.catalogue.appliances["kettle"].typical_ma == 0.1
+    assert any("kettle" in w and "replaces the built-in" in w for w in p.warnings)
