@@ -1,0 +1,380 @@
+"""Integrity of the built-in catalogue data files, appliance_data/appliances.csv and appliance_data/cables.csv.
+
+The files are read with the csv module only (not through leakbudget), so these checks hold whatever the loader does.
+Published values are checked against the standard each row cites:
+IEC 60335-1 cl. 13.2, UL 101, UL 8750 sec. 8.7.1, IEC 62368-1 / IEC 60950-1 5.1.7, IEC 61140 Annex B, EN 60598-1
+(upper limits) and the Electrical Installation Guide, RCD sensitivity chapter (typical values, cable leakage).
+"""
+
+from __future__ import annotations
+
+import csv
+import math
+import re
+from collections.abc import Callable
+from dataclasses import dataclass
+from functools import cache
+from pathlib import Path
+
+import pytest
+
+DATA_DIR = Path(__file__).parents[1] / "appliance_data"
+
+APPLIANCE_HEADER = [
+    "Key", "Description", "Category", "Class", "Connection", "Nature", "Waveform", "Heating",
+    "Typical leakage", "Upper leakage", "Reference voltage", "Reference frequency", "Typical power",
+    "Typical source", "Upper source",
+]  # fmt: skip
+CABLE_HEADER = ["Key", "Description", "Capacitance", "Source"]
+
+ENUMERATIONS = {
+    "Category": {"kitchen", "bathroom", "laundry", "outdoor", "garage", "office", "shop", "general"},
+    "Class": {"0I", "I", "II", "III"},
+    "Connection": {"plug", "fixed"},
+    "Nature": {"capacitive", "resistive", "mixed"},
+    "Waveform": {"sine", "pulsating-dc", "high-frequency", "smooth-dc"},
+    "Heating": {"yes", "no"},
+}
+REQUIRED_CATEGORIES = {"kitchen", "bathroom", "laundry", "outdoor", "garage", "office", "shop"}
+NUMERIC_COLUMNS = ["Typical leakage", "Upper leakage", "Reference voltage", "Reference frequency", "Typical power"]
+MIN_APPLIANCE_ROWS = 45
+
+KEBAB = re.compile(r"^[a-z0-9]+(?:-[a-z0-9]+)*$")
+CABLE_KEY = re.compile(r"^[a-z0-9]+(?:[-.][a-z0-9]+)*$")  # kebab, plus a decimal point in a size (2.5 mm2)
+
+US_SUPPLY = (120.0, 60.0)  # line-to-earth volts and hertz the UL limits are stated at
+IEC_SUPPLY = (230.0, 50.0)  # line-to-earth volts and hertz the IEC/EN limits and the handbook figures are stated at
+
+# A published citation names one of these publications and, where the limit sits in one clause of a longer
+# document, that clause. UL 101 is itself the leakage-current standard, so it is cited whole; EN 60598-1 is cited
+# by its requirement (class I luminaire <= 7 A) because its clause number is not confirmed here.
+PUBLICATION_LOCATORS: dict[str, str | None] = {
+    "IEC 60335-1": r"cl\. 13\.2",
+    "IEC 62368-1": r"5\.1\.7",
+    "IEC 61140": r"Annex B",
+    "UL 8750": r"sec\. 8\.7\.1",
+    "Electrical Installation Guide": r"chapter",
+    "UL 101": None,
+    "EN 60598-1": None,
+}
+MARKERS = ("from memory", "common practice")
+
+
+@cache
+def appliance_table() -> tuple[list[str], list[dict[str, str]]]:
+    return _read(DATA_DIR / "appliances.csv")
+
+
+@cache
+def cable_table() -> tuple[list[str], list[dict[str, str]]]:
+    return _read(DATA_DIR / "cables.csv")
+
+
+def _read(path: Path) -> tuple[list[str], list[dict[str, str]]]:
+    with path.open(newline="", encoding="utf-8") as handle:
+        reader = csv.DictReader(handle)
+        rows = list(reader)
+        return list(reader.fieldnames or []), rows
+
+
+def appliances() -> list[dict[str, str]]:
+    return appliance_table()[1]
+
+
+def number(row: dict[str, str], column: str) -> float:
+    return float(row[column])
+
+
+def rated_current_a(row: dict[str, str]) -> float:
+    """Single-phase rated current from the row's power and line-to-earth voltage, I = P / V. [A]"""
+    return number(row, "Typical power") / number(row, "Reference voltage")
+
+
+def supply(row: dict[str, str]) -> tuple[float, float]:
+    return number(row, "Reference voltage"), number(row, "Reference frequency")
+
+
+def is_marked(source: str) -> bool:
+    return any(marker in source.lower() for marker in MARKERS)
+
+
+def assert_rows(check: Callable[[dict[str, str]], str | None], rows: list[dict[str, str]]) -> None:
+    """Run ``check`` on every row; fail listing ``"key: problem"`` for each row it objects to."""
+    problems = [f"{row['Key']}: {problem}" for row in rows if (problem := check(row))]
+    assert not problems, "\n".join(problems)
+
+
+# ---------------------------------------------------------------------------------------------- appliance table
+
+
+def test_appliance_header_is_exact():
+    assert appliance_table()[0] == APPLIANCE_HEADER
+
+
+def test_every_appliance_row_has_every_field():
+    # DictReader puts surplus cells under None and fills missing ones with None.
+    assert_rows(lambda r: "wrong cell count" if None in r or None in r.values() else None, appliances())
+
+
+def test_appliance_rows_are_enough_and_cover_every_place():
+    rows = appliances()
+    assert len(rows) >= MIN_APPLIANCE_ROWS
+    assert REQUIRED_CATEGORIES <= {r["Category"] for r in rows}
+
+
+def test_appliance_keys_are_unique_kebab():
+    keys = [r["Key"] for r in appliances()]
+    assert len(keys) == len(set(keys)), sorted(k for k in set(keys) if keys.count(k) > 1)
+    assert [k for k in keys if not KEBAB.match(k)] == []
+
+
+@pytest.mark.parametrize("column", sorted(ENUMERATIONS))
+def test_enumerated_field_is_valid(column):
+    allowed = ENUMERATIONS[column]
+    assert_rows(lambda r: None if r[column] in allowed else repr(r[column]), appliances())
+
+
+@pytest.mark.parametrize("column", NUMERIC_COLUMNS)
+def test_number_is_positive_and_finite(column):
+    def check(row):
+        try:
+            value = number(row, column)
+        except ValueError:
+            return f"not a number: {row[column]!r}"
+        return None if math.isfinite(value) and value > 0 else f"not positive: {value}"
+
+    assert_rows(check, appliances())
+
+
+def test_typical_leakage_not_above_upper():
+    def check(row):
+        typical, upper = number(row, "Typical leakage"), number(row, "Upper leakage")
+        return None if typical <= upper else f"typical {typical} mA > upper {upper} mA"
+
+    assert_rows(check, appliances())
+
+
+@pytest.mark.parametrize("column", ["Typical source", "Upper source"])
+def test_every_row_has_a_source(column):
+    assert_rows(lambda r: None if r[column].strip() else "empty", appliances())
+
+
+def published_problem(source: str) -> str | None:
+    """Why ``source`` is not a recognised published citation (publication plus clause or chapter), or None."""
+    for publication, locator in PUBLICATION_LOCATORS.items():
+        if publication in source:
+            if locator and not re.search(locator, source):
+                return f"{source!r} names {publication} without its clause ({locator})"
+            return None
+    return f"{source!r} is neither a known publication nor marked from memory / common practice"
+
+
+@pytest.mark.parametrize(
+    "column, marker", [("Typical source", "typical, from memory"), ("Upper source", "upper, from memory")]
+)
+def test_source_is_published_or_marked(column, marker):
+    def check(row):
+        source = row[column]
+        if not is_marked(source):
+            return published_problem(source)
+        if "from memory" in source and marker not in source:
+            return f"{source!r} should say {marker!r}"
+        # A from-memory value must not read as published: no publication named beside it.
+        named = [p for p in PUBLICATION_LOCATORS if p in source]
+        return f"{source!r} is marked but names {named}" if named else None
+
+    assert_rows(check, appliances())
+
+
+# ------------------------------------------------------------------------------------- published upper limits
+
+
+@dataclass(frozen=True)
+class Limit:
+    """One published bound on protective-conductor or leakage current, as an upper catalogue value must carry it."""
+
+    name: str  # the source, used as the test id
+    cites: str  # regex an Upper source matches when it cites this limit
+    classes: frozenset[str]
+    connections: frozenset[str]
+    supply: tuple[float, float]
+    upper_ma: Callable[[dict[str, str]], float | None]  # None: the limit does not cover this row
+
+
+def _iec_60335_heating_ma(row: dict[str, str]) -> float:
+    # IEC 60335-1 cl. 13.2: stationary class I heating appliances, 0.75 mA or 0.75 mA per kW of rated power,
+    # whichever is higher, with a maximum of 5 mA.
+    return min(5.0, max(0.75, 0.75 * number(row, "Typical power") / 1000.0))
+
+
+def _iec_61140_plug_ma(row: dict[str, str]) -> float | None:
+    # IEC 61140 Annex B, plug-connected equipment up to 32 A: <= 4 A 2 mA; 4-10 A 0.5 mA/A; > 10 A 5 mA.
+    current_a = rated_current_a(row)
+    if current_a > 32:
+        return None
+    return 2.0 if current_a <= 4 else 0.5 * current_a if current_a <= 10 else 5.0
+
+
+def _iec_61140_fixed_ma(row: dict[str, str]) -> float:
+    # IEC 61140 Annex B, permanently connected equipment: <= 7 A 3.5 mA; 7-20 A 0.5 mA/A; > 20 A 10 mA.
+    current_a = rated_current_a(row)
+    return 3.5 if current_a <= 7 else 0.5 * current_a if current_a <= 20 else 10.0
+
+
+def _en_60598_ma(row: dict[str, str]) -> float | None:
+    # EN 60598-1: class I luminaires rated up to 7 A, 3.5 mA.
+    return 3.5 if rated_current_a(row) <= 7 else None
+
+
+def _constant(value_ma: float) -> Callable[[dict[str, str]], float]:
+    return lambda row: value_ma
+
+
+IEC_60335 = r"^IEC 60335-1 cl\. 13\.2 \("
+BOTH = frozenset({"plug", "fixed"})
+LIMITS = [
+    Limit("IEC 60335-1 cl. 13.2 class II 0.25 mA", IEC_60335 + r"class II\b", frozenset({"II"}), BOTH,
+          IEC_SUPPLY, _constant(0.25)),
+    Limit("IEC 60335-1 cl. 13.2 class 0, 0I, III 0.5 mA", IEC_60335 + r"class (0|0I|III|0/0I/III)\b",
+          frozenset({"0I", "III"}), BOTH, IEC_SUPPLY, _constant(0.5)),
+    Limit("IEC 60335-1 cl. 13.2 class I portable 0.75 mA", IEC_60335 + r"class I portable\b", frozenset({"I"}),
+          frozenset({"plug"}), IEC_SUPPLY, _constant(0.75)),
+    Limit("IEC 60335-1 cl. 13.2 class I stationary motor-operated 3.5 mA",
+          IEC_60335 + r"class I stationary motor-operated\b", frozenset({"I"}), BOTH, IEC_SUPPLY, _constant(3.5)),
+    Limit("IEC 60335-1 cl. 13.2 class I stationary heating 0.75 mA/kW (0.75-5 mA)",
+          IEC_60335 + r"class I stationary heating\b", frozenset({"I"}), BOTH, IEC_SUPPLY, _iec_60335_heating_ma),
+    Limit("UL 101 portable 0.5 mA", r"^UL 101 \(.*\bportable\b", frozenset({"I", "II"}), frozenset({"plug"}),
+          US_SUPPLY, _constant(0.5)),
+    Limit("UL 101 stationary or fixed 0.75 mA", r"^UL 101 \(.*\b(stationary|fixed)\b", frozenset({"I"}), BOTH,
+          US_SUPPLY, _constant(0.75)),
+    Limit("UL 8750 sec. 8.7.1 stationary or fixed 0.75 mA", r"^UL 8750 sec\. 8\.7\.1 \(.*\b(stationary|fixed)\b",
+          frozenset({"I"}), BOTH, US_SUPPLY, _constant(0.75)),
+    Limit("IEC 62368-1 / IEC 60950-1 5.1.7 plug-connected 3.5 mA", r"^IEC 62368-1 / IEC 60950-1 5\.1\.7 \(",
+          frozenset({"I"}), frozenset({"plug"}), IEC_SUPPLY, _constant(3.5)),
+    Limit("IEC 61140 Annex B plug-connected", r"^IEC 61140 Annex B \(plug-connected\b", frozenset({"I"}),
+          frozenset({"plug"}), IEC_SUPPLY, _iec_61140_plug_ma),
+    Limit("IEC 61140 Annex B permanently connected", r"^IEC 61140 Annex B \(permanently connected\b",
+          frozenset({"I"}), frozenset({"fixed"}), IEC_SUPPLY, _iec_61140_fixed_ma),
+    Limit("EN 60598-1 class I luminaire up to 7 A 3.5 mA", r"^EN 60598-1 \(class I luminaire\b", frozenset({"I"}),
+          BOTH, IEC_SUPPLY, _en_60598_ma),
+]  # fmt: skip
+
+
+def citing(pattern: str, column: str) -> list[dict[str, str]]:
+    return [r for r in appliances() if re.search(pattern, r[column])]
+
+
+@pytest.mark.parametrize("limit", LIMITS, ids=[limit.name for limit in LIMITS])
+def test_upper_citing_a_published_limit_carries_it(limit):
+    def check(row):
+        if row["Class"] not in limit.classes:
+            return f"class {row['Class']} is outside {sorted(limit.classes)}"
+        if row["Connection"] not in limit.connections:
+            return f"connection {row['Connection']} is outside {sorted(limit.connections)}"
+        if supply(row) != limit.supply:
+            return f"stated at {supply(row)}, the limit at {limit.supply} V, Hz"
+        expected_ma = limit.upper_ma(row)
+        if expected_ma is None:
+            return f"the limit does not cover a {rated_current_a(row):.1f} A row"
+        upper_ma = number(row, "Upper leakage")
+        return None if upper_ma == pytest.approx(expected_ma, rel=5e-3) else f"upper {upper_ma} mA != {expected_ma} mA"
+
+    assert_rows(check, citing(limit.cites, "Upper source"))
+
+
+def test_every_published_upper_cites_exactly_one_limit():
+    def check(row):
+        if is_marked(row["Upper source"]):
+            return None
+        matched = [limit.name for limit in LIMITS if re.search(limit.cites, row["Upper source"])]
+        return None if len(matched) == 1 else f"{row['Upper source']!r} matches {matched}"
+
+    assert_rows(check, appliances())
+
+
+# --------------------------------------------------------------------------------- published typical values
+
+# Electrical Installation Guide, RCD sensitivity chapter: design estimates of standing leakage at 230 V 50 Hz.
+HANDBOOK_TYPICALS = [
+    ("PC 2 mA", 2.0, False),
+    ("printer 1 mA", 1.0, False),
+    ("copier 1.5 mA", 1.5, False),
+    ("heated floor 1 mA/kW", 1.0, True),  # per kW of heating: the row's value is 1 mA x its kW
+]
+HANDBOOK = "Electrical Installation Guide, RCD sensitivity chapter"
+
+
+@pytest.mark.parametrize(
+    "figure, typical_ma, per_kw", HANDBOOK_TYPICALS, ids=[f"{HANDBOOK}: {f[0]}" for f in HANDBOOK_TYPICALS]
+)
+def test_typical_citing_the_handbook_carries_its_figure(figure, typical_ma, per_kw):
+    rows = citing(re.escape(f"{HANDBOOK} ({figure})"), "Typical source")
+    assert rows, f"no row cites {HANDBOOK} ({figure})"
+
+    def check(row):
+        expected_ma = typical_ma * (number(row, "Typical power") / 1000.0 if per_kw else 1.0)
+        if supply(row) != IEC_SUPPLY:
+            return f"stated at {supply(row)}, the handbook at {IEC_SUPPLY} V, Hz"
+        value_ma = number(row, "Typical leakage")
+        return None if value_ma == pytest.approx(expected_ma) else f"typical {value_ma} mA != {expected_ma} mA"
+
+    assert_rows(check, rows)
+
+
+def test_every_published_typical_is_a_handbook_figure():
+    known = {f"{HANDBOOK} ({figure})" for figure, _, _ in HANDBOOK_TYPICALS}
+    def check(row):
+        source = row["Typical source"]
+        return None if is_marked(source) or source in known else repr(source)
+
+    assert_rows(check, appliances())
+
+
+# ----------------------------------------------------------------------------------------------- waveforms
+
+
+def test_every_waveform_kind_has_a_row():
+    assert {r["Waveform"] for r in appliances()} == ENUMERATIONS["Waveform"]
+
+
+def test_ev_chargers_leak_smooth_dc():
+    # Vehicle chargers can leak smooth DC (IEC 62955 / BS 7671 531.3.3 call for Type B or a 6 mA DC detector).
+    chargers = [r for r in appliances() if r["Key"].startswith("ev-charger")]
+    assert len(chargers) >= 2
+    assert_rows(lambda r: None if r["Waveform"] == "smooth-dc" else r["Waveform"], chargers)
+
+
+# ------------------------------------------------------------------------------------------------ cable table
+
+
+def test_cable_header_is_exact():
+    assert cable_table()[0] == CABLE_HEADER
+
+
+def test_cable_keys_are_unique_generic_first():
+    keys = [r["Key"] for r in cable_table()[1]]
+    assert keys[0] == "generic"
+    assert len(keys) == len(set(keys))
+    assert [k for k in keys if not CABLE_KEY.match(k)] == []
+    assert 7 <= len(keys) <= 10
+
+
+def test_generic_cable_reproduces_the_handbook_figure():
+    # Electrical Installation Guide, RCD sensitivity chapter: 1.5 mA per 100 m of line at 230 V 50 Hz.
+    generic = cable_table()[1][0]
+    capacitance_f_per_m = float(generic["Capacitance"]) * 1e-12
+    leakage_ma = 2 * math.pi * 50.0 * capacitance_f_per_m * 230.0 * 100.0 * 1e3  # I = 2 pi f C V L
+    assert leakage_ma == pytest.approx(1.5, rel=1e-3)
+    assert HANDBOOK in generic["Source"]
+
+
+def test_other_cables_are_marked_typical_within_the_building_cable_band():
+    # Building cable is about 50-150 pF/m line-to-earth; that band is not from a confirmed publication, so the
+    # rows must say "typical, from memory".
+    def check(row):
+        capacitance_pf_per_m = float(row["Capacitance"])
+        if not 50 <= capacitance_pf_per_m <= 150:
+            return f"{capacitance_pf_per_m} pF/m outside 50-150"
+        return None if "typical, from memory" in row["Source"] else f"source {row['Source']!r}"
+
+    assert_rows(check, cable_table()[1][1:])
