@@ -67,7 +67,7 @@ def render_check(job: Any) -> None:
     table.add_column("Circuit", overflow="fold", max_width=14)
     for header in ("Device", "Sum", "Phasor", "Budget", "No-trip", "Used", "Status"):
         table.add_column(header, justify="left" if header in ("Device", "Status") else "right", no_wrap=True)
-    table.add_column("Largest contributor", overflow="fold", min_width=14)
+    table.add_column("Largest contributor", overflow="fold")
     for c in result.circuits:
         d = circuit_dict(c)
         used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"

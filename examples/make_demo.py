@@ -1,0 +1,117 @@
+"""Build the shipped example workbook: an invented remodel at 12 Alder Quay, Wrenfield.
+
+Every street, room and person here is invented. Run `python examples/make_demo.py` to rebuild
+`examples/alder-quay-remodel.xlsx` after changing the scenario.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import xlsxwriter
+
+HERE = Path(__file__).resolve().parent
+
+CIRCUITS = [
+    ["Circuit", "Device", "RCD type", "Voltage", "Frequency", "System", "Rating", "Cable length", "Cable", "Rooms",
+     "Note"],
+    ["K-CTR1", "gfci-a", None, None, None, "single", 20, 45, "nm-b-12-2", "Kitchen", "Counter left of sink"],
+    ["K-CTR2", "gfci-a", None, None, None, "single", 20, 55, "nm-b-12-2", "Kitchen", "Counter right of sink"],
+    ["K-DW", "gfci-a", None, None, None, "single", 20, 30, "nm-b-12-2", "Kitchen", "Dishwasher and disposal"],
+    ["K-RANGE", "gfci-a", None, None, None, "split", 40, 35, "nm-b-10-3", "Kitchen", "Range, 120/240 V"],
+    ["L-WASH", "gfci-a", None, None, None, "single", 20, 40, "nm-b-12-2", "Laundry", None],
+    ["L-DRY", "gfci-a", None, None, None, "split", 30, 40, "nm-b-10-3", "Laundry", "Dryer, 120/240 V"],
+    ["B-MAIN", "gfci-a", None, None, None, "single", 20, 50, "nm-b-12-2", "Main bath, Guest bath", None],
+    ["G-BENCH", "gfci-a", None, None, None, "single", 20, 60, "nm-b-12-2", "Garage", "Workbench wall"],
+    ["P-OUT", "gfci-a", None, None, None, "single", 20, 120, "uf-b-12-2", "Patio", "Patio and pond"],
+    ["O-DESK", "none", None, None, None, "single", 15, 40, "nm-b-14-2", "Office", "Home office (no GFCI required)"],
+]
+
+LOADS = [
+    ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Y capacitance", "Insulation resistance", "Power",
+     "Current", "Leg", "Room", "Fixed", "Note"],
+    ["Refrigerator", "K-CTR1", "refrigerator", 1, None, None, None, None, 6, None, "Kitchen", "yes", None],
+    ["Coffee machine", "K-CTR1", "coffee-machine", 1, None, None, None, 1200, None, None, "Kitchen", None, None],
+    ["Toaster", "K-CTR1", "toaster", 1, None, None, None, 900, None, None, "Kitchen", None, None],
+    ["Kettle", "K-CTR1", "kettle", 1, None, None, None, 1500, None, None, "Kitchen", None, None],
+    ["Microwave", "K-CTR1", "microwave", 1, "0.62 mA", None, None, 1100, None, None, "Kitchen", None,
+     "Clamp reading by R. Okonjo, 2026-10-14"],
+    ["Instant hot water", "K-CTR1", "instant-hot-water-dispenser", 1, None, None, None, 750, None, None, "Kitchen",
+     None, None],
+    ["Stand mixer", "K-CTR2", "stand-mixer", 1, None, None, None, 500, None, None, "Kitchen", None, None],
+    ["Dishwasher", "K-DW", "dishwasher", 1, None, None, None, 1200, None, None, "Kitchen", "yes", None],
+    ["Disposal", "K-DW", "garbage-disposal", 1, None, None, None, 600, None, None, "Kitchen", "yes", None],
+    ["Range elements", "K-RANGE", "range-electric", 1, None, None, None, 9600, None, "L1-L2", "Kitchen", "yes",
+     None],
+    ["Range clock and lamp", "K-RANGE", None, 1, None, "4.7 nF", None, 60, None, "L1", "Kitchen", "yes",
+     "Datasheet EMI filter"],
+    ["Range hood", "K-RANGE", "range-hood", 1, None, None, None, 200, None, "L2", "Kitchen", "yes", None],
+    ["Washer", "L-WASH", "washer-inverter", 1, None, None, None, 1000, None, None, "Laundry", None, None],
+    ["Iron", "L-WASH", "iron", 1, None, None, None, 1200, None, None, "Laundry", None, None],
+    ["Laundry tub pump", "L-WASH", "laundry-tub-pump", 1, None, None, None, 300, None, None, "Laundry", None, None],
+    ["Dryer", "L-DRY", "dryer", 1, None, None, None, 5600, None, "L1-L2", "Laundry", "yes", None],
+    ["Hair dryer", "B-MAIN", "hair-dryer", 2, None, None, None, 1500, None, None, "Main bath", None, None],
+    ["Towel warmer", "B-MAIN", "towel-warmer", 1, None, None, None, 100, None, None, "Main bath", "yes", None],
+    ["Mirror demister", "B-MAIN", "mirror-demister", 2, None, None, None, 40, None, None, "Guest bath", None, None],
+    ["Whirlpool pump", "B-MAIN", "whirlpool-tub-pump", 1, None, None, None, 750, None, None, "Main bath", None,
+     None],
+    ["Chest freezer", "G-BENCH", "freezer", 1, None, None, None, 200, None, None, "Garage", None, None],
+    ["Garage refrigerator", "G-BENCH", "refrigerator", 1, None, None, None, 150, None, None, "Garage", None,
+     None],
+    ["Air compressor", "G-BENCH", "air-compressor", 1, None, None, None, 1500, None, None, "Garage", None, None],
+    ["Bench grinder", "G-BENCH", "bench-grinder", 1, None, None, None, 400, None, None, "Garage", None, None],
+    ["EV cord set", "G-BENCH", "ev-charger-level-1", 1, None, None, None, 1440, None, None, "Garage", None, None],
+    ["Garage door opener", "G-BENCH", "garage-door-opener", 1, None, None, None, 500, None, None, "Garage", "yes",
+     None],
+    ["Pond pump", "P-OUT", "pond-pump", 1, None, None, None, 250, None, None, "Patio", None, None],
+    ["Floodlights", "P-OUT", "outdoor-led-floodlight", 6, None, None, None, 50, None, None, "Patio", "yes", None],
+    ["Pressure washer", "P-OUT", "pressure-washer", 1, None, None, None, 1800, None, None, "Patio", None, None],
+    ["Desktop computer", "O-DESK", "desktop-pc", 1, None, None, None, 300, None, None, "Office", None, None],
+    ["Printer", "O-DESK", "printer", 1, None, None, None, 400, None, None, "Office", None, None],
+    ["Wine cooler", None, "display-fridge", 1, None, None, None, 150, None, None, "Kitchen", None,
+     "New: not yet placed"],
+]
+
+SETTINGS = [
+    ["Setting", "Value"],
+    ["Voltage", 120],
+    ["Frequency", 60],
+    ["Budget fraction", 0.30],
+    ["Basis", "typical"],
+    ["Sum", "arithmetic"],
+    ["Length unit", "ft"],
+]
+
+ABOUT = [
+    "12 Alder Quay, Wrenfield: kitchen, laundry and bath remodel (invented example)",
+    "Designer: Mara Quennell. Client: the Ostrander family. Panel: 200 A, 120/240 V split phase.",
+    "Every name, street and reading in this workbook is invented for the leakbudget demo.",
+]
+
+
+def build(path: Path) -> Path:
+    book = xlsxwriter.Workbook(str(path))
+    bold = book.add_format({"bold": True})
+    about = book.add_worksheet("About")
+    about.set_column(0, 0, 100)
+    for i, line in enumerate(ABOUT):
+        about.write_string(i, 0, line, bold if i == 0 else None)
+    for name, rows in (("Circuits", CIRCUITS), ("Loads", LOADS), ("Settings", SETTINGS)):
+        ws = book.add_worksheet(name)
+        for i, row in enumerate(rows):
+            for j, value in enumerate(row):
+                if value is None:
+                    continue
+                fmt = bold if i == 0 else None
+                if isinstance(value, str):
+                    ws.write_string(i, j, value, fmt)
+                else:
+                    ws.write_number(i, j, value, fmt)
+        ws.freeze_panes(1, 0)
+        ws.set_column(0, len(rows[0]) - 1, 16)
+    book.close()
+    return path
+
+
+if __name__ == "__main__":
+    print(build(HERE / "alder-quay-remodel.xlsx"))
