@@ -9,6 +9,7 @@ from pathlib import Path
 from typing import Annotated, Any, Optional
 
 import typer
+from typer.core import TyperGroup
 from rich import box
 from rich.console import Console
 from rich.table import Table
@@ -16,7 +17,27 @@ from rich.table import Table
 from leakbudget import CAUTION, __version__
 from leakbudget.errors import LeakbudgetError
 
+out_console = Console()
+err_console = Console(stderr=True)
+
+
+
+class _Group(TyperGroup):
+    """Turns every LeakbudgetError into one line on stderr and exit code 2: the one place errors are converted."""
+
+    def invoke(self, ctx: typer.Context) -> Any:
+        try:
+            return super().invoke(ctx)
+        except LeakbudgetError as exc:
+            err_console.print(f"Error: {exc}", highlight=False, markup=False, soft_wrap=True)
+            raise typer.Exit(2) from None
+        except KeyboardInterrupt:
+            err_console.print("Interrupted; nothing was written.", highlight=False)
+            raise typer.Exit(130) from None
+
+
 app = typer.Typer(
+    cls=_Group,
     name="leakbudget",
     help=(
         "Standing earth-leakage budgets for GFCI/RCD-protected circuits: estimate each load's leakage, sum it "
@@ -29,8 +50,6 @@ app = typer.Typer(
     pretty_exceptions_enable=False,
     rich_markup_mode=None,
 )
-out_console = Console()
-err_console = Console(stderr=True)
 
 STATUS_STYLE = {"ok": "green", "over-budget": "yellow", "trip-risk": "bold red", "unprotected": "magenta"}
 
@@ -247,12 +266,5 @@ def root(
 
 
 def main() -> None:
-    """Entry point: run the app, turning every LeakbudgetError into one line and exit code 2."""
-    try:
-        app()
-    except LeakbudgetError as exc:
-        err_console.print(f"Error: {exc}", highlight=False, markup=False, soft_wrap=True)
-        sys.exit(2)
-    except KeyboardInterrupt:
-        err_console.print("Interrupted; nothing was written.", highlight=False)
-        sys.exit(130)
+    """Entry point of the console script and ``python -m leakbudget``."""
+    app()

@@ -23,6 +23,7 @@ SUPPLY_SOURCES = {
     "iec": Source.published("IEC 60038 nominal 230 V 50 Hz"),
 }
 LOAD_FACTOR_DEFAULT = 0.8  # continuous load at 80 % of rating, common practice (cf. NEC 210.19/210.20)
+BY_DEVICE = "by device: 120 V 60 Hz for UL devices (common practice), 230 V 50 Hz for RCDs (IEC 60038)"
 MAX_PLAUSIBLE_LEAKAGE_MA = 100.0  # per unit; above this a value is a unit typo or a fault (common practice)
 
 
@@ -74,10 +75,10 @@ class SettingSpec:
 
 
 SETTING_SPECS: tuple[SettingSpec, ...] = (
-    SettingSpec("Voltage", _positive("V"), None, SUPPLY_SOURCES["us"],
+    SettingSpec("Voltage", _positive("V"), None, Source(Kind.DEFAULT, BY_DEVICE),
                 "Supply line-to-neutral voltage for circuits that give none (default by device: 120 V for UL "
                 "devices, 230 V for RCDs)."),
-    SettingSpec("Frequency", _positive("Hz"), None, SUPPLY_SOURCES["us"],
+    SettingSpec("Frequency", _positive("Hz"), None, Source(Kind.DEFAULT, BY_DEVICE),
                 "Supply frequency for circuits that give none (default 60 Hz for UL devices, 50 Hz for RCDs)."),
     SettingSpec("Budget fraction", _fraction, BUDGET_FRACTION_DEFAULT,
                 Source.published("BS 7671:2018 reg. 531.3.2"),

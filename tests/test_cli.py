@@ -1,0 +1,95 @@
+"""The command line through a runner: exit codes, exact messages, help and documentation of every command."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from leakbudget.cli import app
+from leakbudget.schema import SHEETS
+from leakbudget.settings import SETTING_SPECS
+from tests.conftest import basic_sheets
+
+ROOT = Path(__file__).resolve().parents[1]
+runner = CliRunner()
+
+
+def commands() -> list[str]:
+    return sorted(c.name or c.callback.__name__ for c in app.registered_commands)
+
+
+def test_every_command_has_help_and_is_documented():
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    for name in commands():
+        result = runner.invoke(app, [name, "--help"])
+        assert result.exit_code == 0, name
+        assert "Usage:" in result.output
+        assert f"leakbudget {name}" in readme, f"README does not document `leakbudget {name}`"
+
+
+def test_every_workbook_column_and_setting_is_documented():
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    for sheet in SHEETS:
+        for column in sheet.columns:
+            assert f"`{column.name}`" in readme, column.name
+    for spec in SETTING_SPECS:
+        assert f"`{spec.name}`" in readme, spec.name
+
+
+def test_check_json_exit_codes(make_workbook):
+    ok = runner.invoke(app, ["check", str(make_workbook()), "--json", "--no-write"])
+    assert ok.exit_code == 0, ok.output
+    doc = json.loads(ok.stdout)
+    assert [c["circuit"] for c in doc["circuits"]] == ["K1", "E1"]
+    assert doc["circuits"][1]["budget_ma"] == pytest.approx(9.0)  # BS 7671:2018 reg. 531.3.2, 30 % of 30 mA
+    assert {load["basis"] for load in doc["loads"]} == {"computed", "measured"}
+
+    sheets = basic_sheets()
+    sheets["Loads"][2][4] = "5 mA"  # 2 × 5 mA on a 30 mA RCD: above 9 mA budget, below 15 mA no-trip
+    bad = runner.invoke(app, ["check", str(make_workbook(sheets, "over.xlsx")), "--json", "--no-write"])
+    assert bad.exit_code == 1
+    assert json.loads(bad.stdout)["circuits"][1]["status"] == "over-budget"
+
+
+def test_bad_input_exit_2_with_one_line(make_workbook):
+    sheets = basic_sheets()
+    sheets["Circuits"][1][1] = "gfci-z"
+    path = make_workbook(sheets)
+    before = path.read_bytes()
+    result = runner.invoke(app, ["check", str(path)])
+    assert result.exit_code == 2
+    assert result.output.strip().startswith(
+        "Error: plan.xlsx, sheet 'Circuits', row 2, column 'Device', cell B2: 'gfci-z' is not a known device key")
+    assert "Traceback" not in result.output
+    assert path.read_bytes() == before
+
+
+def test_missing_file_is_exit_2(tmp_path):
+    result = runner.invoke(app, ["check", str(tmp_path / "nope.xlsx")])
+    assert result.exit_code == 2
+    assert "nope.xlsx: the file does not exist" in result.output
+
+
+def test_appliances_search_json():
+    result = runner.invoke(app, ["appliances", "kettle", "--json"])
+    rows = json.loads(result.stdout)
+    assert [r["key"] for r in rows] == ["kettle"]
+    assert "IEC 60335-1" in rows[0]["upper_source"]
+
+
+def test_devices_json_lists_levels():
+    rows = {r["key"]: r for r in json.loads(runner.invoke(app, ["devices", "--json"]).stdout)}
+    assert (rows["gfci-a"]["trip_ma"], rows["gfci-a"]["no_trip_ma"]) == (6.0, 4.0)  # UL 943 Class A
+
+
+def test_template_then_check(tmp_path):
+    path = tmp_path / "blank.xlsx"
+    assert runner.invoke(app, ["template", str(path)]).exit_code == 0
+    result = runner.invoke(app, ["check", str(path), "--no-write", "--json"])
+    assert result.exit_code == 0, result.output
+    assert json.loads(result.stdout)["circuits"] == []
+    again = runner.invoke(app, ["template", str(path)])
+    assert again.exit_code == 2 and "will not overwrite" in again.output
