@@ -198,14 +198,17 @@ def appliances(
             for a in rows
         ])
         return
-    table = Table(title=f"Appliance catalogue ({len(rows)} rows)", title_justify="left")
-    for h in ("Key", "Description", "Typical mA", "Upper mA", "At", "Nature", "Waveform", "Typical source",
-              "Upper source"):
-        table.add_column(h, overflow="fold")
+    table = Table(title=f"Appliance catalogue ({len(rows)} rows)", title_justify="left", show_lines=True,
+                  box=box.SIMPLE_HEAD)
+    table.add_column("Key", no_wrap=True)
+    table.add_column("Typical / upper mA", no_wrap=True)
+    table.add_column("What, and where the figures come from", overflow="fold")
     for a in rows:
-        table.add_row(a.key, a.description, f"{a.typical_ma:g}", f"{a.upper_ma:g}",
-                      f"{a.reference_voltage_v:g} V {a.reference_frequency_hz:g} Hz", a.nature, a.waveform,
-                      str(a.typical_source), str(a.upper_source))
+        table.add_row(
+            a.key,
+            f"{a.typical_ma:g} / {a.upper_ma:g}\nat {a.reference_voltage_v:g} V {a.reference_frequency_hz:g} Hz",
+            f"{a.description} ({a.nature}, {a.waveform})\ntypical: {a.typical_source}\nupper: {a.upper_source}",
+        )
     out_console.print(table)
     if not rows:
         out_console.print(f"No catalogue row matches '{word}'.", highlight=False)
@@ -221,11 +224,12 @@ def cables(as_json: JsonOpt = False) -> None:
         _print_json([{"key": c.key, "description": c.description, "capacitance_pf_per_m": c.capacitance_pf_per_m,
                       "source": str(c.source)} for c in rows])
         return
-    table = Table(title="Cable catalogue", title_justify="left")
-    for h in ("Key", "Description", "pF/m to earth", "Source"):
-        table.add_column(h, overflow="fold")
+    table = Table(title="Cable catalogue", title_justify="left", show_lines=True, box=box.SIMPLE_HEAD)
+    table.add_column("Key", no_wrap=True)
+    table.add_column("pF/m to earth", no_wrap=True, justify="right")
+    table.add_column("Cable, and where the figure comes from", overflow="fold")
     for c in rows:
-        table.add_row(c.key, c.description, f"{c.capacitance_pf_per_m:g}", str(c.source))
+        table.add_row(c.key, f"{c.capacitance_pf_per_m:g}", f"{c.description}\n{c.source}")
     out_console.print(table)
 
 
@@ -241,13 +245,14 @@ def devices(as_json: JsonOpt = False) -> None:
                     + [{"key": "none", "label": DEVICES["none"].label, "trip_ma": None, "no_trip_ma": None,
                         "trip_source": None, "no_trip_source": None}])
         return
-    table = Table(title="Protective devices", title_justify="left")
-    for h in ("Key", "Device", "Trip mA", "No-trip mA", "Trip source", "No-trip source"):
-        table.add_column(h, overflow="fold")
+    table = Table(title="Protective devices", title_justify="left", show_lines=True, box=box.SIMPLE_HEAD)
+    table.add_column("Key", no_wrap=True)
+    table.add_column("Trip / no-trip mA", no_wrap=True)
+    table.add_column("Device, and where the levels come from", overflow="fold")
     for d in rows:
-        table.add_row(d.key, d.label, f"{d.trip_ma:g}", f"{d.no_trip_ma:g}", str(d.trip_source),
-                      str(d.no_trip_source))
-    table.add_row("none", DEVICES["none"].label, "-", "-", "-", "-")
+        table.add_row(d.key, f"{d.trip_ma:g} / {d.no_trip_ma:g}",
+                      f"{d.label}\ntrip: {d.trip_source}\nno-trip: {d.no_trip_source}")
+    table.add_row("none", "-", DEVICES["none"].label)
     out_console.print(table)
 
 
