@@ -90,28 +90,18 @@ def estimate_load(load: Load, appliance: Appliance | None, voltage_v: float, fre
         r, c = phys.split_by_nature(load.leakage_ma, nature)
         return complex(r, c), MEASURED, "measured (your Leakage value)"
     if load.y_capacitance_nf is not None or load.insulation_resistance_mohm is not None:
-        parts = []
         c = r = 0.0
         if load.y_capacitance_nf is not None:
             c = float(phys.capacitive_current_ma(load.y_capacitance_nf, voltage_v, frequency_hz))
-            parts.append(f"2πfCV, C = {load.y_capacitance_nf:g} nF")
         if load.insulation_resistance_mohm is not None:
             r = float(phys.resistive_current_ma(load.insulation_resistance_mohm, voltage_v))
-            parts.append(f"V/R, R = {load.insulation_resistance_mohm:g} MΩ")
-        return complex(r, c), COMPUTED, f"computed: {'; '.join(parts)} at {_supply_text(voltage_v, frequency_hz)}"
+        return complex(r, c), COMPUTED, _computed_text(load, voltage_v, frequency_hz)
     assert appliance is not None  # the reader guarantees a leakage source
     value = appliance.upper_ma if basis == "upper" else appliance.typical_ma
-    src = appliance.upper_source if basis == "upper" else appliance.typical_source
     r0, c0 = phys.split_by_nature(value, appliance.nature)
     r, c = phys.rescale(r0, c0, appliance.reference_voltage_v, appliance.reference_frequency_hz,
                         voltage_v, frequency_hz)
-    text = f"catalogue '{appliance.key}' {basis} {value:g} mA: {src}"
-    if (appliance.reference_voltage_v, appliance.reference_frequency_hz) != (voltage_v, frequency_hz):
-        text += (f"; rescaled from {_supply_text(appliance.reference_voltage_v, appliance.reference_frequency_hz)}"
-                 f" ({appliance.nature})")
-    if appliance.origin != "built-in catalogue":
-        text += f"; row from {appliance.origin}"
-    return complex(float(r), float(c)), CATALOGUE, text
+    return complex(float(r), float(c)), CATALOGUE, _catalogue_text(appliance, basis, voltage_v, frequency_hz)
 
 
 def _fallback_supply(project: Project, load: Load) -> tuple[float, float]:
@@ -144,23 +134,91 @@ def cable_result(circuit: Circuit, project: Project) -> LoadResult | None:
     )
 
 
+def _catalogue_text(appliance: Appliance, basis: str, voltage_v: float, frequency_hz: float) -> str:
+    value = appliance.upper_ma if basis == "upper" else appliance.typical_ma
+    src = appliance.upper_source if basis == "upper" else appliance.typical_source
+    text = f"catalogue '{appliance.key}' {basis} {value:g} mA: {src}"
+    if (appliance.reference_voltage_v, appliance.reference_frequency_hz) != (voltage_v, frequency_hz):
+        text += (f"; rescaled from {_supply_text(appliance.reference_voltage_v, appliance.reference_frequency_hz)}"
+                 f" ({appliance.nature})")
+    if appliance.origin != "built-in catalogue":
+        text += f"; row from {appliance.origin}"
+    return text
+
+
+def _computed_text(load: Load, voltage_v: float, frequency_hz: float) -> str:
+    parts = []
+    if load.y_capacitance_nf is not None:
+        parts.append(f"2πfCV, C = {load.y_capacitance_nf:g} nF")
+    if load.insulation_resistance_mohm is not None:
+        parts.append(f"V/R, R = {load.insulation_resistance_mohm:g} MΩ")
+    return f"computed: {'; '.join(parts)} at {_supply_text(voltage_v, frequency_hz)}"
+
+
 def estimate(project: Project) -> list[LoadResult]:
-    """Per-load estimates in sheet order, then one cable line per circuit with a cable length."""
+    """Per-load estimates in sheet order, then one cable line per circuit with a cable length.
+
+    Vectorised over loads with numpy (the same formulas as :func:`estimate_load`, which is the scalar reference).
+    """
+    loads = project.loads
+    n = len(loads)
     circuits = {c.circuit_id: c for c in project.circuits}
     appliances = project.catalogue.appliances
     basis = project.settings.basis
-    results: list[LoadResult] = []
-    for load in project.loads:
+    voltage = np.empty(n)
+    frequency = np.empty(n)
+    rotation = np.ones(n, dtype=complex)
+    apps: list[Appliance | None] = [None] * n
+    for i, load in enumerate(loads):
         circuit = circuits.get(load.circuit_id) if load.circuit_id else None
-        v, f = (circuit.voltage_v, circuit.frequency_hz) if circuit else _fallback_supply(project, load)
-        appliance = appliances.get(load.appliance_key) if load.appliance_key else None
-        z, kind, text = estimate_load(load, appliance, v, f, basis)
-        rotation = phys.leg_rotation(load.leg, circuit.system) if circuit else 1.0
-        per_unit = abs(z)
+        if circuit is not None:
+            voltage[i], frequency[i] = circuit.voltage_v, circuit.frequency_hz
+            rotation[i] = phys.leg_rotation(load.leg, circuit.system)
+        else:
+            voltage[i], frequency[i] = _fallback_supply(project, load)
+        if load.appliance_key:
+            apps[i] = appliances.get(load.appliance_key)
+    nan = math.nan
+    measured_ma = np.array([x.leakage_ma if x.leakage_ma is not None else nan for x in loads], dtype=float)
+    y_cap_nf = np.array([x.y_capacitance_nf if x.y_capacitance_nf is not None else nan for x in loads], dtype=float)
+    ins_mohm = np.array([x.insulation_resistance_mohm if x.insulation_resistance_mohm is not None else nan
+                         for x in loads], dtype=float)
+    quantity = np.array([x.quantity for x in loads], dtype=float)
+    angle = np.radians([phys.NATURE_ANGLE_DEG[a.nature] if a is not None else 90.0 for a in apps])
+    value_ma = np.array([(a.upper_ma if basis == "upper" else a.typical_ma) if a is not None else 0.0 for a in apps])
+    ref_v = np.array([a.reference_voltage_v if a is not None else 1.0 for a in apps])
+    ref_f = np.array([a.reference_frequency_hz if a is not None else 1.0 for a in apps])
+
+    is_measured = ~np.isnan(measured_ma)
+    is_computed = ~is_measured & (~np.isnan(y_cap_nf) | ~np.isnan(ins_mohm))
+    cos, sin = np.cos(angle), np.sin(angle)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        r_comp = np.nan_to_num(phys.resistive_current_ma(ins_mohm, voltage))
+        c_comp = np.nan_to_num(phys.capacitive_current_ma(y_cap_nf, voltage, frequency))
+        r_cat, c_cat = phys.rescale(value_ma * cos, value_ma * sin, ref_v, ref_f, voltage, frequency)
+    resistive = np.where(is_measured, measured_ma * cos, np.where(is_computed, r_comp, r_cat))
+    capacitive = np.where(is_measured, measured_ma * sin, np.where(is_computed, c_comp, c_cat))
+    per_unit = np.hypot(resistive, capacitive)
+    phasor = (resistive + 1j * capacitive) * rotation * quantity
+
+    catalogue_texts: dict[tuple[str, float, float], str] = {}
+    results: list[LoadResult] = []
+    for i, load in enumerate(loads):
+        v, f = float(voltage[i]), float(frequency[i])
+        appliance = apps[i]
+        if is_measured[i]:
+            kind, text = MEASURED, "measured (your Leakage value)"
+        elif is_computed[i]:
+            kind, text = COMPUTED, _computed_text(load, v, f)
+        else:
+            assert appliance is not None  # the reader guarantees a leakage source
+            key = (appliance.key, v, f)
+            text = catalogue_texts.get(key) or catalogue_texts.setdefault(key, _catalogue_text(appliance, basis, v, f))
+            kind = CATALOGUE
         results.append(LoadResult(
             name=load.name, circuit_id=load.circuit_id, load=load, appliance=appliance, quantity=load.quantity,
-            per_unit_ma=per_unit, leakage_ma=per_unit * load.quantity, phasor_ma=z * rotation * load.quantity,
-            basis=kind, source=text, voltage_v=v, frequency_hz=f,
+            per_unit_ma=float(per_unit[i]), leakage_ma=float(per_unit[i] * quantity[i]),
+            phasor_ma=complex(phasor[i]), basis=kind, source=text, voltage_v=v, frequency_hz=f,
         ))
     for circuit in project.circuits:
         line = cable_result(circuit, project)

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import cmath
 import math
-from collections.abc import Sequence
+from functools import lru_cache
 
 import numpy as np
 
@@ -53,6 +53,7 @@ def split_by_nature(magnitude_ma, nature: str) -> tuple[float, float]:
     return magnitude_ma * math.cos(angle), magnitude_ma * math.sin(angle)
 
 
+@lru_cache(maxsize=1024)
 def parse_leg(leg: str, system: str) -> tuple[str, ...]:
     """The line conductors a load sits on: 'L1' → ('L1',); 'L1-L2' → ('L1', 'L2'). Raises ValueError if the leg
     does not exist in the system (L3 on a split-phase circuit, L2 on a single-phase one)."""
@@ -66,7 +67,8 @@ def parse_leg(leg: str, system: str) -> tuple[str, ...]:
     return parts
 
 
-def leg_rotation(legs: Sequence[str], system: str) -> complex:
+@lru_cache(maxsize=1024)
+def leg_rotation(legs: tuple[str, ...], system: str) -> complex:
     """Unit phasor (or average of two) that turns a load's own phasor into the circuit's reference frame.
 
     A line-to-line load's leakage is taken as split equally between its two lines (symmetric Y-capacitors).

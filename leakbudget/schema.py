@@ -7,9 +7,11 @@ case-insensitively, ignoring surrounding spaces and the difference between a spa
 from __future__ import annotations
 
 import re
+from functools import lru_cache
 from dataclasses import dataclass
 
 
+@lru_cache(maxsize=4096)
 def normalise(name: object) -> str:
     """Normalise a sheet or column name for matching: lower case, ``_`` as space, spaces folded."""
     text = str(name).replace("_", " ").replace("\u00a0", " ")

@@ -33,9 +33,19 @@ def column_letter(index: int) -> str:
 
 
 def is_blank(value: Any) -> bool:
-    return value is None or (isinstance(value, str) and not value.strip()) or (
-        isinstance(value, float) and math.isnan(value)
-    )
+    """True for an empty cell: None, "", whitespace-only text, or NaN."""
+    if value is None or value == "":
+        return True
+    kind = type(value)
+    if kind is str:
+        return not value.strip()
+    if kind is float:
+        return math.isnan(value)
+    return False
+
+
+def _has_content(row: list[Any]) -> bool:
+    return any(v is not None and v != "" and not is_blank(v) for v in row)
 
 
 @dataclass
@@ -48,6 +58,7 @@ class RawTable:
     columns: dict[str, int]  # normalised column name -> 0-based column index
     typed_names: dict[str, str]  # normalised column name -> the name as the user typed it
     rows: list[tuple[int, list[Any]]] = field(default_factory=list)  # (1-based row number, cell values)
+    _index: dict[str, int | None] = field(default_factory=dict, repr=False)  # column as asked -> index
 
     @classmethod
     def from_grid(cls, path: Path, sheet_name: str, grid: list[list[Any]], spec: Sheet) -> "RawTable":
@@ -88,7 +99,7 @@ class RawTable:
         rows = [
             (header_index + 2 + k, row)
             for k, row in enumerate(grid[header_index + 1:])
-            if any(not is_blank(v) for v in row)
+            if _has_content(row)
         ]
         return cls(path, sheet_name, header_index + 1, columns, typed, rows)
 
@@ -96,11 +107,18 @@ class RawTable:
         return normalise(column) in self.columns
 
     def raw(self, row: tuple[int, list[Any]], column: str) -> Any:
-        j = self.columns.get(normalise(column))
-        if j is None or j >= len(row[1]):
+        """The cell's value, or None when the column is absent or the cell blank."""
+        try:
+            j = self._index[column]
+        except KeyError:
+            j = self._index[column] = self.columns.get(normalise(column))
+        cells = row[1]
+        if j is None or j >= len(cells):
             return None
-        value = row[1][j]
-        return None if is_blank(value) else value
+        value = cells[j]
+        if value is None or value == "" or is_blank(value):
+            return None
+        return value
 
     def error(self, row: tuple[int, list[Any]] | int, column: str | None, message: str, hint: str | None = None
               ) -> WorkbookError:

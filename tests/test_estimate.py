@@ -96,3 +96,22 @@ def test_unplaced_loads_are_estimated_but_not_summed(make_workbook):
     r = run(make_workbook, [["K1", "gfci-a", 120, 60, "single", 20, None, "Kitchen"]],
             [["Loose", None, None, 1, "1 mA", None, None, None, "Kitchen"]])
     assert r.circuits[0].leakage_ma == 0.0 and len(r.unplaced) == 1
+
+
+def test_vectorised_estimate_equals_the_scalar_reference():
+    # The vectorised pass must give exactly what the scalar per-load formula gives, load by load.
+    from leakbudget import leakage as phys
+    from leakbudget.estimate import estimate, estimate_load
+    from leakbudget.jobs import example_path
+
+    project = read_project(example_path())
+    circuits = {c.circuit_id: c for c in project.circuits}
+    for r in estimate(project):
+        if r.load is None or r.circuit_id is None:
+            continue
+        c = circuits[r.circuit_id]
+        z, kind, text = estimate_load(r.load, r.appliance, c.voltage_v, c.frequency_hz, project.settings.basis)
+        assert (kind, text) == (r.basis, r.source)
+        assert r.per_unit_ma == pytest.approx(abs(z), rel=1e-12)
+        expected = z * phys.leg_rotation(r.load.leg, c.system) * r.quantity
+        assert abs(r.phasor_ma - expected) == pytest.approx(0.0, abs=1e-12)
