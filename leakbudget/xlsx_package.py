@@ -7,37 +7,35 @@ Only what registering them needs is edited, by byte splices (:mod:`leakbudget.xl
 ``xl/styles.xml`` (:mod:`leakbudget.xlsx_styles`). Every other part is copied with the same decompressed bytes in
 the same entry order, so formulas, comments, charts, images and extensions we do not understand survive untouched.
 Package structure follows ECMA-376 Part 2 (Open Packaging Conventions): part names compare case-insensitively
-(§9.1.1.1) and relationship targets resolve against the source part's folder (§9.3).
+and relationship targets resolve against the source part's folder.
 
 A sheet whose name already exists (from a previous run) is replaced in place: same ``<sheet>`` entry, position and
 relationship id, so ``localSheetId`` indices of defined names keep pointing at the same sheets.
 
-The file is replaced atomically (temp file in the same folder, fsync, ``os.replace``) after the previous version
-is saved beside it as ``<stem>.before-leakbudget<suffix>``; an interrupted run leaves the original as it was.
+The file itself is replaced by :mod:`leakbudget.xlsx_file` (atomic rename, backup of the previous version).
 """
 
 from __future__ import annotations
 
 import math
 import numbers
-import os
 import posixpath
 import re
 import shutil
-import stat
 import tempfile
 import time
 import zipfile
 import zlib
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from io import BytesIO
 from pathlib import Path
-from typing import IO, TypeVar
+from typing import IO
 from urllib.parse import unquote
 from xml.sax.saxutils import quoteattr
 
 from leakbudget.errors import WriteBackError
+from leakbudget.xlsx_file import COPY_CHUNK_BYTES, rewrite
 from leakbudget.xlsx_styles import merge_styles, remap_cell_styles
 from leakbudget.xlsx_xml import BadXmlError, Span, UnsafeXmlError, XmlPart
 
@@ -48,16 +46,12 @@ MAX_UNCOMPRESSED_BYTES = 1 << 30  # 1 GiB in total
 MAX_COMPRESSION_RATIO = 200  # uncompressed / compressed, checked on entries above RATIO_CHECK_MIN_BYTES
 RATIO_CHECK_MIN_BYTES = 1 << 20
 
-BACKUP_MARK = ".before-leakbudget"  # panel.xlsx -> panel.before-leakbudget.xlsx
-TEMP_MARK = ".leakbudget-"  # panel.xlsx -> panel.xlsx.leakbudget-<pid>.tmp while writing
-STALE_TEMP_AGE_S = 24 * 3600  # a temp file older than this is left over from a crash, whatever its pid
 OUR_PART_PREFIX = "leakbudget_"  # parts we add are named xl/<folder>/leakbudget_<kind><n>.xml
-COPY_CHUNK_BYTES = 1 << 20
 # Largest number a cell holds (Microsoft, "Excel specifications and limits"); beyond it, and for ±inf, the value
 # is written as text, since 16-digit rounding (XlsxWriter's ".16G") could even turn 1.797…e308 into inf.
 EXCEL_MAX_NUMBER = 9.99999999999999e307
 
-# ECMA-376 Part 1 §12 and Part 2 §9 names (transitional conformance).
+# Namespaces, relationship and content types of ECMA-376 Parts 1 and 2 (transitional conformance).
 MAIN_NS = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 DOC_REL_NS = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
 REL_TYPE_WORKSHEET = DOC_REL_NS + "/worksheet"
@@ -76,7 +70,6 @@ WORKBOOK = "xl/workbook.xml"
 WORKBOOK_RELS = "xl/_rels/workbook.xml.rels"
 
 _FORMULA = re.compile(rb"<(?:[A-Za-z_][\w.-]*:)?f[\s/>]")
-_T = TypeVar("_T")
 
 
 @dataclass(frozen=True)
@@ -122,48 +115,25 @@ def write_sheets(source: Path, sheets: Sequence[SheetData], out: Path | None = N
     source is not a readable .xlsx package, it exceeds the zip limits above, an XML part it needs declares a DTD
     or entities, or the folder cannot be written.
     """
-    source = Path(source)
-    if out is None and source.is_symlink():
-        source = source.resolve()
     keys = [sheet.name.casefold() for sheet in sheets]
     if len(set(keys)) != len(keys):
         raise ValueError(f"sheet names must differ (ignoring case): {[s.name for s in sheets]}")
-    in_place = out is None or _same_file(Path(out), source)
-    target = source if in_place else Path(out)  # type: ignore[arg-type]
-    backup = source.with_name(source.stem + BACKUP_MARK + source.suffix) if in_place else None
-    _refuse_if_open(target)
-    for path in (target, backup):
-        if path is not None:
-            _remove_stale_temps(path)
-    try:
-        handle = open(source, "rb")
-    except OSError as exc:
-        raise WriteBackError(
-            f"{source}: cannot read the workbook ({exc.strerror}); check the path and run again."
-        ) from None
-    with handle:
-        before = os.fstat(handle.fileno())
-        mode = stat.S_IMODE(before.st_mode)
+    source = Path(source)
 
-        def keep_previous() -> None:
-            if backup is not None:
-                handle.seek(0)
-                _replace_atomically(backup, mode, lambda f: shutil.copyfileobj(handle, f, COPY_CHUNK_BYTES),
-                                    times_ns=(before.st_atime_ns, before.st_mtime_ns))
-                _refuse_if_changed(source, before)
-
+    def build(original: IO[bytes], dest: IO[bytes]) -> tuple[tuple[str, ...], tuple[str, ...]]:
         try:
-            package = zipfile.ZipFile(handle)
+            package = zipfile.ZipFile(original)
         except (zipfile.BadZipFile, OSError, ValueError) as exc:
             raise WriteBackError(
                 f"{source.name}: not an .xlsx workbook ({exc}); save it as an Excel .xlsx workbook (a password-"
                 "protected file must be saved without its password) and run again."
             ) from None
-        with package:
-            replaced, added = _replace_atomically(
-                target, mode, lambda f: _graft(package, sheets, f, source), before_replace=keep_previous
-            )
-    return WriteResult(target, backup, replaced, added)
+        with package:  # closing the ZipFile leaves ``original`` open
+            return _graft(package, sheets, dest, source)
+
+    written = rewrite(source, Path(out) if out is not None else None, build)
+    replaced, added = written.value
+    return WriteResult(written.path, written.backup, replaced, added)
 
 
 # --------------------------------------------------------------------------------------------- the package graft
@@ -611,7 +581,7 @@ def _write_cell(worksheet, row: int, column: int, value: object, cell_format) ->
 def _write_text(worksheet, row: int, column: int, text: str, cell_format) -> None:  # noqa: ANN001
     """Write ``text`` as a text cell, whatever it looks like (never a formula, never markup).
 
-    XlsxWriter escapes control characters as ``_xHHHH_`` (ECMA-376 Part 1, §22.9.2.19), but in constant_memory
+    XlsxWriter escapes control characters as ``_xHHHH_`` (ECMA-376 Part 1, type ST_Xstring), but in constant_memory
     mode it copies text that starts with ``<r>`` and ends with ``</r>`` into the XML unescaped (it takes it for a
     rich string); such text is written as a three-run rich string instead, which reads back as the same text. Lone
     surrogates cannot be encoded in UTF-8 and become U+FFFD.
@@ -643,114 +613,3 @@ def _add_chart(book, worksheet, sheet: SheetData) -> None:  # noqa: ANN001
     chart.set_title({"name": spec.title})
     chart.set_y_axis({"name": spec.y_axis_title})
     worksheet.insert_chart(spec.anchor, chart)
-
-
-# ------------------------------------------------------------------------------------------- safe file replacement
-
-
-def _replace_atomically(
-    final: Path,
-    mode: int,
-    write: Callable[[IO[bytes]], _T],
-    before_replace: Callable[[], None] = lambda: None,
-    times_ns: tuple[int, int] | None = None,
-) -> _T:
-    """Write a temp file beside ``final`` with ``write``, fsync it, then ``os.replace`` it onto ``final``.
-
-    Until the rename, ``final`` is untouched; on any error or interrupt the temp file is removed.
-    """
-    temp = final.with_name(f"{final.name}{TEMP_MARK}{os.getpid()}.tmp")
-    try:
-        handle = open(temp, "wb")
-    except OSError as exc:
-        raise WriteBackError(
-            f"{final.parent}: cannot create a file in this folder ({exc.strerror}); make the folder writable or "
-            "choose another output path."
-        ) from None
-    try:
-        with handle:
-            result = write(handle)
-            handle.flush()
-            os.fsync(handle.fileno())
-        os.chmod(temp, mode)
-        if times_ns is not None:
-            os.utime(temp, ns=times_ns)
-        before_replace()
-        os.replace(temp, final)
-    except OSError as exc:
-        temp.unlink(missing_ok=True)
-        raise WriteBackError(
-            f"{final}: could not write the file ({exc.strerror or exc}); nothing was changed; close it in other "
-            "programs, free some disk space and run again."
-        ) from None
-    except BaseException:
-        temp.unlink(missing_ok=True)
-        raise
-    _fsync_folder(final.parent)
-    return result
-
-
-def _fsync_folder(folder: Path) -> None:
-    """Make the rename durable (POSIX); folders cannot be opened for fsync on Windows."""
-    try:
-        fd = os.open(folder, os.O_RDONLY)
-    except OSError:
-        return
-    try:
-        os.fsync(fd)
-    except OSError:
-        pass
-    finally:
-        os.close(fd)
-
-
-def _refuse_if_open(path: Path) -> None:
-    """Refuse when a spreadsheet program's lock file sits beside ``path`` (it would overwrite our result)."""
-    name = path.name
-    for lock in (f".~lock.{name}#", f"~${name}", f"~${name[2:]}"):  # LibreOffice/OpenOffice; Excel (two forms)
-        if (path.parent / lock).exists():
-            raise WriteBackError(
-                f"{path}: the file is open in a spreadsheet program (lock file {lock} beside it); close it there "
-                "and run again."
-            )
-
-
-def _refuse_if_changed(path: Path, before: os.stat_result) -> None:
-    now = os.stat(path)
-    if (now.st_size, now.st_mtime_ns, now.st_ino) != (before.st_size, before.st_mtime_ns, before.st_ino):
-        raise WriteBackError(f"{path}: the file changed while leakbudget was writing; nothing was changed; run again.")
-
-
-def _remove_stale_temps(path: Path) -> None:
-    """Delete temp files a killed run left beside ``path`` (their process is gone, or they are a day old)."""
-    import glob
-
-    for temp in path.parent.glob(glob.escape(path.name) + TEMP_MARK + "*.tmp"):
-        pid_text = temp.name[len(path.name) + len(TEMP_MARK): -len(".tmp")]
-        try:
-            age_s = time.time() - temp.stat().st_mtime
-            if not pid_text.isdigit() or not _process_alive(int(pid_text)) or age_s > STALE_TEMP_AGE_S:
-                temp.unlink()
-        except OSError:
-            continue
-
-
-def _process_alive(pid: int) -> bool:
-    if pid == os.getpid():
-        return True
-    if os.name != "posix":
-        return True  # os.kill would terminate the process on Windows; rely on the age test there
-    try:
-        os.kill(pid, 0)
-    except ProcessLookupError:
-        return False
-    except PermissionError:
-        return True
-    return True
-
-
-def _same_file(a: Path, b: Path) -> bool:
-    try:
-        return a.exists() and os.path.samefile(a, b)
-    except OSError:
-        return False

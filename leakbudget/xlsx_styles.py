@@ -18,12 +18,12 @@ from leakbudget.xlsx_xml import Span, XmlPart, canonical, local_name, parse
 
 MAIN_NS = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 
-# Child order of <styleSheet> (ECMA-376 Part 1, §18.8.39 CT_Stylesheet); a missing list is inserted in this order.
+# Child order of <styleSheet> (ECMA-376 Part 1, §18.8, CT_Stylesheet); a missing list is inserted in this order.
 STYLESHEET_ORDER = (
     "numFmts", "fonts", "fills", "borders", "cellStyleXfs", "cellXfs",
     "cellStyles", "dxfs", "tableStyles", "colors", "extLst",
 )
-# Number format ids below this are built in (ECMA-376 Part 1, §18.8.30); custom formats take ids from here up.
+# Number format ids below this are built in (ECMA-376 Part 1, §18.8, numFmt); custom formats take ids from here up.
 FIRST_CUSTOM_NUMFMT_ID = 164
 
 _INDEXED_LISTS = (("fonts", "fontId"), ("fills", "fillId"), ("borders", "borderId"))

@@ -30,6 +30,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from python_calamine import CalamineWorkbook
 
+from leakbudget import xlsx_package
 from leakbudget.errors import WriteBackError
 from leakbudget.xlsx_package import (
     MAX_COMPRESSION_RATIO,
@@ -65,7 +66,8 @@ def circuit_sheet(rows=CIRCUIT_ROWS, chart: bool = True, name: str = "Circuit re
 
 
 def load_sheet() -> SheetData:
-    return SheetData("Load results", ["load", "leakage_ma", "fixed"], [["Dishwasher", 0.75, True], ["Kettle", 0.1, False]])
+    rows = [["Dishwasher", 0.75, True], ["Kettle", 0.1, False]]
+    return SheetData("Load results", ["load", "leakage_ma", "fixed"], rows)
 
 
 def copy_fixture(tmp_path: Path, name: str) -> Path:
@@ -187,7 +189,7 @@ def test_cell_style_indices_lead_to_the_intended_formats(workbook: Path) -> None
         return xfs[int(by_ref[ref].get("s", "0"))]
 
     assert codes[int(xf("B2").get("numFmtId"))] == "0.000"
-    assert codes.get(int(xf("C2").get("numFmtId")), "0.00") == "0.00"  # custom, or built-in id 2 (§18.8.30)
+    assert codes.get(int(xf("C2").get("numFmtId")), "0.00") == "0.00"  # custom, or built-in id 2 (§18.8, numFmt)
     assert fonts[int(xf("A1").get("fontId"))].find(f"{MAIN}b") is not None  # bold header
     assert sheet.find(f"{MAIN}sheetViews/{MAIN}sheetView/{MAIN}pane").get("state") == "frozen"
     assert sheet.find(f"{MAIN}sheetViews/{MAIN}sheetView").get("tabSelected") is None  # no tab grouping
@@ -373,6 +375,23 @@ def test_backup_keeps_the_previous_version_and_mode_is_kept(tmp_path: Path) -> N
     assert result.backup.read_bytes() == first  # one backup, replaced each run
     assert stat.S_IMODE(path.stat().st_mode) == 0o640
     assert sorted(p.name for p in tmp_path.iterdir()) == ["gnumeric.before-leakbudget.xlsx", "gnumeric.xlsx"]
+
+
+def test_a_version_saved_meanwhile_is_neither_overwritten_nor_backed_up(tmp_path: Path, monkeypatch) -> None:
+    path = copy_fixture(tmp_path, "gnumeric")
+    render = xlsx_package._render
+
+    def render_while_the_user_saves(sheets):  # noqa: ANN001, ANN202
+        saved = tmp_path / "save.tmp"  # spreadsheet programs save to a new file and rename it over the old one
+        shutil.copyfile(DATA / "libreoffice.xlsx", saved)
+        os.replace(saved, path)
+        return render(sheets)
+
+    monkeypatch.setattr(xlsx_package, "_render", render_while_the_user_saves)
+    with pytest.raises(WriteBackError, match=r"gnumeric.xlsx: the file changed while leakbudget was writing"):
+        write_sheets(path, [circuit_sheet()])
+    assert path.read_bytes() == (DATA / "libreoffice.xlsx").read_bytes()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["gnumeric.xlsx"]
 
 
 @pytest.mark.parametrize("lock", [".~lock.{name}#", "~${name}"])  # LibreOffice, Excel

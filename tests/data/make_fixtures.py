@@ -111,7 +111,8 @@ def write_source(path: Path) -> None:
 def add_extension_parts(source: Path, target: Path) -> None:
     """Copy ``source`` adding a customXml part and a private ``extLst`` in the first worksheet (zip-level edit)."""
     ext = (b'<extLst><ext uri="{6F1D3C2A-0B5E-4C49-9E0B-4A1B2C3D4E5F}" '
-           b'xmlns:lbx="urn:example:leakbudget-fixture"><lbx:note lbx:by="fixture">kept as is</lbx:note></ext></extLst>')
+           b'xmlns:lbx="urn:example:leakbudget-fixture"><lbx:note lbx:by="fixture">kept as is</lbx:note>'
+           b'</ext></extLst>')
     item = b'<?xml version="1.0" encoding="UTF-8"?>\n<panel xmlns="urn:example:panel"><ref>P1</ref></panel>\n'
     props = (b'<?xml version="1.0" encoding="UTF-8" standalone="no"?>\n<ds:datastoreItem '
              b'ds:itemID="{2A7B9C1D-3E4F-4A5B-8C6D-7E8F9A0B1C2D}" '
