@@ -161,7 +161,8 @@ def _sheet(name: str, columns: tuple[tuple[str, str, str | None], ...], records:
         header=[h for h, _, _ in columns],
         rows=rows,
         number_formats={i: fmt for i, (_, _, fmt) in enumerate(columns) if fmt},
-        column_widths={0: 22.0},
+        column_widths={i: (60.0 if "source" in h.lower() or h == "Note" else max(10.0, len(h) + 2.0))
+                       for i, (h, _, _) in enumerate(columns)},
         chart=chart,
     )
 
@@ -180,7 +181,8 @@ def result_sheets(result: CheckResult) -> list[SheetData]:
         value_columns=(headers.index("Leakage, arithmetic (mA)"), headers.index("Budget (mA)"),
                        headers.index("No-trip level (mA)")),
         y_axis_title="mA",
-        anchor=f"{chr(65 + 1)}{len(doc['circuits']) + len(footer) + 4}",
+        anchor=f"B{len(doc['circuits']) + len(footer) + 4}",
+        data_rows=len(doc["circuits"]),
     ) if doc["circuits"] else None
     return [
         _sheet(CIRCUIT_RESULTS, CIRCUIT_COLUMNS, doc["circuits"], footer, chart),

@@ -81,6 +81,9 @@ class ChartSpec:
     value_columns: tuple[int, ...]  # 0-based columns plotted as series (e.g. leakage_ma, budget_ma)
     y_axis_title: str = "mA"
     anchor: str = "B2"  # top-left cell of the chart
+    data_rows: int | None = None  # how many rows below the header to plot (default: all rows of the sheet)
+    width_px: int = 720
+    height_px: int = 360
 
 
 @dataclass(frozen=True)
@@ -602,7 +605,7 @@ def _add_chart(book, worksheet, sheet: SheetData) -> None:  # noqa: ANN001
     for column in (spec.category_column, *spec.value_columns):
         if not 0 <= column < width:
             raise ValueError(f"chart column {column} is outside sheet '{sheet.name}' ({width} columns)")
-    last = len(sheet.rows)
+    last = len(sheet.rows) if spec.data_rows is None else min(spec.data_rows, len(sheet.rows))
     chart = book.add_chart({"type": "column"})
     for column in spec.value_columns:
         chart.add_series({
@@ -612,4 +615,5 @@ def _add_chart(book, worksheet, sheet: SheetData) -> None:  # noqa: ANN001
         })
     chart.set_title({"name": spec.title})
     chart.set_y_axis({"name": spec.y_axis_title})
+    chart.set_size({"width": spec.width_px, "height": spec.height_px})
     worksheet.insert_chart(spec.anchor, chart)
