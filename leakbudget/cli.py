@@ -12,6 +12,7 @@ import typer
 from typer.core import TyperGroup
 from rich import box
 from rich.console import Console
+from rich.padding import Padding
 from rich.table import Table
 
 from leakbudget import CAUTION, __version__
@@ -162,18 +163,14 @@ def render_review(job: Any) -> None:
 
     rv = job.review
     project = rv.check.project
-    out_console.print(f"Review of {project.path.name} against {rv.code.label} ({rv.code_source}).", highlight=False)
-    if rv.findings:
-        table = Table(box=box.SIMPLE_HEAD, pad_edge=False, padding=(0, 1, 0, 0))
-        table.add_column("Severity", no_wrap=True)
-        table.add_column("Rule", no_wrap=True)
-        table.add_column("Where", overflow="fold", max_width=22)
-        table.add_column("Finding (source)", overflow="fold", ratio=1)
-        for f in rv.findings:
-            where = " / ".join(x for x in (f.circuit, f.load) if x) or "-"
-            table.add_row(f"[{SEVERITY_STYLE[f.severity.value]}]{f.severity.value}[/]", f.rule, where,
-                          f"{f.message} [dim]({f.source})[/dim]")
-        out_console.print(table, highlight=False)
+    out_console.print(f"Review of {project.path.name} against {rv.code.label}.", highlight=False)
+    out_console.print(f"Code: {rv.code_source}.", highlight=False)
+    for f in rv.findings:
+        where = " / ".join(x for x in (f.circuit, f.load) if x)
+        out_console.print(f"\n[{SEVERITY_STYLE[f.severity.value]}]{f.severity.value}[/] {f.rule}"
+                          f"{' · ' + where if where else ''}", highlight=False)
+        out_console.print(Padding(f"{f.message}\n[dim]Source: {f.source}[/dim]", (0, 0, 0, 2)), highlight=False)
+    out_console.print()
     counts = {s: rv.count(s) for s in Severity}
     out_console.print(f"{counts[Severity.ERROR]} error(s), {counts[Severity.WARNING]} warning(s), "
                       f"{counts[Severity.INFO]} info.", highlight=False)

@@ -26,6 +26,7 @@ from leakbudget.estimate import CheckResult, CircuitResult, LoadResult, MEASURED
 from leakbudget.locations import Classification, classify
 from leakbudget.model import Circuit, Project
 from leakbudget.provenance import Kind, Source
+from leakbudget.settings import US_SUPPLY
 
 # Heating and cooking elements take up moisture through their end seals while cold; at switch-on their leakage
 # can be several times the dry value until they dry out (BS 7671:2001 guidance). The factor is from memory; it is
@@ -125,12 +126,19 @@ def choose_code(project: Project, code: str | None = None) -> tuple[Code, Source
         return CODES[key], Source(Kind.USER, "chosen for this run (--code)")
     if project.settings["Code"] is not None:
         return CODES[project.settings["Code"]], project.settings.sources["Code"]
-    freqs = [c.frequency_hz for c in project.circuits] or [project.settings["Frequency"] or 60.0]
-    nearest = [min(DEFAULT_CODE_BY_FREQUENCY_HZ, key=lambda f0: abs(f0 - f)) for f in freqs]
-    f_major = max(DEFAULT_CODE_BY_FREQUENCY_HZ, key=nearest.count)
-    key = DEFAULT_CODE_BY_FREQUENCY_HZ[f_major]
-    return CODES[key], Source(Kind.DEFAULT, f"default for a {f_major:g} Hz supply ({nearest.count(f_major)} of "
-                                            f"{len(nearest)} circuits); set Code in Settings or use --code")
+    nearest = [_nearest_frequency_hz(c.frequency_hz) for c in project.circuits]
+    if nearest:
+        f_hz = max(DEFAULT_CODE_BY_FREQUENCY_HZ, key=nearest.count)
+        why = f"default for a {f_hz:g} Hz supply ({nearest.count(f_hz)} of {len(nearest)} circuits)"
+    else:
+        f_hz = _nearest_frequency_hz(project.settings["Frequency"] or US_SUPPLY[1])
+        why = f"default for a {f_hz:g} Hz supply (no circuits yet)"
+    code_key = DEFAULT_CODE_BY_FREQUENCY_HZ[f_hz]
+    return CODES[code_key], Source(Kind.DEFAULT, f"{why}; set Code in Settings or use --code")
+
+
+def _nearest_frequency_hz(frequency_hz: float) -> float:
+    return min(DEFAULT_CODE_BY_FREQUENCY_HZ, key=lambda f0: abs(f0 - frequency_hz))
 
 
 # ------------------------------------------------------------------------------------------------ context
@@ -169,12 +177,17 @@ def _circuits(result: CheckResult) -> list[_Circuit]:
     for r in result.loads:
         if r.load is not None and r.circuit_id is not None:
             by_circuit.setdefault(r.circuit_id, []).append(r)
+    classified: dict[str, Classification] = {}  # a room name is classified once per review
     views = []
     for c in result.circuits:
         loads = by_circuit.get(c.circuit.circuit_id, [])
         names = list(c.circuit.rooms) + [r.load.room for r in loads if r.load is not None and r.load.room]
-        unique = list(dict.fromkeys(n.strip() for n in names if n.strip()))
-        views.append(_Circuit(c, loads, [classify(n, project.location_rows) for n in unique]))
+        rooms = []
+        for name in dict.fromkeys(n.strip() for n in names if n.strip()):
+            if name not in classified:
+                classified[name] = classify(name, project.location_rows)
+            rooms.append(classified[name])
+        views.append(_Circuit(c, loads, rooms))
     return views
 
 
@@ -301,7 +314,7 @@ def rule_socket_outlets(views: list[_Circuit], code: Code, result: CheckResult) 
                 else "loads whose connection is not known")
         yield Finding(Severity.ERROR if plugs else Severity.WARNING, "socket-outlets", code.socket_source, v.cid,
                       None,
-                      f"{v.cid} feeds {what}, so socket-outlets up to {SOCKET_OUTLET_MAX_A:g} A: "
+                      f"{v.cid} feeds {what} through socket-outlets up to {SOCKET_OUTLET_MAX_A:g} A: "
                       f"{_clause(code.socket_source)} requires {code.requirement}; {_missing(v)}: {code.remedy}.")
 
 
