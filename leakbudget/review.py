@@ -550,11 +550,10 @@ def to_json(rv: Review) -> dict[str, Any]:
     }
 
 
-def findings_sheet(rv: Review) -> Any:
-    """The ``Review findings`` sheet (an :class:`leakbudget.xlsx_package.SheetData`) for write-back."""
+def findings_rows(rv: Review) -> list[list[Any]]:
+    """The rows of the ``Review findings`` sheet under :data:`FINDING_COLUMNS`: one per finding, a blank row,
+    then footer lines (code used, counts, provenance of the sheet, caution) in the first column."""
     from leakbudget import CAUTION, __version__
-    from leakbudget.schema import REVIEW_FINDINGS
-    from leakbudget.xlsx_package import SheetData
 
     rows: list[list[Any]] = [
         [f.severity.value, f.rule, f.circuit, f.load, f.message, str(f.source), f.source.kind.value]
@@ -568,11 +567,18 @@ def findings_sheet(rv: Review) -> Any:
         f"Written by leakbudget {__version__}; this sheet is replaced on every run.",
         f"Caution: {CAUTION}",
     ]
-    rows += [blank] + [[line] + blank[1:] for line in footer]
+    return rows + [blank] + [[line] + blank[1:] for line in footer]
+
+
+def findings_sheet(rv: Review) -> Any:
+    """The ``Review findings`` sheet (an :class:`leakbudget.xlsx_package.SheetData`) for write-back."""
+    from leakbudget.schema import REVIEW_FINDINGS
+    from leakbudget.xlsx_package import SheetData
+
     return SheetData(
         name=REVIEW_FINDINGS,
         header=list(FINDING_COLUMNS),
-        rows=rows,
+        rows=findings_rows(rv),
         number_formats={},
         column_widths={0: 10.0, 1: 18.0, 2: 12.0, 3: 20.0, 4: 100.0, 5: 60.0, 6: 20.0},
     )

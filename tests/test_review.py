@@ -516,3 +516,19 @@ def test_cli_review_text_and_bad_code(make_workbook):
     wrong = runner.invoke(app, ["review", str(path), "--no-write", "--code", "nec-2017"])
     assert wrong.exit_code == 2
     assert wrong.stderr.strip().startswith("Error: 'nec-2017' is not a code leakbudget reviews against")
+
+
+def test_findings_sheet_rows(plan):
+    from leakbudget.review import FINDING_COLUMNS, findings_rows
+
+    p = plan([circuit("B1", "none", "Main bath")], [load("Hair dryer", "B1", "hair-dryer")])
+    rv = run_review(p, "nec-2023")
+    rows = findings_rows(rv)
+    assert FINDING_COLUMNS == ("Severity", "Rule", "Circuit", "Load", "Finding", "Source", "Source kind")
+    assert rows[0][:4] == ["error", "location", "B1", None]
+    assert rows[0][5:] == ["NEC 2023 210.8(A)", "published"]
+    assert all(len(r) == len(FINDING_COLUMNS) for r in rows)
+    footer = [r[0] for r in rows[len(rv.findings) + 1:]]
+    assert footer[0] == "Reviewed against NEC 2023 (NFPA 70), dwelling units: chosen for this run (--code)."
+    assert footer[1] == f"1 error(s), 0 warning(s), {rv.count(Severity.INFO)} info."
+    assert footer[-1].startswith("Caution: ")
