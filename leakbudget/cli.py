@@ -74,6 +74,13 @@ def _print_json(doc: Any) -> None:
     sys.stdout.write(json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n")
 
 
+def _with_written(doc: dict[str, Any], written: Any) -> dict[str, Any]:
+    """Add where the results were written (and the backup kept) to a command's JSON document."""
+    doc["written_to"] = str(written.path) if written else None
+    doc["backup"] = str(written.backup) if written and written.backup else None
+    return doc
+
+
 def _caution() -> None:
     err_console.print(f"[dim]Caution: {CAUTION}[/dim]", highlight=False)
 
@@ -146,10 +153,7 @@ def check(
     if as_json:
         from leakbudget.results import to_json
 
-        doc = to_json(job.result)
-        doc["written_to"] = str(job.written.path) if job.written else None
-        doc["backup"] = str(job.written.backup) if job.written and job.written.backup else None
-        _print_json(doc)
+        _print_json(_with_written(to_json(job.result), job.written))
     else:
         render_check(job)
     raise typer.Exit(0 if job.result.all_ok else 1)
@@ -210,10 +214,7 @@ def review(
 
     job = review_workbook(path, code, out, write=not no_write)
     if as_json:
-        doc = to_json(job.review)
-        doc["written_to"] = str(job.written.path) if job.written else None
-        doc["backup"] = str(job.written.backup) if job.written and job.written.backup else None
-        _print_json(doc)
+        _print_json(_with_written(to_json(job.review), job.written))
     else:
         render_review(job)
     raise typer.Exit(1 if job.review.errors else 0)

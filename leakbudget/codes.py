@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from enum import Enum
+from typing import Any
 
 from leakbudget.devices import Device, Family
 from leakbudget.provenance import Source
@@ -88,6 +89,18 @@ def _nec(year: int, kitchen: Scope, appliance_outlets: dict[str, str], appliance
     )
 
 
+def _iec(key: str, label: str, *, bath: str, ev: str, sockets: Source, **extra: Any) -> Code:
+    """An IEC-family code: 30 mA RCD additional protection for socket-outlets, every circuit of a room with a bath
+    or shower, and EV charging points (the bath and EV clauses are cited from memory)."""
+    bath_rule = Source.from_memory(f"{bath} (all circuits of a room with a bath or shower), from memory")
+    return Code(
+        key=key, label=label, family="iec", location_source=bath_rule,
+        locations={"bathroom": LocationRule(Scope.ALL_CIRCUITS, bath_rule)},
+        ev_source=Source.from_memory(f"{ev} (each charging point on an RCD), from memory"),
+        socket_source=sockets, **extra,
+    )
+
+
 # NEC 2023 210.8(D): outlets supplying these appliances need GFCI protection (catalogue key → the rule's word).
 NEC_2023_APPLIANCES = {
     "dishwasher": "dishwashers",
@@ -105,22 +118,15 @@ CODES: dict[str, Code] = {
     "nec-2020": _nec(2020, Scope.COUNTERTOP, {"dishwasher": "dishwashers"},
                      Source.from_memory("NEC 2020 210.8(D) (dishwasher outlets in dwelling units), from memory")),
     "nec-2023": _nec(2023, Scope.RECEPTACLES, NEC_2023_APPLIANCES, Source.published("NEC 2023 210.8(D)")),
-    "iec-60364": Code(
-        key="iec-60364", label="IEC 60364 (low-voltage installations)", family="iec",
-        location_source=Source.from_memory("IEC 60364-7-701 701.411.3.3 (rooms with a bath or shower), from memory"),
-        locations={"bathroom": LocationRule(Scope.ALL_CIRCUITS, Source.from_memory(
-            "IEC 60364-7-701 701.411.3.3 (all circuits of a room with a bath or shower), from memory"))},
-        ev_source=Source.from_memory("IEC 60364-7-722 722.531.2.101 (each charging point on an RCD), from memory"),
-        socket_source=Source.from_memory(
+    "iec-60364": _iec(
+        "iec-60364", "IEC 60364 (low-voltage installations)", bath="IEC 60364-7-701 701.411.3.3",
+        ev="IEC 60364-7-722 722.531.2.101",
+        sockets=Source.from_memory(
             "IEC 60364-4-41 411.3.3 and 415.1.1 (socket-outlets up to 32 A; the 32 A limit from memory)"),
     ),
-    "bs-7671": Code(
-        key="bs-7671", label="BS 7671:2018 (IET Wiring Regulations)", family="iec",
-        location_source=Source.from_memory("BS 7671:2018 reg. 701.411.3.3 (rooms with a bath or shower), from memory"),
-        locations={"bathroom": LocationRule(Scope.ALL_CIRCUITS, Source.from_memory(
-            "BS 7671:2018 reg. 701.411.3.3 (all circuits of a room with a bath or shower), from memory"))},
-        ev_source=Source.from_memory("BS 7671:2018 reg. 722.531.2.101 (each charging point on an RCD), from memory"),
-        socket_source=Source.published("BS 7671:2018 reg. 411.3.3 and 415.1.1"),
+    "bs-7671": _iec(
+        "bs-7671", "BS 7671:2018 (IET Wiring Regulations)", bath="BS 7671:2018 reg. 701.411.3.3",
+        ev="BS 7671:2018 reg. 722.531.2.101", sockets=Source.published("BS 7671:2018 reg. 411.3.3 and 415.1.1"),
         waveform_source=Source.published("BS 7671:2018 reg. 531.3.3; IEC 62423 (RCD types AC, A, F, B)"),
         budget_is_regulation=True,
     ),

@@ -357,8 +357,8 @@ def rule_waveform(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
                          "up to 10 mA")
             yield Finding(Severity.ERROR if rcd_type == "AC" else Severity.WARNING, "waveform", source, v.cid,
                           r.name,
-                          f"The leakage of {r.name} is {wave} ({origin}) and {v.cid} has a Type {rcd_type} device, which "
-                          f"cannot reliably see it and can be blinded by it: {cure}.")
+                          f"The leakage of {r.name} is {wave} ({origin}) and {v.cid} has a Type {rcd_type} device, "
+                          f"which cannot reliably see it and can be blinded by it: {cure}.")
 
 
 def published_limit(r: LoadResult) -> tuple[float, Source] | None:
@@ -429,8 +429,8 @@ def rule_long_run(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
         if c.device.family is not Family.GFCI or not c.cable_length_m or c.cable_length_m <= GFCI_RUN_LIMIT_M:
             continue
         yield Finding(Severity.WARNING, "long-run", GFCI_RUN_SOURCE, v.cid, None,
-                      f"{v.cid}'s load-side cable run is {c.cable_length_m:.0f} m ({c.cable_length_m / M_PER_FT:.0f} ft), "
-                      f"longer than the usual 75 m / 250 ft for a 5 mA GFCI: the cable's own capacitance adds "
+                      f"{v.cid}'s load-side cable run is {c.cable_length_m:.0f} m ({c.cable_length_m / M_PER_FT:.0f} "
+                      f"ft), longer than the usual 75 m / 250 ft for a 5 mA GFCI: the cable's own capacitance adds "
                       f"{_ma(v.result.cable_ma)} of standing leakage here and surges may trip it; place the GFCI "
                       f"nearer the loads (a GFCI receptacle or a GFCI at a sub-panel) or split the run.")
 
@@ -473,8 +473,9 @@ def rule_budget(views: list[_Circuit], code: Code, result: CheckResult) -> Itera
                   "that leak far above their typical value")
         if c.status is Status.TRIP_RISK:
             yield Finding(Severity.ERROR, "budget", dev.no_trip_source, v.cid, None,
-                          f"{v.cid}'s standing leakage {_ma(c.gate_ma)} reaches the no-trip level {_ma(dev.no_trip_ma)} "
-                          f"of its {dev.label}, so nuisance trips are likely{largest}: {advice}.")
+                          f"{v.cid}'s standing leakage {_ma(c.gate_ma)} reaches the no-trip level "
+                          f"{_ma(dev.no_trip_ma)} of its {dev.label}, so nuisance trips are likely{largest}: "
+                          f"{advice}.")
         elif c.status is Status.OVER_BUDGET:
             regulation = code.budget_is_regulation and dev.family is Family.RCD
             yield Finding(Severity.ERROR if regulation else Severity.WARNING, "budget", c.budget_source, v.cid,
