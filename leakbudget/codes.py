@@ -65,7 +65,10 @@ class Code:
     @property
     def remedy(self) -> str:
         """What to fit to meet :attr:`requirement`, with the device key."""
-        return "fit a Class A GFCI (gfci-a)" if self.family == "nec" else "fit a 30 mA RCD (rcd-30)"
+        if self.family == "nec":
+            return "fit a Class A GFCI (gfci-a)"
+        return (f"fit an RCD to IEC 61008-1 / IEC 61009-1 of IΔn {ADDITIONAL_PROTECTION_MAX_MA:g} mA or less "
+                f"(rcd-30 or rcd-10)")
 
     def satisfied_by(self, device: Device) -> bool:
         """Whether ``device`` is the kind of protection this code's location and outlet rules require."""

@@ -13,10 +13,10 @@ from typing import TYPE_CHECKING
 from leakbudget.errors import WorkbookError
 from leakbudget.estimate import CheckResult, check
 from leakbudget.workbook import read_project
+from leakbudget.xlsx_package import WriteResult
 
 if TYPE_CHECKING:
     from leakbudget.review import Review
-    from leakbudget.xlsx_package import WriteResult
 
 
 @dataclass
@@ -55,14 +55,11 @@ def review_workbook(path: str | Path, code: str | None = None, out: str | Path |
     """Check a workbook, review it against ``code`` (default: Code setting, else by supply) and (unless ``write``
     is False) write the ``Review findings`` sheet into it, or into ``out``."""
     from leakbudget.review import findings_sheet, run_review
+    from leakbudget.xlsx_package import write_sheets
 
     path = Path(path)
     rv = run_review(read_project(path), code)
-    written = None
-    if write:
-        from leakbudget.xlsx_package import write_sheets
-
-        written = write_sheets(path, [findings_sheet(rv)], _out_path(path, out))
+    written = write_sheets(path, [findings_sheet(rv)], _out_path(path, out)) if write else None
     return ReviewJob(rv, written)
 
 

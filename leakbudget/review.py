@@ -65,7 +65,7 @@ SMOOTH_DC_SOURCE = Source.published("IEC 62423 (Type B); IEC 62955 (6 mA DC dete
 # frequencies of single-phase inverters; B adds smooth DC.
 WAVEFORM_ORDER = ("sine", "pulsating-dc", "high-frequency", "smooth-dc")
 RCD_TYPE_DETECTS = {"AC": 1, "A": 2, "F": 3, "B": 4}  # how many of WAVEFORM_ORDER each type sees
-TYPE_FOR_WAVEFORM = {"sine": "AC", "pulsating-dc": "A", "high-frequency": "F", "smooth-dc": "B"}
+
 
 class ReviewError(LeakbudgetError):
     """A review option has a value leakbudget does not know."""

@@ -532,3 +532,30 @@ def test_findings_sheet_rows(plan):
     assert footer[0] == "Reviewed against NEC 2023 (NFPA 70), dwelling units: chosen for this run (--code)."
     assert footer[1] == f"1 error(s), 0 warning(s), {rv.count(Severity.INFO)} info."
     assert footer[-1].startswith("Caution: ")
+
+
+def test_cli_review_writes_the_findings_sheet(make_workbook, tmp_path):
+    import python_calamine
+
+    path = make_workbook({"Circuits": [CIRCUITS, circuit("B1", "none", "Main bath")],
+                          "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")]})
+    out = tmp_path / "reviewed.xlsx"
+    result = runner.invoke(app, ["review", str(path), "--out", str(out)])
+    assert result.exit_code == 1
+    assert f"Findings written to {out} (sheet 'Review findings')." in " ".join(result.stdout.split())
+    book = python_calamine.CalamineWorkbook.from_path(str(out))  # read back by an independent reader
+    assert book.sheet_names == ["Circuits", "Loads", "Review findings"]
+    grid = book.get_sheet_by_name("Review findings").to_python()
+    assert grid[0] == ["Severity", "Rule", "Circuit", "Load", "Finding", "Source", "Source kind"]
+    assert grid[1][:3] == ["error", "location", "B1"] and grid[1][5] == "NEC 2023 210.8(A)"
+    # the user's own sheets are untouched
+    assert book.get_sheet_by_name("Circuits").to_python()[1][:2] == ["B1", "none"]
+
+
+def test_demo_review_agrees_with_its_check():
+    from leakbudget.jobs import example_path
+
+    rv = run_review(read_project(example_path()))
+    flagged = {c.circuit.circuit_id for c in rv.check.circuits if c.status.value in ("over-budget", "trip-risk")}
+    assert {f.circuit for f in rv.findings if f.rule == "budget"} == flagged == {"K-CTR1", "G-BENCH", "P-OUT"}
+    assert rv.code.key == "nec-2023" and rv.errors == []  # every wet-location circuit of the demo has a Class A GFCI
