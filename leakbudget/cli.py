@@ -12,10 +12,13 @@ import typer
 from typer.core import TyperGroup
 from rich import box
 from rich.console import Console
+from rich.padding import Padding
 from rich.table import Table
 
 from leakbudget import CAUTION, __version__
 from leakbudget.errors import LeakbudgetError
+from leakbudget.locations import LOCATION_KINDS
+from leakbudget.schema import REVIEW_FINDINGS
 
 out_console = Console()
 err_console = Console(stderr=True)
@@ -69,6 +72,13 @@ def _fmt(value: float | None, digits: int = 3) -> str:
 
 def _print_json(doc: Any) -> None:
     sys.stdout.write(json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n")
+
+
+def _with_written(doc: dict[str, Any], written: Any) -> dict[str, Any]:
+    """Add where the results were written (and the backup kept) to a command's JSON document."""
+    doc["written_to"] = str(written.path) if written else None
+    doc["backup"] = str(written.backup) if written and written.backup else None
+    return doc
 
 
 def _caution() -> None:
@@ -143,13 +153,71 @@ def check(
     if as_json:
         from leakbudget.results import to_json
 
-        doc = to_json(job.result)
-        doc["written_to"] = str(job.written.path) if job.written else None
-        doc["backup"] = str(job.written.backup) if job.written and job.written.backup else None
-        _print_json(doc)
+        _print_json(_with_written(to_json(job.result), job.written))
     else:
         render_check(job)
     raise typer.Exit(0 if job.result.all_ok else 1)
+
+
+SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
+
+
+def render_review(job: Any) -> None:
+    from leakbudget.review import Severity
+
+    rv = job.review
+    project = rv.check.project
+    out_console.print(f"Review of {project.path.name} against {rv.code.label}.", highlight=False)
+    out_console.print(f"Code: {rv.code_source}.", highlight=False)
+    for f in rv.findings:
+        where = " / ".join(x for x in (f.circuit, f.load) if x)
+        out_console.print(f"\n[{SEVERITY_STYLE[f.severity.value]}]{f.severity.value}[/] {f.rule}"
+                          f"{' · ' + where if where else ''}", highlight=False)
+        out_console.print(Padding(f"{f.message}\n[dim]Source: {f.source}[/dim]", (0, 0, 0, 2)), highlight=False)
+    out_console.print()
+    counts = {s: rv.count(s) for s in Severity}
+    out_console.print(f"{counts[Severity.ERROR]} error(s), {counts[Severity.WARNING]} warning(s), "
+                      f"{counts[Severity.INFO]} info.", highlight=False)
+    if rv.check.unplaced:
+        out_console.print(f"{len(rv.check.unplaced)} load(s) have no circuit yet; their circuit rules apply once "
+                          "they are placed.", highlight=False)
+    for line in project.warnings:
+        err_console.print(f"[yellow]Warning:[/] {line}", highlight=False)
+    if job.written is not None:
+        out_console.print(f"Findings written to {job.written.path} (sheet '{REVIEW_FINDINGS}').", highlight=False)
+        if job.written.backup is not None:
+            out_console.print(f"Previous version kept as {job.written.backup}.", highlight=False)
+    _caution()
+
+
+REVIEW_HELP = (
+    "Check the plan, then review it against a wiring code and write a 'Review findings' sheet.\n\n"
+    "Each finding has a severity (error, warning, info), a rule, the circuit and load it concerns, and the rule's "
+    "source. Rooms are classified from their names; for a name the built-in table does not know, add a Locations "
+    f"sheet with Room name and Location kind ({', '.join(LOCATION_KINDS)}).\n\n"
+    "Exit code 0 when there is no error finding, 1 when there is, 2 on bad input."
+)
+
+
+@app.command(help=REVIEW_HELP)
+def review(
+    path: PathArg,
+    code: Annotated[Optional[str], typer.Option(
+        "--code", help="Code to review against: nec-2020, nec-2023, iec-60364 or bs-7671. Default: the Code "
+                       "setting, else nec-2023 for a 60 Hz plan and iec-60364 for a 50 Hz plan.")] = None,
+    out: OutOpt = None,
+    as_json: JsonOpt = False,
+    no_write: Annotated[bool, typer.Option("--no-write", help="Review only; write nothing.")] = False,
+) -> None:
+    from leakbudget.jobs import review_workbook
+    from leakbudget.review import to_json
+
+    job = review_workbook(path, code, out, write=not no_write)
+    if as_json:
+        _print_json(_with_written(to_json(job.review), job.written))
+    else:
+        render_review(job)
+    raise typer.Exit(1 if job.review.errors else 0)
 
 
 @app.command()

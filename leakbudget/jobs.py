@@ -8,11 +8,15 @@ from __future__ import annotations
 import shutil
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from leakbudget.errors import WorkbookError
 from leakbudget.estimate import CheckResult, check
 from leakbudget.workbook import read_project
 from leakbudget.xlsx_package import WriteResult
+
+if TYPE_CHECKING:
+    from leakbudget.review import Review
 
 
 @dataclass
@@ -27,12 +31,36 @@ def check_workbook(path: str | Path, out: str | Path | None = None, write: bool 
     from leakbudget.xlsx_package import write_sheets
 
     path = Path(path)
-    if out is not None and Path(out).resolve() == path.resolve():
-        out = None
     project = read_project(path)
     result = check(project)
-    written = write_sheets(path, result_sheets(result), Path(out) if out is not None else None) if write else None
+    written = write_sheets(path, result_sheets(result), _out_path(path, out)) if write else None
     return CheckJob(result, written)
+
+
+def _out_path(path: Path, out: str | Path | None) -> Path | None:
+    """Where to write: None (into ``path`` itself) when ``out`` is absent or names the same file."""
+    if out is None or Path(out).resolve() == path.resolve():
+        return None
+    return Path(out)
+
+
+@dataclass
+class ReviewJob:
+    review: Review
+    written: WriteResult | None
+
+
+def review_workbook(path: str | Path, code: str | None = None, out: str | Path | None = None, write: bool = True
+                    ) -> ReviewJob:
+    """Check a workbook, review it against ``code`` (default: Code setting, else by supply) and (unless ``write``
+    is False) write the ``Review findings`` sheet into it, or into ``out``."""
+    from leakbudget.review import findings_sheet, run_review
+    from leakbudget.xlsx_package import write_sheets
+
+    path = Path(path)
+    rv = run_review(read_project(path), code)
+    written = write_sheets(path, [findings_sheet(rv)], _out_path(path, out)) if write else None
+    return ReviewJob(rv, written)
 
 
 def example_path(name: str = "alder-quay-remodel.xlsx") -> Path:

@@ -10,6 +10,7 @@ from pathlib import Path
 
 from leakbudget.catalogue import Catalogue
 from leakbudget.devices import Device
+from leakbudget.locations import LocationRow
 from leakbudget.provenance import Source
 from leakbudget.settings import Settings
 
@@ -29,6 +30,7 @@ class Circuit:
     rooms: tuple[str, ...]
     note: str | None
     row: int
+    shared_neutral: bool = False  # shares its neutral with another circuit (multiwire branch circuit)
 
 
 @dataclass(slots=True)
@@ -48,6 +50,7 @@ class Load:
     fixed: bool
     note: str | None
     row: int
+    waveform: str | None = None  # the Waveform column; None = the catalogue's (or sine)
 
 
 @dataclass
@@ -61,6 +64,7 @@ class Project:
     catalogue: Catalogue
     warnings: list[str] = field(default_factory=list)
     defaults_used: list[str] = field(default_factory=list)  # plain sentences: "Voltage 120 V (…) for K1, K2"
+    location_rows: list[LocationRow] = field(default_factory=list)  # the user's Locations sheet
 
     def circuit_index(self) -> dict[str, int]:
         return {c.circuit_id.lower(): i for i, c in enumerate(self.circuits)}

@@ -55,6 +55,8 @@ CIRCUITS = Sheet(
         Column("Cable length", "m", False, "Load-side cable run; bare numbers in the 'Length unit' setting."),
         Column("Cable", None, False, "Cable catalogue key (see `leakbudget cables`); blank takes the default."),
         Column("Rooms", None, False, "Rooms the circuit serves, comma-separated."),
+        Column("Shared neutral", None, False, "yes if this circuit shares its neutral with another circuit "
+                                              "(a multiwire branch circuit); blank = no."),
         Column("Note", None, False, "Free text, copied to the results."),
     ),
 )
@@ -76,6 +78,8 @@ LOADS = Sheet(
         Column("Leg", None, False, "L1, L2, L3, or L1-L2 etc. for line-to-line loads (default L1)."),
         Column("Room", None, False, "Room the load is in."),
         Column("Fixed", None, False, "yes if the load must stay on its circuit."),
+        Column("Waveform", None, False, "Leakage waveform: sine, pulsating-dc, high-frequency or smooth-dc; "
+                                        "overrides the catalogue's."),
         Column("Note", None, False, "Free text, copied to the results."),
     ),
 )
@@ -125,8 +129,19 @@ CABLES = Sheet(
     ),
 )
 
-SHEETS: tuple[Sheet, ...] = (CIRCUITS, LOADS, SETTINGS, APPLIANCES, CABLES)
+LOCATIONS = Sheet(
+    "Locations",
+    False,
+    "Your own room-name words and the kind of location they mean; they are tried before the built-in table.",
+    (
+        Column("Room name", None, True, "A room name or a word in one, e.g. 'Snug' or 'utility'."),
+        Column("Location kind", None, True, "What kind of location it is (see `leakbudget review --help`)."),
+    ),
+)
+
+SHEETS: tuple[Sheet, ...] = (CIRCUITS, LOADS, SETTINGS, APPLIANCES, CABLES, LOCATIONS)
 
 # Result sheets written back into the workbook; these names are reserved (replaced on every run).
 CIRCUIT_RESULTS = "Circuit results"
 LOAD_RESULTS = "Load results"
+REVIEW_FINDINGS = "Review findings"

@@ -10,6 +10,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
+from leakbudget.codes import CODE_KEYS
 from leakbudget.devices import BUDGET_FRACTION_DEFAULT
 from leakbudget.provenance import Kind, Source
 from leakbudget.schema import normalise
@@ -95,6 +96,9 @@ SETTING_SPECS: tuple[SettingSpec, ...] = (
     SettingSpec("Load factor", _fraction, LOAD_FACTOR_DEFAULT,
                 Source.common_practice("80 % of rating for continuous load"),
                 "Share of a circuit's rating the split planner may load it to (default 0.8)."),
+    SettingSpec("Code", _choice(*CODE_KEYS), None, Source(Kind.DEFAULT, "default by supply frequency"),
+                f"Wiring code `leakbudget review` checks against: {', '.join(CODE_KEYS)} (default nec-2023 for a "
+                "60 Hz plan, iec-60364 for a 50 Hz plan)."),
 )
 SPECS_BY_NAME = {normalise(s.name): s for s in SETTING_SPECS}
 

@@ -5,11 +5,12 @@ from __future__ import annotations
 from pathlib import Path
 
 from leakbudget import CAUTION
-from leakbudget.catalogue import built_in
+from leakbudget.catalogue import WAVEFORMS, built_in
 from leakbudget.devices import DEVICES
 from leakbudget.errors import WorkbookError
 from leakbudget.leakage import SYSTEMS
-from leakbudget.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, SETTINGS, Sheet
+from leakbudget.locations import LOCATION_KINDS
+from leakbudget.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, SETTINGS, Sheet
 from leakbudget.settings import SETTING_SPECS
 from leakbudget.workbook import RCD_TYPES
 
@@ -29,6 +30,9 @@ INSTRUCTIONS = (
     "5. Appliances and Cables (optional): your own catalogue rows; they add to the built-in ones and replace rows "
     "with the same key.",
     "6. Run: leakbudget check THIS.xlsx   (results go to the sheets 'Circuit results' and 'Load results').",
+    "7. Review against a wiring code: leakbudget review THIS.xlsx --code nec-2023 (or nec-2020, iec-60364, "
+    "bs-7671). Locations (optional): room names the built-in table does not know, with the kind of location "
+    "they are.",
     "",
     "Caution: " + CAUTION,
 )
@@ -68,10 +72,13 @@ def write_template(path: str | Path) -> Path:
         "Leg": list(LEGS),
         "System": list(SYSTEMS),
         "Fixed": ["yes", "no"],
+        "Shared neutral": ["yes", "no"],
+        "Waveform": list(WAVEFORMS),
+        "Location kind": list(LOCATION_KINDS),
         "Cable": list(catalogue.cables),
     }
     sheets = {}
-    for spec in (CIRCUITS, LOADS, SETTINGS, APPLIANCES, CABLES):
+    for spec in (CIRCUITS, LOADS, SETTINGS, APPLIANCES, CABLES, LOCATIONS):
         ws = book.add_worksheet(spec.name)
         _header(ws, book, spec, bold)
         sheets[spec.name] = ws
@@ -89,7 +96,7 @@ def write_template(path: str | Path) -> Path:
         col = chr(65 + j)
         book.define_name(f"lb_{name.replace(' ', '_').lower()}", f"=Lists!${col}$2:${col}${len(values) + 1}")
     hidden.hide()
-    for spec in (CIRCUITS, LOADS):
+    for spec in (CIRCUITS, LOADS, LOCATIONS):
         ws = sheets[spec.name]
         for j, col in enumerate(spec.columns):
             if col.name in lists:

@@ -15,7 +15,8 @@ from leakbudget.errors import WorkbookError
 from leakbudget.leakage import SYSTEMS, parse_leg
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.provenance import Source
-from leakbudget.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, SETTINGS, Sheet, normalise
+from leakbudget.locations import rows_from_table
+from leakbudget.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, SETTINGS, Sheet, normalise
 from leakbudget.settings import (
     IEC_SUPPLY, MAX_PLAUSIBLE_LEAKAGE_MA, SPECS_BY_NAME, SUPPLY_SOURCES, US_SUPPLY, Settings,
 )
@@ -170,7 +171,7 @@ def read_circuits(table: RawTable, settings: Settings, catalogue: cat.Catalogue,
             supply_source=supply_source, system=system,
             rating_a=table.number(row, "Rating", "A", positive=True),
             cable_length_m=length, cable_key=cable_key, rooms=rooms,
-            note=table.text(row, "Note"), row=row[0],
+            note=table.text(row, "Note"), row=row[0], shared_neutral=bool(table.flag(row, "Shared neutral")),
         ))
     for label, ids in defaulted.items():
         shown = ", ".join(ids[:8]) + (f" and {len(ids) - 8} more" if len(ids) > 8 else "")
@@ -226,6 +227,7 @@ def read_loads(table: RawTable, circuits: list[Circuit], catalogue: cat.Catalogu
             power_w=table.number(row, "Power", "W"), current_a=table.number(row, "Current", "A"),
             leg=legs, leg_text="-".join(legs), room=table.text(row, "Room"),
             fixed=bool(table.flag(row, "Fixed")), note=table.text(row, "Note"), row=row[0],
+            waveform=table.choice(row, "Waveform", cat.WAVEFORMS),
         ))
     return loads
 
@@ -255,7 +257,10 @@ def read_project(path: str | Path) -> Project:
     for key in sorted(settings.extra):
         if key not in KNOWN_EXTRA_SETTINGS:
             warnings.append(f"the setting '{key}' is not one leakbudget knows; it was ignored")
-    return Project(path, circuits, loads, settings, catalogue, warnings, defaults_used)
+    locations_table = _table(grids, LOCATIONS, path)
+    location_rows = (rows_from_table(locations_table, f"your sheet '{locations_table.sheet}'")
+                     if locations_table is not None else [])
+    return Project(path, circuits, loads, settings, catalogue, warnings, defaults_used, location_rows)
 
 
 # Settings read by later stages (planner, risk, review); listed so they are not reported as unknown.

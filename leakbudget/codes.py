@@ -1,0 +1,144 @@
+"""The wiring codes the review checks against, as data: where each requires ground-fault protection for people,
+which appliance outlets it names, and which devices provide that protection.
+
+The requirements are paraphrased for design review and cover dwellings only; the code in force, as adopted
+locally, always decides. Every rule carries its source; clauses not confirmed here say "from memory".
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from enum import Enum
+from typing import Any
+
+from leakbudget.devices import Device, Family
+from leakbudget.provenance import Source
+
+# Default code when neither --code nor the Code setting gives one, by the circuits' supply frequency: a 60 Hz
+# plan is taken as a US dwelling (the current NEC edition), a 50 Hz plan as IEC 60364 (the international base
+# that national codes such as BS 7671 adopt); choose bs-7671 explicitly for a UK job.
+DEFAULT_CODE_BY_FREQUENCY_HZ = {60.0: "nec-2023", 50.0: "iec-60364"}
+
+# BS 7671:2018 reg. 415.1.1: additional protection is an RCD with IΔn not above 30 mA (and at most 40 ms at 5 IΔn).
+ADDITIONAL_PROTECTION_MAX_MA = 30.0
+# BS 7671:2018 reg. 411.3.3: additional protection for socket-outlets rated up to 32 A.
+SOCKET_OUTLET_MAX_A = 32.0
+
+
+class Scope(str, Enum):
+    """What in a location a requirement covers."""
+
+    RECEPTACLES = "receptacles"  # 125-250 V receptacles (socket-outlets) in the location
+    COUNTERTOP = "countertop receptacles"  # only receptacles serving countertops (NEC 2020 kitchens)
+    ALL_CIRCUITS = "all circuits"  # every circuit serving the location
+
+
+@dataclass(frozen=True, slots=True)
+class LocationRule:
+    scope: Scope
+    source: Source
+
+
+@dataclass(frozen=True)
+class Code:
+    """One code's review rules."""
+
+    key: str
+    label: str
+    family: str  # "nec" (GFCI for personnel) or "iec" (RCD additional protection)
+    location_source: Source  # the clause the location rules come from
+    locations: dict[str, LocationRule]  # location kind → requirement
+    appliance_outlets: dict[str, str] = field(default_factory=dict)  # appliance key → the rule's wording
+    appliance_source: Source | None = None
+    ev_source: Source | None = None
+    socket_source: Source | None = None  # IEC / BS: socket-outlets need additional protection wherever they are
+    waveform_source: Source = Source.published("IEC 60755 / IEC 62423 (RCD types AC, A, F, B)")
+    budget_is_regulation: bool = False  # the 30 % budget rule is a regulation of this code (for RCDs)
+
+    @property
+    def requirement(self) -> str:
+        """The protection this code's location and outlet rules ask for, in words."""
+        if self.family == "nec":
+            return "GFCI protection for personnel (Class A)"
+        return f"additional protection by an RCD of IΔn {ADDITIONAL_PROTECTION_MAX_MA:g} mA or less"
+
+    @property
+    def remedy(self) -> str:
+        """What to fit to meet :attr:`requirement`, with the device key."""
+        if self.family == "nec":
+            return "fit a Class A GFCI (gfci-a)"
+        return (f"fit an RCD to IEC 61008-1 / IEC 61009-1 of IΔn {ADDITIONAL_PROTECTION_MAX_MA:g} mA or less "
+                f"(rcd-30 or rcd-10)")
+
+    def satisfied_by(self, device: Device) -> bool:
+        """Whether ``device`` is the kind of protection this code's location and outlet rules require."""
+        if self.family == "nec":
+            return device.family is Family.GFCI
+        return device.family is Family.RCD and device.trip_ma <= ADDITIONAL_PROTECTION_MAX_MA
+
+
+def _nec(year: int, kitchen: Scope, appliance_outlets: dict[str, str], appliance_source: Source) -> Code:
+    where = Source.published(f"NEC {year} 210.8(A)")
+    wet = LocationRule(Scope.RECEPTACLES, where)
+    locations = {kind: wet for kind in (
+        "bathroom", "half-bath", "garage", "accessory-building", "outdoor", "crawl-space", "basement",
+        "sink-area", "boathouse", "laundry", "damp",
+    )}
+    locations["kitchen"] = LocationRule(kitchen, where)
+    return Code(
+        key=f"nec-{year}", label=f"NEC {year} (NFPA 70), dwelling units", family="nec", location_source=where,
+        locations=locations, appliance_outlets=appliance_outlets, appliance_source=appliance_source,
+        ev_source=Source.published(f"NEC {year} 625.54"),
+    )
+
+
+def _iec(key: str, label: str, *, bath: str, ev: str, sockets: Source, **extra: Any) -> Code:
+    """An IEC-family code: 30 mA RCD additional protection for socket-outlets, every circuit of a room with a bath
+    or shower, and EV charging points (the bath and EV clauses are cited from memory)."""
+    bath_rule = Source.from_memory(f"{bath} (all circuits of a room with a bath or shower), from memory")
+    return Code(
+        key=key, label=label, family="iec", location_source=bath_rule,
+        locations={"bathroom": LocationRule(Scope.ALL_CIRCUITS, bath_rule)},
+        ev_source=Source.from_memory(f"{ev} (each charging point on an RCD), from memory"),
+        socket_source=sockets, **extra,
+    )
+
+
+# NEC 2023 210.8(D): outlets supplying these appliances need GFCI protection (catalogue key → the rule's word).
+NEC_2023_APPLIANCES = {
+    "dishwasher": "dishwashers",
+    "range-electric": "ranges",
+    "wall-oven": "wall-mounted ovens",
+    "cooktop-radiant": "counter-mounted cooking units",
+    "induction-hob": "counter-mounted cooking units",
+    "dryer": "clothes dryers",
+    "heat-pump-dryer": "clothes dryers",
+    "microwave": "microwave ovens",
+    "sump-pump": "sump pumps",
+}
+
+CODES: dict[str, Code] = {
+    "nec-2020": _nec(2020, Scope.COUNTERTOP, {"dishwasher": "dishwashers"},
+                     Source.from_memory("NEC 2020 210.8(D) (dishwasher outlets in dwelling units), from memory")),
+    "nec-2023": _nec(2023, Scope.RECEPTACLES, NEC_2023_APPLIANCES, Source.published("NEC 2023 210.8(D)")),
+    "iec-60364": _iec(
+        "iec-60364", "IEC 60364 (low-voltage installations)", bath="IEC 60364-7-701 701.411.3.3",
+        ev="IEC 60364-7-722 722.531.2.101",
+        sockets=Source.from_memory(
+            "IEC 60364-4-41 411.3.3 and 415.1.1 (socket-outlets up to 32 A; the 32 A limit from memory)"),
+    ),
+    "bs-7671": _iec(
+        "bs-7671", "BS 7671:2018 (IET Wiring Regulations)", bath="BS 7671:2018 reg. 701.411.3.3",
+        ev="BS 7671:2018 reg. 722.531.2.101", sockets=Source.published("BS 7671:2018 reg. 411.3.3 and 415.1.1"),
+        waveform_source=Source.published("BS 7671:2018 reg. 531.3.3; IEC 62423 (RCD types AC, A, F, B)"),
+        budget_is_regulation=True,
+    ),
+}
+CODE_KEYS = tuple(CODES)
+
+EV_CHARGER_KEY_PREFIX = "ev-charger"  # catalogue keys of EV charging equipment start with this
+
+
+def is_ev_charger(appliance_key: str | None) -> bool:
+    """Whether a catalogue key names EV charging equipment (built-in keys and user rows named ``ev-charger…``)."""
+    return bool(appliance_key) and appliance_key.startswith(EV_CHARGER_KEY_PREFIX)

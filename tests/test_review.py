@@ -1,0 +1,561 @@
+"""The compliance review: every rule with a case that triggers it and one that does not, each naming the rule's
+source (standard, edition and clause, or common practice) in the test name or a comment.
+
+Workbooks are built with XlsxWriter (tests/conftest.py) and read through the normal reader.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from typing import Any
+
+import pytest
+from typer.testing import CliRunner
+
+from leakbudget.cli import app
+from leakbudget.errors import WorkbookError
+from leakbudget.locations import classify
+from leakbudget.provenance import Kind
+from leakbudget.review import (
+    GFCI_RUN_LIMIT_M, RULES, SWITCH_ON_FACTOR, Finding, ReviewError, Severity, review, rule_description, run_review,
+)
+from leakbudget.workbook import read_project
+
+runner = CliRunner()
+
+CIRCUITS = ["Circuit", "Device", "RCD type", "Voltage", "Frequency", "System", "Rating", "Cable length", "Rooms",
+            "Shared neutral"]
+LOADS = ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Power", "Room", "Waveform"]
+
+
+def circuit(cid: str, device: str, rooms: str | None = None, *, rcd_type: str | None = None, us: bool = True,
+            system: str = "single", rating: float = 20, length: float | str | None = None,
+            shared: str | None = None) -> list[Any]:
+    v, f = (120, 60) if us else (230, 50)
+    return [cid, device, rcd_type, v, f, system, rating, length, rooms, shared]
+
+
+def load(name: str, cid: str | None, appliance: str | None = None, leakage: str | None = None, *,
+         power: float | str | None = None, room: str | None = None, waveform: str | None = None,
+         quantity: int = 1) -> list[Any]:
+    return [name, cid, appliance, quantity, leakage, power, room, waveform]
+
+
+@pytest.fixture
+def plan(make_workbook):
+    count = iter(range(1000))
+
+    def build(circuits: list[list[Any]], loads: list[list[Any]], settings: list[list[Any]] | None = None,
+              locations: list[list[Any]] | None = None):
+        sheets: dict[str, list[list[Any]]] = {"Circuits": [CIRCUITS, *circuits], "Loads": [LOADS, *loads]}
+        if settings:
+            sheets["Settings"] = [["Setting", "Value"], *settings]
+        if locations:
+            sheets["Locations"] = [["Room name", "Location kind"], *locations]
+        return read_project(make_workbook(sheets, f"plan{next(count)}.xlsx"))
+    return build
+
+
+def found(project, rule: str, code: str | None = None) -> list[Finding]:
+    return [f for f in review(project, code) if f.rule == rule]
+
+
+# --------------------------------------------------------------------------------------------- code choice
+
+
+def test_code_defaults_by_supply_frequency(plan):
+    us = plan([circuit("K1", "gfci-a", "Kitchen")], [load("Kettle", "K1", "kettle")])
+    iec = plan([circuit("K1", "rcd-30", "Kitchen", us=False)], [load("Kettle", "K1", "kettle")])
+    assert run_review(us).code.key == "nec-2023"
+    assert run_review(iec).code.key == "iec-60364"
+    assert run_review(us).code_source.kind is Kind.DEFAULT
+
+
+def test_code_setting_and_option(plan):
+    p = plan([circuit("K1", "rcd-30", "Kitchen", us=False)], [load("Kettle", "K1", "kettle")],
+             settings=[["Code", "BS-7671"]])
+    rv = run_review(p)
+    assert rv.code.key == "bs-7671" and rv.code_source.kind is Kind.USER
+    assert run_review(p, "nec-2020").code.key == "nec-2020"  # the option wins over the setting
+    with pytest.raises(ReviewError, match="'nec-2017' is not a code"):
+        run_review(p, "nec-2017")
+
+
+# --------------------------------------------------------------------------------------------- room table
+
+
+@pytest.mark.parametrize("room, kinds", [
+    ("Main bath", ("bathroom",)),
+    ("Guest Bathrooms", ("bathroom",)),  # plural
+    ("Garage bath", ("garage", "bathroom")),  # two kinds named
+    ("Wet bar", ("sink-area",)),  # the longer match wins over 'wet'
+    ("Bedroom balcony", ("outdoor",)),  # dry is dropped beside another kind
+    ("Powder room", ("half-bath",)),
+    ("Crawl-space", ("crawl-space",)),
+    ("Snug", ()),
+])
+def test_room_names_classify_through_the_built_in_table(room, kinds):
+    assert classify(room).kinds == kinds
+
+
+def test_users_locations_rows_come_first(plan):
+    p = plan([circuit("U1", "none", "Utility, Snug")], [load("Iron", "U1", "iron")],
+             locations=[["utility", "damp"], ["Snug", "dry"]])
+    assert classify("Utility", p.location_rows).kinds == ("damp",)  # built-in says laundry
+    assert classify("Snug", p.location_rows).kinds == ("dry",)
+    assert "your sheet 'Locations' row 2" in classify("Utility", p.location_rows).matches[0].origin
+
+
+def test_locations_sheet_with_unknown_kind_names_the_cell(plan):
+    with pytest.raises(WorkbookError, match=r"sheet 'Locations', row 2, column 'Location kind', cell B2: 'spa' is "
+                                            r"not one of bathroom"):
+        plan([circuit("U1", "none", "Snug")], [load("Iron", "U1", "iron")], locations=[["Snug", "spa"]])
+
+
+# --------------------------------------------------------------------------------------------- location
+
+
+def test_location_nec_2023_210_8_A_bathroom_receptacle_without_gfci_is_an_error(plan):
+    p = plan([circuit("B1", "none", "Main bath")], [load("Hair dryer", "B1", "hair-dryer")])
+    (f,) = found(p, "location")
+    assert (f.severity, f.circuit, str(f.source)) == (Severity.ERROR, "B1", "NEC 2023 210.8(A)")
+    assert f.message == (
+        "B1 serves Main bath (bathroom): NEC 2023 210.8(A) requires GFCI protection for personnel (Class A) for "
+        "receptacles there; B1 has no ground-fault protection: fit a Class A GFCI (gfci-a).")
+
+
+def test_location_nec_2023_210_8_A_satisfied_by_a_class_a_gfci(plan):
+    p = plan([circuit("B1", "gfci-a", "Main bath")], [load("Hair dryer", "B1", "hair-dryer")])
+    assert found(p, "location") == []
+
+
+def test_location_nec_2023_210_8_A_wrong_kind_of_device(plan):
+    # UL 943C special-purpose GFCIs (20 mA) are not personnel protection (Class A, UL 943).
+    p = plan([circuit("G1", "spgfci", "Garage")], [load("Compressor", "G1", "air-compressor")])
+    (f,) = found(p, "location")
+    assert f.severity is Severity.ERROR and "has spgfci (Special-purpose GFCI Class C/D/E), not that kind" in f.message
+
+
+def test_location_nec_210_8_A_covers_receptacles_so_fixed_wiring_is_info(plan):
+    p = plan([circuit("B1", "none", "Main bath")], [load("Towel warmer", "B1", "towel-warmer")])  # fixed
+    (f,) = found(p, "location")
+    assert f.severity is Severity.INFO and "all fixed-wired" in f.message
+
+
+def test_location_kitchen_nec_2020_countertop_only_versus_nec_2023_all_receptacles(plan):
+    # NEC 2020 210.8(A): kitchen receptacles serving countertops; NEC 2023 210.8(A): all kitchen receptacles.
+    p = plan([circuit("K1", "none", "Kitchen")], [load("Fridge", "K1", "refrigerator")])
+    (old,) = found(p, "location", "nec-2020")
+    (new,) = found(p, "location", "nec-2023")
+    assert (old.severity, str(old.source)) == (Severity.WARNING, "NEC 2020 210.8(A)")
+    assert (new.severity, str(new.source)) == (Severity.ERROR, "NEC 2023 210.8(A)")
+    assert "countertop receptacles" in old.message
+
+
+def test_location_iec_701_every_circuit_of_a_bathroom_needs_30ma_rcd(plan):
+    # IEC 60364-7-701 / BS 7671:2018 701.411.3.3 (from memory): all circuits of a room with a bath or shower.
+    fan = [load("Towel warmer", "B1", "towel-warmer")]  # fixed-wired: still covered
+    for device, expected in (("none", 1), ("rcd-100", 1), ("rcd-30", 0), ("rcd-10", 0)):
+        p = plan([circuit("B1", device, "En suite", us=False)], fan)
+        hits = found(p, "location", "bs-7671")
+        assert len(hits) == expected, device
+        assert all(h.severity is Severity.ERROR and "701.411.3.3" in str(h.source) for h in hits)
+        assert all(h.source.kind is Kind.FROM_MEMORY for h in hits)
+
+
+def test_location_dry_room_needs_nothing(plan):
+    p = plan([circuit("O1", "none", "Office")], [load("PC", "O1", "desktop-pc")])
+    assert found(p, "location") == [] and found(p, "room-unclassified") == []
+
+
+# --------------------------------------------------------------------------------------------- unclassified
+
+
+def test_room_unclassified_is_reported_and_a_locations_row_cures_it(plan):
+    circuits = [circuit("S1", "none", "Snug"), circuit("S2", "gfci-a", "Snug")]
+    loads = [load("Lamp", "S1", "monitor"), load("TV", "S2", "monitor")]
+    hits = found(plan(circuits, loads), "room-unclassified")
+    assert [(h.circuit, h.severity) for h in hits] == [("S1", Severity.WARNING), ("S2", Severity.INFO)]
+    assert hits[0].message.startswith("Room 'Snug' on S1 is not in the room table")
+    assert str(hits[0].source) == "NEC 2023 210.8(A)"  # the rule left unchecked
+    assert found(plan(circuits, loads, locations=[["snug", "dry"]]), "room-unclassified") == []
+
+
+# --------------------------------------------------------------------------------------------- appliance outlets
+
+
+def test_appliance_outlet_nec_2023_210_8_D_microwave_and_dishwasher(plan):
+    p = plan([circuit("D1", "none", "Dining room")],
+             [load("Microwave", "D1", "microwave"), load("Dishwasher", "D1", "dishwasher"),
+              load("Lamp", "D1", "monitor")])
+    assert [(f.load, str(f.source)) for f in found(p, "appliance-outlet", "nec-2023")] == [
+        ("Microwave", "NEC 2023 210.8(D)"), ("Dishwasher", "NEC 2023 210.8(D)")]
+    # NEC 2020 210.8(D) covers dishwasher outlets only (from memory).
+    assert [f.load for f in found(p, "appliance-outlet", "nec-2020")] == ["Dishwasher"]
+    assert found(p, "appliance-outlet", "bs-7671") == []
+
+
+def test_appliance_outlet_satisfied_by_gfci(plan):
+    p = plan([circuit("D1", "gfci-a", "Dining room")], [load("Microwave", "D1", "microwave")])
+    assert found(p, "appliance-outlet") == []
+
+
+# --------------------------------------------------------------------------------------------- EV charging
+
+
+def test_ev_charging_nec_625_54_covers_receptacles(plan):
+    p = plan([circuit("E1", "none", "Driveway"), circuit("E2", "none", "Driveway", rating=50)],
+             [load("Cord set", "E1", "ev-charger-level-1"), load("Wall unit", "E2", "ev-charger-level-2")])
+    hits = found(p, "ev-charging")
+    assert [(h.load, str(h.source)) for h in hits] == [("Cord set", "NEC 2023 625.54")]  # the fixed unit: none
+    assert found(plan([circuit("E1", "gfci-a", "Driveway")], [load("Cord set", "E1", "ev-charger-level-1")]),
+                 "ev-charging") == []
+
+
+def test_ev_charging_iec_722_needs_an_rcd(plan):
+    # IEC 60364-7-722 722.531.2.101 (from memory): each charging point on an RCD of 30 mA or less.
+    loads = [load("Wallbox", "E1", "ev-charger-wallbox-230v")]
+    (hit,) = found(plan([circuit("E1", "none", "Garage", us=False, rating=40)], loads), "ev-charging", "iec-60364")
+    assert "722.531.2.101" in str(hit.source) and hit.severity is Severity.ERROR
+    assert found(plan([circuit("E1", "rcd-30", "Garage", us=False, rcd_type="B", rating=40)], loads),
+                 "ev-charging", "iec-60364") == []
+
+
+# --------------------------------------------------------------------------------------------- socket-outlets
+
+
+def test_socket_outlets_bs_7671_411_3_3(plan):
+    # BS 7671:2018 reg. 411.3.3 / 415.1.1: socket-outlets up to 32 A need an RCD of IΔn ≤ 30 mA.
+    kettle = [load("Kettle", "C1", "kettle")]
+    (hit,) = found(plan([circuit("C1", "none", "Kitchen", us=False)], kettle), "socket-outlets", "bs-7671")
+    assert (hit.severity, str(hit.source)) == (Severity.ERROR, "BS 7671:2018 reg. 411.3.3 and 415.1.1")
+    assert found(plan([circuit("C1", "rcd-30", "Kitchen", us=False)], kettle), "socket-outlets", "bs-7671") == []
+    assert found(plan([circuit("C1", "none", "Kitchen", us=False, rating=40)], kettle), "socket-outlets",
+                 "bs-7671") == []  # above 32 A
+    heater = [load("Water heater", "C1", "storage-water-heater")]  # fixed-wired: no socket-outlet
+    assert found(plan([circuit("C1", "none", "Kitchen", us=False)], heater), "socket-outlets", "bs-7671") == []
+
+
+def test_socket_outlets_unknown_connection_is_a_warning(plan):
+    p = plan([circuit("C1", "rcd-100", "Kitchen", us=False)], [load("Something", "C1", None, "0.4 mA")])
+    (hit,) = found(p, "socket-outlets", "iec-60364")
+    assert hit.severity is Severity.WARNING and hit.source.kind is Kind.FROM_MEMORY  # 32 A limit from memory
+
+
+# --------------------------------------------------------------------------------------------- waveform
+
+
+@pytest.mark.parametrize("rcd_type, waveform, severity", [
+    # IEC 60755 / IEC 62423: AC sees sine only; A adds pulsating DC; F adds inverter frequencies; B adds smooth DC.
+    ("AC", "pulsating-dc", Severity.ERROR),
+    ("A", "pulsating-dc", None),
+    ("AC", "high-frequency", Severity.ERROR),
+    ("A", "high-frequency", Severity.WARNING),
+    ("F", "high-frequency", None),
+    ("F", "smooth-dc", Severity.WARNING),
+    ("B", "smooth-dc", None),
+    ("AC", "sine", None),
+])
+def test_waveform_against_rcd_type_iec_62423(plan, rcd_type, waveform, severity):
+    p = plan([circuit("C1", "rcd-30", "Office", us=False, rcd_type=rcd_type)],
+             [load("Drive", "C1", None, "1 mA", waveform=waveform)])
+    hits = found(p, "waveform")
+    assert [h.severity for h in hits] == ([severity] if severity else [])
+    if hits:
+        assert "Waveform column" in hits[0].message
+
+
+def test_waveform_smooth_dc_cites_iec_62955_dc_detection(plan):
+    p = plan([circuit("E1", "rcd-30", "Garage", us=False, rcd_type="A", rating=40)],
+             [load("Wallbox", "E1", "ev-charger-wallbox-230v")])
+    (hit,) = found(p, "waveform")
+    assert "IEC 62955" in str(hit.source) and "IEC 62955 6 mA DC-detecting device" in hit.message
+    assert "catalogue 'ev-charger-wallbox-230v'" in hit.message
+
+
+def test_waveform_column_overrides_the_catalogue(plan):
+    circuits = [circuit("C1", "rcd-30", "Office", us=False, rcd_type="AC")]
+    # the catalogue's hair dryer leaks pulsating DC; the user's measurement says sine
+    assert found(plan(circuits, [load("Dryer", "C1", "hair-dryer", waveform="sine")]), "waveform") == []
+    assert len(found(plan(circuits, [load("Dryer", "C1", "hair-dryer")]), "waveform")) == 1
+    # the catalogue's kettle is sine; the user says its electronics leak pulsating DC
+    assert len(found(plan(circuits, [load("Kettle", "C1", "kettle", waveform="Pulsating-DC")]), "waveform")) == 1
+
+
+def test_waveform_unknown_device_type_is_info(plan):
+    p = plan([circuit("L1", "gfci-a", "Laundry")], [load("Washer", "L1", "washer-inverter")])
+    (hit,) = found(p, "waveform")
+    assert hit.severity is Severity.INFO and "Type F or B sees it" in hit.message
+
+
+def test_waveform_column_rejects_unknown_values(plan):
+    with pytest.raises(WorkbookError, match=r"sheet 'Loads', row 2, column 'Waveform', cell H2: 'square' is not one"):
+        plan([circuit("C1", "rcd-30", "Office", us=False)], [load("X", "C1", "kettle", waveform="square")])
+
+
+# --------------------------------------------------------------------------------------------- fault sign
+
+
+def test_fault_sign_ul_101_refrigerator_above_0_75_ma(plan):
+    # UL 101: stationary cord-connected appliance at most 0.75 mA.
+    hits = found(plan([circuit("K1", "gfci-a", "Kitchen")], [load("Fridge", "K1", "refrigerator", "1.2 mA")]),
+                 "fault-sign")
+    assert [(h.severity, str(h.source)) for h in hits] == [
+        (Severity.ERROR, "UL 101 (0.75 mA, stationary cord-connected)")]
+    assert "probably faulty" in hits[0].message and "not a budget problem" in hits[0].message
+    assert found(plan([circuit("K1", "gfci-a", "Kitchen")], [load("Fridge", "K1", "refrigerator", "0.7 mA")]),
+                 "fault-sign") == []
+
+
+@pytest.mark.parametrize("power, measured, faulty", [
+    # IEC 60335-1 cl. 13.2, class I stationary heating: 0.75 mA/kW, at least 0.75 mA, at most 5 mA.
+    ("3 kW", "2.5 mA", True),  # limit 0.75 × 3 = 2.25 mA
+    ("5 kW", "2.5 mA", False),  # limit 3.75 mA
+    ("8 kW", "5.5 mA", True),  # 6 mA capped at 5 mA
+    ("0.5 kW", "0.8 mA", True),  # 0.375 mA raised to the 0.75 mA floor
+])
+def test_fault_sign_iec_60335_1_heating_limit_scales_with_power(plan, power, measured, faulty):
+    p = plan([circuit("K1", "rcd-30", "Kitchen", us=False)],
+             [load("Oven", "K1", "wall-oven", measured, power=power)])
+    hits = found(p, "fault-sign")
+    assert bool(hits) is faulty
+    if hits:
+        assert str(hits[0].source).startswith("IEC 60335-1 cl. 13.2 (class I stationary heating")
+
+
+def test_fault_sign_against_a_from_memory_upper_is_only_info(plan):
+    p = plan([circuit("K1", "gfci-a", "Kitchen")], [load("Microwave", "K1", "microwave", "1.5 mA")])
+    (hit,) = found(p, "fault-sign")
+    assert hit.severity is Severity.INFO and hit.source.kind is Kind.FROM_MEMORY
+    assert "not a published limit" in hit.message
+
+
+# --------------------------------------------------------------------------------------------- high leakage
+
+
+def test_high_leakage_plug_connected_above_3_5_ma_iec_60950_1_5_1_7(plan):
+    circuits = [circuit("W1", "rcd-30", "Workshop", us=False)]
+    (hit,) = found(plan(circuits, [load("Welder", "W1", "inverter-welder", "4.2 mA")]), "high-leakage")
+    assert hit.severity is Severity.WARNING and "IEC 60950-1 5.1.7" in str(hit.source)
+    assert found(plan(circuits, [load("Welder", "W1", "inverter-welder", "3.4 mA")]), "high-leakage") == []
+    # permanently connected equipment may exceed 3.5 mA (IEC 61140 Annex B): no finding
+    assert found(plan(circuits, [load("Pump", "W1", "pool-pump-vfd", "4.2 mA")]), "high-leakage") == []
+
+
+def test_high_leakage_uses_the_upper_basis_when_chosen(plan):
+    circuits = [circuit("W1", "rcd-30", "Workshop", us=False)]
+    loads = [load("Welder", "W1", "inverter-welder")]  # catalogue typical 1 mA, upper 5 mA (IEC 61140 Annex B)
+    assert found(plan(circuits, loads), "high-leakage") == []
+    assert len(found(plan(circuits, loads, settings=[["Basis", "upper"]]), "high-leakage")) == 1
+
+
+# --------------------------------------------------------------------------------------------- shared neutral
+
+
+@pytest.mark.parametrize("device, system, shared, expected", [
+    ("gfci-a", "single", "yes", 1),  # single-pole device on a shared neutral: trips (common practice)
+    ("gfci-a", "split", "yes", 0),  # two-pole device carries both lines and the neutral
+    ("gfci-a", "single", None, 0),
+    ("none", "single", "yes", 0),
+])
+def test_shared_neutral_on_a_single_pole_device(plan, device, system, shared, expected):
+    p = plan([circuit("K1", device, "Kitchen", system=system, shared=shared)], [load("Fridge", "K1", "refrigerator")])
+    hits = found(p, "shared-neutral")
+    assert len(hits) == expected
+    if hits:
+        assert hits[0].severity is Severity.ERROR and hits[0].source.kind is Kind.COMMON_PRACTICE
+
+
+def test_shared_neutral_column_takes_yes_or_no(plan):
+    with pytest.raises(WorkbookError, match=r"column 'Shared neutral', cell J2: 'maybe' is not yes or no"):
+        plan([circuit("K1", "gfci-a", "Kitchen", shared="maybe")], [load("Fridge", "K1", "refrigerator")])
+
+
+# --------------------------------------------------------------------------------------------- long run
+
+
+def test_long_run_gfci_250_ft_common_practice(plan):
+    assert GFCI_RUN_LIMIT_M == pytest.approx(250 * 0.3048)  # 250 ft in metres (international foot)
+    loads = [load("Pump", "P1", "pond-pump")]
+    (hit,) = found(plan([circuit("P1", "gfci-a", "Patio", length="300 ft")], loads), "long-run")
+    assert hit.severity is Severity.WARNING and hit.source.kind is Kind.COMMON_PRACTICE
+    assert "91 m (300 ft)" in hit.message
+    assert found(plan([circuit("P1", "gfci-a", "Patio", length="200 ft")], loads), "long-run") == []
+    assert found(plan([circuit("P1", "rcd-30", "Patio", us=False, length=300)], loads), "long-run") == []
+
+
+# --------------------------------------------------------------------------------------------- switch-on
+
+
+def test_switch_on_heating_element_crosses_no_trip(plan):
+    # UL 943 Class A: budget 0.3 × 6 = 1.8 mA, no-trip 4 mA. A dry element within budget whose switch-on value
+    # (SWITCH_ON_FACTOR × dry, from memory) reaches 4 mA is flagged; below 4 mA it is not.
+    circuits = [circuit("W1", "gfci-a", "Laundry")]
+    crossing = round(4.0 / SWITCH_ON_FACTOR + 0.05, 2)
+    assert crossing <= 1.8  # the dry value is within budget, so only the switch-on rule can speak
+    (hit,) = found(plan(circuits, [load("Heater", "W1", "storage-water-heater", f"{crossing} mA")]), "switch-on")
+    assert hit.severity is Severity.WARNING and hit.source.kind is Kind.FROM_MEMORY
+    assert f"{crossing * SWITCH_ON_FACTOR:.2f} mA at switch-on" in hit.message
+    below = round(4.0 / SWITCH_ON_FACTOR - 0.05, 2)
+    assert found(plan(circuits, [load("Heater", "W1", "storage-water-heater", f"{below} mA")]), "switch-on") == []
+    # not a heating element: no switch-on rule
+    assert found(plan(circuits, [load("Drive", "W1", None, f"{crossing} mA")]), "switch-on") == []
+
+
+def test_switch_on_not_repeated_when_the_circuit_is_already_over_budget(plan):
+    p = plan([circuit("W1", "gfci-a", "Laundry")], [load("Heater", "W1", "storage-water-heater", "1.9 mA")])
+    assert found(p, "switch-on") == [] and len(found(p, "budget")) == 1
+
+
+# --------------------------------------------------------------------------------------------- budget
+
+
+@pytest.mark.parametrize("measured, code, severity", [
+    # BS 7671:2018 reg. 531.3.2: budget 30 % of IΔn = 9 mA on a 30 mA RCD; IEC 61008-1 no-trip 0.5 IΔn = 15 mA.
+    ("8 mA", "bs-7671", None),
+    ("10 mA", "bs-7671", Severity.ERROR),  # a regulation of the chosen code
+    ("10 mA", "iec-60364", Severity.WARNING),
+    ("16 mA", "iec-60364", Severity.ERROR),  # at the no-trip level: nuisance trips
+])
+def test_budget_findings_follow_the_check(plan, measured, code, severity):
+    p = plan([circuit("C1", "rcd-30", "Office", us=False, rating=40)], [load("Rack", "C1", None, measured)])
+    hits = found(p, "budget", code)
+    assert [h.severity for h in hits] == ([severity] if severity else [])
+    if severity is Severity.ERROR and measured == "16 mA":
+        assert "IEC 61008-1" in str(hits[0].source)
+
+
+# --------------------------------------------------------------------------------------------- every rule
+
+
+def everything(plan):
+    """One US plan that triggers every NEC rule, one IEC plan for the rest."""
+    us = plan(
+        [circuit("B1", "none", "Main bath, Snug"), circuit("K1", "gfci-a", "Kitchen", shared="yes", length="300 ft"),
+         circuit("W1", "gfci-a", "Laundry"), circuit("G1", "gfci-a", "Garage"),
+         circuit("D1", "none", "Dining room")],
+        [load("Hair dryer", "B1", "hair-dryer"), load("Fridge", "K1", "refrigerator", "1.2 mA"),
+         load("Heater", "W1", "storage-water-heater", "1.5 mA"), load("Welder", "G1", "inverter-welder", "4.5 mA"),
+         load("Microwave", "D1", "microwave"), load("Cord set", "D1", "ev-charger-level-1")],
+    )
+    iec = plan([circuit("C1", "rcd-30", "Office", us=False, rcd_type="AC"), circuit("C2", "none", "Office", us=False)],
+               [load("Drive", "C1", None, "1 mA", waveform="high-frequency"), load("Kettle", "C2", "kettle")])
+    return review(us, "nec-2023"), review(iec, "bs-7671")
+
+
+def test_every_rule_is_exercised_and_described(plan):
+    us, iec = everything(plan)
+    rules = {f.rule for f in us + iec}
+    assert rules == set(RULES), set(RULES) - rules
+    assert all(rule_description(r) for r in RULES)
+
+
+FORBIDDEN = re.compile(r"\b(remove|removing|omit|bypass|disable|up-?rat\w*|raise|larger|higher|less sensitive|"
+                       r"100 mA|300 mA|500 mA)\b", re.IGNORECASE)
+
+
+def test_no_finding_advises_removing_or_up_rating_protection(plan):
+    # IEC 60479-1: personnel protection trips at 4-6 mA (US) or 30 mA (IEC) for a reason; advice is to split,
+    # measure, repair, relocate or fit the kind of device the code asks for.
+    us, iec = everything(plan)
+    for f in us + iec:
+        assert not FORBIDDEN.search(f.message), f.message
+
+
+def test_findings_are_sorted_errors_first_and_every_finding_has_a_source(plan):
+    for findings in everything(plan):
+        order = [f.severity for f in findings]
+        assert order == sorted(order, key=[Severity.ERROR, Severity.WARNING, Severity.INFO].index)
+        assert len(set(order)) > 1 or len(order) < 3
+        assert all(str(f.source) for f in findings)
+
+
+def test_finding_shape(plan):
+    f = everything(plan)[0][0]
+    assert set(f.to_dict()) == {"severity", "rule", "source", "source_kind", "circuit", "load", "message"}
+
+
+def test_review_accepts_a_check_result(plan):
+    from leakbudget.estimate import check
+
+    p = plan([circuit("B1", "none", "Main bath")], [load("Hair dryer", "B1", "hair-dryer")])
+    assert review(check(p)) == review(p)
+
+
+# --------------------------------------------------------------------------------------------- command line
+
+
+def test_cli_review_json_and_exit_codes(make_workbook):
+    ok = make_workbook({"Circuits": [CIRCUITS, circuit("B1", "gfci-a", "Main bath")],
+                        "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")]}, "ok.xlsx")
+    result = runner.invoke(app, ["review", str(ok), "--json", "--no-write"])
+    assert result.exit_code == 0, result.output
+    doc = json.loads(result.stdout)
+    assert doc["code"] == "nec-2023" and doc["counts"]["error"] == 0
+    bad = make_workbook({"Circuits": [CIRCUITS, circuit("B1", "none", "Main bath")],
+                         "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")]}, "bad.xlsx")
+    result = runner.invoke(app, ["review", str(bad), "--json", "--no-write", "--code", "nec-2020"])
+    assert result.exit_code == 1
+    doc = json.loads(result.stdout)
+    assert doc["findings"][0] == {
+        "severity": "error", "rule": "location", "source": "NEC 2020 210.8(A)", "source_kind": "published",
+        "circuit": "B1", "load": None,
+        "message": "B1 serves Main bath (bathroom): NEC 2020 210.8(A) requires GFCI protection for personnel "
+                   "(Class A) for receptacles there; B1 has no ground-fault protection: fit a Class A GFCI (gfci-a).",
+    }
+
+
+def test_cli_review_text_and_bad_code(make_workbook):
+    path = make_workbook({"Circuits": [CIRCUITS, circuit("B1", "none", "Main bath")],
+                          "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")]})
+    result = runner.invoke(app, ["review", str(path), "--no-write"])
+    assert result.exit_code == 1
+    assert "error location · B1" in result.stdout
+    assert "Source: NEC 2023 210.8(A)" in result.stdout
+    wrong = runner.invoke(app, ["review", str(path), "--no-write", "--code", "nec-2017"])
+    assert wrong.exit_code == 2
+    assert wrong.stderr.strip().startswith("Error: 'nec-2017' is not a code leakbudget reviews against")
+
+
+def test_findings_sheet_rows(plan):
+    from leakbudget.review import FINDING_COLUMNS, findings_rows
+
+    p = plan([circuit("B1", "none", "Main bath")], [load("Hair dryer", "B1", "hair-dryer")])
+    rv = run_review(p, "nec-2023")
+    rows = findings_rows(rv)
+    assert FINDING_COLUMNS == ("Severity", "Rule", "Circuit", "Load", "Finding", "Source", "Source kind")
+    assert rows[0][:4] == ["error", "location", "B1", None]
+    assert rows[0][5:] == ["NEC 2023 210.8(A)", "published"]
+    assert all(len(r) == len(FINDING_COLUMNS) for r in rows)
+    footer = [r[0] for r in rows[len(rv.findings) + 1:]]
+    assert footer[0] == "Reviewed against NEC 2023 (NFPA 70), dwelling units: chosen for this run (--code)."
+    assert footer[1] == f"1 error(s), 0 warning(s), {rv.count(Severity.INFO)} info."
+    assert footer[-1].startswith("Caution: ")
+
+
+def test_cli_review_writes_the_findings_sheet(make_workbook, tmp_path):
+    import python_calamine
+
+    path = make_workbook({"Circuits": [CIRCUITS, circuit("B1", "none", "Main bath")],
+                          "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")]})
+    out = tmp_path / "reviewed.xlsx"
+    result = runner.invoke(app, ["review", str(path), "--out", str(out)])
+    assert result.exit_code == 1
+    assert f"Findings written to {out} (sheet 'Review findings')." in " ".join(result.stdout.split())
+    book = python_calamine.CalamineWorkbook.from_path(str(out))  # read back by an independent reader
+    assert book.sheet_names == ["Circuits", "Loads", "Review findings"]
+    grid = book.get_sheet_by_name("Review findings").to_python()
+    assert grid[0] == ["Severity", "Rule", "Circuit", "Load", "Finding", "Source", "Source kind"]
+    assert grid[1][:3] == ["error", "location", "B1"] and grid[1][5] == "NEC 2023 210.8(A)"
+    # the user's own sheets are untouched
+    assert book.get_sheet_by_name("Circuits").to_python()[1][:2] == ["B1", "none"]
+
+
+def test_demo_review_agrees_with_its_check():
+    from leakbudget.jobs import example_path
+
+    rv = run_review(read_project(example_path()))
+    flagged = {c.circuit.circuit_id for c in rv.check.circuits if c.status.value in ("over-budget", "trip-risk")}
+    assert {f.circuit for f in rv.findings if f.rule == "budget"} == flagged == {"K-CTR1", "G-BENCH", "P-OUT"}
+    assert rv.code.key == "nec-2023" and rv.errors == []  # every wet-location circuit of the demo has a Class A GFCI
