@@ -85,6 +85,38 @@ def _caution() -> None:
     err_console.print(f"[dim]Caution: {CAUTION}[/dim]", highlight=False)
 
 
+def render_readings(result: Any) -> None:
+    """The Readings sheet beside the estimate, and the calibrated figures where asked."""
+    from leakbudget.readings import THRESHOLDS
+    from leakbudget.results import readings_list
+
+    rows = readings_list(result)
+    if not rows:
+        return
+    table = Table(title="Readings against the estimate (mA)", title_justify="left", box=box.SIMPLE_HEAD,
+                  pad_edge=False, padding=(0, 1, 0, 0))
+    for header in ("Circuit", "Reading", "Conditions", "Estimate (95% range)", "Flag", "Calibrated"):
+        table.add_column(header, justify="right" if header == "Reading" else "left", overflow="fold")
+    for d in rows:
+        estimate = (f"{_fmt(d['estimate_median_ma'], 2)} ({_fmt(d['estimate_low_ma'], 2)}-"
+                    f"{_fmt(d['estimate_high_ma'], 2)})")
+        flag_style = {"far above": "bold red", "far below": "yellow"}.get(d["flag"], "green")
+        calibrated = "-"
+        if d["calibration_factor"] is not None:
+            calibrated = (f"×{d['calibration_factor']:.2f}: sum {_fmt(d['estimate_gate_ma'], 2)} → "
+                          f"{_fmt(d['calibrated_gate_ma'], 2)}, {d['estimate_status']} → {d['calibrated_status']}, "
+                          f"P(trip) {d['estimate_trip_probability_text']} → {d['calibrated_trip_probability_text']}")
+        elif d["calibration"]:
+            calibrated = d["calibration"]
+        table.add_row(d["circuit"], _fmt(d["reading_ma"], 2), d["conditions"] + (f", {d['date']}" if d["date"] else ""),
+                      estimate, f"[{flag_style}]{d['flag']}[/]", calibrated)
+    out_console.print(table)
+    for d in rows:
+        if d["flag"] != "consistent":
+            out_console.print(f"{d['circuit']} (Readings row {d['row']}): {d['message']}.", highlight=False)
+    out_console.print(f"Thresholds: {THRESHOLDS}", highlight=False)
+
+
 def render_check(job: Any) -> None:
     from leakbudget.results import circuit_dict
 
@@ -94,7 +126,7 @@ def render_check(job: Any) -> None:
     table = Table(title=f"Standing leakage per circuit (mA): {project.path.name}", title_justify="left",
                   box=box.SIMPLE_HEAD, pad_edge=False, padding=(0, 1, 0, 0))
     table.add_column("Circuit", overflow="fold", max_width=14)
-    for header in ("Device", "Sum", "Phasor", "Budget", "No-trip", "Used", "Status"):
+    for header in ("Device", "Sum", "Phasor", "Budget", "No-trip", "Used", "Status", "P(trip)", "Switch-on"):
         table.add_column(header, justify="left" if header in ("Device", "Status") else "right", no_wrap=True)
     table.add_column("Largest contributor", overflow="fold")
     for c in result.circuits:
@@ -103,7 +135,8 @@ def render_check(job: Any) -> None:
         largest = f"{d['largest_contributor']} ({_fmt(d['largest_contributor_ma'], 2)})" if d["largest_contributor"] else "-"
         table.add_row(
             d["circuit"], d["device"], _fmt(d["leakage_ma"], 2), _fmt(d["phasor_ma"], 2), _fmt(d["budget_ma"], 2),
-            _fmt(d["no_trip_ma"], 2), used, f"[{STATUS_STYLE[d['status']]}]{d['status']}[/]", largest,
+            _fmt(d["no_trip_ma"], 2), used, f"[{STATUS_STYLE[d['status']]}]{d['status']}[/]",
+            d["trip_probability_text"], d["trip_probability_switch_on_text"], largest,
         )
     out_console.print(table)
     s = project.settings
@@ -111,6 +144,14 @@ def render_check(job: Any) -> None:
         f"Budget = {s.budget_fraction:g} × trip level ({s.sources['Budget fraction']}); gated by the {gate} sum; "
         f"catalogue basis: {s.basis}.", highlight=False,
     )
+    if result.risk is not None:
+        for line in result.risk.method:
+            out_console.print(f"Trip likelihood: {line}", highlight=False)
+    for r in result.loads:
+        if r.measured_on:
+            out_console.print(f"Identical unit: '{r.name}' takes the Leakage measured on {r.measured_on} (same "
+                              "appliance and model).", highlight=False)
+    render_readings(result)
     for line in project.defaults_used:
         out_console.print(f"Default used: {line}", highlight=False)
     for line in project.warnings:

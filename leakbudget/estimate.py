@@ -3,7 +3,9 @@
 Order of preference per load (the results say which was used):
 1. ``Leakage`` given → measured (per unit, at the circuit's supply);
 2. ``Y capacitance`` and/or ``Insulation resistance`` → computed, I = 2π f C V and I = V / R;
-3. catalogue row → typical or upper value (the ``Basis`` setting), rescaled from the row's reference supply
+3. a ``Leakage`` measured on an identical unit (same ``Appliance`` and ``Model``) → measured, rescaled to this
+   load's supply (:func:`leakbudget.readings.stand_in_readings`);
+4. catalogue row → typical or upper value (the ``Basis`` setting), rescaled from the row's reference supply
    (capacitive part ∝ V·f, resistive part ∝ V).
 Times quantity. The cable run of each circuit adds its own computed line (capacitance to earth × length).
 """
@@ -11,7 +13,8 @@ Times quantity. The cable run of each circuit adds its own computed line (capaci
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -20,6 +23,11 @@ from leakbudget.catalogue import Appliance
 from leakbudget.devices import Status, budget_ma, budget_source, status
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.provenance import Source
+from leakbudget.readings import stand_in_readings
+
+if TYPE_CHECKING:
+    from leakbudget.readings import ReadingResult
+    from leakbudget.risk import RiskResult, TripProbability
 
 MEASURED = "measured"
 COMPUTED = "computed"
@@ -42,6 +50,7 @@ class LoadResult:
     source: str  # where the figure comes from, in words
     voltage_v: float
     frequency_hz: float
+    measured_on: str | None = None  # the identical unit(s) whose Leakage reading this load takes
 
 
 @dataclass(slots=True)
@@ -58,6 +67,7 @@ class CircuitResult:
     largest: str | None  # name of the largest contributor
     largest_ma: float
     load_count: int
+    risk: TripProbability | None = None  # likelihood of a nuisance trip (None when unprotected)
 
 
 @dataclass
@@ -65,6 +75,8 @@ class CheckResult:
     project: Project
     circuits: list[CircuitResult]
     loads: list[LoadResult]  # loads in sheet order, then cable lines
+    risk: RiskResult | None = None  # trip likelihoods and how they were computed
+    readings: list[ReadingResult] = field(default_factory=list)  # Readings sheet reconciled with the estimate
 
     @property
     def all_ok(self) -> bool:
@@ -224,6 +236,7 @@ def estimate(project: Project) -> list[LoadResult]:
         line = cable_result(circuit, project)
         if line is not None:
             results.append(line)
+    stand_in_readings(project, results)
     return results
 
 
@@ -264,6 +277,12 @@ def evaluate(project: Project, loads: list[LoadResult]) -> list[CircuitResult]:
 
 
 def check(project: Project) -> CheckResult:
-    """Estimate every load and evaluate every circuit."""
+    """Estimate every load, evaluate every circuit, then its trip likelihood and any readings."""
+    from leakbudget.readings import reconcile
+    from leakbudget.risk import assess
+
     loads = estimate(project)
-    return CheckResult(project, evaluate(project, loads), loads)
+    result = CheckResult(project, evaluate(project, loads), loads)
+    result.risk = assess(result)
+    result.readings = reconcile(result)
+    return result

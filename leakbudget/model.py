@@ -51,6 +51,20 @@ class Load:
     note: str | None
     row: int
     waveform: str | None = None  # the Waveform column; None = the catalogue's (or sine)
+    model: str | None = None  # model reference; a Leakage reading on one unit stands for units of the same model
+
+
+@dataclass(slots=True)
+class Reading:
+    """A measured total leakage of one circuit (Readings sheet), with a leakage clamp around its live conductors."""
+
+    circuit_id: str
+    reading_ma: float
+    conditions: str  # "all on" or "idle"
+    date: str | None
+    calibrate: bool  # use this reading to calibrate the circuit's catalogue values
+    note: str | None
+    row: int
 
 
 @dataclass
@@ -65,6 +79,7 @@ class Project:
     warnings: list[str] = field(default_factory=list)
     defaults_used: list[str] = field(default_factory=list)  # plain sentences: "Voltage 120 V (…) for K1, K2"
     location_rows: list[LocationRow] = field(default_factory=list)  # the user's Locations sheet
+    readings: list[Reading] = field(default_factory=list)  # optional Readings sheet
 
     def circuit_index(self) -> dict[str, int]:
         return {c.circuit_id.lower(): i for i, c in enumerate(self.circuits)}

@@ -81,6 +81,8 @@ LOADS = Sheet(
         Column("Waveform", None, False, "Leakage waveform: sine, pulsating-dc, high-frequency or smooth-dc; "
                                         "overrides the catalogue's."),
         Column("Note", None, False, "Free text, copied to the results."),
+        Column("Model", None, False, "Model reference; a Leakage measured on one unit stands for the units with "
+                                     "the same Appliance and Model that have no figure of their own."),
     ),
 )
 
@@ -139,9 +141,24 @@ LOCATIONS = Sheet(
     ),
 )
 
-SHEETS: tuple[Sheet, ...] = (CIRCUITS, LOADS, SETTINGS, APPLIANCES, CABLES, LOCATIONS)
+READINGS = Sheet(
+    "Readings",
+    False,
+    "Measured total leakage of whole circuits (leakage clamp around the circuit's line and neutral conductors).",
+    (
+        Column("Circuit", None, True, "Circuit id from the Circuits sheet."),
+        Column("Reading", "mA", True, "The clamp reading: residual (protective conductor) current of the circuit."),
+        Column("Conditions", None, False, "all on (every load connected and running, the default) or idle."),
+        Column("Date", None, False, "When it was measured."),
+        Column("Calibrate", None, False, "yes to scale the circuit's catalogue values to match this reading."),
+        Column("Note", None, False, "Free text, copied to the results."),
+    ),
+)
+
+SHEETS: tuple[Sheet, ...] = (CIRCUITS, LOADS, SETTINGS, APPLIANCES, CABLES, LOCATIONS, READINGS)
 
 # Result sheets written back into the workbook; these names are reserved (replaced on every run).
 CIRCUIT_RESULTS = "Circuit results"
 LOAD_RESULTS = "Load results"
 REVIEW_FINDINGS = "Review findings"
+READING_RESULTS = "Reading results"

@@ -13,6 +13,7 @@ from typing import Any
 from leakbudget.codes import CODE_KEYS
 from leakbudget.devices import BUDGET_FRACTION_DEFAULT
 from leakbudget.provenance import Kind, Source
+from leakbudget import risk
 from leakbudget.schema import normalise
 from leakbudget.units import UnitProblem, to_unit
 
@@ -99,6 +100,19 @@ SETTING_SPECS: tuple[SettingSpec, ...] = (
     SettingSpec("Code", _choice(*CODE_KEYS), None, Source(Kind.DEFAULT, "default by supply frequency"),
                 f"Wiring code `leakbudget review` checks against: {', '.join(CODE_KEYS)} (default nec-2023 for a "
                 "60 Hz plan, iec-60364 for a 50 Hz plan)."),
+    SettingSpec("Meter accuracy", _fraction, risk.METER_ACCURACY_DEFAULT, risk.METER_ACCURACY_SOURCE,
+                "± accuracy of your leakage clamp as a share of the reading (default 5 %)."),
+    SettingSpec("Component tolerance", _fraction, risk.COMPONENT_TOLERANCE_DEFAULT, risk.COMPONENT_TOLERANCE_SOURCE,
+                "± tolerance of Y capacitance, insulation resistance and cable figures (default 20 %)."),
+    SettingSpec("Upper percentile", risk.parse_percentile, risk.UPPER_PERCENTILE_DEFAULT,
+                risk.UPPER_PERCENTILE_SOURCE,
+                "Percentile the catalogue upper value stands for in the trip likelihood (default 95 %)."),
+    SettingSpec("Switch-on factor", risk.parse_factor, risk.SWITCH_ON_FACTOR_DEFAULT, risk.SWITCH_ON_FACTOR_SOURCE,
+                "Leakage of a heating element at switch-on after idle, as a multiple of its dry value (default 3)."),
+    SettingSpec("Samples", risk.parse_samples, None, risk.SAMPLES_SOURCE,
+                "Monte Carlo samples for the trip likelihood: auto (default) or a whole number."),
+    SettingSpec("Seed", risk.parse_seed, risk.SEED_DEFAULT, risk.SEED_SOURCE,
+                "Seed of the random numbers; the same workbook and seed give the same likelihoods."),
 )
 SPECS_BY_NAME = {normalise(s.name): s for s in SETTING_SPECS}
 

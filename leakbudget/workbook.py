@@ -16,7 +16,8 @@ from leakbudget.leakage import SYSTEMS, parse_leg
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.provenance import Source
 from leakbudget.locations import rows_from_table
-from leakbudget.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, SETTINGS, Sheet, normalise
+from leakbudget.readings import read_readings
+from leakbudget.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, READINGS, SETTINGS, Sheet, normalise
 from leakbudget.settings import (
     IEC_SUPPLY, MAX_PLAUSIBLE_LEAKAGE_MA, SPECS_BY_NAME, SUPPLY_SOURCES, US_SUPPLY, Settings,
 )
@@ -228,6 +229,7 @@ def read_loads(table: RawTable, circuits: list[Circuit], catalogue: cat.Catalogu
             leg=legs, leg_text="-".join(legs), room=table.text(row, "Room"),
             fixed=bool(table.flag(row, "Fixed")), note=table.text(row, "Note"), row=row[0],
             waveform=table.choice(row, "Waveform", cat.WAVEFORMS),
+            model=table.text(row, "Model"),
         ))
     return loads
 
@@ -254,13 +256,16 @@ def read_project(path: str | Path) -> Project:
     defaults_used: list[str] = []
     circuits = read_circuits(circuits_table, settings, catalogue, defaults_used)
     loads = read_loads(loads_table, circuits, catalogue)
+    readings_table = _table(grids, READINGS, path)
+    readings = read_readings(readings_table, circuits, defaults_used) if readings_table is not None else []
     for key in sorted(settings.extra):
         if key not in KNOWN_EXTRA_SETTINGS:
             warnings.append(f"the setting '{key}' is not one leakbudget knows; it was ignored")
     locations_table = _table(grids, LOCATIONS, path)
     location_rows = (rows_from_table(locations_table, f"your sheet '{locations_table.sheet}'")
                      if locations_table is not None else [])
-    return Project(path, circuits, loads, settings, catalogue, warnings, defaults_used, location_rows)
+    return Project(path, circuits, loads, settings, catalogue, warnings, defaults_used, location_rows,
+                   readings)
 
 
 # Settings read by later stages (planner, risk, review); listed so they are not reported as unknown.
