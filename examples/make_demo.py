@@ -30,7 +30,8 @@ CIRCUITS = [
 LOADS = [
     ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Y capacitance", "Insulation resistance", "Power",
      "Current", "Leg", "Room", "Fixed", "Note"],
-    ["Refrigerator", "K-CTR1", "refrigerator", 1, None, None, None, None, 6, None, "Kitchen", "yes", None],
+    ["Refrigerator", "K-CTR1", "refrigerator", 1, "0.41 mA", None, None, None, 6, None, "Kitchen", "yes",
+     "Clamp reading by R. Okonjo, 2026-10-14"],
     ["Coffee machine", "K-CTR1", "coffee-machine", 1, None, None, None, 1200, None, None, "Kitchen", None, None],
     ["Toaster", "K-CTR1", "toaster", 1, None, None, None, 900, None, None, "Kitchen", None, None],
     ["Kettle", "K-CTR1", "kettle", 1, None, None, None, 1500, None, None, "Kitchen", None, None],
@@ -72,6 +73,23 @@ LOADS = [
      "New: not yet placed"],
 ]
 
+# The garage refrigerator is the same model as the kitchen one: the kitchen unit's reading stands for it.
+MODELS = {"Refrigerator": "FR-240", "Garage refrigerator": "FR-240"}
+
+READINGS = [
+    ["Circuit", "Reading", "Conditions", "Date", "Calibrate", "Note"],
+    ["K-DW", "3.1 mA", "all on", "2026-10-14", None, "Dishwasher mid-cycle"],
+    ["P-OUT", "2.4 mA", "all on", "2026-10-14", None, "Pond pump and lights running"],
+    ["G-BENCH", "1.0 mA", "all on", "2026-10-15", "yes", "Everything plugged in and running"],
+    ["L-WASH", "0.3 mA", "idle", "2026-10-15", None, "Washer door open, not running"],
+]
+
+
+def with_models(rows: list[list[object]]) -> list[list[object]]:
+    """The Loads rows with a Model column added."""
+    return [rows[0] + ["Model"]] + [row + [MODELS.get(str(row[0]))] for row in rows[1:]]
+
+
 SETTINGS = [
     ["Setting", "Value"],
     ["Voltage", 120],
@@ -96,7 +114,8 @@ def build(path: Path) -> Path:
     about.set_column(0, 0, 100)
     for i, line in enumerate(ABOUT):
         about.write_string(i, 0, line, bold if i == 0 else None)
-    for name, rows in (("Circuits", CIRCUITS), ("Loads", LOADS), ("Settings", SETTINGS)):
+    for name, rows in (("Circuits", CIRCUITS), ("Loads", with_models(LOADS)), ("Settings", SETTINGS),
+                       ("Readings", READINGS)):
         ws = book.add_worksheet(name)
         for i, row in enumerate(rows):
             for j, value in enumerate(row):
