@@ -149,8 +149,8 @@ def render_check(job: Any) -> None:
             out_console.print(f"Trip likelihood: {line}", highlight=False)
     for r in result.loads:
         if r.measured_on:
-            out_console.print(f"Identical unit: '{r.name}' takes the Leakage measured on {r.measured_on} (same "
-                              "appliance and model).", highlight=False)
+            out_console.print(f"Identical unit: '{r.name}' takes the Leakage measured on {r.measured_on}: same "
+                              "appliance and model.", highlight=False)
     render_readings(result)
     for line in project.defaults_used:
         out_console.print(f"Default used: {line}", highlight=False)

@@ -44,6 +44,7 @@ IDLE = "idle"
 CONDITION_WORDS = {"all on": ALL_ON, "all loads on": ALL_ON, "on": ALL_ON, "running": ALL_ON, "idle": IDLE,
                    "standby": IDLE}
 
+CALIBRATE_ADVICE = "consider calibrating this circuit with the reading (Calibrate = yes)"
 FAR_ABOVE = "far above"
 FAR_BELOW = "far below"
 CONSISTENT = "consistent"
@@ -192,7 +193,7 @@ def classify(reading_ma: float, conditions: str, low_ma: float, high_ma: float, 
         if conditions == IDLE:
             return CONSISTENT, "below the estimate, as expected with loads idle (not flagged)"
         return FAR_BELOW, ("far below the estimate: the catalogue values are probably too high for this site; "
-                           "consider calibrating this circuit with the reading")
+                           + CALIBRATE_ADVICE)
     return CONSISTENT, "consistent with the estimate"
 
 
@@ -281,6 +282,8 @@ def reconcile(result: "CheckResult") -> list[ReadingResult]:
         low, median, high = intervals[cid]
         flag, message = classify(reading.reading_ma, reading.conditions, low, high, params.meter_accuracy)
         calibration, note = _calibrate(result, reading) if reading.calibrate else (None, None)
+        if flag == FAR_BELOW and calibration is not None:
+            message = message.replace(CALIBRATE_ADVICE, "calibrated with this reading")
         out.append(ReadingResult(reading, result.circuits[index[cid.lower()]].phasor_ma, low, median, high, flag,
                                  message, calibration, note))
     return out

@@ -76,6 +76,7 @@ SAMPLES_MIN = 1_000  # auto never goes below this (standard error at most 0.016)
 SAMPLES_LIMIT = 1_000_000  # the largest count the Samples setting accepts
 ELEMENT_BUDGET = 50_000_000  # auto: random loads × samples kept below this unless SAMPLES_MIN forces more
 BLOCK_ELEMENTS = 250_000  # rows × samples drawn at once: 1 MB of float32, small enough to stay in cache
+STREAM_CACHE_ELEMENTS = 4_000_000  # random-number matrices up to this size are kept for reuse (16 MB each)
 RULE_OF_THREE = 3.0  # 95 % upper bound on a probability after 0 events in N trials is 3 / N (Hanley 1983)
 
 # Shapes of a load's distribution.
@@ -86,11 +87,16 @@ SHAPES = (FIXED, UNIFORM, LOGNORMAL)
 
 
 # --- Parsers for the Settings sheet ------------------------------------------------------------------------------
+def _shown(value: Any) -> str:
+    """A cell value as the user typed it (a whole float without its '.0')."""
+    return str(int(value)) if isinstance(value, float) and value.is_integer() else str(value)
+
+
 def parse_percentile(value: Any) -> float:
     """A percentile as a fraction strictly between 0.5 and 1 ('95 %' or 0.95)."""
     result = to_unit(value, "dimensionless")
     if not 0.5 < result < 1.0:
-        raise UnitProblem(f"'{value}' is not a percentile between 50 % and 100 % (type 95 % or 0.95)")
+        raise UnitProblem(f"'{_shown(value)}' is not a percentile between 50 % and 100 % (type 95 % or 0.95)")
     return result
 
 
@@ -98,7 +104,7 @@ def parse_factor(value: Any) -> float:
     """A multiplier of at least 1."""
     result = to_unit(value, "dimensionless")
     if result < 1.0:
-        raise UnitProblem(f"'{value}' is below 1 (a switch-on factor multiplies the dry leakage)")
+        raise UnitProblem(f"'{_shown(value)}' is below 1 (a switch-on factor multiplies the dry leakage)")
     return result
 
 
@@ -108,7 +114,7 @@ def parse_samples(value: Any) -> int | None:
         return None
     result = to_unit(value, "dimensionless")
     if not float(result).is_integer() or not 100 <= result <= SAMPLES_LIMIT:
-        raise UnitProblem(f"'{value}' is not auto or a whole number from 100 to {SAMPLES_LIMIT:,}")
+        raise UnitProblem(f"'{_shown(value)}' is not auto or a whole number from 100 to {SAMPLES_LIMIT:,}")
     return int(result)
 
 
@@ -116,7 +122,7 @@ def parse_seed(value: Any) -> int:
     """A whole number from 0 upwards."""
     result = to_unit(value, "dimensionless")
     if not float(result).is_integer() or result < 0:
-        raise UnitProblem(f"'{value}' is not a whole number of 0 or more")
+        raise UnitProblem(f"'{_shown(value)}' is not a whole number of 0 or more")
     return int(result)
 
 
@@ -137,14 +143,8 @@ class LeakageDistribution(NamedTuple):
     coefficient: complex = 1.0 + 0.0j
     switch_on_factor: float = 1.0
 
-    @property
-    def random(self) -> bool:
-        """Whether the value varies (a zero spread or a zero centre makes it fixed)."""
-        return self.shape != FIXED and self.spread > 0.0 and self.centre_ma > 0.0
 
-
-@dataclass(frozen=True, slots=True)
-class TripProbability:
+class TripProbability(NamedTuple):
     """P(standing leakage ≥ trip point) in dry running and at switch-on after idle, with standard errors."""
 
     dry: float
@@ -211,8 +211,8 @@ def lognormal_sigma(typical_ma: float, upper_ma: float, percentile: float) -> fl
     return math.log(upper_ma / typical_ma) / NormalDist().inv_cdf(percentile)
 
 
-def trip_point_cdf(current_ma, no_trip_ma: float, trip_ma: float):
-    """P(T ≤ I) for a trip point T uniform between the no-trip and trip levels [mA]; works on arrays."""
+def trip_point_cdf(current_ma, no_trip_ma, trip_ma):
+    """P(T ≤ I) for a trip point T uniform between the no-trip and trip levels [mA]; arrays broadcast."""
     return np.clip((np.asarray(current_ma, dtype=float) - no_trip_ma) / (trip_ma - no_trip_ma), 0.0, 1.0)
 
 
@@ -226,11 +226,28 @@ def auto_samples(random_rows: int) -> int:
 def _streams(seed: int, positions: int, samples: int) -> tuple[np.ndarray, np.ndarray]:
     """Uniform and standard-normal draws, ``positions × samples`` each, from two independent seeded streams.
 
-    numpy fills the matrices row by row, so the first k rows are the same whatever ``positions`` is.
+    numpy fills the matrices row by row, so the first k rows are the same whatever ``positions`` is; small
+    requests are served as slices of a cached larger matrix (the split planner calls this many times).
     """
+    capacity = max(16, 1 << (positions - 1).bit_length())
+    if capacity * samples <= STREAM_CACHE_ELEMENTS:
+        uniform, normal = _cached_streams(seed, capacity, samples)
+        return uniform[:positions], normal[:positions]
+    return _draw_streams(seed, positions, samples)
+
+
+def _draw_streams(seed: int, positions: int, samples: int) -> tuple[np.ndarray, np.ndarray]:
     uniform_seq, normal_seq = np.random.SeedSequence(seed).spawn(2)
     uniform = np.random.Generator(np.random.PCG64(uniform_seq)).random((positions, samples), dtype=np.float32)
     normal = np.random.Generator(np.random.PCG64(normal_seq)).standard_normal((positions, samples), dtype=np.float32)
+    return uniform, normal
+
+
+@lru_cache(maxsize=4)
+def _cached_streams(seed: int, positions: int, samples: int) -> tuple[np.ndarray, np.ndarray]:
+    uniform, normal = _draw_streams(seed, positions, samples)
+    uniform.flags.writeable = False
+    normal.flags.writeable = False
     return uniform, normal
 
 
@@ -410,8 +427,8 @@ def _trip_probabilities(rows: _Rows, n_groups: int, levels_ma: Sequence[tuple[fl
     hi = np.array([lv[1] if lv is not None else 1.0 for lv in levels_ma])
     # Exact results for every group from its fixed loads; groups with random loads are overwritten below.
     dry, sw = _combine(fixed[:, :, None], sum_rule)
-    exact_dry = np.clip((dry[:, 0] - lo) / (hi - lo), 0.0, 1.0).tolist()
-    exact_sw = np.clip((sw[:, 0] - lo) / (hi - lo), 0.0, 1.0).tolist()
+    exact_dry = trip_point_cdf(dry[:, 0], lo, hi).tolist()
+    exact_sw = trip_point_cdf(sw[:, 0], lo, hi).tolist()
     out: list[TripProbability | None] = [
         TripProbability(exact_dry[g], 0.0, exact_sw[g], 0.0, 0) if protected[g] else None for g in range(n_groups)]
     rows = rows.subset(protected[rows.group])
@@ -419,8 +436,8 @@ def _trip_probabilities(rows: _Rows, n_groups: int, levels_ma: Sequence[tuple[fl
         sums += fixed[segs][:, :, None]
         dry, sw = _combine(sums, sum_rule)
         a, b = lo[segs, None], hi[segs, None]
-        p_dry, se_dry = _mean_se(np.clip((dry - a) / (b - a), 0.0, 1.0))
-        p_sw, se_sw = _mean_se(np.clip((sw - a) / (b - a), 0.0, 1.0))
+        p_dry, se_dry = _mean_se(trip_point_cdf(dry, a, b))
+        p_sw, se_sw = _mean_se(trip_point_cdf(sw, a, b))
         for k, g in enumerate(segs.tolist()):
             out[g] = TripProbability(float(p_dry[k]), float(se_dry[k]), float(p_sw[k]), float(se_sw[k]), samples)
     return out
@@ -431,8 +448,9 @@ def trip_probability(loads: Sequence[LeakageDistribution], device: Device, *, su
     """P(standing leakage ≥ trip point) for a set of loads on one device, dry and at switch-on.
 
     The pure function the split planner calls for a candidate circuit. With the ``samples`` and ``seed`` that
-    ``check`` used (``RiskResult.samples``, ``RiskResult.seed``) and the loads in the same order, it returns
-    exactly what ``check`` reported for that circuit. Raises ValueError for an unprotected device.
+    ``check`` used (``RiskResult.samples``, ``RiskResult.seed``) and the loads in the same order it uses the same
+    draws, so it returns what ``check`` reported for that circuit (up to float32 summation order). Raises
+    ValueError for an unprotected device.
     """
     if not device.protected:
         raise ValueError(f"device '{device.key}' does not trip on residual current")
@@ -465,34 +483,35 @@ def _describe(results: Sequence["LoadResult"], params: RiskParameters
     """Shape code, centre [mA], spread, phasor coefficient and switch-on factor of each estimated load."""
     from leakbudget.estimate import CATALOGUE, MEASURED
 
-    per_appliance: dict[int, tuple[int, float, float, float]] = {}
-    uniform_measured = (1, 1.0, params.meter_accuracy, 1.0)
-    uniform_computed = (1, 1.0, params.component_tolerance, 1.0)
-    described = []
-    for r in results:
-        a = r.appliance
-        if r.basis == CATALOGUE and a is not None:
-            figures = per_appliance.get(id(a))
-            if figures is None:
-                basis_value = a.upper_ma if params.basis == "upper" else a.typical_ma
-                figures = per_appliance[id(a)] = (
-                    2, a.typical_ma / basis_value if basis_value > 0.0 else 0.0,
-                    lognormal_sigma(a.typical_ma, a.upper_ma, params.upper_percentile),
-                    params.switch_on_factor if a.heating else 1.0)
-        elif r.basis == MEASURED:
-            figures = uniform_measured
-        else:
-            figures = uniform_computed
-        if r.basis != CATALOGUE and a is not None and a.heating and r.load is not None:
-            figures = (*figures[:3], params.switch_on_factor)
-        described.append(figures)
     n = len(results)
-    shape, scale, spread, factor = (np.array(column, dtype=float) for column in zip(*described)) if n else \
-        (np.zeros(0),) * 4
+    appliances: dict[int, tuple[int, Any]] = {}
+    code = np.fromiter((_appliance_code(appliances, r.appliance) for r in results), dtype=np.int64, count=n)
+    rows = [a for _, a in appliances.values()]  # per catalogue row; index -1 (no row) takes the last entries
+    basis_value = [a.upper_ma if params.basis == "upper" else a.typical_ma for a in rows]
+    ratio = np.array([a.typical_ma / v if v > 0.0 else 0.0 for a, v in zip(rows, basis_value)] + [1.0])
+    sigma = np.array([lognormal_sigma(a.typical_ma, a.upper_ma, params.upper_percentile) for a in rows] + [0.0])
+    heating = np.array([a.heating for a in rows] + [False])
+    basis = np.array([r.basis for r in results], dtype=object)
+    is_load = np.fromiter((r.load is not None for r in results), dtype=bool, count=n)
+    catalogue = (basis == CATALOGUE) & (code >= 0)
+    spread = np.where(catalogue, sigma[code], np.where(basis == MEASURED, params.meter_accuracy,
+                                                       params.component_tolerance))
+    factor = np.where(is_load & heating[code], params.switch_on_factor, 1.0)
     leakage = np.fromiter((r.leakage_ma for r in results), dtype=float, count=n)
     phasor = np.fromiter((r.phasor_ma for r in results), dtype=complex, count=n)
     coefficient = np.divide(phasor, leakage, out=np.ones(n, dtype=complex), where=leakage > 0.0)
-    return shape.astype(np.int8), leakage * scale, spread, coefficient, factor
+    centre = leakage * np.where(catalogue, ratio[code], 1.0)
+    return np.where(catalogue, 2, 1).astype(np.int8), centre, spread.astype(float), coefficient, factor
+
+
+def _appliance_code(appliances: dict[int, Any], appliance: Any) -> int:
+    """Index of a catalogue row in ``appliances`` (added on first sight), or -1 for none."""
+    if appliance is None:
+        return -1
+    key = id(appliance)
+    if key not in appliances:
+        appliances[key] = (len(appliances), appliance)
+    return appliances[key][0]
 
 
 def distribution(result: "LoadResult", params: RiskParameters) -> LeakageDistribution:

@@ -10,7 +10,7 @@ from leakbudget.devices import DEVICES
 from leakbudget.errors import WorkbookError
 from leakbudget.leakage import SYSTEMS
 from leakbudget.locations import LOCATION_KINDS
-from leakbudget.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, SETTINGS, Sheet
+from leakbudget.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, READINGS, SETTINGS, Sheet
 from leakbudget.settings import SETTING_SPECS
 from leakbudget.workbook import RCD_TYPES
 
@@ -29,8 +29,10 @@ INSTRUCTIONS = (
     "(typical or upper catalogue values), sum (arithmetic or phasor), length unit, default cable, load factor.",
     "5. Appliances and Cables (optional): your own catalogue rows; they add to the built-in ones and replace rows "
     "with the same key.",
-    "6. Run: leakbudget check THIS.xlsx   (results go to the sheets 'Circuit results' and 'Load results').",
-    "7. Review against a wiring code: leakbudget review THIS.xlsx --code nec-2023 (or nec-2020, iec-60364, "
+    "6. Readings (optional): clamp readings of whole circuits (all loads on, or idle); check compares them with "
+    "the estimate and, with Calibrate = yes, scales the circuit's catalogue values to match.",
+    "7. Run: leakbudget check THIS.xlsx   (results go to the sheets 'Circuit results' and 'Load results').",
+    "8. Review against a wiring code: leakbudget review THIS.xlsx --code nec-2023 (or nec-2020, iec-60364, "
     "bs-7671). Locations (optional): room names the built-in table does not know, with the kind of location "
     "they are.",
     "",
@@ -78,7 +80,7 @@ def write_template(path: str | Path) -> Path:
         "Cable": list(catalogue.cables),
     }
     sheets = {}
-    for spec in (CIRCUITS, LOADS, SETTINGS, APPLIANCES, CABLES, LOCATIONS):
+    for spec in (CIRCUITS, LOADS, SETTINGS, APPLIANCES, CABLES, LOCATIONS, READINGS):
         ws = book.add_worksheet(spec.name)
         _header(ws, book, spec, bold)
         sheets[spec.name] = ws
