@@ -30,7 +30,7 @@ CIRCUITS = [
 LOADS = [
     ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Y capacitance", "Insulation resistance", "Power",
      "Current", "Leg", "Room", "Fixed", "Note"],
-    ["Refrigerator", "K-CTR1", "refrigerator", 1, "0.41 mA", None, None, None, 6, None, "Kitchen", "yes",
+    ["Refrigerator", "K-CTR1", "refrigerator", 1, "0.52 mA", None, None, None, 6, None, "Kitchen", "yes",
      "Clamp reading by R. Okonjo, 2026-10-14"],
     ["Coffee machine", "K-CTR1", "coffee-machine", 1, None, None, None, 1200, None, None, "Kitchen", None, None],
     ["Toaster", "K-CTR1", "toaster", 1, None, None, None, 900, None, None, "Kitchen", None, None],
