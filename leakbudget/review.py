@@ -29,13 +29,15 @@ from leakbudget.provenance import Kind, Source
 from leakbudget.settings import US_SUPPLY
 
 # Heating and cooking elements take up moisture through their end seals while cold; at switch-on their leakage
-# can be several times the dry value until they dry out (BS 7671:2001 guidance). The factor is from memory; it is
-# the one place leakbudget sets it, so a risk model can share it.
-SWITCH_ON_FACTOR = 3.0
-SWITCH_ON_SOURCE = Source.from_memory(
-    f"switch-on leakage of a cold heating element about {SWITCH_ON_FACTOR:g} × its dry value (typical, from memory; "
-    "moist elements: BS 7671:2001 guidance)"
-)
+# can be several times the dry value until they dry out (BS 7671:2001 guidance). The factor is the risk model's
+# `Switch-on factor` setting (one default, in risk.py), so the review and the likelihood agree.
+
+
+def _switch_on(settings) -> tuple[float, Source]:  # type: ignore[no-untyped-def]
+    factor = float(settings["Switch-on factor"])
+    origin = settings.sources["Switch-on factor"]
+    return factor, Source(origin.kind, f"switch-on leakage of a cold heating element about {factor:g} × its dry "
+                                       f"value ({origin}); moist elements: BS 7671:2001 guidance")
 
 # IEC 60950-1 5.1.7 / IEC 62368-1: plug-connected equipment (ordinary plug) may have at most 3.5 mA protective
 # conductor current; above it, permanent connection or an industrial plug and a high-leakage label (IEC 61140
@@ -439,6 +441,7 @@ def rule_switch_on(views: list[_Circuit], code: Code, result: CheckResult) -> It
     """A heating element whose switch-on (moist) leakage would reach the no-trip level while the dry circuit total
     is within budget."""
     phasor = result.project.settings.sum_rule == "phasor"
+    factor, source = _switch_on(result.project.settings)
     total_phasor: dict[str, complex] = {}
     for r in result.loads:
         if r.circuit_id is not None:
@@ -450,14 +453,14 @@ def rule_switch_on(views: list[_Circuit], code: Code, result: CheckResult) -> It
         for r in v.loads:
             if r.appliance is None or not r.appliance.heating:
                 continue
-            extra = SWITCH_ON_FACTOR - 1.0
+            extra = factor - 1.0
             wet_total = (abs(total_phasor[v.cid] + r.phasor_ma * extra) if phasor
                          else v.result.gate_ma + r.leakage_ma * extra)
             if wet_total < dev.no_trip_ma:
                 continue
-            yield Finding(Severity.WARNING, "switch-on", SWITCH_ON_SOURCE, v.cid, r.name,
+            yield Finding(Severity.WARNING, "switch-on", source, v.cid, r.name,
                           f"{r.name} is a heating element: its {_ma(r.leakage_ma)} dry leakage may be about "
-                          f"{_ma(r.leakage_ma * SWITCH_ON_FACTOR)} at switch-on after standing cold, taking {v.cid} "
+                          f"{_ma(r.leakage_ma * factor)} at switch-on after standing cold, taking {v.cid} "
                           f"from {_ma(v.result.gate_ma)} to {_ma(wet_total)}, at or above its no-trip level "
                           f"{_ma(dev.no_trip_ma)}; measure it at switch-on, and move it to a circuit with more "
                           f"headroom (`leakbudget split`) or have the element's seals repaired if it trips.")

@@ -17,8 +17,9 @@ from leakbudget.cli import app
 from leakbudget.errors import WorkbookError
 from leakbudget.locations import classify
 from leakbudget.provenance import Kind
+from leakbudget.risk import SWITCH_ON_FACTOR_DEFAULT as SWITCH_ON_FACTOR
 from leakbudget.review import (
-    GFCI_RUN_LIMIT_M, RULES, SWITCH_ON_FACTOR, Finding, ReviewError, Severity, review, rule_description, run_review,
+    GFCI_RUN_LIMIT_M, RULES, Finding, ReviewError, Severity, review, rule_description, run_review,
 )
 from leakbudget.workbook import read_project
 
