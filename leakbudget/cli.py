@@ -117,27 +117,47 @@ def render_readings(result: Any) -> None:
     out_console.print(f"Thresholds: {THRESHOLDS}", highlight=False)
 
 
+def _short_probability(text: str | None, probability: float | None, wide: bool) -> str:
+    """'1.55% ±0.10' on a wide terminal, '1.6%' (two significant digits) on a narrow one; the ± stays in --json
+    and the sheet."""
+    if not text:
+        return "-"
+    if wide or probability is None or text.startswith("<"):
+        return text if wide else text.split(" ")[0]
+    return f"{100 * probability:.2g}%"
+
+
 def render_check(job: Any) -> None:
     from leakbudget.results import circuit_dict
 
     result = job.result
     project = result.project
     gate = "phasor" if project.settings.sum_rule == "phasor" else "arithmetic"
+    wide = out_console.width >= 110
     table = Table(title=f"Standing leakage per circuit (mA): {project.path.name}", title_justify="left",
                   box=box.SIMPLE_HEAD, pad_edge=False, padding=(0, 1, 0, 0))
-    table.add_column("Circuit", overflow="fold", max_width=14)
-    for header in ("Device", "Sum", "Phasor", "Budget", "No-trip", "Used", "Status", "P(trip)", "Switch-on"):
-        table.add_column(header, justify="left" if header in ("Device", "Status") else "right", no_wrap=True)
-    table.add_column("Largest contributor", overflow="fold")
+    table.add_column("Circuit", overflow="fold", min_width=6)
+    levels = ("Budget", "No-trip") if wide else ("Budget/ no-trip",)
+    for header in ("Device", "Sum", "Phasor", *levels, "Used", "Status", "P(trip)", "Switch-on"):
+        table.add_column(header, justify="left" if header in ("Device", "Status") else "right",
+                         no_wrap=header != "Budget/ no-trip", min_width=9 if header == "Budget/ no-trip" else None)
+    if wide:
+        table.add_column("Largest contributor", overflow="fold")
     for c in result.circuits:
         d = circuit_dict(c)
         used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"
-        largest = f"{d['largest_contributor']} ({_fmt(d['largest_contributor_ma'], 2)})" if d["largest_contributor"] else "-"
-        table.add_row(
-            d["circuit"], d["device"], _fmt(d["leakage_ma"], 2), _fmt(d["phasor_ma"], 2), _fmt(d["budget_ma"], 2),
-            _fmt(d["no_trip_ma"], 2), used, f"[{STATUS_STYLE[d['status']]}]{d['status']}[/]",
-            d["trip_probability_text"], d["trip_probability_switch_on_text"], largest,
-        )
+        budget, no_trip = _fmt(d["budget_ma"], 2), _fmt(d["no_trip_ma"], 2)
+        cells = [
+            d["circuit"], d["device"], _fmt(d["leakage_ma"], 2), _fmt(d["phasor_ma"], 2),
+            *((budget, no_trip) if wide else (f"{budget}/{no_trip}" if d["budget_ma"] is not None else "-",)),
+            used, f"[{STATUS_STYLE[d['status']]}]{d['status']}[/]",
+            _short_probability(d["trip_probability_text"], d["trip_probability"], wide),
+            _short_probability(d["trip_probability_switch_on_text"], d["trip_probability_switch_on"], wide),
+        ]
+        if wide:
+            cells.append(f"{d['largest_contributor']} ({_fmt(d['largest_contributor_ma'], 2)})"
+                         if d["largest_contributor"] else "-")
+        table.add_row(*cells)
     out_console.print(table)
     s = project.settings
     out_console.print(
@@ -159,6 +179,9 @@ def render_check(job: Any) -> None:
     if result.unplaced:
         out_console.print(f"{len(result.unplaced)} load(s) have no circuit yet; `leakbudget split` can place them.")
     bad = [c for c in result.circuits if c.status.value in ("over-budget", "trip-risk")]
+    for c in bad:
+        out_console.print(f"{c.circuit.circuit_id} is {c.status.value}: largest contributor {c.largest} "
+                          f"({c.largest_ma:.2f} mA).", highlight=False)
     if not result.circuits:
         out_console.print("The Circuits sheet has no circuits yet: add one row per circuit.")
     elif bad:
