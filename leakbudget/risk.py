@@ -135,6 +135,8 @@ class LeakageDistribution(NamedTuple):
     ln I for the lognormal [dimensionless]. ``coefficient`` turns the magnitude into the circuit's phasor frame
     (|c| ≤ 1: 1 for a load on L1, −1 on L2 of a split-phase circuit, 0 for a symmetric L1-L2 load, less than 1 for
     a balanced cable run) [dimensionless]. ``switch_on_factor`` multiplies the draw in the switch-on scenario.
+    ``cap`` bounds a lognormal draw at ``cap × centre_ma`` (the catalogue upper value: a unit that is not faulty
+    stays at or below its limit; leakage above it is a fault, which the review flags) [dimensionless].
     """
 
     shape: str
@@ -142,6 +144,7 @@ class LeakageDistribution(NamedTuple):
     spread: float = 0.0
     coefficient: complex = 1.0 + 0.0j
     switch_on_factor: float = 1.0
+    cap: float = math.inf
 
 
 class TripProbability(NamedTuple):
@@ -261,26 +264,28 @@ class _Rows:
     spread: np.ndarray
     coefficient: np.ndarray  # complex
     factor: np.ndarray  # switch-on factor
+    cap: np.ndarray  # lognormal draws are bounded at cap × centre
 
     @classmethod
     def from_arrays(cls, group: np.ndarray, shape: np.ndarray, centre: np.ndarray, spread: np.ndarray,
-                    coefficient: np.ndarray, factor: np.ndarray) -> "_Rows":
+                    coefficient: np.ndarray, factor: np.ndarray, cap: np.ndarray) -> "_Rows":
         """Sort by group (stable) and mark rows without spread, or with nothing to spread, as fixed."""
         shape = np.where((spread <= 0.0) | (centre <= 0.0), 0, shape).astype(np.int8)
         order = np.argsort(group, kind="stable")
-        return cls(group[order], shape[order], centre[order], spread[order], coefficient[order], factor[order])
+        return cls(group[order], shape[order], centre[order], spread[order], coefficient[order], factor[order],
+                   cap[order])
 
     @classmethod
     def build(cls, groups: Sequence[int], loads: Sequence[LeakageDistribution]) -> "_Rows":
-        columns = list(zip(*loads)) if loads else [(), (), (), (), ()]
+        columns = list(zip(*loads)) if loads else [(), (), (), (), (), ()]
         shape = np.array([SHAPES.index(s) for s in columns[0]], dtype=np.int8)
         return cls.from_arrays(np.asarray(groups, dtype=np.int64), shape, np.asarray(columns[1], dtype=float),
                                np.asarray(columns[2], dtype=float), np.asarray(columns[3], dtype=complex),
-                               np.asarray(columns[4], dtype=float))
+                               np.asarray(columns[4], dtype=float), np.asarray(columns[5], dtype=float))
 
     def subset(self, keep: np.ndarray) -> "_Rows":
         return _Rows(self.group[keep], self.shape[keep], self.centre[keep], self.spread[keep],
-                     self.coefficient[keep], self.factor[keep])
+                     self.coefficient[keep], self.factor[keep], self.cap[keep])
 
     def weights(self, sum_rule: str) -> np.ndarray:
         """Per-row weights whose weighted sums make S: (arithmetic) Σv, Σv(f−1); (phasor) re, im, dry and extra."""
@@ -309,10 +314,14 @@ def _positions(group: np.ndarray) -> np.ndarray:
 
 
 def _draw(shape: np.ndarray, centre: np.ndarray, spread: np.ndarray, pos: np.ndarray, uniform: np.ndarray,
-          normal: np.ndarray) -> np.ndarray:
-    """Leakage draws [mA], one row per random load: centre × (1 + a(2U − 1)) or centre × exp(σZ)."""
+          normal: np.ndarray, cap: np.ndarray) -> np.ndarray:
+    """Leakage draws [mA], one row per random load: centre × (1 + a(2U − 1)) or centre × min(exp(σZ), cap)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z_cap = np.where(spread > 0.0, np.log(cap) / np.where(spread > 0.0, spread, 1.0), np.inf)
+
     def lognormal(rows: np.ndarray | slice) -> np.ndarray:
         z = normal[pos[rows]]
+        np.minimum(z, z_cap[rows, None].astype(np.float32), out=z)
         z *= spread[rows, None].astype(np.float32)
         np.exp(z, out=z)
         z *= centre[rows, None].astype(np.float32)
@@ -364,7 +373,7 @@ def _random_sums(rows: _Rows, sum_rule: str, samples: int, seed: int, block_elem
     group = rows.group[random]
     if len(group) == 0:
         return
-    shape, centre, spread = rows.shape[random], rows.centre[random], rows.spread[random]
+    shape, centre, spread, cap = rows.shape[random], rows.centre[random], rows.spread[random], rows.cap[random]
     weights = rows.weights(sum_rule)[:, random]
     pos = _positions(group)
     uniform, normal = _streams(seed, int(pos.max()) + 1, samples)
@@ -374,7 +383,7 @@ def _random_sums(rows: _Rows, sum_rule: str, samples: int, seed: int, block_elem
     n = len(group)
     for i in range(0, n, step):
         j = min(n, i + step)
-        values = _draw(shape[i:j], centre[i:j], spread[i:j], pos[i:j], uniform, normal)
+        values = _draw(shape[i:j], centre[i:j], spread[i:j], pos[i:j], uniform, normal, cap[i:j])
         segs, sums = _segment_sums(values, group[i:j], weights[:, i:j])
         if carry is not None:
             if segs[0] == carry_group:
@@ -479,8 +488,8 @@ def leakage_quantiles(loads: Sequence[LeakageDistribution], probabilities: Seque
 
 # --- From the check's estimates to distributions -------------------------------------------------------------------
 def _describe(results: Sequence["LoadResult"], params: RiskParameters
-              ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Shape code, centre [mA], spread, phasor coefficient and switch-on factor of each estimated load."""
+              ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Shape code, centre [mA], spread, phasor coefficient, switch-on factor and cap of each estimated load."""
     from leakbudget.estimate import CATALOGUE, MEASURED
 
     n = len(results)
@@ -490,6 +499,7 @@ def _describe(results: Sequence["LoadResult"], params: RiskParameters
     basis_value = [a.upper_ma if params.basis == "upper" else a.typical_ma for a in rows]
     ratio = np.array([a.typical_ma / v if v > 0.0 else 0.0 for a, v in zip(rows, basis_value)] + [1.0])
     sigma = np.array([lognormal_sigma(a.typical_ma, a.upper_ma, params.upper_percentile) for a in rows] + [0.0])
+    cap_ratio = np.array([a.upper_ma / a.typical_ma if a.typical_ma > 0.0 else math.inf for a in rows] + [math.inf])
     heating = np.array([a.heating for a in rows] + [False])
     basis = np.array([r.basis for r in results], dtype=object)
     is_load = np.fromiter((r.load is not None for r in results), dtype=bool, count=n)
@@ -501,7 +511,8 @@ def _describe(results: Sequence["LoadResult"], params: RiskParameters
     phasor = np.fromiter((r.phasor_ma for r in results), dtype=complex, count=n)
     coefficient = np.divide(phasor, leakage, out=np.ones(n, dtype=complex), where=leakage > 0.0)
     centre = leakage * np.where(catalogue, ratio[code], 1.0)
-    return np.where(catalogue, 2, 1).astype(np.int8), centre, spread.astype(float), coefficient, factor
+    cap = np.where(catalogue, cap_ratio[code], math.inf)
+    return np.where(catalogue, 2, 1).astype(np.int8), centre, spread.astype(float), coefficient, factor, cap
 
 
 def _appliance_code(appliances: dict[int, Any], appliance: Any) -> int:
@@ -520,9 +531,9 @@ def distribution(result: "LoadResult", params: RiskParameters) -> LeakageDistrib
     Measured: uniform ± meter accuracy; computed and cable: uniform ± component tolerance; catalogue: lognormal
     with the typical value (rescaled to the supply) as median; heating elements carry the switch-on factor.
     """
-    shape, centre, spread, coefficient, factor = _describe([result], params)
+    shape, centre, spread, coefficient, factor, cap = _describe([result], params)
     return LeakageDistribution(SHAPES[int(shape[0])], float(centre[0]), float(spread[0]), complex(coefficient[0]),
-                               float(factor[0]))
+                               float(factor[0]), float(cap[0]))
 
 
 def circuit_distributions(result: "CheckResult", params: RiskParameters
@@ -550,7 +561,8 @@ def method_lines(params: RiskParameters, samples: int, sum_rule: str) -> list[st
         "Model: trip point uniform between the device's no-trip and trip levels; measured values "
         f"±{100 * params.meter_accuracy:g} % (Meter accuracy, rectangular per JCGM 100:2008 4.3.7), computed "
         f"values and cable runs ±{100 * params.component_tolerance:g} % (Component tolerance); catalogue values "
-        f"lognormal, typical = median, upper = {100 * params.upper_percentile:g}th percentile (Upper percentile); "
+        f"lognormal, typical = median, upper = {100 * params.upper_percentile:g}th percentile (Upper percentile) "
+        "and never exceeded (a unit above its upper value is faulty, not standing leakage); "
         f"at switch-on after idle, heating elements × {params.switch_on_factor:g} (Switch-on factor).",
     ]
 

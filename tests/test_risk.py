@@ -80,6 +80,29 @@ def test_two_uniforms_formula_against_scipy_dblquad():
     assert two_uniforms(s1, s2, a, b) == pytest.approx(area / ((s2 - s1) * (b - a)), rel=1e-9)
 
 
+def capped_lognormal_closed_form(median: float, sigma: float, cap_ma: float, a: float, b: float) -> float:
+    """P(min(S, c) ≥ T), S lognormal (median, σ), T ~ U(a, b): ∫₀ᶜ F_T(s) f_S(s) ds + F_T(c) P(S > c), by scipy quad."""
+    from scipy.integrate import quad
+    from scipy.stats import lognorm
+
+    dist = lognorm(s=sigma, scale=median)
+    body, _ = quad(lambda s: uniform_cdf(s, a, b) * dist.pdf(s), a, min(cap_ma, b) if cap_ma > a else a)
+    tail = uniform_cdf(cap_ma, a, b) * dist.sf(cap_ma)
+    if cap_ma > b:
+        body += dist.cdf(cap_ma) - dist.cdf(b)
+    return body + tail
+
+
+@pytest.mark.parametrize(("median", "upper", "cap"), [(2.0, 3.5, 5.0), (1.0, 5.0, 5.0), (3.0, 6.52, 6.52)],
+                         ids=["cap-inside-band", "cap-at-upper-wide", "cap-above-trip"])
+def test_capped_lognormal_against_scipy_quad(median, upper, cap):
+    # A catalogue draw never exceeds its upper value: min(S, cap), checked against numerical integration (scipy).
+    sigma = risk.lognormal_sigma(median, upper, 0.95)
+    expected = capped_lognormal_closed_form(median, sigma, cap, 4.0, 6.0)
+    p = risk.trip_probability([D(LOGNORMAL, median, sigma, 1.0, 1.0, cap / median)], GFCI, samples=200_000, seed=5)
+    assert p.dry == pytest.approx(expected, abs=4 * p.dry_se + 1e-6)
+
+
 @pytest.mark.parametrize(("median", "upper"), [(2.0, 3.5), (3.0, 6.52), (1.0, 5.0)],
                          ids=["pc-like", "heat-pump-like", "wide"])
 def test_closed_form_lognormal_partial_expectation(median, upper):
@@ -256,8 +279,10 @@ def test_settings_change_the_model_and_the_reported_method(make_workbook):
     wetter = check(_project(make_workbook, [["Switch-on factor", 5]]))
     assert wetter.circuits[0].risk.switch_on > base.circuits[0].risk.switch_on  # the kettle heats on K1
     assert wetter.circuits[0].risk.dry == base.circuits[0].risk.dry
-    narrower = check(_project(make_workbook, [["Upper percentile", "99 %"]]))  # upper further out: thinner tail
-    assert narrower.circuits[0].risk.switch_on < base.circuits[0].risk.switch_on
+    # upper further out: thinner tail below the cap (a switch-on factor of 6 lets the capped kettle reach 4 mA)
+    wide_tail = check(_project(make_workbook, [["Switch-on factor", 6]]))
+    narrower = check(_project(make_workbook, [["Switch-on factor", 6], ["Upper percentile", "99 %"]]))
+    assert 0.0 < narrower.circuits[0].risk.switch_on < wide_tail.circuits[0].risk.switch_on
     changed = check(_project(make_workbook, [["Samples", 2000], ["Seed", 9], ["Meter accuracy", "2 %"]]))
     assert changed.risk.samples == 2000 and changed.risk.seed == 9
     assert "±2 %" in changed.risk.method[1] and "Monte Carlo, 2,000 samples, seed 9" in changed.risk.method[0]
