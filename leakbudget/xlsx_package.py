@@ -17,8 +17,6 @@ The file itself is replaced by :mod:`leakbudget.xlsx_file` (atomic rename, backu
 
 from __future__ import annotations
 
-import math
-import numbers
 import posixpath
 import re
 import shutil
@@ -35,7 +33,9 @@ from urllib.parse import unquote
 from xml.sax.saxutils import quoteattr
 
 from leakbudget.errors import WriteBackError
+from leakbudget.progress import Progress
 from leakbudget.xlsx_file import COPY_CHUNK_BYTES, rewrite
+from leakbudget.xlsx_rows import EXCEL_MAX_NUMBER, SAMPLE_ROW, SheetXml, with_rows
 from leakbudget.xlsx_styles import merge_styles, remap_cell_styles
 from leakbudget.xlsx_xml import BadXmlError, Span, UnsafeXmlError, XmlPart
 
@@ -45,11 +45,11 @@ MAX_ZIP_ENTRIES = 10_000
 MAX_UNCOMPRESSED_BYTES = 1 << 30  # 1 GiB in total
 MAX_COMPRESSION_RATIO = 200  # uncompressed / compressed, checked on entries above RATIO_CHECK_MIN_BYTES
 RATIO_CHECK_MIN_BYTES = 1 << 20
+# zipfile must know before streaming an entry whether it may pass 2 GiB (ZIP64); a sheet of more rows than this
+# could, at 10 KB a row, so it gets ZIP64 sizes (APPNOTE.TXT 4.5.3; Excel, LibreOffice and calamine read them).
+ZIP64_ROWS = 200_000
 
 OUR_PART_PREFIX = "leakbudget_"  # parts we add are named xl/<folder>/leakbudget_<kind><n>.xml
-# Largest number a cell holds (Microsoft, "Excel specifications and limits"); beyond it, and for ±inf, the value
-# is written as text, since 16-digit rounding (XlsxWriter's ".16G") could even turn 1.797…e308 into inf.
-EXCEL_MAX_NUMBER = 9.99999999999999e307
 
 # Namespaces, relationship and content types of ECMA-376 Parts 1 and 2 (transitional conformance).
 MAIN_NS = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
@@ -106,7 +106,8 @@ class WriteResult:
     added: tuple[str, ...]  # sheet names appended
 
 
-def write_sheets(source: Path, sheets: Sequence[SheetData], out: Path | None = None) -> WriteResult:
+def write_sheets(source: Path, sheets: Sequence[SheetData], out: Path | None = None,
+                 progress: Progress | None = None) -> WriteResult:
     """Write ``sheets`` into the workbook ``source`` (or into a copy at ``out``), keeping everything else.
 
     Text is always written as text (a cell reading ``=1+2`` is not a formula); None and NaN give empty cells;
@@ -116,7 +117,7 @@ def write_sheets(source: Path, sheets: Sequence[SheetData], out: Path | None = N
 
     Raises :class:`WriteBackError` (nothing changed) when the destination is open in a spreadsheet program, the
     source is not a readable .xlsx package, it exceeds the zip limits above, an XML part it needs declares a DTD
-    or entities, or the folder cannot be written.
+    or entities, or the folder cannot be written. ``progress`` hears of the rows written, sheet by sheet.
     """
     keys = [sheet.name.casefold() for sheet in sheets]
     if len(set(keys)) != len(keys):
@@ -132,7 +133,7 @@ def write_sheets(source: Path, sheets: Sequence[SheetData], out: Path | None = N
                 "protected file must be saved without its password) and run again."
             ) from None
         with package:  # closing the ZipFile leaves ``original`` open
-            return _graft(package, sheets, dest, source)
+            return _graft(package, sheets, dest, source, progress)
 
     written = rewrite(source, Path(out) if out is not None else None, build)
     replaced, added = written.value
@@ -189,10 +190,11 @@ class _Package:
         return xml, [(_relationship(part, span.attrs), span) for span in xml.find("Relationship", 1)]
 
 
-def _graft(archive: zipfile.ZipFile, sheets: Sequence[SheetData], dest: IO[bytes], path: Path) -> tuple:
+def _graft(archive: zipfile.ZipFile, sheets: Sequence[SheetData], dest: IO[bytes], path: Path,
+           progress: Progress | None) -> tuple:
     """Write to ``dest`` the user's package with ``sheets`` grafted in; return (replaced, added) names."""
     try:
-        return _graft_checked(archive, sheets, dest, path)
+        return _graft_checked(archive, sheets, dest, path, progress)
     except (zipfile.BadZipFile, zlib.error, EOFError, NotImplementedError, RuntimeError) as exc:
         raise WriteBackError(
             f"{path.name}: the workbook's zip package is damaged or uses an unsupported feature ({exc}); "
@@ -200,7 +202,8 @@ def _graft(archive: zipfile.ZipFile, sheets: Sequence[SheetData], dest: IO[bytes
         ) from None
 
 
-def _graft_checked(archive: zipfile.ZipFile, sheets: Sequence[SheetData], dest: IO[bytes], path: Path) -> tuple:
+def _graft_checked(archive: zipfile.ZipFile, sheets: Sequence[SheetData], dest: IO[bytes], path: Path,
+                   progress: Progress | None) -> tuple:
     user = _Package(archive, path)
     for required in (CONTENT_TYPES, WORKBOOK, WORKBOOK_RELS):
         if user.actual(required) is None:
@@ -213,9 +216,9 @@ def _graft_checked(archive: zipfile.ZipFile, sheets: Sequence[SheetData], dest: 
     graft.merge_styles()
     # the scratch package's first sheet is the placeholder that holds the tab selection
     for sheet, scratch_part, destination in zip(sheets, _worksheet_parts(graft.scratch)[1:], destinations):
-        graft.add_sheet(sheet.name, scratch_part, destination)
+        graft.add_sheet(sheet, scratch_part, destination)
     graft.register()
-    _write_package(user, dest, graft.writes, graft.removed)
+    _write_package(user, dest, graft.writes, graft.removed, progress)
     return tuple(graft.replaced), tuple(graft.added)
 
 
@@ -244,7 +247,7 @@ class _Graft:
                 self.existing[element.get("name", "").casefold()] = (element.get("name", ""), rel)
         self.graph = _reference_graph(user)
         self.removed: set[str] = set()  # actual part names
-        self.writes: dict[str, bytes] = {}  # part name -> new content
+        self.writes: dict[str, bytes | SheetXml] = {}  # part name -> new content (a sheet's rows made on writing)
         self.content_type_of: dict[str, str] = {}  # parts we write -> content type
         self.new_rels: list[tuple[str, str]] = []  # (type, part) to add to the workbook's relationships
         self.new_sheets: list[str] = []  # their names, in the order of the worksheet relationships
@@ -296,16 +299,17 @@ class _Graft:
         if merged.changed:
             self.writes[part] = merged.styles
 
-    def add_sheet(self, name: str, scratch_part: str, destination: str | None) -> None:
+    def add_sheet(self, sheet: SheetData, scratch_part: str, destination: str | None) -> None:
         if destination is None:
             destination = _allocate(scratch_part, self.taken)
             self.new_rels.append((REL_TYPE_WORKSHEET, destination))
-            self.new_sheets.append(name)
-            self.added.append(name)
-        content = self.scratch.read(scratch_part)
-        self._add_part(scratch_part, destination, remap_cell_styles(content, self.xf_map) if self.xf_map else content)
+            self.new_sheets.append(sheet.name)
+            self.added.append(sheet.name)
+        frame = self.scratch.read(scratch_part)
+        frame = remap_cell_styles(frame, self.xf_map) if self.xf_map else frame
+        self._add_part(scratch_part, destination, with_rows(frame, sheet.name, sheet.header, sheet.rows))
 
-    def _add_part(self, scratch_part: str, part: str, content: bytes) -> None:
+    def _add_part(self, scratch_part: str, part: str, content: bytes | SheetXml) -> None:
         """Add ``content`` as ``part``, with the parts its relationships reach under fresh names."""
         self.writes[part] = content
         self.content_type_of[part] = _content_type(self.scratch, scratch_part)
@@ -331,20 +335,34 @@ class _Graft:
                 self.writes[self.user.actual(name)] = xml.result()  # type: ignore[index]
 
 
-def _write_package(user: _Package, dest: IO[bytes], writes: dict[str, bytes], removed: set[str]) -> None:
+def _write_package(user: _Package, dest: IO[bytes], writes: dict[str, bytes | SheetXml], removed: set[str],
+                   progress: Progress | None = None) -> None:
     """Copy the user's entries in order (new content where written, skipping removed), then append new parts."""
     pending = dict(writes)
     with zipfile.ZipFile(dest, "w", zipfile.ZIP_DEFLATED) as out:
         for info in user.infos:
             if info.filename in pending:
-                out.writestr(_entry_like(info, info.filename), pending.pop(info.filename))
+                _write_entry(out, _entry_like(info, info.filename), pending.pop(info.filename), progress)
             elif info.filename not in removed:
                 copy = _entry_like(info, info.filename, keep_time=True)
                 copy.file_size = info.file_size
                 with user.archive.open(info) as src, out.open(copy, "w") as dst:
                     shutil.copyfileobj(src, dst, COPY_CHUNK_BYTES)
         for name, data in pending.items():
-            out.writestr(_entry_like(None, name), data)
+            _write_entry(out, _entry_like(None, name), data, progress)
+
+
+def _write_entry(out: zipfile.ZipFile, entry: zipfile.ZipInfo, data: bytes | SheetXml, progress: Progress | None
+                 ) -> None:
+    """One entry: bytes as they are, a sheet's rows streamed into the compressor as they are made."""
+    if isinstance(data, bytes):
+        out.writestr(entry, data)
+        return
+    stage = f"Writing '{data.name}'"
+    report = None if progress is None else (lambda done, total: progress(stage, done, total))
+    with out.open(entry, "w", force_zip64=len(data.rows) > ZIP64_ROWS) as sink:
+        for chunk in data.chunks(report):
+            sink.write(chunk)
 
 
 def _entry_like(info: zipfile.ZipInfo | None, name: str, keep_time: bool = False) -> zipfile.ZipInfo:
@@ -535,8 +553,10 @@ def _register_content_types(xml: XmlPart, content_types: dict[str, str], removed
 
 
 def _render(sheets: Sequence[SheetData]) -> bytes:
-    """The sheets as an XlsxWriter package whose first sheet is a placeholder holding the tab selection.
+    """The sheets' frames as an XlsxWriter package whose first sheet is a placeholder holding the tab selection.
 
+    Each sheet gets its header and, if it has rows, a sample row (:data:`leakbudget.xlsx_rows.SAMPLE_ROW`) with a
+    cell in every column's format, which :func:`leakbudget.xlsx_rows.with_rows` replaces with the real rows.
     constant_memory mode writes text as inline strings (XlsxWriter ignores it with in_memory, hence a scratch
     folder), so nothing has to be added to the user's shared-strings part.
     """
@@ -557,28 +577,14 @@ def _render(sheets: Sequence[SheetData]) -> bytes:
             worksheet.freeze_panes(1, 0)
             for column, title in enumerate(sheet.header):
                 _write_text(worksheet, 0, column, str(title), bold)
-            for row_number, row in enumerate(sheet.rows, start=1):
-                for column, value in enumerate(row):
-                    _write_cell(worksheet, row_number, column, value, formats.get(column))
+            if sheet.rows:
+                width = max(len(sheet.header), max(map(len, sheet.rows)), *(c + 1 for c in sheet.number_formats))
+                for column in range(width):
+                    worksheet.write_number(SAMPLE_ROW - 1, column, 0, formats.get(column))
             if sheet.chart is not None and sheet.rows:
                 _add_chart(book, worksheet, sheet)
         book.close()
     return buffer.getvalue()
-
-
-def _write_cell(worksheet, row: int, column: int, value: object, cell_format) -> None:  # noqa: ANN001
-    if value is None:
-        return
-    if isinstance(value, bool):
-        worksheet.write_boolean(row, column, value, cell_format)
-    elif isinstance(value, numbers.Real):
-        number = float(value)
-        if abs(number) > EXCEL_MAX_NUMBER:
-            worksheet.write_string(row, column, repr(number), cell_format)
-        elif not math.isnan(number):
-            worksheet.write_number(row, column, value, cell_format)
-    else:
-        _write_text(worksheet, row, column, str(value), cell_format)
 
 
 def _write_text(worksheet, row: int, column: int, text: str, cell_format) -> None:  # noqa: ANN001
