@@ -5,8 +5,10 @@ from __future__ import annotations
 import json
 import math
 import sys
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
-from typing import Annotated, Any, Optional
+from typing import TYPE_CHECKING, Annotated, Any, Optional
 
 import typer
 from typer.core import TyperGroup
@@ -19,6 +21,9 @@ from leakbudget import CAUTION, __version__
 from leakbudget.errors import LeakbudgetError
 from leakbudget.locations import LOCATION_KINDS
 from leakbudget.schema import REVIEW_FINDINGS
+
+if TYPE_CHECKING:
+    from leakbudget.progress import Progress
 
 out_console = Console()
 err_console = Console(stderr=True)
@@ -79,6 +84,33 @@ def _with_written(doc: dict[str, Any], written: Any) -> dict[str, Any]:
     doc["written_to"] = str(written.path) if written else None
     doc["backup"] = str(written.backup) if written and written.backup else None
     return doc
+
+
+def _interactive() -> bool:
+    """True when someone watches: stdout and stderr are both terminals (neither piped nor redirected)."""
+    return all(stream is not None and stream.isatty() for stream in (sys.stdout, sys.stderr))
+
+
+@contextmanager
+def progress_bar(as_json: bool = False) -> Iterator[Progress | None]:
+    """A progress callback for a job (:mod:`leakbudget.progress`) drawing one rich bar per stage on stderr,
+    gone when the job ends; None (no bar) with ``--json`` or when output is piped."""
+    if as_json or not _interactive():
+        yield None
+        return
+    from rich.progress import BarColumn, Progress as Bars, TaskProgressColumn, TextColumn, TimeElapsedColumn
+
+    bars = Bars(TextColumn("{task.description}"), BarColumn(), TaskProgressColumn(), TimeElapsedColumn(),
+                console=err_console, transient=True)
+    tasks: dict[str, Any] = {}
+
+    def report(stage: str, done: int, total: int) -> None:
+        if stage not in tasks:
+            tasks[stage] = bars.add_task(stage, total=total)
+        bars.update(tasks[stage], completed=done, total=total)
+
+    with bars:
+        yield report
 
 
 def _caution() -> None:
@@ -213,7 +245,8 @@ def check(
     """
     from leakbudget.jobs import check_workbook
 
-    job = check_workbook(path, out, write=not no_write)
+    with progress_bar(as_json) as progress:
+        job = check_workbook(path, out, write=not no_write, progress=progress)
     if as_json:
         from leakbudget.results import to_json
 

@@ -5,13 +5,17 @@ Pure library code (no typer, no rich); the CLI calls one of these and renders wh
 
 from __future__ import annotations
 
+import gc
 import shutil
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
 
 from leakbudget.errors import WorkbookError
 from leakbudget.estimate import CheckResult, check
+from leakbudget.progress import Progress
 from leakbudget.workbook import read_project
 from leakbudget.xlsx_package import WriteResult
 
@@ -25,15 +29,41 @@ class CheckJob:
     written: WriteResult | None
 
 
-def check_workbook(path: str | Path, out: str | Path | None = None, write: bool = True) -> CheckJob:
-    """Check a workbook and (unless ``write`` is False) write the result sheets into it, or into ``out``."""
+@contextmanager
+def bulk_work() -> Iterator[None]:
+    """Pause Python's cyclic garbage collector while a job builds its many small objects.
+
+    A big workbook makes millions of cells, results and rows, none of them in reference cycles; each full
+    collection walks all of them again, which costs a quarter to a third of a 100,000-load check. Reference
+    counting still frees everything as usual; cycles made meanwhile are collected once the job is done.
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
+def check_workbook(path: str | Path, out: str | Path | None = None, write: bool = True,
+                   progress: Progress | None = None) -> CheckJob:
+    """Check a workbook and (unless ``write`` is False) write the result sheets into it, or into ``out``.
+
+    ``progress`` (see :mod:`leakbudget.progress`) hears of reading, estimating and the rows written.
+    """
     from leakbudget.results import result_sheets
     from leakbudget.xlsx_package import write_sheets
 
     path = Path(path)
-    project = read_project(path)
-    result = check(project)
-    written = write_sheets(path, result_sheets(result), _out_path(path, out)) if write else None
+    with bulk_work():
+        project = read_project(path, progress)
+        if progress is not None:
+            progress("Estimating", 0, 1)
+        result = check(project)
+        if progress is not None:
+            progress("Estimating", 1, 1)
+        written = write_sheets(path, result_sheets(result), _out_path(path, out), progress) if write else None
     return CheckJob(result, written)
 
 

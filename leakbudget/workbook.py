@@ -14,6 +14,7 @@ from leakbudget.devices import DEVICES, device
 from leakbudget.errors import WorkbookError
 from leakbudget.leakage import SYSTEMS, parse_leg
 from leakbudget.model import Circuit, Load, Project
+from leakbudget.progress import Progress
 from leakbudget.provenance import Source
 from leakbudget.locations import rows_from_table
 from leakbudget.readings import read_readings
@@ -234,10 +235,18 @@ def read_loads(table: RawTable, circuits: list[Circuit], catalogue: cat.Catalogu
     return loads
 
 
-def read_project(path: str | Path) -> Project:
-    """Read and validate a workbook; raise :class:`WorkbookError` naming the first problem found."""
+def read_project(path: str | Path, progress: Progress | None = None) -> Project:
+    """Read and validate a workbook; raise :class:`WorkbookError` naming the first problem found.
+
+    ``progress`` (see :mod:`leakbudget.progress`) hears of the stage "Reading <file name>" in three steps: cells
+    read, circuits validated, loads validated.
+    """
     path = Path(path)
+    stage = f"Reading {path.name}"
+    report = (lambda done: progress(stage, done, 3)) if progress is not None else (lambda done: None)
+    report(0)
     grids = open_grids(path)
+    report(1)
     settings, warnings = read_settings(_table(grids, SETTINGS, path))
     catalogue = cat.built_in()
     user_appliances = _table(grids, APPLIANCES, path)
@@ -255,7 +264,9 @@ def read_project(path: str | Path) -> Project:
     assert circuits_table is not None and loads_table is not None  # required sheets
     defaults_used: list[str] = []
     circuits = read_circuits(circuits_table, settings, catalogue, defaults_used)
+    report(2)
     loads = read_loads(loads_table, circuits, catalogue)
+    report(3)
     readings_table = _table(grids, READINGS, path)
     readings = read_readings(readings_table, circuits, defaults_used) if readings_table is not None else []
     for key in sorted(settings.extra):

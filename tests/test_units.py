@@ -33,3 +33,37 @@ def test_refused(bad):
 def test_wrong_dimension_names_it():
     with pytest.raises(UnitProblem, match="not a current"):
         to_unit("5 kg", "mA")
+
+
+def test_the_precomputed_factors_are_what_pint_computes():
+    """leakbudget/unit_factors.py against pint, the reference library it was generated from."""
+    from leakbudget.unit_factors import FACTORS
+    from leakbudget.units import COMMON_SPELLINGS, unit_factor_table
+
+    fresh = unit_factor_table()
+    assert list(FACTORS) == list(COMMON_SPELLINGS) == list(fresh)
+    for spelling, (dimension, factor) in FACTORS.items():
+        assert fresh[spelling][0] == dimension and fresh[spelling][1] == pytest.approx(factor, rel=1e-15), spelling
+
+
+def test_common_spellings_convert_as_pint_converts_them():
+    from leakbudget.unit_factors import FACTORS
+    from leakbudget.units import registry
+
+    ureg = registry()
+    for spelling, (dimension, _) in FACTORS.items():
+        for target, (target_dimension, _) in FACTORS.items():
+            if dimension == target_dimension:
+                expected = ureg.Quantity(f"2.5 {spelling}").to(target).magnitude
+                assert to_unit(f"2.5 {spelling}", target) == pytest.approx(expected, rel=1e-12), (spelling, target)
+
+
+def test_common_spellings_do_not_import_pint():
+    import subprocess
+    import sys
+
+    code = ("import sys; from leakbudget.units import to_unit; "
+            "values = [to_unit('250 uA', 'mA'), to_unit('4.7nF', 'nF'), to_unit('30 ft', 'm'), to_unit(50, 'ft', 'm')]; "
+            "print('pint' in sys.modules, values)")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert done.stdout.startswith("False ["), done.stdout
