@@ -59,6 +59,9 @@ app = typer.Typer(
     rich_markup_mode=None,
 )
 
+# Circuits the terminal table shows at most (rich needs about 2 ms a row; a campus has tens of thousands). Every
+# circuit is in the 'Circuit results' sheet and in --json.
+TERMINAL_TABLE_ROWS = 40
 STATUS_STYLE = {"ok": "green", "over-budget": "yellow", "trip-risk": "bold red", "unprotected": "magenta"}
 
 PathArg = Annotated[Path, typer.Argument(help="The workbook (.xlsx).", show_default=False)]
@@ -159,6 +162,20 @@ def _short_probability(text: str | None, probability: float | None, wide: bool) 
     return f"{100 * probability:.2g}%"
 
 
+def _circuits_to_show(circuits: list[Any]) -> list[Any]:
+    """All circuits when they fit the terminal table, else the ``TERMINAL_TABLE_ROWS`` using most of their budget
+    (trip risk first, then over budget), in sheet order."""
+    if len(circuits) <= TERMINAL_TABLE_ROWS:
+        return circuits
+    severity = {"trip-risk": 0, "over-budget": 1}
+
+    def rank(i: int) -> tuple[int, float]:
+        used = circuits[i].headroom_used
+        return severity.get(circuits[i].status.value, 2), -(used if used == used else -1.0)  # NaN: unprotected
+
+    return [circuits[i] for i in sorted(sorted(range(len(circuits)), key=rank)[:TERMINAL_TABLE_ROWS])]
+
+
 def render_check(job: Any) -> None:
     from leakbudget.results import circuit_dict
 
@@ -175,7 +192,8 @@ def render_check(job: Any) -> None:
                          no_wrap=header != "Budget/ no-trip", min_width=9 if header == "Budget/ no-trip" else None)
     if wide:
         table.add_column("Largest contributor", overflow="fold")
-    for c in result.circuits:
+    shown = _circuits_to_show(result.circuits)
+    for c in shown:
         d = circuit_dict(c)
         used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"
         budget, no_trip = _fmt(d["budget_ma"], 2), _fmt(d["no_trip_ma"], 2)
@@ -191,6 +209,9 @@ def render_check(job: Any) -> None:
                          if d["largest_contributor"] else "-")
         table.add_row(*cells)
     out_console.print(table)
+    if len(shown) < len(result.circuits):
+        out_console.print(f"Showing {len(shown)} of {len(result.circuits):,} circuits: those using most of their budget; "
+                          "every circuit is in the 'Circuit results' sheet (and in --json).", highlight=False)
     s = project.settings
     out_console.print(
         f"Budget = {s.budget_fraction:g} × trip level ({s.sources['Budget fraction']}); gated by the {gate} sum; "
@@ -211,9 +232,12 @@ def render_check(job: Any) -> None:
     if result.unplaced:
         out_console.print(f"{len(result.unplaced)} load(s) have no circuit yet; `leakbudget split` can place them.")
     bad = [c for c in result.circuits if c.status.value in ("over-budget", "trip-risk")]
-    for c in bad:
+    for c in bad[:TERMINAL_TABLE_ROWS]:
         out_console.print(f"{c.circuit.circuit_id} is {c.status.value}: largest contributor {c.largest} "
                           f"({c.largest_ma:.2f} mA).", highlight=False)
+    if len(bad) > TERMINAL_TABLE_ROWS:
+        out_console.print(f"… and {len(bad) - TERMINAL_TABLE_ROWS:,} more circuits over budget, each with its largest "
+                          "contributor in the 'Circuit results' sheet.", highlight=False)
     if not result.circuits:
         out_console.print("The Circuits sheet has no circuits yet: add one row per circuit.")
     elif bad:

@@ -105,3 +105,21 @@ def test_piped_output_has_no_bar(tmp_path: Path):
     assert result.exit_code in (0, 1), result.output
     assert "Results written to" in result.stdout
     assert not any(stage in result.output for stage in STAGES) and "━" not in result.output
+
+
+def test_a_big_project_shows_the_circuits_nearest_their_budget(tmp_path: Path):
+    """A campus has thousands of circuits; the terminal shows the 40 using most of their budget, all of the
+    over-budget ones among them when they fit, and says where the rest are."""
+    from leakbudget.cli import TERMINAL_TABLE_ROWS
+
+    path = make_workbook(tmp_path / "campus.xlsx", 1_000)  # 200 circuits
+    result = CliRunner().invoke(app, ["check", str(path), "--no-write"], env={"COLUMNS": "200"})
+    doc = json.loads(CliRunner().invoke(app, ["check", str(path), "--no-write", "--json"]).stdout)
+    table = result.stdout[:result.stdout.index("Showing")]
+    shown = [line.split()[0] for line in table.splitlines() if line.strip().startswith("C0")]
+    assert len(shown) == TERMINAL_TABLE_ROWS
+    over = [c["circuit"] for c in doc["circuits"] if c["status"] in ("over-budget", "trip-risk")]
+    used = sorted((c["headroom_used"] for c in doc["circuits"]), reverse=True)
+    expected = [c["circuit"] for c in doc["circuits"] if c["headroom_used"] >= used[TERMINAL_TABLE_ROWS - 1]]
+    assert shown == expected and set(over[:TERMINAL_TABLE_ROWS]) <= set(shown)  # in sheet order
+    assert f"Showing {TERMINAL_TABLE_ROWS} of 200 circuits" in result.stdout
