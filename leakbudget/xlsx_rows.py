@@ -18,6 +18,8 @@ import re
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 
+from xlsxwriter.utility import xl_cell_to_rowcol, xl_col_to_name
+
 # Largest number a cell holds (Microsoft, "Excel specifications and limits"); beyond it, and for ±inf, the value
 # is written as text.
 EXCEL_MAX_NUMBER = 9.99999999999999e307
@@ -37,25 +39,8 @@ _NEEDS_ESCAPING = re.compile("[&<>\x00-\x08\x0b-\x1f\ufffe\uffff\ud800-\udfff]|_
 _LITERAL_ESCAPE = re.compile("(_x[0-9A-Fa-f]{4}_)")
 _CONTROL = re.compile("[\x00-\x08\x0b-\x1f]")
 _NOT_A_CHARACTER = re.compile("[\ud800-\udfff\ufffe\uffff]")
-_SAMPLE_CELL = re.compile(rb'<c r="([A-Z]+)%d"( s="\d+")?' % SAMPLE_ROW)
+_SAMPLE_CELL = re.compile(rb'<c r="([A-Z]+%d)"( s="\d+")?' % SAMPLE_ROW)
 _DIMENSION = re.compile(rb'<dimension ref="[^"]*"/>')
-
-
-def column_letters(index: int) -> str:
-    """Spreadsheet column letters of a 0-based column index (0 → A, 27 → AB)."""
-    letters = ""
-    n = index + 1
-    while n:
-        n, rem = divmod(n - 1, 26)
-        letters = chr(65 + rem) + letters
-    return letters
-
-
-def _column_index(letters: bytes) -> int:
-    index = 0
-    for char in letters:
-        index = index * 26 + char - 64
-    return index - 1
 
 
 def escape_text(text: str) -> str:
@@ -111,7 +96,7 @@ def used_range(rows: Sequence[Sequence[Cell]], header_width: int) -> str:
                 last_row = number
                 last_column = max(last_column, column)
                 break
-    end = f"{column_letters(max(last_column, 0))}{last_row}"
+    end = f"{xl_col_to_name(max(last_column, 0))}{last_row}"
     return "A1" if end == "A1" else f"A1:{end}"
 
 
@@ -122,7 +107,7 @@ def rows_xml(rows: Sequence[Sequence[Cell]], styles: Sequence[str], progress: Ro
     ``styles[column]`` is the cell's style attribute (``' s="3"'`` or ``""``). Rows with no cell are left out.
     """
     width = max((len(row) for row in rows), default=0)
-    letters = [column_letters(c) for c in range(width)]
+    letters = [xl_col_to_name(c) for c in range(width)]
     styles = list(styles) + [""] * (width - len(styles))
     texts: dict[str, str] = {}  # text → cell body; result rows repeat the same texts many times
     total = len(rows)
@@ -186,7 +171,7 @@ def with_rows(frame: bytes, name: str, header: Sequence[str], rows: Sequence[Seq
     end = frame.index(b"</row>", start) + len(b"</row>")
     styles: dict[int, str] = {}
     for match in _SAMPLE_CELL.finditer(frame, start, end):
-        styles[_column_index(match.group(1))] = (match.group(2) or b"").decode()
+        styles[xl_cell_to_rowcol(match.group(1).decode())[1]] = (match.group(2) or b"").decode()
     head = _DIMENSION.sub(f'<dimension ref="{used_range(rows, len(header))}"/>'.encode(), frame[:start], count=1)
     width = max(styles) + 1 if styles else 0
     return SheetXml(name, head, rows, tuple(styles.get(c, "") for c in range(width)), frame[end:])

@@ -182,3 +182,17 @@ def test_progress_hears_every_row_once_in_order() -> None:
     total = len(rows)
     assert heard == [(ROWS_PER_CHUNK, total), (2 * ROWS_PER_CHUNK, total), (total, total)]
     assert b"".join(pieces).count(b"<row ") == total
+
+
+def test_a_sheet_streamed_with_zip64_sizes_reads_back(tmp_path: Path, monkeypatch) -> None:
+    """Sheets of more than ZIP64_ROWS rows get ZIP64 sizes (APPNOTE.TXT 4.5.3); both readers must accept them."""
+    from leakbudget import xlsx_package
+
+    monkeypatch.setattr(xlsx_package, "ZIP64_ROWS", 0)
+    rows = [["K1", 0.85], ["K2", 1.4]]
+    path = fast_workbook(tmp_path, "Big", ["circuit", "leakage_ma"], rows)
+    with zipfile.ZipFile(path) as archive:
+        info = archive.getinfo("xl/worksheets/leakbudget_sheet1.xml")
+        assert info.extract_version >= 45  # APPNOTE.TXT 4.4.3.2: 4.5 = uses ZIP64 format extensions
+    assert cells(path)["Big"] == [["circuit", "leakage_ma"], *rows]
+    assert real_program_csv(path, "Big")[1:] == [["K1", "0.85"], ["K2", "1.4"]]
