@@ -488,7 +488,7 @@ print("done", flush=True)
 
 
 def test_killed_or_interrupted_write_leaves_the_original(tmp_path: Path) -> None:
-    """SIGKILL at three moments and SIGINT once, to parallel children each writing a 100 000-row sheet (seconds)."""
+    """SIGKILL at three moments and SIGINT once, to parallel children each writing a 500 000-row sheet (seconds)."""
     plans = [(signal.SIGKILL, 0.05), (signal.SIGKILL, 0.4), (signal.SIGKILL, 0.8), (signal.SIGINT, 0.4)]
     original = (DATA / "libreoffice.xlsx").read_bytes()
     folders = []
@@ -499,7 +499,7 @@ def test_killed_or_interrupted_write_leaves_the_original(tmp_path: Path) -> None
         shutil.copyfile(DATA / "libreoffice.xlsx", folder / "panel.xlsx")
         folders.append(folder)
         children.append(subprocess.Popen(
-            [sys.executable, "-c", CHILD, str(folder / "panel.xlsx"), "100000"],
+            [sys.executable, "-c", CHILD, str(folder / "panel.xlsx"), "500000"],
             stdout=subprocess.PIPE, stderr=subprocess.PIPE, cwd=Path(__file__).parent.parent,
         ))
     for child in children:
