@@ -61,9 +61,10 @@ def check_workbook(path: str | Path, out: str | Path | None = None, write: bool 
         if progress is not None:
             progress("Estimating", 0, 1)
         result = check(project)
+        sheets = result_sheets(result) if write else []
         if progress is not None:
             progress("Estimating", 1, 1)
-        written = write_sheets(path, result_sheets(result), _out_path(path, out), progress) if write else None
+        written = write_sheets(path, sheets, _out_path(path, out), progress) if write else None
     return CheckJob(result, written)
 
 
