@@ -18,8 +18,6 @@ import re
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 
-from xlsxwriter.utility import xl_cell_to_rowcol, xl_col_to_name
-
 # Largest number a cell holds (Microsoft, "Excel specifications and limits"); beyond it, and for ±inf, the value
 # is written as text.
 EXCEL_MAX_NUMBER = 9.99999999999999e307
@@ -88,6 +86,8 @@ def _cell(value: object) -> str | None:
 
 def used_range(rows: Sequence[Sequence[Cell]], header_width: int) -> str:
     """The ``<dimension>`` reference of the header plus ``rows`` (blank cells and NaN do not count)."""
+    from xlsxwriter.utility import xl_col_to_name  # XlsxWriter is imported only when something is written
+
     last_row, last_column = 1, header_width - 1
     for number, row in enumerate(rows, start=SAMPLE_ROW):
         for column in range(len(row) - 1, -1, -1):
@@ -106,6 +106,8 @@ def rows_xml(rows: Sequence[Sequence[Cell]], styles: Sequence[str], progress: Ro
 
     ``styles[column]`` is the cell's style attribute (``' s="3"'`` or ``""``). Rows with no cell are left out.
     """
+    from xlsxwriter.utility import xl_col_to_name
+
     width = max((len(row) for row in rows), default=0)
     letters = [xl_col_to_name(c) for c in range(width)]
     styles = list(styles) + [""] * (width - len(styles))
@@ -167,6 +169,8 @@ def with_rows(frame: bytes, name: str, header: Sequence[str], rows: Sequence[Seq
     ``frame`` is returned as it is (it has no sample row)."""
     if not rows:
         return frame
+    from xlsxwriter.utility import xl_cell_to_rowcol
+
     start = frame.index(b'<row r="%d"' % SAMPLE_ROW)
     end = frame.index(b"</row>", start) + len(b"</row>")
     styles: dict[int, str] = {}
