@@ -54,7 +54,6 @@ def split_by_nature(magnitude_ma, nature: str) -> tuple[float, float]:
 
 
 @lru_cache(maxsize=1024)
-@lru_cache(maxsize=1024)
 def parse_leg(leg: str, system: str) -> tuple[str, ...]:
     """The line conductors a load sits on: 'L1' → ('L1',); 'L1-L2' → ('L1', 'L2'). Raises ValueError if the leg
     does not exist in the system (L3 on a split-phase circuit, L2 on a single-phase one)."""
