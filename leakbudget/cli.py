@@ -20,7 +20,7 @@ from rich.table import Table
 from leakbudget import CAUTION, __version__
 from leakbudget.errors import LeakbudgetError
 from leakbudget.locations import LOCATION_KINDS
-from leakbudget.schema import REVIEW_FINDINGS
+from leakbudget.schema import REVIEW_FINDINGS, SPLIT_PLAN
 
 if TYPE_CHECKING:
     from leakbudget.progress import Progress
@@ -339,6 +339,110 @@ def review(
     else:
         render_review(job)
     raise typer.Exit(1 if job.review.errors else 0)
+
+
+def render_split(job: Any) -> None:
+    from leakbudget.split_results import circuits_list, summary
+
+    plan = job.plan
+    project = plan.before.project
+    out_console.print(f"Split plan for {project.path.name}: {summary(plan)}", highlight=False)
+    changed = [a for a in plan.assignments if a.moved or a.placed]
+    if changed:
+        moves = Table(title="Moves", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False,
+                      padding=(0, 1, 0, 0))
+        moves.add_column("Load", overflow="fold")
+        for header in ("From", "To", "mA", "A"):
+            moves.add_column(header, justify="right" if header in ("mA", "A") else "left", no_wrap=True)
+        for a in changed:
+            moves.add_row(a.load.name, a.from_id or "(unplaced)", a.to_id or "-", _fmt(a.leakage_ma, 2),
+                          _fmt(a.current_a, 1))
+        out_console.print(moves)
+    table = Table(title="Circuits before → after", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False,
+                  padding=(0, 1, 0, 0))
+    table.add_column("Circuit", overflow="fold", min_width=6)
+    for header in ("Loads", "Sum mA", "Used", "Current A", "Status"):
+        table.add_column(header, justify="left" if header == "Status" else "right", no_wrap=header != "Status")
+    for d in circuits_list(plan):
+        if not d["new"] and d["before_load_count"] == d["load_count"] and d["before_leakage_ma"] == d["leakage_ma"]:
+            loads = str(d["load_count"])
+            total = _fmt(d["leakage_ma"], 2)
+        else:
+            loads = f"{'-' if d['new'] else d['before_load_count']}→{d['load_count']}"
+            total = f"{'-' if d['new'] else _fmt(d['before_leakage_ma'], 2)}→{_fmt(d['leakage_ma'], 2)}"
+        used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"
+        limit = "" if d["current_limit_a"] is None else f"/{d['current_limit_a']:.0f}"
+        status = f"[{STATUS_STYLE[d['status']]}]{d['status']}[/]"
+        if d["before_status"] not in (None, d["status"]):
+            status = f"{d['before_status']}→{status}"
+        current = f"{_fmt(d['current_a'], 1)}{limit}"
+        if d["current_limit_a"] is not None and d["current_a"] is not None and d["current_a"] > d["current_limit_a"]:
+            current = f"[bold red]{current}[/]"
+        table.add_row(d["circuit"] + (" (new)" if d["new"] else ""), loads, total, used, current, status)
+    out_console.print(table)
+    for n in plan.new_circuits:
+        rating = f"{n.circuit.rating_a:g} A" if n.circuit.rating_a else "no rating"
+        out_console.print(f"{n.circuit.circuit_id} serves {', '.join(n.circuit.rooms) or 'any room'}: "
+                          f"{n.circuit.device.key}, {rating}, {n.template}.", highlight=False)
+    gate = "phasor" if project.settings.sum_rule == "phasor" else "arithmetic"
+    out_console.print(f"Limits: budget = {project.settings.budget_fraction:g} × trip level on the arithmetic sum "
+                      f"(check gates on the {gate} sum); current ≤ {plan.load_factor:g} × rating, from "
+                      f"{project.settings.sources['Load factor']}.", highlight=False)
+    for b in plan.blockers:
+        out_console.print(f"[bold red]Cannot fix:[/] {b.message}.", highlight=False)
+    for line in plan.notes:
+        out_console.print(f"Note: {line}", highlight=False)
+    for line in project.warnings:
+        err_console.print(f"[yellow]Warning:[/] {line}", highlight=False)
+    if plan.blockers:
+        out_console.print(f"[bold]No plan meets every limit.[/] The plan above fixes everything else; the "
+                          f"{len(plan.blockers)} problem(s) named need your decision.")
+    if job.written is not None:
+        out_console.print(f"Plan written to {job.written.path} (sheet '{SPLIT_PLAN}'); the Loads sheet is "
+                          "unchanged: move the loads there yourself, then check again.", highlight=False)
+        if job.written.backup is not None:
+            out_console.print(f"Previous version kept as {job.written.backup}.", highlight=False)
+    _caution()
+
+
+SPLIT_HELP = (
+    "Plan the fewest changes that bring every protected circuit within its leakage budget and current limit, "
+    "and write a 'Split plan' sheet (the Loads sheet is not changed).\n\n"
+    "Loads go only on protected circuits that serve their room (when both say); Fixed loads stay; unplaced loads "
+    "are placed. The plan has the fewest new circuits (NEW-1, ...), then the fewest moved loads, then the most "
+    "headroom on the tightest circuit; the current limit is rating × the Load factor setting (default 0.8). "
+    "Small plans are solved exactly (a MILP, HiGHS), large ones by a heuristic with a lower bound and gap.\n\n"
+    "Exit code 0 when a plan within every limit was found, 1 when none exists (the circuits and loads that "
+    "prevent it are named), 2 on bad input."
+)
+
+
+@app.command(help=SPLIT_HELP)
+def split(
+    path: PathArg,
+    out: OutOpt = None,
+    as_json: JsonOpt = False,
+    no_write: Annotated[bool, typer.Option("--no-write", help="Plan only; write nothing.")] = False,
+    time_limit: Annotated[float, typer.Option("--time-limit", help="Seconds to spend at most on proving and "
+                                                                   "improving the plan.", min=0.1)] = 20.0,
+    new_device: Annotated[Optional[str], typer.Option(
+        "--new-device", help="Device key for new circuits (default: that of the circuits serving the room).")] = None,
+    new_rating: Annotated[Optional[float], typer.Option(
+        "--new-rating", help="Rating of new circuits in A (default: that of the circuits serving the room).")] = None,
+) -> None:
+    from leakbudget.jobs import split_workbook
+    from leakbudget.planner import SplitOptions
+
+    options = SplitOptions(time_limit_s=time_limit, new_device=new_device, new_rating_a=new_rating)
+    with progress_bar(as_json) as progress:
+        job = split_workbook(path, out, write=not no_write, options=options, progress=progress)
+    if as_json:
+        from leakbudget.split_results import to_json
+
+        _print_json(_with_written(to_json(job.plan), job.written))
+    else:
+        render_split(job)
+    raise typer.Exit(0 if job.plan.feasible else 1)
 
 
 @app.command()

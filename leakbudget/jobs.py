@@ -20,6 +20,7 @@ from leakbudget.workbook import read_project
 from leakbudget.xlsx_package import WriteResult
 
 if TYPE_CHECKING:
+    from leakbudget.planner import SplitOptions, SplitPlan
     from leakbudget.review import Review
 
 
@@ -92,6 +93,30 @@ def review_workbook(path: str | Path, code: str | None = None, out: str | Path |
     rv = run_review(read_project(path), code)
     written = write_sheets(path, [findings_sheet(rv)], _out_path(path, out)) if write else None
     return ReviewJob(rv, written)
+
+
+@dataclass
+class SplitJob:
+    plan: SplitPlan
+    written: WriteResult | None
+
+
+def split_workbook(path: str | Path, out: str | Path | None = None, write: bool = True,
+                   options: SplitOptions | None = None, progress: Progress | None = None) -> SplitJob:
+    """Plan a split of a workbook's loads (:func:`leakbudget.planner.plan_split`) and (unless ``write`` is False)
+    write the ``Split plan`` sheet into it, or into ``out``. The Loads sheet itself is never changed.
+
+    ``progress`` (see :mod:`leakbudget.progress`) hears of reading, each planning stage and the rows written.
+    """
+    from leakbudget.planner import SplitOptions, plan_split
+    from leakbudget.split_results import split_sheet
+    from leakbudget.xlsx_package import write_sheets
+
+    path = Path(path)
+    with bulk_work():
+        plan = plan_split(read_project(path, progress), options or SplitOptions(), progress)
+        written = write_sheets(path, [split_sheet(plan)], _out_path(path, out), progress) if write else None
+    return SplitJob(plan, written)
 
 
 def example_path(name: str = "alder-quay-remodel.xlsx") -> Path:

@@ -41,7 +41,8 @@ from leakbudget.planner_bounds import packing_bound
 from leakbudget.planner_build import Blocker, Figures, RoomGroup, build
 from leakbudget.planner_heuristic import Unplaceable, improve
 from leakbudget.planner_packing import SOLVER_SLACK, Packing, Solution
-from leakbudget.planner_rules import load_current_a, verify_plan
+from leakbudget.planner_rules import current_capacity_a, load_current_a, verify_plan
+from leakbudget.progress import Progress
 
 NEW_PREFIX = "NEW-"
 DEFAULT_TIME_LIMIT_S = 20.0
@@ -49,7 +50,10 @@ EXACT_MAX_ITEMS = 250  # room groups up to this many movable loads are solved ex
 LP_BOUND_MAX_PAIRS = 200_000  # the LP bound only below this many (load, circuit) pairs
 MIN_EXACT_S = 0.05  # below this share of the time limit a group keeps its heuristic plan [s]
 
-ProgressCallback = Callable[[int, int, str], None]  # (steps done, steps in this stage, what is being done)
+STAGE_FIRST = "Planning room groups"
+STAGE_EXACT = "Proving the best plan"
+STAGE_HEADROOM = "Widening headroom"
+STAGE_CHECK = "Checking the plan"
 
 __all__ = ["Assignment", "Blocker", "NewCircuit", "PlannerError", "SplitOptions", "SplitPlan", "plan_split"]
 
@@ -105,6 +109,9 @@ class SplitPlan:
     exact_groups: int
     elapsed_s: float
     load_factor: float
+    current_before_a: dict[str, float] = field(default_factory=dict)  # Σ load current per circuit id [A]
+    current_after_a: dict[str, float] = field(default_factory=dict)
+    capacity_a: dict[str, float] = field(default_factory=dict)  # rating × load factor per circuit id [A]
     notes: list[str] = field(default_factory=list)
 
     @property
@@ -141,16 +148,17 @@ def _check_options(options: SplitOptions) -> None:
 
 
 def plan_split(project: Project, options: SplitOptions = SplitOptions(),
-               progress: ProgressCallback | None = None) -> SplitPlan:
+               progress: Progress | None = None) -> SplitPlan:
     """Plan where every load goes (see the module docstring); never returns a plan that breaks a limit.
 
-    ``progress`` (optional) is called with (steps done, steps in the stage, stage in words) as the work goes on.
+    ``progress`` (optional, :mod:`leakbudget.progress`) hears of each stage: room groups planned, proved,
+    widened, and the final check.
     """
     _check_options(options)
     started = time.monotonic()
     deadline = started + options.time_limit_s
     before = check(project)
-    setup = build(project, options.new_device.strip().lower() if options.new_device else None,
+    setup = build(project, before.loads, options.new_device.strip().lower() if options.new_device else None,
                   options.new_rating_a)
     loads, circuits = project.loads, project.circuits
     groups = setup.groups
@@ -169,15 +177,16 @@ def plan_split(project: Project, options: SplitOptions = SplitOptions(),
             left_alone |= {loads[i].row for i in g.items}
             blocked_ids |= {circuits[j].circuit_id for j in g.bins}
     if progress is not None:
-        progress(0, 1, "checking the plan")
+        progress(STAGE_CHECK, 0, 1)
     planned, new_circuits = _apply(project, groups, loads, circuits)
     after = check(planned)
     problems = verify_plan(project, after, blocked_ids, left_alone)
     if problems:
         raise RuntimeError("the split planner produced a plan that breaks a limit (a bug): " + "; ".join(problems))
     if progress is not None:
-        progress(1, 1, "done")
+        progress(STAGE_CHECK, 1, 1)
     assignments = _assignments(project, planned, setup.figures)
+    factor = float(project.settings["Load factor"])
     unplaced_movable = sum(int((g.packing.start < 0).sum()) for g in groups if g.solution is not None)
     return SplitPlan(
         before=before, after=after, assignments=assignments, new_circuits=new_circuits, blockers=blockers,
@@ -185,12 +194,25 @@ def plan_split(project: Project, options: SplitOptions = SplitOptions(),
         moves_lower_bound=sum(g.moves_bound for g in groups if g.solution is not None) - unplaced_movable,
         optimal=all(g.proven for g in groups), headroom_optimal=all(g.headroom_proven for g in groups),
         groups=len(groups), exact_groups=sum(g.exact for g in groups), elapsed_s=time.monotonic() - started,
-        load_factor=float(project.settings["Load factor"]), notes=_notes(project, assignments, planned),
+        load_factor=factor, current_before_a=_currents(project, setup.figures),
+        current_after_a=_currents(planned, setup.figures),
+        capacity_a={c.circuit_id: current_capacity_a(c, factor) for c in planned.circuits},
+        notes=_notes(project, assignments, planned),
     )
 
 
+def _currents(project: Project, figures: Figures) -> dict[str, float]:
+    """Σ load current per circuit id [A] (the planner's current rule)."""
+    circuits = {c.circuit_id: c for c in project.circuits}
+    out = {cid: 0.0 for cid in circuits}
+    for load in project.loads:
+        if load.circuit_id is not None:
+            out[load.circuit_id] += figures.amps_a(load, circuits[load.circuit_id])
+    return out
+
+
 def _solve_groups(groups: list[RoomGroup], deadline: float, options: SplitOptions,
-                  progress: ProgressCallback | None) -> None:
+                  progress: Progress | None) -> None:
     """Three passes over the room groups, so the time goes to what matters most first: (1) a heuristic plan and
     bounds for every group; (2) the exact MILP (new circuits, then moves) for the small groups the bounds do not
     prove; (3) the headroom stage for the small groups proven on (1) and (2)."""
@@ -200,22 +222,25 @@ def _solve_groups(groups: list[RoomGroup], deadline: float, options: SplitOption
         remaining = max(deadline - time.monotonic(), 0.0)
         return remaining * len(todo[k].items) / max(sum(len(g.items) for g in todo[k:]), 1)
 
+    def tell(stage: str, done: int, total: int) -> None:
+        if progress is not None and total:
+            progress(stage, done, total)
+
     for k, g in enumerate(groups):
-        if progress is not None:
-            progress(k, len(groups), f"first plan, room group {k + 1} of {len(groups)}")
+        tell(STAGE_FIRST, k, len(groups))
         _first_plan(g, share(k, groups), options)
+    tell(STAGE_FIRST, len(groups), len(groups))
     small = [g for g in groups if g.packing.n_items <= options.exact_max_items]
     unproven = [g for g in small if not g.proven]
     for k, g in enumerate(unproven):
-        if progress is not None:
-            progress(k, len(unproven), f"exact plan, room group {k + 1} of {len(unproven)}")
+        tell(STAGE_EXACT, k, len(unproven))
         left = share(k, unproven)
         if left >= MIN_EXACT_S:
             _exact_plan(g, left)
+    tell(STAGE_EXACT, len(unproven), len(unproven))
     polish = [g for g in small if g.proven and not g.headroom_proven and g.solution is not None]
     for k, g in enumerate(polish):
-        if progress is not None:
-            progress(k, len(polish), f"headroom, room group {k + 1} of {len(polish)}")
+        tell(STAGE_HEADROOM, k, len(polish))
         left = max(deadline - time.monotonic(), 0.0) / (len(polish) - k)
         p = g.packing
         assert g.solution is not None
@@ -223,6 +248,7 @@ def _solve_groups(groups: list[RoomGroup], deadline: float, options: SplitOption
             g.headroom_proven = True  # the tightest circuit is one no plan changes
         elif left >= MIN_EXACT_S:
             g.solution, g.headroom_proven = best_headroom(p, g.solution, left)
+    tell(STAGE_HEADROOM, len(polish), len(polish))
 
 
 def _first_plan(g: RoomGroup, time_s: float, options: SplitOptions) -> None:

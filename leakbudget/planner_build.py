@@ -7,9 +7,8 @@
 3. The remaining loads and the circuits they may use form connected room groups; each becomes a
    :class:`~leakbudget.planner_packing.Packing` with one column per existing circuit and per new-circuit kind.
 
-A load's leakage on a circuit is the check's own estimate at that circuit's supply
-(:func:`leakbudget.estimate.estimate_load`, arithmetic magnitude × quantity); its current follows
-:func:`leakbudget.planner_rules.load_current_a`.
+A load's leakage on a circuit is the check's own estimate at that circuit's supply (:class:`Figures`, arithmetic
+magnitude × quantity); its current follows :func:`leakbudget.planner_rules.load_current_a`.
 """
 
 from __future__ import annotations
@@ -23,7 +22,8 @@ import numpy as np
 
 from leakbudget.catalogue import Appliance
 from leakbudget.devices import budget_ma, device as find_device
-from leakbudget.estimate import cable_result, estimate_load
+from leakbudget.estimate import COMPUTED, LoadResult, cable_result, estimate_load
+from leakbudget.leakage import rescale, split_by_nature
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.planner_packing import MARGIN_A, MARGIN_MA, Packing, Solution
 from leakbudget.planner_rules import Eligibility, current_capacity_a, load_current_a, room_key
@@ -79,10 +79,18 @@ class Setup:
 
 
 class Figures:
-    """Leakage and current of each load on a given supply (cached per load and supply)."""
+    """Leakage and current of each load on a given circuit, as the check estimates them (cached per supply).
 
-    def __init__(self, project: Project) -> None:
+    On the supply the check used for a load (its circuit's, or a room's for an unplaced load) the leakage is the
+    check's own figure (``LoadResult.leakage_ma``, which includes readings on identical units). On another
+    supply it follows :func:`leakbudget.estimate.estimate_load`: a Leakage value the user gave holds as it is, a
+    computed figure is computed again, and a catalogue or identical-unit figure is rescaled (resistive part ∝ V,
+    capacitive part ∝ V·f, split by the catalogue row's nature).
+    """
+
+    def __init__(self, project: Project, estimates: list[LoadResult]) -> None:
         self.project = project
+        self.estimates = estimates  # the check's results, loads in sheet order first
         self.basis = project.settings.basis
         self._leak: dict[tuple[int, float, float], float] = {}
 
@@ -90,12 +98,23 @@ class Figures:
         return self.project.catalogue.appliances.get(load.appliance_key) if load.appliance_key else None
 
     def leak_ma(self, index: int, load: Load, circuit: Circuit) -> float:
-        """Arithmetic leakage of all the load's units on ``circuit`` [mA], as the check estimates it."""
+        """Arithmetic leakage of all the load's units on ``circuit`` [mA]."""
         key = (index, circuit.voltage_v, circuit.frequency_hz)
         if key not in self._leak:
-            z, _, _ = estimate_load(load, self.appliance(load), circuit.voltage_v, circuit.frequency_hz, self.basis)
-            self._leak[key] = abs(z) * load.quantity
+            self._leak[key] = self._estimate(index, load, circuit.voltage_v, circuit.frequency_hz)
         return self._leak[key]
+
+    def _estimate(self, index: int, load: Load, voltage_v: float, frequency_hz: float) -> float:
+        known = self.estimates[index]
+        if (known.voltage_v, known.frequency_hz) == (voltage_v, frequency_hz):
+            return known.leakage_ma
+        appliance = self.appliance(load)
+        if load.leakage_ma is not None or known.basis == COMPUTED or appliance is None:
+            z, _, _ = estimate_load(load, appliance, voltage_v, frequency_hz, self.basis)
+            return abs(z) * load.quantity
+        resistive, capacitive = split_by_nature(known.per_unit_ma, appliance.nature)
+        r, c = rescale(resistive, capacitive, known.voltage_v, known.frequency_hz, voltage_v, frequency_hz)
+        return abs(complex(float(r), float(c))) * load.quantity
 
     def amps_a(self, load: Load, circuit: Circuit) -> float:
         return load_current_a(load, self.appliance(load), circuit)[0]
@@ -147,11 +166,12 @@ def new_kind(project: Project, room: str | None, room_text: str | None, new_devi
     return NewKind(room, proto, text, cable_ma(proto, project), budget, current_capacity_a(proto, factor))
 
 
-def build(project: Project, new_device: str | None, new_rating_a: float | None) -> Setup:
-    """Everything the solver needs (see the module docstring)."""
+def build(project: Project, estimates: list[LoadResult], new_device: str | None, new_rating_a: float | None
+          ) -> Setup:
+    """Everything the solver needs (see the module docstring); ``estimates`` are the check's load results."""
     settings = project.settings
     factor = float(settings["Load factor"])
-    figures = Figures(project)
+    figures = Figures(project, estimates)
     circuits = project.circuits
     loads = project.loads
     index = project.circuit_index()
@@ -301,7 +321,8 @@ def _stuck_blocker(load: Load, g: RoomGroup, r: int, circuits: list[Circuit]) ->
         too_leaky = bool(np.all(p.leak_ma[r, cols] > p.spare_leak_ma[cols]))
         advice = ("split it into smaller groups, or measure it (the estimate may be pessimistic) and have it "
                   "repaired if it leaks far above its typical value" if too_leaky else
-                  "split it into smaller groups or give it a circuit rated for it")
+                  "split it into smaller groups or give it a dedicated circuit sized for its current (the "
+                  "overcurrent rating, never the GFCI/RCD trip level)")
     return Blocker(circuits[g.bins[p.start[r]]].circuit_id if p.start[r] >= 0 else None, (load.name,),
                    f"'{load.name}' (row {load.row}, {leak:.3f} mA, {amps:.2f} A) fits on no circuit that may take "
                    f"it: {where}; {advice}")
