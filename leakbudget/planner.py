@@ -40,7 +40,7 @@ from leakbudget.model import Circuit, Load, Project
 from leakbudget.planner_bounds import packing_bound
 from leakbudget.planner_build import Blocker, Figures, RoomGroup, build
 from leakbudget.planner_heuristic import Unplaceable, improve
-from leakbudget.planner_packing import SOLVER_SLACK, Packing, Solution
+from leakbudget.planner_packing import Packing, Solution
 from leakbudget.planner_rules import current_capacity_a, load_current_a, verify_plan
 from leakbudget.progress import Progress
 
@@ -281,7 +281,7 @@ def _exact_plan(g: RoomGroup, time_s: float) -> None:
     slots = [min(int(p.allowed[:, p.n_existing + t].sum()), cap) for t in range(p.n_types)]
     result = solve_exact(p, slots, g.bound, g.moves_bound, 0.7 * time_s, 0.3 * time_s)
     sol = result.solution
-    if sol is None or sol.violations(p, SOLVER_SLACK):
+    if sol is None or sol.violations(p, solver=True):
         return
     better = h is None or sol.key(p) <= h.key(p)
     if better:

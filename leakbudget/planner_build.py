@@ -25,10 +25,14 @@ from leakbudget.devices import budget_ma, device as find_device
 from leakbudget.estimate import COMPUTED, LoadResult, cable_result, estimate_load
 from leakbudget.leakage import rescale, split_by_nature
 from leakbudget.model import Circuit, Load, Project
-from leakbudget.planner_packing import MARGIN_A, MARGIN_MA, Packing, Solution
-from leakbudget.planner_rules import Eligibility, current_capacity_a, load_current_a, room_key
+from leakbudget.planner_packing import MARGIN_MA, Packing, Solution
+from leakbudget.planner_rules import CURRENT_TOLERANCE_A, Eligibility, current_capacity_a, load_current_a, room_key
 from leakbudget.provenance import Source
 from leakbudget.settings import IEC_SUPPLY, US_SUPPLY
+
+# Current a plan may put on a circuit above rating × load factor: half the rule's rounding tolerance, so that a
+# solver plan (SOLVER_TOLERANCE_A more) still keeps within it.
+CURRENT_ALLOWANCE_A = CURRENT_TOLERANCE_A / 2
 
 
 @dataclass(slots=True)
@@ -193,7 +197,8 @@ def build(project: Project, estimates: list[LoadResult], new_device: str | None,
             if on[i] >= 0 and (stays[i] or on[i] in frozen):
                 base_leak[on[i]] += figures.leak_ma(i, ld, circuits[on[i]])
                 base_amps[on[i]] += figures.amps_a(ld, circuits[on[i]])
-        newly = [j for j in protected if j not in frozen and (base_leak[j] > budgets[j] or base_amps[j] > capacity[j])]
+        newly = [j for j in protected if j not in frozen
+                 and (base_leak[j] > budgets[j] or base_amps[j] > capacity[j] + CURRENT_TOLERANCE_A)]
         frozen.update(newly)
         movable = [i for i in range(len(loads)) if not stays[i] and (on[i] < 0 or on[i] not in frozen)]
         for i in movable:
@@ -206,7 +211,7 @@ def build(project: Project, estimates: list[LoadResult], new_device: str | None,
         spare_amps = np.full(len(circuits), -math.inf)
         for j in usable:
             spare_leak[j] = max(budgets[j] - base_leak[j] - MARGIN_MA, 0.0)
-            spare_amps[j] = max(capacity[j] - base_amps[j] - MARGIN_A, 0.0)
+            spare_amps[j] = max(capacity[j] - base_amps[j] + CURRENT_ALLOWANCE_A, 0.0)
         groups = _groups(movable, loads, on, Eligibility(circuits, usable), kinds, circuits, figures, spare_leak,
                          spare_amps, budgets, base_leak)
         stuck = [(g, r) for g in groups for r in np.flatnonzero(~g.packing.fits_alone().any(axis=1)).tolist()]
@@ -279,8 +284,11 @@ def _packing_group(items: list[int], bins: list[int], kinds: list[NewKind],
     # leakage depends on the supply (V, f), current on (V, system): compute per distinct key, then spread
     supply_keys: dict[tuple[float, float], int] = {}
     volt_keys: dict[tuple[float, str], int] = {}
-    supply_of = np.array([supply_keys.setdefault((t.voltage_v, t.frequency_hz), len(supply_keys)) for t in targets])
-    volt_of = np.array([volt_keys.setdefault((t.voltage_v, t.system), len(volt_keys)) for t in targets])
+    supply_of = np.array([supply_keys.setdefault((t.voltage_v, t.frequency_hz), len(supply_keys)) for t in targets],
+                         dtype=np.int64)
+    volt_of = np.array([volt_keys.setdefault((t.voltage_v, t.system), len(volt_keys)) for t in targets],
+                       dtype=np.int64)
+    at = np.asarray(bins, dtype=np.int64)
     sample_supply = {k: targets[int(np.flatnonzero(supply_of == k)[0])] for k in supply_keys.values()}
     sample_volt = {k: targets[int(np.flatnonzero(volt_of == k)[0])] for k in volt_keys.values()}
     leak_by = np.array([[figures.leak_ma(i, loads[i], sample_supply[k]) for k in range(len(supply_keys))]
@@ -292,11 +300,11 @@ def _packing_group(items: list[int], bins: list[int], kinds: list[NewKind],
         allowed[r, [col_of[j] for j in elig[i][0]] + [kind_col[id(k)] for k in elig[i][1]]] = True
     packing = Packing(
         leak_ma=leak_by[:, supply_of], amps_a=amps_by[:, volt_of], allowed=allowed,
-        spare_leak_ma=np.concatenate([spare_leak[bins], [max(k.budget_ma - k.cable_ma - MARGIN_MA, 0.0)
+        spare_leak_ma=np.concatenate([spare_leak[at], [max(k.budget_ma - k.cable_ma - MARGIN_MA, 0.0)
                                                           for k in kinds]]),
-        spare_amps_a=np.concatenate([spare_amps[bins], [k.capacity_a - MARGIN_A for k in kinds]]),
+        spare_amps_a=np.concatenate([spare_amps[at], [k.capacity_a + CURRENT_ALLOWANCE_A for k in kinds]]),
         budget_ma=np.array([budgets[j] for j in bins] + [k.budget_ma for k in kinds]),
-        base_ma=np.concatenate([base_leak[bins], [k.cable_ma for k in kinds]]),
+        base_ma=np.concatenate([base_leak[at], [k.cable_ma for k in kinds]]),
         start=np.array([col_of.get(on[i], -1) for i in items], dtype=np.int64),
         n_existing=e,
     )
@@ -340,7 +348,7 @@ def _frozen_blocker(j: int, circuit: Circuit, loads: list[Load], on: list[int], 
     if leak_ma > budget:
         reasons.append(f"the loads that must stay and its cable need {leak_ma:.3f} mA ({', '.join(parts)}), above "
                        f"its budget of {budget:.3f} mA")
-    if amps_a > capacity:
+    if amps_a > capacity + CURRENT_TOLERANCE_A:
         amp_parts = ", ".join(f"'{loads[i].name}' {figures.amps_a(loads[i], circuit):.1f} A" for i in staying)
         reasons.append(f"the loads that must stay draw {amps_a:.1f} A ({amp_parts}), above {factor:g} × "
                        f"{circuit.rating_a:g} A = {capacity:.1f} A")

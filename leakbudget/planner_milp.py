@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from leakbudget.planner_packing import SOLVER_SLACK, Packing, Solution, compact
+from leakbudget.planner_packing import Packing, Solution, compact
 
 _INT_TOL = 0.5  # a binary above this is taken as 1
 
@@ -282,7 +282,7 @@ def _headroom(model: _Model, sol: Solution, time_limit_s: float) -> tuple[Soluti
     if res.x is None:
         return None, False
     candidate = model.decode(res.x)
-    if (candidate.violations(p, SOLVER_SLACK) or candidate.key(p)[:2] != sol.key(p)[:2]
+    if (candidate.violations(p, solver=True) or candidate.key(p)[:2] != sol.key(p)[:2]
             or candidate.max_use(p) > sol.max_use(p)):
         return None, False
     return candidate, res.status == 0

@@ -16,13 +16,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
-# Safety margin kept below every budget and current limit (0.1 µA, 0.1 mA: far below any figure that matters).
-# A MILP solution may break a row by the solver's feasibility tolerance (HiGHS: about 1e-7 on rows, 1e-6 on
-# integrality); plans from the solver are accepted with up to half the margin of slack (SOLVER_SLACK), so every
-# plan still passes the check's strict "leakage ≤ budget" test.
+# Leakage: a margin of 0.1 µA is kept below every budget, far below any figure that matters, so that a plan
+# passes the check's strict "leakage ≤ budget" test whatever the order of a floating-point sum. A MILP solution
+# may break a row by the solver's feasibility tolerance (HiGHS: about 1e-7 on rows, 1e-6 on integrality); plans
+# from the solver are accepted up to SOLVER_TOLERANCE_MA and SOLVER_TOLERANCE_A over a spare, less than the
+# margin for leakage and than the allowance planner_rules.CURRENT_TOLERANCE_A leaves for current.
 MARGIN_MA = 1e-4
-MARGIN_A = 1e-4
-SOLVER_SLACK = 0.5
+SOLVER_TOLERANCE_MA = 5e-5
+SOLVER_TOLERANCE_A = 2.5e-4
 
 
 @dataclass(slots=True)
@@ -112,10 +113,10 @@ class Solution:
         use = (p.base_ma[cols] + leak) / p.budget_ma[cols]
         return float(use.max()) if use.size else 0.0
 
-    def violations(self, p: Packing, slack: float = 0.0) -> list[str]:
+    def violations(self, p: Packing, solver: bool = False) -> list[str]:
         """Broken packing constraints, in words (empty when the solution is feasible for this packing).
 
-        ``slack`` is the share of the safety margin a capacity may be exceeded by (solver tolerance)."""
+        ``solver``: the plan comes from the MILP solver, whose tolerance is allowed (see SOLVER_TOLERANCE_MA)."""
         problems: list[str] = []
         cols = self.column(p)
         rows = np.arange(p.n_items)
@@ -123,8 +124,8 @@ class Solution:
         problems += [f"item {i} on a bin it may not use" for i in bad]
         leak, amps = self.bin_totals(p)
         spare_cols = self.bin_columns(p)
-        over_leak = leak > p.spare_leak_ma[spare_cols] + slack * MARGIN_MA
-        over_amps = amps > p.spare_amps_a[spare_cols] + slack * MARGIN_A
+        over_leak = leak > p.spare_leak_ma[spare_cols] + (SOLVER_TOLERANCE_MA if solver else 0.0)
+        over_amps = amps > p.spare_amps_a[spare_cols] + (SOLVER_TOLERANCE_A if solver else 0.0)
         problems += [f"bin {j} over its leakage spare" for j in np.flatnonzero(over_leak)]
         problems += [f"bin {j} over its current spare" for j in np.flatnonzero(over_amps)]
         used = np.unique(self.bin_of[self.bin_of >= p.n_existing]) - p.n_existing

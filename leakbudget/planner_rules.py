@@ -3,7 +3,7 @@
 - Leakage: by the check itself (:func:`leakbudget.estimate.check` on the planned project): every protected circuit
   within its budget (BS 7671:2018 reg. 531.3.2, 30 % of IΔn by default).
 - Current: on every protected circuit with a rating, Σ load current ≤ rating × the ``Load factor`` setting
-  (default 0.8, common practice for continuous load). A load's current is its ``Current``, else ``Power`` ÷ the
+  (default 0.8, common practice for continuous load), equality included (CURRENT_TOLERANCE_A absorbs rounding). A load's current is its ``Current``, else ``Power`` ÷ the
   voltage it runs at, else the catalogue's typical power ÷ that voltage; the voltage is line-to-neutral for a
   one-leg load, 2 V (split phase) or √3 V (three phase) for a line-to-line load. Each load counts once however
   many conductors it uses (conservative for split- and three-phase circuits).
@@ -31,6 +31,7 @@ class _Kind(Protocol):
 
 
 K = TypeVar("K", bound=_Kind)
+CURRENT_TOLERANCE_A = 1e-3  # a sum within 1 mA above rating × load factor is at the limit (rounding, not load)
 CURRENT_GIVEN = "your Current value"
 NO_CURRENT = "no Current, Power or catalogue power: counted as 0 A"
 
@@ -186,6 +187,6 @@ def verify_plan(before: Project, after: CheckResult, blocked: set[str], left_alo
     for cid, total in amps.items():
         circuit = circuits[cid]
         cap = current_capacity_a(circuit, factor)
-        if circuit.device.protected and cid not in blocked and total > cap:
+        if circuit.device.protected and cid not in blocked and total > cap + CURRENT_TOLERANCE_A:
             problems.append(f"{cid} carries {total:.3f} A, above {cap:.3f} A")
     return problems
