@@ -143,9 +143,9 @@ def open_floor(rng: np.random.Generator, n_loads: int) -> Project:
 KINDS = {
     "house-50": (house, Kind("house-50", 50, 100, 2.0)),
     "building-500": (house, Kind("building-500", 500, 5, 10.0)),
-    "building-5000": (house, Kind("building-5000", 5000, 2, 30.0)),
+    "building-5000": (house, Kind("building-5000", 5000, 2, 25.0)),
     "open-floor-500": (open_floor, Kind("open-floor-500", 500, 5, 10.0)),
-    "open-floor-5000": (open_floor, Kind("open-floor-5000", 5000, 2, 30.0)),
+    "open-floor-5000": (open_floor, Kind("open-floor-5000", 5000, 2, 25.0)),
 }
 
 

@@ -378,6 +378,7 @@ def render_split(job: Any) -> None:
         current = f"{_fmt(d['current_a'], 1)}{limit}"
         if d["current_limit_a"] is not None and d["current_a"] is not None and d["current_a"] > d["current_limit_a"]:
             current = f"[bold red]{current}[/]"
+            status += ", [bold red]over current[/]"
         table.add_row(d["circuit"] + (" (new)" if d["new"] else ""), loads, total, used, current, status)
     out_console.print(table)
     for n in plan.new_circuits:

@@ -49,6 +49,7 @@ DEFAULT_TIME_LIMIT_S = 20.0
 EXACT_MAX_ITEMS = 250  # room groups up to this many movable loads are solved exactly (a house or a floor)
 LP_BOUND_MAX_PAIRS = 200_000  # the LP bound only below this many (load, circuit) pairs
 MIN_EXACT_S = 0.05  # below this share of the time limit a group keeps its heuristic plan [s]
+EXACT_ROUNDS = 3  # rounds of exact solving; a group that ran out of time is tried again with what is left
 
 STAGE_FIRST = "Planning room groups"
 STAGE_EXACT = "Proving the best plan"
@@ -156,8 +157,9 @@ def plan_split(project: Project, options: SplitOptions = SplitOptions(),
     """
     _check_options(options)
     started = time.monotonic()
-    deadline = started + options.time_limit_s
     before = check(project)
+    # keep time for the check of the planned project and its verification at the end (about two checks)
+    deadline = started + options.time_limit_s - 2 * (time.monotonic() - started)
     setup = build(project, before.loads, options.new_device.strip().lower() if options.new_device else None,
                   options.new_rating_a)
     loads, circuits = project.loads, project.circuits
@@ -232,11 +234,17 @@ def _solve_groups(groups: list[RoomGroup], deadline: float, options: SplitOption
     tell(STAGE_FIRST, len(groups), len(groups))
     small = [g for g in groups if g.packing.n_items <= options.exact_max_items]
     unproven = [g for g in small if not g.proven]
-    for k, g in enumerate(unproven):
-        tell(STAGE_EXACT, k, len(unproven))
-        left = share(k, unproven)
-        if left >= MIN_EXACT_S:
-            _exact_plan(g, left)
+    todo = unproven
+    for _ in range(EXACT_ROUNDS):  # groups that ran out of time get another go with the time others left
+        retry = []
+        for k, g in enumerate(todo):
+            tell(STAGE_EXACT, len(unproven) - len(todo) + k, len(unproven))
+            left = share(k, todo)
+            if left >= MIN_EXACT_S and _exact_plan(g, left):
+                retry.append(g)
+        todo = retry
+        if not todo or deadline - time.monotonic() < MIN_EXACT_S * len(todo):
+            break
     tell(STAGE_EXACT, len(unproven), len(unproven))
     polish = [g for g in small if g.proven and not g.headroom_proven and g.solution is not None]
     for k, g in enumerate(polish):
@@ -270,8 +278,9 @@ def _first_plan(g: RoomGroup, time_s: float, options: SplitOptions) -> None:
     g.proven = g.solution.new_count == g.bound and g.solution.moves(p) == g.moves_bound
 
 
-def _exact_plan(g: RoomGroup, time_s: float) -> None:
-    """The MILP for one group (stage 1, and stage 2 when stage 1 is proven), keeping the better plan."""
+def _exact_plan(g: RoomGroup, time_s: float) -> bool:
+    """The MILP for one group (stage 1, and stage 2 when stage 1 is proven), keeping the better plan; True when
+    more time might still prove it."""
     from leakbudget.planner_milp import solve_exact
 
     p = g.packing
@@ -282,7 +291,7 @@ def _exact_plan(g: RoomGroup, time_s: float) -> None:
     result = solve_exact(p, slots, g.bound, g.moves_bound, 0.7 * time_s, 0.3 * time_s)
     sol = result.solution
     if sol is None or sol.violations(p, solver=True):
-        return
+        return not result.infeasible
     better = h is None or sol.key(p) <= h.key(p)
     if better:
         g.solution = sol
@@ -292,6 +301,7 @@ def _exact_plan(g: RoomGroup, time_s: float) -> None:
         g.bound, g.moves_bound = sol.new_count, sol.moves(p)
     else:
         g.bound = max(g.bound, min(result.new_bound, g.solution.new_count))
+    return not g.proven
 
 
 def _floor_use(p: Packing) -> float:
