@@ -40,7 +40,7 @@ from leakbudget.model import Circuit, Load, Project
 from leakbudget.planner_bounds import packing_bound
 from leakbudget.planner_build import Blocker, Figures, RoomGroup, build
 from leakbudget.planner_heuristic import Unplaceable, improve
-from leakbudget.planner_packing import Packing, Solution
+from leakbudget.planner_packing import Packing
 from leakbudget.planner_rules import current_capacity_a, load_current_a, verify_plan
 from leakbudget.progress import Progress
 
