@@ -28,7 +28,6 @@ from __future__ import annotations
 import dataclasses
 import math
 import time
-from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
