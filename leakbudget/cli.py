@@ -116,6 +116,15 @@ def progress_bar(as_json: bool = False) -> Iterator[Progress | None]:
         yield report
 
 
+def _report_written(written: Any, message: str) -> None:
+    """Say where a command wrote (``message`` with ``{path}``) and where the previous version was kept."""
+    if written is None:
+        return
+    out_console.print(message.format(path=written.path), highlight=False)
+    if written.backup is not None:
+        out_console.print(f"Previous version kept as {written.backup}.", highlight=False)
+
+
 def _caution() -> None:
     err_console.print(f"[dim]Caution: {CAUTION}[/dim]", highlight=False)
 
@@ -304,10 +313,7 @@ def render_review(job: Any) -> None:
                           "they are placed.", highlight=False)
     for line in project.warnings:
         err_console.print(f"[yellow]Warning:[/] {line}", highlight=False)
-    if job.written is not None:
-        out_console.print(f"Findings written to {job.written.path} (sheet '{REVIEW_FINDINGS}').", highlight=False)
-        if job.written.backup is not None:
-            out_console.print(f"Previous version kept as {job.written.backup}.", highlight=False)
+    _report_written(job.written, f"Findings written to {{path}} (sheet '{REVIEW_FINDINGS}').")
     _caution()
 
 
@@ -398,11 +404,8 @@ def render_split(job: Any) -> None:
     if plan.blockers:
         out_console.print(f"[bold]No plan meets every limit.[/] The plan above fixes everything else; the "
                           f"{len(plan.blockers)} problem(s) named need your decision.")
-    if job.written is not None:
-        out_console.print(f"Plan written to {job.written.path} (sheet '{SPLIT_PLAN}'); the Loads sheet is "
-                          "unchanged: move the loads there yourself, then check again.", highlight=False)
-        if job.written.backup is not None:
-            out_console.print(f"Previous version kept as {job.written.backup}.", highlight=False)
+    _report_written(job.written, f"Plan written to {{path}} (sheet '{SPLIT_PLAN}'); the Loads sheet is unchanged: "
+                                 "move the loads there yourself, then check again.")
     _caution()
 
 
