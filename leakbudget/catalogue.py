@@ -15,6 +15,7 @@ from importlib import resources
 from pathlib import Path
 
 from leakbudget.errors import CatalogueError, WorkbookError
+from leakbudget.plausible import CABLE_CAPACITANCE_PF_PER_M, FREQUENCY_HZ, STANDING_LEAKAGE_MA, VOLTAGE_V
 from leakbudget.provenance import Kind, Source, classify
 from leakbudget.schema import APPLIANCES, CABLES, Sheet
 from leakbudget.tables import RawTable
@@ -117,11 +118,11 @@ def appliances_from_table(table: RawTable, origin_prefix: str | None = None) -> 
             raise table.error(row, "Key", f"the key '{key}' is used twice (also row {seen[key]})",
                               hint="keep one row per key")
         seen[key] = row[0]
-        typical = table.number(row, "Typical leakage", "mA", positive=False)
+        typical = table.number(row, "Typical leakage", "mA", positive=False, plausible=STANDING_LEAKAGE_MA)
         if typical is None:
             raise table.error(row, "Typical leakage", "the typical leakage is blank",
                               hint="type the typical leakage per unit in mA")
-        upper = table.number(row, "Upper leakage", "mA")
+        upper = table.number(row, "Upper leakage", "mA", plausible=STANDING_LEAKAGE_MA)
         if upper is None:
             upper = typical
         if upper < typical:
@@ -143,9 +144,10 @@ def appliances_from_table(table: RawTable, origin_prefix: str | None = None) -> 
                 heating=bool(table.flag(row, "Heating")),
                 typical_ma=typical,
                 upper_ma=upper,
-                reference_voltage_v=table.number(row, "Reference voltage", "V", positive=True)
+                reference_voltage_v=table.number(row, "Reference voltage", "V", positive=True, plausible=VOLTAGE_V)
                 or DEFAULT_REFERENCE_VOLTAGE_V,
-                reference_frequency_hz=table.number(row, "Reference frequency", "Hz", positive=True)
+                reference_frequency_hz=table.number(row, "Reference frequency", "Hz", positive=True,
+                                                    plausible=FREQUENCY_HZ)
                 or DEFAULT_REFERENCE_FREQUENCY_HZ,
                 typical_power_w=table.number(row, "Typical power", "W"),
                 typical_source=classify(typical_src) if typical_src else
@@ -161,11 +163,16 @@ def appliances_from_table(table: RawTable, origin_prefix: str | None = None) -> 
 def cables_from_table(table: RawTable, origin_prefix: str | None = None) -> list[Cable]:
     """Parse cable rows (built-in CSV or the user's Cables sheet)."""
     out: list[Cable] = []
+    seen: dict[str, int] = {}
     for row in table.rows:
         key = (table.text(row, "Key") or "").lower()
         if not key:
             raise table.error(row, "Key", "the key is blank", hint="give every cable row a key")
-        capacitance = table.number(row, "Capacitance", "pF/m", positive=True)
+        if key in seen:
+            raise table.error(row, "Key", f"the key '{key}' is used twice (also row {seen[key]})",
+                              hint="keep one row per key")
+        seen[key] = row[0]
+        capacitance = table.number(row, "Capacitance", "pF/m", positive=True, plausible=CABLE_CAPACITANCE_PF_PER_M)
         if capacitance is None:
             raise table.error(row, "Capacitance", "the capacitance is blank",
                               hint="type the capacitance of one line conductor to earth in pF/m")

@@ -15,6 +15,7 @@ from typing import TYPE_CHECKING
 
 from leakbudget.errors import WorkbookError
 from leakbudget.estimate import CheckResult, check
+from leakbudget.model import Project
 from leakbudget.progress import Progress
 from leakbudget.workbook import read_project
 from leakbudget.xlsx_package import WriteResult
@@ -58,7 +59,7 @@ def check_workbook(path: str | Path, out: str | Path | None = None, write: bool 
 
     path = Path(path)
     with bulk_work():
-        project = read_project(path, progress)
+        project = _read_for_writing(path, out, write, progress)
         if progress is not None:
             progress("Estimating", 0, 1)
         result = check(project)
@@ -67,6 +68,23 @@ def check_workbook(path: str | Path, out: str | Path | None = None, write: bool 
             progress("Estimating", 1, 1)
         written = write_sheets(path, sheets, _out_path(path, out), progress) if write else None
     return CheckJob(result, written)
+
+
+def _read_for_writing(path: Path, out: str | Path | None, write: bool, progress: Progress | None = None
+                      ) -> Project:
+    """Read the workbook; when results are to be written, first (before any work) refuse a destination that a
+    spreadsheet program holds open. A source open there is read as last saved, and a warning says so."""
+    from leakbudget.xlsx_file import lock_file, refuse_if_open
+
+    if write:
+        destination = _out_path(path, out)
+        refuse_if_open(destination if destination is not None else path.resolve() if path.is_symlink() else path)
+    project = read_project(path, progress)
+    lock = lock_file(path)
+    if lock is not None:
+        project.warnings.append(f"{path.name} is open in a spreadsheet program (lock file {lock}); changes not "
+                                "saved there were not checked")
+    return project
 
 
 def _out_path(path: Path, out: str | Path | None) -> Path | None:
@@ -90,7 +108,7 @@ def review_workbook(path: str | Path, code: str | None = None, out: str | Path |
     from leakbudget.xlsx_package import write_sheets
 
     path = Path(path)
-    rv = run_review(read_project(path), code)
+    rv = run_review(_read_for_writing(path, out, write), code)
     written = write_sheets(path, [findings_sheet(rv)], _out_path(path, out)) if write else None
     return ReviewJob(rv, written)
 

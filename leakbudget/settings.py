@@ -58,6 +58,7 @@ def _length_unit(value: Any) -> str:
     text = str(value).strip()
     try:
         to_unit(f"1 {text}", "m")
+        to_unit(1.0, text, "m")  # a unit, not a number ("1 12000" parses, as the number 12000)
     except UnitProblem:
         raise UnitProblem(f"'{value}' is not a unit of length (use m or ft)") from None
     return text

@@ -70,7 +70,10 @@ def _known_factor(unit: str, target_unit: str) -> float | None:
 @lru_cache(maxsize=65536)
 def _factor_for_text(text: str, default_unit: str, target_unit: str) -> float:
     """Parse one text once: return its magnitude in ``target_unit`` (cached per distinct text)."""
-    cleaned = text.strip().replace(",", "") if _looks_like_grouped_number(text) else text.strip()
+    cleaned = _ungrouped(text.strip())
+    if "," in cleaned:  # pint would read "0,75" as 0 and "1.000,5" as 1.0005
+        raise UnitProblem(f"'{text}' has a decimal comma or a misplaced thousands separator; write the decimal "
+                          "point as '.' (0.75), with no other separators")
     if cleaned and set(cleaned) <= _SIMPLE_NUMBER_CHARS:
         try:
             return _convert(float(cleaned), default_unit, target_unit)
@@ -98,15 +101,21 @@ def _factor_for_text(text: str, default_unit: str, target_unit: str) -> float:
     try:
         return float(quantity.to(target_unit).magnitude)
     except Exception:
+        written = cleaned.lstrip("+-0123456789.eE ").strip()
+        case = f"; units are case-sensitive: write {target_unit}" if written.lower() == target_unit.lower() else ""
         raise UnitProblem(
-            f"'{text}' is in {quantity.units:~P}, which is not a {_dimension_name(target_unit)}"
+            f"'{text}' is in {quantity.units:~P}, which is not a {_dimension_name(target_unit)}{case}"
         ) from None
 
 
-def _looks_like_grouped_number(text: str) -> bool:
-    """True for '1,000' or '12,500.5' (thousands separators), not for '0,75'."""
-    parts = text.strip().split(",")
-    return len(parts) > 1 and all(len(p.split(".")[0]) == 3 for p in parts[1:]) and parts[0].strip("+-").isdigit()
+# A number with thousands separators at the start of a text: "1,000", "12,500.5", "-1,000 ft" (not "0,75").
+_GROUPED = re.compile(r"[+-]?[1-9][0-9]{0,2}(?:,[0-9]{3})+(?:\.[0-9]*)?(?![0-9,])")
+
+
+def _ungrouped(text: str) -> str:
+    """``text`` with the thousands separators of a leading number removed ('1,000 ft' -> '1000 ft')."""
+    match = _GROUPED.match(text)
+    return match.group(0).replace(",", "") + text[match.end():] if match else text
 
 
 @lru_cache(maxsize=256)
@@ -116,7 +125,10 @@ def _unit_factor(default_unit: str, target_unit: str) -> float:
     known = _known_factor(default_unit, target_unit)
     if known is not None:
         return known
-    return float(registry().Quantity(1.0, default_unit).to(target_unit).magnitude)
+    try:
+        return float(registry().Quantity(1.0, default_unit).to(target_unit).magnitude)
+    except Exception:  # pint raises several types for a unit text it cannot use
+        raise UnitProblem(f"'{default_unit}' is not a unit of {_dimension_name(target_unit)}") from None
 
 
 def _convert(magnitude: float, default_unit: str, target_unit: str) -> float:

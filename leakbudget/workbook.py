@@ -6,13 +6,15 @@ result sheets are written by :mod:`leakbudget.xlsx_package`.
 
 from __future__ import annotations
 
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from leakbudget import catalogue as cat
 from leakbudget.devices import DEVICES, device
 from leakbudget.errors import WorkbookError
-from leakbudget.leakage import SYSTEMS, parse_leg
+from leakbudget.leakage import SYSTEMS, capacitive_current_ma, parse_leg, resistive_current_ma
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.progress import Progress
 from leakbudget.provenance import Source
@@ -20,17 +22,25 @@ from leakbudget.locations import rows_from_table
 from leakbudget.readings import read_readings
 from leakbudget.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, READINGS, SETTINGS, Sheet, normalise
 from leakbudget.settings import (
-    IEC_SUPPLY, MAX_PLAUSIBLE_LEAKAGE_MA, SPECS_BY_NAME, SUPPLY_SOURCES, US_SUPPLY, Settings,
+    IEC_SUPPLY, SPECS_BY_NAME, SUPPLY_SOURCES, US_SUPPLY, Settings,
 )
-from leakbudget.tables import RawTable
+from leakbudget.plausible import (
+    CABLE_LENGTH_M, FREQUENCY_HZ, SETTING_RANGES, STANDING_LEAKAGE_MA, VOLTAGE_V,
+)
+from leakbudget.package_guard import CellNote, GuardedPackage
+from leakbudget.tables import MergedRange, RawTable, Row, Unreadable
 from leakbudget.units import UnitProblem
 
 WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
 RCD_TYPES = ("AC", "A", "F", "B")
 
 
-def open_grids(path: Path) -> dict[str, list[list[Any]]]:
-    """Read every sheet of the workbook as a grid of cell values, keyed by the sheet name as typed."""
+def open_grids(path: Path) -> "SheetGrids":
+    """The workbook's sheets by name as typed; each is checked and read only when first asked for.
+
+    Before python-calamine opens the file, :class:`~leakbudget.package_guard.GuardedPackage` says what the file
+    is when it is not an .xlsx package and applies the size limits; see :mod:`leakbudget.package_guard`.
+    """
     import python_calamine
 
     if not path.exists():
@@ -42,21 +52,84 @@ def open_grids(path: Path) -> dict[str, list[list[Any]]]:
             f"leakbudget reads .xlsx workbooks, not '{path.suffix or 'no extension'}' files", path=path,
             hint="save it as an Excel 2007+ workbook (.xlsx) from your spreadsheet program",
         )
+    package = GuardedPackage(path)
     try:
         book = python_calamine.CalamineWorkbook.from_path(str(path))
-        return {name: book.get_sheet_by_name(name).to_python(skip_empty_area=False) for name in book.sheet_names}
+        names = list(book.sheet_names)
     except python_calamine.PasswordError:
         raise WorkbookError("the workbook is password-protected or encrypted", path=path,
                             hint="save an unprotected copy and check that") from None
-    except Exception as exc:  # calamine reports zip and XML damage with many exception types
-        raise WorkbookError(f"this is not a readable .xlsx workbook ({type(exc).__name__})", path=path,
-                            hint="open it in your spreadsheet program and save it again as .xlsx") from None
+    except BaseException as exc:  # calamine reports damage with many exception types, and panics
+        raise _unreadable_workbook(exc, path) from None
+    return SheetGrids(path, package, book, names)
 
 
-def _find_sheet(grids: dict[str, list[list[Any]]], spec: Sheet, path: Path) -> tuple[str, list[list[Any]]] | None:
-    for name, grid in grids.items():
-        if normalise(name) == normalise(spec.name):
-            return name, grid
+def _unreadable_workbook(exc: BaseException, path: Path, sheet: str | None = None) -> BaseException:
+    """The error to raise for an exception from calamine (interrupts and exits pass through unchanged)."""
+    if isinstance(exc, (KeyboardInterrupt, SystemExit, GeneratorExit, MemoryError)):
+        return exc
+    text = str(exc).strip()
+    detail = f"{type(exc).__name__}: {text.splitlines()[0][:160]}" if text else type(exc).__name__
+    what = f"sheet '{sheet}' is damaged and cannot be read" if sheet else "this is not a readable .xlsx workbook"
+    return WorkbookError(f"{what} ({detail})", path=path,
+                         hint="open it in your spreadsheet program and save it again as .xlsx")
+
+
+@dataclass
+class SheetGrid:
+    """One sheet as read: cell values (row by row from A1), merged ranges, and cells calamine read as empty
+    although they hold a formula without a saved result or an error value."""
+
+    cells: list[list[Any]]
+    merged: list[MergedRange]
+    unreadable: dict[tuple[int, int], Unreadable]
+
+
+class SheetGrids(Mapping[str, SheetGrid]):
+    """The sheets of one workbook by name; a sheet is checked and read when first asked for, and only then."""
+
+    def __init__(self, path: Path, package: GuardedPackage, book: Any, names: list[str]) -> None:
+        self.path, self.package, self.book, self.names = path, package, book, names
+        self._read: dict[str, SheetGrid] = {}
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self.names)
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+    def __getitem__(self, name: str) -> SheetGrid:
+        if name not in self._read:
+            if name not in self.names:
+                raise KeyError(name)
+            scan = self.package.scan_sheet(name)
+            try:
+                sheet = self.book.get_sheet_by_name(name)
+                cells = sheet.to_python(skip_empty_area=False)
+                merged = list(sheet.merged_cell_ranges or [])
+            except BaseException as exc:
+                raise _unreadable_workbook(exc, self.path, name) from None
+            self._read[name] = SheetGrid(cells, merged, {key: _unreadable_cell(note) for key, note in
+                                                         scan.notes.items()})
+        return self._read[name]
+
+
+def _unreadable_cell(note: CellNote) -> Unreadable:
+    if note.error is not None:
+        return Unreadable(f"the cell shows the error {note.error}",
+                          "correct the formula or the value it uses in your spreadsheet program and save")
+    formula = f" ={note.formula[:60]}" if note.formula else ""
+    return Unreadable(f"the formula{formula} has no saved result (leakbudget reads saved results and calculates "
+                      "nothing)", "open the workbook in a spreadsheet program, let it calculate and save it")
+
+
+def _find_sheet(grids: Mapping[str, SheetGrid], spec: Sheet, path: Path) -> tuple[str, SheetGrid] | None:
+    found = [name for name in grids if normalise(name) == normalise(spec.name)]
+    if len(found) > 1:
+        raise WorkbookError(f"the sheets {' and '.join(repr(n) for n in found)} both read as '{spec.name}'",
+                            path=path, hint="rename or delete one of them")
+    if found:
+        return found[0], grids[found[0]]
     if spec.required:
         raise WorkbookError(
             f"the required sheet '{spec.name}' is missing (sheets found: {', '.join(grids) or 'none'})", path=path,
@@ -65,11 +138,12 @@ def _find_sheet(grids: dict[str, list[list[Any]]], spec: Sheet, path: Path) -> t
     return None
 
 
-def _table(grids: dict[str, list[list[Any]]], spec: Sheet, path: Path) -> RawTable | None:
+def _table(grids: Mapping[str, SheetGrid], spec: Sheet, path: Path) -> RawTable | None:
     found = _find_sheet(grids, spec, path)
     if found is None:
         return None
-    return RawTable.from_grid(path, found[0], found[1], spec)
+    name, sheet = found
+    return RawTable.from_grid(path, name, sheet.cells, spec, sheet.merged, sheet.unreadable)
 
 
 def read_settings(table: RawTable | None) -> tuple[Settings, list[str]]:
@@ -98,6 +172,11 @@ def read_settings(table: RawTable | None) -> tuple[Settings, list[str]]:
         except UnitProblem as exc:
             raise table.error(row, "Value", f"setting '{name}': {exc}",
                               hint=SPECS_BY_NAME[key].help) from None
+        limits = SETTING_RANGES.get(SPECS_BY_NAME[key].name)
+        if limits is not None and (problem := limits.problem(settings[SPECS_BY_NAME[key].name])) is not None:
+            raise table.error(row, "Value", f"setting '{name}': '{table.text(row, 'Value')}' is "
+                                            f"{settings[SPECS_BY_NAME[key].name]:g} {limits.unit}, {problem}",
+                              hint=limits.hint)
     return settings, warnings
 
 
@@ -144,8 +223,8 @@ def read_circuits(table: RawTable, settings: Settings, catalogue: cat.Catalogue,
         system = table.choice(row, "System", SYSTEMS, "single") or "single"
         market = dev.market if dev.protected else fallback_market
         v_default, f_default, supply_source, used_default = _market_supply(market, settings)
-        v = table.number(row, "Voltage", "V", positive=True)
-        f = table.number(row, "Frequency", "Hz", positive=True)
+        v = table.number(row, "Voltage", "V", positive=True, plausible=VOLTAGE_V)
+        f = table.number(row, "Frequency", "Hz", positive=True, plausible=FREQUENCY_HZ)
         if v is not None and f is not None:
             supply_source = Source.measured("Circuits sheet (your value)")
         elif v is None or f is None:
@@ -160,10 +239,7 @@ def read_circuits(table: RawTable, settings: Settings, catalogue: cat.Catalogue,
         if cable_key not in catalogue.cables:
             raise table.error(row, "Cable", f"'{cable_key}' is not a known cable key",
                               hint=f"use one of {', '.join(sorted(catalogue.cables))} (see `leakbudget cables`)")
-        try:
-            length = table.number(row, "Cable length", settings.length_unit, "m")
-        except WorkbookError:
-            raise
+        length = table.number(row, "Cable length", settings.length_unit, "m", plausible=CABLE_LENGTH_M)
         rooms_text = table.text(row, "Rooms")
         rooms = tuple(r.strip() for r in rooms_text.split(",") if r.strip()) if rooms_text else ()
         circuits.append(Circuit(
@@ -206,13 +282,10 @@ def read_loads(table: RawTable, circuits: list[Circuit], catalogue: cat.Catalogu
         if qty_value is not None and not float(qty_value).is_integer():
             raise table.error(row, "Quantity", f"'{table.text(row, 'Quantity')}' is not a whole number",
                               hint="type a whole number of identical units")
-        leakage = table.number(row, "Leakage", "mA")
-        if leakage is not None and leakage > MAX_PLAUSIBLE_LEAKAGE_MA:
-            raise table.error(row, "Leakage", f"{leakage:g} mA per unit is not a plausible standing leakage",
-                              hint="check the unit (type '0.75 mA' or '750 uA'); if it was measured, the appliance "
-                                   "is faulty: have it repaired before planning around it")
+        leakage = table.number(row, "Leakage", "mA", plausible=STANDING_LEAKAGE_MA)
         y_cap = table.number(row, "Y capacitance", "nF")
         ins_r = table.number(row, "Insulation resistance", "Mohm", positive=True)
+        _refuse_implausible_components(table, row, circuit, y_cap, ins_r)
         if leakage is None and y_cap is None and ins_r is None and key is None:
             raise table.error(row, "Appliance", "the load has no leakage figure",
                               hint="give a Leakage, a Y capacitance or Insulation resistance, or an Appliance key")
@@ -233,6 +306,28 @@ def read_loads(table: RawTable, circuits: list[Circuit], catalogue: cat.Catalogu
             model=table.text(row, "Model"),
         ))
     return loads
+
+
+def _refuse_implausible_components(table: RawTable, row: Row, circuit: Circuit | None,
+                                   y_cap_nf: float | None, resistance_mohm: float | None) -> None:
+    """Refuse a Y capacitance or insulation resistance whose leakage at the circuit's supply (IEC 60038 230 V
+    50 Hz for a load not yet placed) is beyond a believable standing leakage per unit."""
+    v, f = (circuit.voltage_v, circuit.frequency_hz) if circuit is not None else IEC_SUPPLY
+    checks = (
+        ("Y capacitance", y_cap_nf, lambda: capacitive_current_ma(y_cap_nf, v, f),
+         "check the unit: bare numbers are taken in nF (type '4700 pF' or '4.7 nF')"),
+        ("Insulation resistance", resistance_mohm, lambda: resistive_current_ma(resistance_mohm, v),
+         "check the unit: bare numbers are taken in megohms (type '500 kohm' or '2 Mohm'); if it was measured, "
+         "the insulation has failed: have the appliance repaired"),
+    )
+    for column, value, current, hint in checks:
+        if value is None:
+            continue
+        implied_ma = float(current())
+        problem = STANDING_LEAKAGE_MA.problem(implied_ma)
+        if problem is not None:
+            raise table.error(row, column, f"'{table.text(row, column)}' per unit would leak {implied_ma:.3g} mA at "
+                                           f"{v:g} V {f:g} Hz, {problem}", hint=hint)
 
 
 def read_project(path: str | Path, progress: Progress | None = None) -> Project:

@@ -136,15 +136,23 @@ def _fsync_folder(folder: Path) -> None:
         os.close(fd)
 
 
-def refuse_if_open(path: Path) -> None:
-    """Refuse when a spreadsheet program's lock file sits beside ``path`` (it would overwrite our result)."""
+def lock_file(path: Path) -> str | None:
+    """The name of a spreadsheet program's lock file beside ``path`` (the file is open there), or None."""
     name = path.name
     for lock in (f".~lock.{name}#", f"~${name}", f"~${name[2:]}"):  # LibreOffice/OpenOffice; Excel (two forms)
         if (path.parent / lock).exists():
-            raise WriteBackError(
-                f"{path}: the file is open in a spreadsheet program (lock file {lock} beside it); close it there "
-                "and run again."
-            )
+            return lock
+    return None
+
+
+def refuse_if_open(path: Path) -> None:
+    """Refuse when a spreadsheet program's lock file sits beside ``path`` (it would overwrite our result)."""
+    lock = lock_file(path)
+    if lock is not None:
+        raise WriteBackError(
+            f"{path}: the file is open in a spreadsheet program (lock file {lock} beside it); close it there "
+            "and run again, or write the results to another file."
+        )
 
 
 def refuse_if_changed(path: Path, before: os.stat_result) -> None:

@@ -35,18 +35,16 @@ from urllib.parse import unquote
 from xml.sax.saxutils import quoteattr
 
 from leakbudget.errors import WriteBackError
+# The zip-bomb limits are shared with the reader; Python's zipfile never inflates an entry past its declared size.
+from leakbudget.package_guard import (  # noqa: F401 (the limits are part of this module's documented API)
+    MAX_COMPRESSION_RATIO, MAX_UNCOMPRESSED_BYTES, MAX_ZIP_ENTRIES, zip_problem,
+)
 from leakbudget.progress import Progress
 from leakbudget.xlsx_file import COPY_CHUNK_BYTES, rewrite
 from leakbudget.xlsx_rows import EXCEL_MAX_NUMBER, SAMPLE_ROW, SheetXml, with_rows
 from leakbudget.xlsx_styles import merge_styles, remap_cell_styles
 from leakbudget.xlsx_xml import BadXmlError, Span, UnsafeXmlError, XmlPart
 
-# Zip-bomb guard, checked on the central directory before any entry is decompressed (common practice; a workbook
-# of a few thousand circuits is a few MB). Python's zipfile never inflates an entry past its declared size.
-MAX_ZIP_ENTRIES = 10_000
-MAX_UNCOMPRESSED_BYTES = 1 << 30  # 1 GiB in total
-MAX_COMPRESSION_RATIO = 200  # uncompressed / compressed, checked on entries above RATIO_CHECK_MIN_BYTES
-RATIO_CHECK_MIN_BYTES = 1 << 20
 # zipfile must know before streaming an entry whether it may pass 2 GiB (ZIP64); a sheet of more rows than this
 # could, at 10 KB a row, so it gets ZIP64 sizes (APPNOTE.TXT 4.5.3; Excel, LibreOffice and calamine read them).
 ZIP64_ROWS = 200_000
@@ -378,23 +376,7 @@ def _entry_like(info: zipfile.ZipInfo | None, name: str, keep_time: bool = False
 def _guarded_entries(archive: zipfile.ZipFile, path: Path) -> list[zipfile.ZipInfo]:
     """The entry list, after the zip-bomb and sanity checks (declared sizes only; nothing is decompressed)."""
     infos = archive.infolist()
-    problem = None
-    if len(infos) > MAX_ZIP_ENTRIES:
-        problem = f"it has {len(infos)} zip entries (limit {MAX_ZIP_ENTRIES})"
-    elif sum(i.file_size for i in infos) > MAX_UNCOMPRESSED_BYTES:
-        problem = f"it unpacks to more than {MAX_UNCOMPRESSED_BYTES >> 20} MiB"
-    else:
-        for info in infos:
-            if info.file_size > RATIO_CHECK_MIN_BYTES and info.file_size > MAX_COMPRESSION_RATIO * max(
-                info.compress_size, 1
-            ):
-                problem = f"entry {info.filename} is compressed more than {MAX_COMPRESSION_RATIO}:1 (a zip bomb?)"
-                break
-            if info.flag_bits & 0x1:
-                problem = f"entry {info.filename} is encrypted"
-                break
-        if problem is None and len({i.filename.casefold() for i in infos}) != len(infos):
-            problem = "two zip entries share one part name"
+    problem = zip_problem(infos)
     if problem:
         raise WriteBackError(
             f"{path.name}: refused to open the workbook because {problem}; check it is the workbook you meant "
