@@ -56,7 +56,8 @@ CASES = [
     ("bad-leg", lambda s: s["Loads"][1].__setitem__(7, "L2"),
      "plan.xlsx, sheet 'Loads', row 2, column 'Leg', cell H2: leg 'L2' does not exist on a single circuit"),
     ("implausible", lambda s: s["Loads"][2].__setitem__(4, "3 A"),
-     "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: 3000 mA per unit is not a plausible standing leakage"),
+     "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '3 A' is 3000 mA, not plausible for a standing "
+     "leakage per unit"),
     ("zero-voltage", lambda s: s["Circuits"][1].__setitem__(2, 0),
      "plan.xlsx, sheet 'Circuits', row 2, column 'Voltage', cell C2: '0' must be greater than zero"),
 ]
@@ -74,7 +75,7 @@ def test_bad_input_is_one_sentence_with_location(make_workbook, mutate, message)
 def test_not_a_workbook(tmp_path):
     p = tmp_path / "notes.xlsx"
     p.write_text("hello")
-    with pytest.raises(WorkbookError, match="not a readable .xlsx workbook"):
+    with pytest.raises(WorkbookError, match=r"notes.xlsx: this is a text file \(plain text\), not an .xlsx workbook"):
         read_project(p)
 
 
