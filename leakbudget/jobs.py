@@ -132,7 +132,7 @@ def split_workbook(path: str | Path, out: str | Path | None = None, write: bool 
 
     path = Path(path)
     with bulk_work():
-        plan = plan_split(read_project(path, progress), options or SplitOptions(), progress)
+        plan = plan_split(_read_for_writing(path, out, write, progress), options or SplitOptions(), progress)
         written = write_sheets(path, [split_sheet(plan)], _out_path(path, out), progress) if write else None
     return SplitJob(plan, written)
 

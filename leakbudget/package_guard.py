@@ -454,6 +454,7 @@ class _CellHandler(ContentHandler):
         self.row = -1
         self.column = -1
         self.in_cell = False
+        self.at = (0, 0)  # (row, column) of the current cell, as calamine places it
         self.cell: dict[str, object] = {}
         self.text: list[str] | None = None
 
@@ -466,11 +467,12 @@ class _CellHandler(ContentHandler):
         elif local == "c" and not self.in_cell:
             ref = _attr(attrs, "r")
             match = re.fullmatch(r"([A-Z]{1,7})([0-9]{1,12})", ref or "")
-            if match:  # positions as written, or counted on from the previous cell (the larger, to be safe)
-                self.column = max(column_index(match.group(1)), self.column + 1)
-                self.row = max(int(match.group(2)) - 1, self.row)
-            else:
-                self.column += 1
+            self.column += 1  # counted on from the previous cell
+            self.at = (self.row, self.column)
+            if match:  # the position as written; the extent counts the larger of the two, to be safe
+                self.at = (int(match.group(2)) - 1, column_index(match.group(1)))
+                self.column = max(self.at[1], self.column)
+                self.row = max(self.at[0], self.row)
             self.in_cell = True
             self.cell = {"t": _attr(attrs, "t"), "children": False, "f": None, "v": None}
         elif self.in_cell:
@@ -499,8 +501,8 @@ class _CellHandler(ContentHandler):
             error = kind == "e" and self.cell["v"] is not None
             no_result = not self.cell["v"] and kind not in ("str", "s", "inlineStr")
             if error or (self.cell["f"] is not None and (self.cell["v"] is None or no_result)):
-                self.scan.notes[(self.row, self.column)] = CellNote(
-                    self.row, self.column, str(self.cell["v"]) if error else None, self.cell["f"] or None)  # type: ignore[arg-type]
+                self.scan.notes[self.at] = CellNote(
+                    *self.at, str(self.cell["v"]) if error else None, self.cell["f"] or None)  # type: ignore[arg-type]
 
 
 def _attr(attrs, name: str) -> str | None:  # noqa: ANN001
