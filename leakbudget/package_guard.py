@@ -54,7 +54,7 @@ RATIO_CHECK_MIN_BYTES = 1 << 20
 
 # Read-side limits (design limits of leakbudget, sized from what calamine and the Python grid hold while a sheet
 # is read: about 100 bytes per cell of the rectangle from A1, measured as 210 MB peak for 2 097 152 cells).
-MAX_SHEET_CELLS = 2_000_000  # e.g. 100 000 load rows x 20 columns
+MAX_SHEET_CELLS = 16_000_000  # about 1.6 GB while read: a million load rows x 16 columns, near the row limit of .xlsx
 MAX_SHEET_PART_BYTES = 512 << 20  # a sheet's XML: 1 000 000 formatted empty rows of 11 cells is about 300 MB
 MAX_PART_BYTES = 256 << 20  # shared strings and styles, which calamine holds in memory
 MAX_INDEX_PART_BYTES = 16 << 20  # xl/workbook.xml and its relationships, parsed here as a tree
