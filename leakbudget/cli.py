@@ -450,6 +450,31 @@ def split(
 
 
 @app.command()
+def report(
+    path: PathArg,
+    html: Annotated[Optional[Path], typer.Option("--html", help="Write the report as one self-contained HTML "
+                                                 "file (charts embedded, no external links).")] = None,
+    pdf: Annotated[Optional[Path], typer.Option("--pdf", help="Write the report as a PDF (A4 pages).")] = None,
+) -> None:
+    """Write a hand-over report of the check: job, cautions, settings, a chart per circuit, tables with sources.
+
+    The workbook is only read. Exit code 0 when the report was written (whatever the circuits' status), 2 on bad
+    input.
+    """
+    from leakbudget.jobs import report_workbook
+
+    job = report_workbook(path, html, pdf)
+    counts = job.report.status_counts
+    over = counts.get("over-budget", 0) + counts.get("trip-risk", 0)
+    for written in job.written:
+        out_console.print(f"Report written to {written} ({written.stat().st_size // 1024 or 1} KB).",
+                          highlight=False)
+    out_console.print(f"{len(job.result.circuits)} circuit(s), {over} over budget. {job.report.verdict.text}",
+                      highlight=False)
+    _caution()
+
+
+@app.command()
 def demo(
     folder: Annotated[Path, typer.Option("--folder", help="Where to put the example workbook.")] = Path("."),
 ) -> None:

@@ -62,3 +62,7 @@ class CatalogueError(LeakbudgetError):
 
 class WriteBackError(LeakbudgetError):
     """The results could not be written safely (file open elsewhere, not writable, …); nothing was changed."""
+
+
+class ReportError(LeakbudgetError):
+    """The report could not be written where asked (bad output path or name); nothing was written."""

@@ -10,6 +10,7 @@ import shutil
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
+from datetime import date
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -23,6 +24,7 @@ from leakbudget.xlsx_package import WriteResult
 if TYPE_CHECKING:
     from leakbudget.planner import SplitOptions, SplitPlan
     from leakbudget.review import Review
+    from leakbudget.report import Report
 
 
 @dataclass
@@ -135,6 +137,28 @@ def split_workbook(path: str | Path, out: str | Path | None = None, write: bool 
         plan = plan_split(_read_for_writing(path, out, write, progress), options or SplitOptions(), progress)
         written = write_sheets(path, [split_sheet(plan)], _out_path(path, out), progress) if write else None
     return SplitJob(plan, written)
+
+
+@dataclass
+class ReportJob:
+    result: CheckResult
+    report: Report
+    written: list[Path]
+
+
+def report_workbook(path: str | Path, html: str | Path | None = None, pdf: str | Path | None = None,
+                    generated: date | None = None) -> ReportJob:
+    """Check a workbook (writing nothing into it) and write the hand-over report as HTML and/or PDF."""
+    from leakbudget.report import build_report, check_outputs, write_report
+
+    path = Path(path)
+    html = Path(html) if html is not None else None
+    pdf = Path(pdf) if pdf is not None else None
+    check_outputs(path, html, pdf)
+    result = check(read_project(path))
+    report = build_report(result, generated=generated)
+    written = write_report(report, path, html, pdf)
+    return ReportJob(result, report, written)
 
 
 def example_path(name: str = "alder-quay-remodel.xlsx") -> Path:

@@ -68,6 +68,10 @@ def _text(value: Any) -> str:
     return str(value).strip().lower()
 
 
+def _free_text(value: Any) -> str:
+    return " ".join(str(value).split())
+
+
 @dataclass(frozen=True, slots=True)
 class SettingSpec:
     name: str
@@ -114,7 +118,15 @@ SETTING_SPECS: tuple[SettingSpec, ...] = (
                 "Monte Carlo samples for the trip likelihood: auto (default) or a whole number."),
     SettingSpec("Seed", risk.parse_seed, risk.SEED_DEFAULT, risk.SEED_SOURCE,
                 "Seed of the random numbers; the same workbook and seed give the same likelihoods."),
+    # Job details, shown at the head of `leakbudget report`; free text, case kept.
+    SettingSpec("Job", _free_text, None, Source(Kind.DEFAULT, "not given"),
+                "What the job is, e.g. 'Kitchen and laundry remodel'; heads the report."),
+    SettingSpec("Site", _free_text, None, Source(Kind.DEFAULT, "not given"), "Address or location of the job."),
+    SettingSpec("Client", _free_text, None, Source(Kind.DEFAULT, "not given"), "Who the report is for."),
+    SettingSpec("Prepared by", _free_text, None, Source(Kind.DEFAULT, "not given"),
+                "Who prepared the plan and the report."),
 )
+JOB_SETTINGS = ("Job", "Site", "Client", "Prepared by")
 SPECS_BY_NAME = {normalise(s.name): s for s in SETTING_SPECS}
 
 

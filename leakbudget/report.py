@@ -1,0 +1,562 @@
+"""The content of the hand-over report: sections of facts, tables, charts and text, independent of the format.
+
+:func:`build_report` turns a check result (and, when given, the review findings and a split plan) into a
+:class:`Report`; :mod:`leakbudget.report_html` and :mod:`leakbudget.report_pdf` lay it out. Every number is taken
+from :func:`leakbudget.results.to_json`, the document ``check --json`` prints, so the report and the check agree
+to the digit; every value carries its provenance kind (published, measured, computed, typical from memory, common
+practice, user setting, default) and its source text.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Protocol
+
+from leakbudget import CAUTION, __version__
+from leakbudget.estimate import COMPUTED, MEASURED, CheckResult, LoadResult
+from leakbudget.provenance import Kind, Source
+from leakbudget.settings import JOB_SETTINGS
+
+# Why personnel protection trips at a few milliamperes: IEC 60479-1 effects of current on people.
+PEOPLE_NOTE = (
+    "Why the levels are low: a person perceives about 0.5 mA and may be unable to let go from about 10 mA; "
+    "fibrillation becomes possible from about 50 mA for more than a second (IEC 60479-1). Personnel protection "
+    "therefore trips at 4-6 mA (UL 943 Class A) or 30 mA (IEC 61008-1 / IEC 61009-1 additional protection)."
+)
+METHOD_NOTES = (
+    "Each load's standing leakage is taken, in this order, from a measured or datasheet value in the workbook; "
+    "else computed from its line-to-earth capacitance and insulation resistance (I = 2πfCV, I = V/R); else the "
+    "appliance catalogue's typical or upper value, rescaled from the catalogue's reference supply to the "
+    "circuit's (capacitive part with V·f, resistive part with V). Values are multiplied by the quantity.",
+    "Each circuit's cable run adds its own computed line: the cable's capacitance of one line conductor to earth "
+    "per metre × length, I = 2πfCV, for every line conductor.",
+    "Per circuit the report gives the arithmetic sum (the conservative figure) and the phasor sum (leakage on "
+    "opposite legs of a split-phase circuit, or on the three phases of a three-phase circuit, partly cancels). "
+    "The Sum setting says which one is compared with the budget.",
+    "Budget = budget fraction × the device's trip level. BS 7671:2018 reg. 531.3.2 limits the protective "
+    "conductor current in normal service to 30 % of IΔn; for UL 943 devices the same fraction is applied by "
+    "analogy (common practice). Status: ok (within budget), over-budget (above budget, below the no-trip "
+    "level), trip-risk (at or above the no-trip level: nuisance trips likely), unprotected (no ground-fault "
+    "device; no budget applies).",
+)
+SEVERITY_ORDER = ("error", "warning", "info")
+
+
+# ---- the format-independent document -------------------------------------------------------------------------
+
+@dataclass(frozen=True, slots=True)
+class Cell:
+    """One table cell: display text, and for numbers the check-JSON key and value it shows.
+
+    ``kind`` is a provenance kind (a :class:`leakbudget.provenance.Kind` value) shown as a badge, ``note`` the
+    source text shown beneath the value, ``tone`` a status or severity word the layout may colour.
+    """
+
+    text: str
+    key: str | None = None
+    value: float | None = None
+    kind: str | None = None
+    note: str | None = None
+    tone: str | None = None
+
+
+@dataclass(slots=True)
+class Paragraph:
+    text: str
+    tone: str | None = None  # "caution", "muted", or a status word
+
+
+@dataclass(slots=True)
+class Facts:
+    """Label → value pairs (a definition list)."""
+
+    items: list[tuple[str, Cell]]
+
+
+@dataclass(slots=True)
+class Table:
+    headers: tuple[str, ...]
+    rows: list[list[Cell]]
+    caption: str = ""
+    name: str = ""  # stable id, e.g. "circuits" or "loads-K1"
+    widths: tuple[float, ...] = ()  # relative column widths for paged layouts; empty = equal
+
+
+@dataclass(slots=True)
+class Figure:
+    png: bytes
+    alt: str
+    caption: str
+    name: str = ""
+
+
+Block = Paragraph | Facts | Table | Figure
+
+
+@dataclass(slots=True)
+class Section:
+    anchor: str
+    title: str
+    blocks: list[Block] = field(default_factory=list)
+
+
+@dataclass(slots=True)
+class Report:
+    title: str
+    subtitle: str
+    verdict: Paragraph
+    status_counts: dict[str, int]
+    sections: list[Section]
+    generated: str
+    tool: str
+
+
+# ---- inputs from the review and the split planner ---------------------------------------------------------------
+
+class FindingLike(Protocol):
+    """What the report reads from a review finding (``leakbudget.review``)."""
+
+    severity: Any
+    rule: str
+    source: Any
+    circuit: str | None
+    load: str | None
+    message: str
+
+
+# ---- helpers ---------------------------------------------------------------------------------------------------
+
+def _ma(value: float | None, key: str | None = None, **kw: Any) -> Cell:
+    """A current [mA] shown with three decimals (the JSON keeps four)."""
+    return Cell("-" if value is None else f"{value:.3f}", key, value, **kw)
+
+
+def _share(value: float | None, key: str | None = None) -> Cell:
+    return Cell("-" if value is None else f"{100 * value:.0f} %", key, value)
+
+
+def _text(value: object) -> str:
+    if value is None:
+        return "-"
+    if isinstance(value, float):
+        return f"{value:g}"
+    return str(value)
+
+
+def _word(value: object) -> str:
+    """An enum's value or the text itself (findings may carry a severity enum or a string)."""
+    return str(getattr(value, "value", value))
+
+
+def load_kind(r: LoadResult, basis: str) -> Kind:
+    """Provenance kind of one load estimate: measured, computed, or the catalogue row's own kind.
+
+    ``basis`` is the catalogue basis the check used (``typical`` or ``upper``, the Basis setting).
+    """
+    if r.basis == MEASURED:
+        return Kind.MEASURED
+    if r.basis == COMPUTED or r.appliance is None:
+        return Kind.COMPUTED
+    src: Source = r.appliance.upper_source if basis == "upper" else r.appliance.typical_source
+    return src.kind
+
+
+def _sourced(value: float | None, key: str, source: Source | None) -> Cell:
+    return _ma(value, key, kind=source.kind.value if source else None, note=str(source) if source else None)
+
+
+# ---- sections --------------------------------------------------------------------------------------------------
+
+def _job_section(result: CheckResult, doc: Mapping[str, Any], generated: str) -> Section:
+    settings = result.project.settings
+    project = result.project
+    items: list[tuple[str, Cell]] = []
+    for name in JOB_SETTINGS:
+        if settings.values.get(name):
+            items.append((name, Cell(str(settings.values[name]), note=str(settings.sources[name]))))
+    protected = [c for c in project.circuits if c.device.protected]
+    placed = [r for r in result.loads if r.load is not None and r.circuit_id is not None]
+    items += [
+        ("Workbook", Cell(project.path.name)),
+        ("Checked with", Cell(str(doc["tool"]))),
+        ("Date", Cell(generated)),
+        ("Circuits", Cell(f"{len(project.circuits)} ({len(protected)} with ground-fault protection)")),
+        ("Loads", Cell(f"{len(project.loads)} ({len(placed)} on a circuit, {len(result.unplaced)} not yet "
+                       "placed)")),
+    ]
+    scope = (
+        "Scope: the standing (normal-service) earth leakage of every load listed in the workbook, summed per "
+        "circuit and compared with a budget set by each circuit's protective device. Not in scope: fault "
+        "currents, disconnection times, touch voltages, earthing, circuits or loads missing from the workbook, "
+        "and anything a measurement on site would show. Compliance with the code in force is for the "
+        "designer and the inspector to decide."
+    )
+    return Section("job", "Job and scope", [Facts(items), Paragraph(scope)])
+
+
+def _caution_section(result: CheckResult, doc: Mapping[str, Any]) -> Section:
+    blocks: list[Block] = [Paragraph(f"Caution: {CAUTION}", "caution"), Paragraph(PEOPLE_NOTE)]
+    loads = [r for r in result.loads if r.load is not None]
+    memory = [r for r in loads if load_kind(r, doc["basis"]) is Kind.FROM_MEMORY]
+    if memory:
+        blocks.append(Paragraph(
+            f"{len(memory)} of {len(loads)} load values are typical catalogue values from memory, not published "
+            "or measured figures: measure the largest of them with a leakage clamp before relying on the result."
+        ))
+    bad = [c["circuit"] for c in doc["circuits"] if c["status"] in ("over-budget", "trip-risk")]
+    if bad:
+        blocks.append(Paragraph(
+            f"Over budget: {', '.join(bad)}. Cure this by splitting loads across circuits, measuring the largest "
+            "contributors, and repairing appliances that leak far above their typical value; never by removing "
+            "or up-rating protection.", "over-budget"))
+    for line in doc["defaults_used"]:
+        blocks.append(Paragraph(f"Default used: {line}", "muted"))
+    for line in doc["warnings"]:
+        blocks.append(Paragraph(f"Warning: {line}", "caution"))
+    if result.unplaced:
+        blocks.append(Paragraph(f"{len(result.unplaced)} load(s) have no circuit yet; they are listed under "
+                                "'Loads not yet placed' and count towards no circuit.", "muted"))
+    return Section("cautions", "Cautions", blocks)
+
+
+def _settings_section(result: CheckResult, doc: Mapping[str, Any]) -> Section:
+    settings = result.project.settings
+    rows = [[Cell(name), Cell(_text(entry["value"])),
+             Cell(entry["source"], kind=settings.sources[name].kind.value)]
+            for name, entry in doc["settings"].items() if name not in JOB_SETTINGS]
+    supplies: dict[tuple[Any, ...], list[str]] = {}
+    for c in doc["circuits"]:
+        supplies.setdefault((c["voltage_v"], c["frequency_hz"], c["system"], c["supply_source"]), []).append(
+            c["circuit"])
+    kinds = {c.circuit_id: c.supply_source.kind.value for c in result.project.circuits}
+    supply_rows = [[Cell(f"{v:g} V"), Cell(f"{f:g} Hz"), Cell(system), Cell(src, kind=kinds[names[0]]),
+                    Cell(", ".join(names))] for (v, f, system, src), names in supplies.items()]
+    devices: dict[str, list[Cell]] = {}
+    for c, obj in zip(doc["circuits"], result.circuits):
+        dev = obj.circuit.device
+        if dev.protected and dev.key not in devices:
+            devices[dev.key] = [
+                Cell(dev.key), Cell(dev.label),
+                _sourced(c["trip_ma"], "trip_ma", dev.trip_source),
+                _sourced(c["no_trip_ma"], "no_trip_ma", dev.no_trip_source),
+                _sourced(c["budget_ma"], "budget_ma", obj.budget_source),
+            ]
+    blocks: list[Block] = [
+        Table(("Setting", "Value", "Source"), rows, "Settings used", "settings", (1.2, 1, 2.6)),
+        Table(("Voltage", "Frequency", "System", "Source", "Circuits"), supply_rows,
+              "Supplies (line-to-neutral voltage and frequency)", "supplies", (0.8, 0.8, 0.8, 1.6, 2.6)),
+    ]
+    if devices:
+        blocks.append(Table(("Key", "Device", "Trip level (mA)", "No-trip level (mA)", "Budget (mA)"),
+                            list(devices.values()), "Protective devices in this plan: levels and budget",
+                            "devices", (0.8, 1.4, 1.6, 1.6, 1.6)))
+    return Section("supply", "Supply and settings used", blocks)
+
+
+def _circuit_row(c: Mapping[str, Any], obj: Any) -> list[Cell]:
+    dev = obj.circuit.device
+    protected = dev.protected
+    return [
+        Cell(c["circuit"], tone=c["status"]),
+        Cell(c["device_label"], note=", ".join(c["rooms"]) or None),
+        Cell(f"{c['voltage_v']:g} V {c['frequency_hz']:g} Hz {c['system']}",
+             kind=obj.circuit.supply_source.kind.value),
+        Cell(str(c["load_count"]), "load_count", c["load_count"]),
+        _ma(c["cable_leakage_ma"], "cable_leakage_ma"),
+        _ma(c["leakage_ma"], "leakage_ma"),
+        _ma(c["phasor_ma"], "phasor_ma"),
+        _ma(c["budget_ma"], "budget_ma", kind=obj.budget_source.kind.value if protected else None),
+        _ma(c["no_trip_ma"], "no_trip_ma", kind=dev.no_trip_source.kind.value if protected else None),
+        _share(c["headroom_used"], "headroom_used"),
+        Cell(c["status"], tone=c["status"]),
+    ]
+
+
+CIRCUIT_HEADERS = ("Circuit", "Device / rooms", "Supply", "Loads", "Cable (mA)", "Sum (mA)", "Phasor (mA)",
+                   "Budget (mA)", "No-trip (mA)", "Used", "Status")
+LOAD_HEADERS = ("Load", "Qty", "Per unit (mA)", "Leakage (mA)", "Phase", "Leg", "Room", "Basis and source")
+
+
+def _load_row(d: Mapping[str, Any], r: LoadResult, basis: str) -> list[Cell]:
+    return [
+        Cell(d["load"], note=f"row {d['row']}" if d["row"] else None),
+        Cell(str(d["quantity"]), "quantity", d["quantity"]),
+        _ma(d["per_unit_ma"], "per_unit_ma"),
+        _ma(d["leakage_ma"], "leakage_ma"),
+        Cell("-" if d["phase_deg"] is None else f"{d['phase_deg']:.0f}°", "phase_deg", d["phase_deg"]),
+        Cell(_text(d["leg"])),
+        Cell(_text(d["room"])),
+        Cell(d["basis"], kind=load_kind(r, basis).value, note=d["source"]),
+    ]
+
+
+LOAD_WIDTHS = (1.5, 0.35, 0.7, 0.7, 0.55, 0.45, 0.8, 3.5)
+
+
+def _circuits_section(result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any]) -> Section:
+    from leakbudget.charts import overview_chart_png
+
+    blocks: list[Block] = []
+    png = overview_chart_png(bars)
+    if png is not None:
+        used = ", ".join(f"{b.circuit} {100 * b.gate_ma / b.budget_ma:.0f} %" for b in bars
+                         if b.protected and b.budget_ma)
+        blocks.append(Figure(png, f"Bar chart of budget used per protected circuit: {used}.",
+                             "Share of each protected circuit's budget its standing leakage uses. Dashed line: "
+                             "the budget (100 %); red tick: the device's no-trip level on the same scale.",
+                             "overview"))
+    gate = "phasor" if doc["sum_rule"] == "phasor" else "arithmetic"
+    blocks.append(Table(CIRCUIT_HEADERS, [_circuit_row(c, o) for c, o in zip(doc["circuits"], result.circuits)],
+                        f"Circuits: standing leakage against budget ({gate} sum compared; catalogue basis "
+                        f"{doc['basis']})", "circuits", (0.95, 1.3, 1.15, 0.55, 0.6, 0.6, 0.7, 1.2, 1.05, 0.6,
+                                                         1.1)))
+    blocks.append(Paragraph(
+        "Sums are computed from the loads listed under each circuit below; the sources of each device's budget, "
+        "no-trip and trip levels are in the table 'Protective devices' and of each supply in 'Supplies', "
+        "under 'Supply and settings used'.", "muted"))
+    return Section("circuits", "Circuits", blocks)
+
+
+def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any]) -> list[Section]:
+    from leakbudget.charts import circuit_chart_png
+
+    pairs = list(zip(doc["loads"], result.loads))
+    sections = []
+    for c, bar in zip(doc["circuits"], bars):
+        rows = [_load_row(d, r, doc["basis"]) for d, r in pairs if d["circuit"] == c["circuit"]]
+        largest = f"; largest: {c['largest_contributor']} {c['largest_contributor_ma']:.3f} mA" \
+            if c["largest_contributor"] else ""
+        levels = (f" against budget {c['budget_ma']:.3f} mA and no-trip level {c['no_trip_ma']:.3f} mA"
+                  if c["budget_ma"] is not None else " (unprotected: no budget)")
+        alt = f"Stacked bar: {c['circuit']} standing leakage {c['leakage_ma']:.3f} mA{levels}{largest}."
+        blocks: list[Block] = [
+            Figure(circuit_chart_png(bar), alt, "Leakage by load, largest first; the diamond marks the phasor "
+                   "sum.", f"chart-{c['circuit']}"),
+            Table(LOAD_HEADERS, rows, f"Loads on {c['circuit']}", f"loads-{c['circuit']}", LOAD_WIDTHS),
+        ]
+        if c["note"]:
+            blocks.insert(0, Paragraph(f"Note: {c['note']}", "muted"))
+        sections.append(Section(f"circuit-{c['circuit']}", f"Circuit {c['circuit']}", blocks))
+    unplaced = [_load_row(d, r, doc["basis"]) for d, r in pairs if d["kind"] == "load" and d["circuit"] is None]
+    if unplaced:
+        sections.append(Section("unplaced", "Loads not yet placed", [
+            Paragraph("Estimated at the supply of a circuit serving their room (else the first circuit); they "
+                      "count towards no circuit until placed.", "muted"),
+            Table(LOAD_HEADERS, unplaced, "Loads with no circuit", "loads-unplaced", LOAD_WIDTHS),
+        ]))
+    return sections
+
+
+def _plan_section(plan: Mapping[str, Any] | None) -> Section:
+    if plan is None:
+        return Section("split", "Split plan", [Paragraph(
+            "No split plan was made for this report. `leakbudget split` proposes the fewest changes that bring "
+            "every protected circuit within budget.",
+            "muted")])
+    optimal = "proven optimal" if plan.get("optimal") else "not proven optimal"
+    moves = [a for a in plan.get("assignments", []) if a.get("moved")]
+    facts = Facts([
+        ("New circuits", Cell(str(plan.get("new_circuits", 0)), "new_circuits", plan.get("new_circuits"))),
+        ("Loads moved or placed", Cell(str(len(moves)), "moves", len(moves))),
+        ("Lower bound on new circuits", Cell(_text(plan.get("lower_bound_new_circuits")))),
+        ("Solution", Cell(optimal)),
+    ])
+    blocks: list[Block] = [facts]
+    if moves:
+        blocks.append(Table(("Load", "From", "To"), [[Cell(a["load"]), Cell(_text(a.get("from")) if a.get("from")
+                                                                               else "not placed"),
+                                                       Cell(_text(a["to"]))] for a in moves],
+                            "Moves", "split-moves", (2, 1, 1)))
+    else:
+        blocks.append(Paragraph("No load needs to move: every protected circuit is within budget as planned."))
+    after = plan.get("circuits") or []
+    if after:
+        blocks.append(Table(("Circuit", "Sum (mA)", "Budget (mA)", "Used", "Status"),
+                            [[Cell(c["circuit"], tone=c["status"]), _ma(c.get("leakage_ma"), "leakage_ma"),
+                              _ma(c.get("budget_ma"), "budget_ma"), _share(c.get("headroom_used"), "headroom_used"),
+                              Cell(c["status"], tone=c["status"])] for c in after],
+                            "Circuits after the plan", "split-circuits", (1.2, 1, 1, 0.7, 1)))
+    return Section("split", "Split plan", blocks)
+
+
+def _findings_section(findings: Sequence[FindingLike] | None) -> Section:
+    if findings is None:
+        return Section("findings", "Review findings", [Paragraph(
+            "The compliance review was not run for this report.", "muted")])
+    if not findings:
+        return Section("findings", "Review findings", [Paragraph(
+            "The review found nothing to report for the rules it checks.")])
+    ordered = sorted(findings, key=lambda f: (SEVERITY_ORDER.index(_word(f.severity))
+                                              if _word(f.severity) in SEVERITY_ORDER else 9))
+    counts = {s: sum(1 for f in findings if _word(f.severity) == s) for s in SEVERITY_ORDER}
+    summary = ", ".join(f"{n} {s}{'s' if n != 1 else ''}" for s, n in counts.items() if n)
+    rows = []
+    for f in ordered:
+        source = f.source
+        kind = source.kind.value if isinstance(source, Source) else None
+        rows.append([Cell(_word(f.severity), tone=_word(f.severity)), Cell(_text(f.circuit)), Cell(_text(f.load)),
+                     Cell(f.message, note=f.rule), Cell(str(source), kind=kind)])
+    return Section("findings", "Review findings", [
+        Paragraph(f"{len(findings)} finding(s): {summary}."),
+        Table(("Severity", "Circuit", "Load", "Finding (rule)", "Source"), rows, "Findings, most severe first",
+              "findings", (0.7, 0.8, 1.1, 3.2, 2)),
+    ])
+
+
+def _method_section() -> Section:
+    legend = [[Cell(k.value, kind=k.value), Cell(text)] for k, text in (
+        (Kind.PUBLISHED, "a published standard or handbook, with clause"),
+        (Kind.MEASURED, "your measured or datasheet value"),
+        (Kind.COMPUTED, "computed from component values or other figures"),
+        (Kind.FROM_MEMORY, "a catalogue value no published source fixes: confirm it"),
+        (Kind.COMMON_PRACTICE, "a rule of thumb of the trade"),
+        (Kind.USER, "a value from your Settings sheet"),
+        (Kind.DEFAULT, "leakbudget's default"),
+    )]
+    return Section("method", "How the figures were made",
+                   [*(Paragraph(t) for t in METHOD_NOTES),
+                    Table(("Mark", "Meaning"), legend, "Provenance marks used in this report", "marks", (1, 3))])
+
+
+# ---- assembly --------------------------------------------------------------------------------------------------
+
+def circuit_bars(result: CheckResult, doc: Mapping[str, Any]) -> list[Any]:
+    """One :class:`leakbudget.charts.CircuitBar` per circuit, from the check-JSON numbers."""
+    from leakbudget.charts import CircuitBar, Segment
+
+    gate_is_phasor = doc["sum_rule"] == "phasor"
+    bars = []
+    for c in doc["circuits"]:
+        segments = tuple(Segment(d["load"] if d["kind"] == "load" else "cable run", d["leakage_ma"] or 0.0)
+                         for d in doc["loads"] if d["circuit"] == c["circuit"])
+        bars.append(CircuitBar(
+            circuit=c["circuit"], device_label=c["device_label"], status=c["status"], segments=segments,
+            leakage_ma=c["leakage_ma"] or 0.0, phasor_ma=c["phasor_ma"] or 0.0, gate_ma=c["gate_ma"] or 0.0,
+            gate_is_phasor=gate_is_phasor, budget_ma=c["budget_ma"], no_trip_ma=c["no_trip_ma"],
+        ))
+    return bars
+
+
+def _verdict(doc: Mapping[str, Any], counts: Mapping[str, int]) -> Paragraph:
+    if not doc["circuits"]:
+        return Paragraph("The workbook lists no circuits yet.", "muted")
+    trip, over = counts.get("trip-risk", 0), counts.get("over-budget", 0)
+    if trip:
+        return Paragraph(f"{trip} circuit(s) at or above the no-trip level (nuisance trips likely) and {over} "
+                         "more over budget: the plan needs changes before installation.", "trip-risk")
+    if over:
+        return Paragraph(f"{over} circuit(s) over budget but below the no-trip level: the plan needs changes "
+                         "before installation.", "over-budget")
+    return Paragraph("Every protected circuit is within its budget.", "ok")
+
+
+def build_report(result: CheckResult, findings: Sequence[FindingLike] | None = None,
+                 plan: Mapping[str, Any] | None = None, generated: dt.date | None = None) -> Report:
+    """Assemble the report's sections from a check result, the review findings and a split-plan document.
+
+    ``findings`` None means the review was not run (the section says so); ``plan`` is the document
+    ``leakbudget split --json`` prints, or None when no plan was made. ``generated`` is the report date (today
+    when None).
+    """
+    from leakbudget.results import to_json
+
+    doc = to_json(result)
+    settings = result.project.settings
+    date = (generated or dt.date.today()).isoformat()
+    counts: dict[str, int] = {}
+    for c in doc["circuits"]:
+        counts[c["status"]] = counts.get(c["status"], 0) + 1
+    bars = circuit_bars(result, doc)
+    sections = [
+        _job_section(result, doc, date),
+        _caution_section(result, doc),
+        _settings_section(result, doc),
+        _circuits_section(result, doc, bars),
+        *_detail_sections(result, doc, bars),
+        _plan_section(plan),
+        _findings_section(findings),
+        _method_section(),
+    ]
+    title = settings.values.get("Job") or f"Earth-leakage budget: {result.project.path.stem}"
+    subtitle = " · ".join(str(settings.values[k]) for k in ("Site", "Client") if settings.values.get(k)) or \
+        "Standing earth leakage per GFCI/RCD-protected circuit"
+    return Report(title=str(title), subtitle=subtitle, verdict=_verdict(doc, counts), status_counts=counts,
+                  sections=sections, generated=date, tool=f"leakbudget {__version__}")
+
+
+def iter_tables(report: Report) -> Iterable[Table]:
+    """Every table of the report, in order (for layouts and tests)."""
+    for section in report.sections:
+        for block in section.blocks:
+            if isinstance(block, Table):
+                yield block
+
+
+# ---- writing ---------------------------------------------------------------------------------------------------
+
+OUTPUT_SUFFIXES = {"html": (".html", ".htm"), "pdf": (".pdf",)}
+
+
+def _check_output(path: Path, fmt: str, workbook: Path) -> Path:
+    from leakbudget.errors import ReportError
+
+    path = Path(path)
+    if path.suffix.lower() not in OUTPUT_SUFFIXES[fmt]:
+        raise ReportError(f"{path}: the {fmt.upper()} report needs a name ending in "
+                          f"{' or '.join(OUTPUT_SUFFIXES[fmt])}; give e.g. --{fmt} report{OUTPUT_SUFFIXES[fmt][0]}.")
+    if path.exists() and path.resolve() == workbook.resolve():
+        raise ReportError(f"{path}: this is the workbook itself; give the report a new file name.")
+    if not path.parent.is_dir():
+        raise ReportError(f"{path}: the folder {path.parent} does not exist; create it or choose another folder.")
+    return path
+
+
+def _replace_atomically(path: Path, data: bytes) -> None:
+    """Write ``data`` to a temporary file beside ``path`` and rename it over ``path`` (never a half-written file)."""
+    import os
+    import tempfile
+
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(data)
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+def check_outputs(workbook: Path, html: Path | None, pdf: Path | None) -> list[tuple[str, Path]]:
+    """Validate the output names before any work: (format, path) pairs; raise ReportError naming the problem."""
+    from leakbudget.errors import ReportError
+
+    if html is None and pdf is None:
+        raise ReportError(f"{workbook.name}: say where to write the report; give --html REPORT.html and/or "
+                          "--pdf REPORT.pdf.")
+    return [(fmt, _check_output(p, fmt, workbook)) for fmt, p in (("html", html), ("pdf", pdf)) if p is not None]
+
+
+def write_report(report: Report, workbook: Path, html: Path | None = None, pdf: Path | None = None) -> list[Path]:
+    """Write the report as HTML and/or PDF; return the paths written. Checks both names before writing either."""
+    from leakbudget.errors import ReportError
+
+    written = []
+    for fmt, path in check_outputs(workbook, html, pdf):
+        if fmt == "html":
+            from leakbudget.report_html import render_html
+
+            data = render_html(report).encode("utf-8")
+        else:
+            from leakbudget.report_pdf import render_pdf
+
+            data = render_pdf(report)
+        try:
+            _replace_atomically(path, data)
+        except OSError as exc:
+            raise ReportError(f"{path}: could not write the report ({exc.strerror}); check the folder is "
+                              "writable and the file is not open in another program.") from None
+        written.append(path)
+    return written

@@ -1,0 +1,304 @@
+"""Lay a :class:`leakbudget.report.Report` out as A4 PDF pages with matplotlib's PdfPages (no browser needed).
+
+Each page is a matplotlib Figure the size of an A4 sheet; text is placed line by line at measured positions,
+tables are drawn row by row with wrapped cells and their header repeated on every page, charts are the same PNGs
+the HTML report embeds. The first page holds the cover, the job and the cautions; the settings, the circuit
+overview, the per-circuit details (flowing, a circuit kept on one page where it fits) and the closing sections
+each start a new page. Fonts are embedded as TrueType (``pdf.fonttype`` 42), so the text can be searched.
+"""
+
+from __future__ import annotations
+
+import functools
+import io
+from collections.abc import Sequence
+from typing import Any
+
+from leakbudget.charts import DPI, INK, STATUS_COLOURS
+from leakbudget.report import Cell, Facts, Figure, Paragraph, Report, Section, Table
+
+PAGE_W_IN, PAGE_H_IN = 8.27, 11.69  # A4 (ISO 216: 210 mm × 297 mm)
+MARGIN_IN = 0.6
+CONTENT_W_IN = PAGE_W_IN - 2 * MARGIN_IN
+FOOTER_IN = 0.35
+MEASURE_DPI = 720  # resolution of the text measurements used for wrapping (0.1 pt steps)
+WRAP_SLACK = 0.95  # wrap to 95 % of a box: screen renderings hint glyphs up to ~4 % wider than the PDF draws
+LINE_SPACING = 1.3  # line height as a multiple of the font size
+PT_PER_IN = 72.0
+ACCENT = "#1d5c63"
+SOFT = "#5b6672"
+RULE = "#ddd7ca"
+HEADER_FILL = "#eef2f1"
+TONE_COLOURS = {**STATUS_COLOURS, "error": STATUS_COLOURS["trip-risk"], "warning": STATUS_COLOURS["over-budget"],
+                "info": "#3f5f8a", "caution": STATUS_COLOURS["over-budget"], "muted": SOFT}
+NEW_PAGE_SECTIONS = ("supply", "circuits", "split")  # these start a page; the sections after them flow
+
+
+@functools.lru_cache(maxsize=None)
+def _renderer() -> Any:
+    from matplotlib.backends.backend_agg import RendererAgg
+
+    return RendererAgg(10, 10, MEASURE_DPI)
+
+
+@functools.lru_cache(maxsize=65536)
+def text_width_in(text: str, size_pt: float, bold: bool = False) -> float:
+    """Width [in] of ``text`` set in the default sans-serif font at ``size_pt``, as the PDF will draw it."""
+    from matplotlib.font_manager import FontProperties
+
+    prop = FontProperties(size=size_pt, weight="bold" if bold else "normal")
+    width_px, _, _ = _renderer().get_text_width_height_descent(text, prop, ismath=False)
+    return width_px / MEASURE_DPI
+
+
+def _wrap(text: str, width_in: float, size_pt: float, bold: bool = False) -> list[str]:
+    """Break ``text`` into lines no wider than ``width_in``, keeping its own line breaks.
+
+    A line's width is the sum of its words' measured widths and the spaces between them (words are measured
+    once and cached; kerning across a space is nil).
+    """
+    width_in *= WRAP_SLACK
+    space = text_width_in("a a", size_pt, bold) - text_width_in("aa", size_pt, bold)
+    lines: list[str] = []
+    for part in text.split("\n"):
+        line, used = "", 0.0
+        for word in part.split():
+            word_in = text_width_in(word, size_pt, bold)
+            if line and used + space + word_in <= width_in:
+                line, used = f"{line} {word}", used + space + word_in
+                continue
+            if line:
+                lines.append(line)
+            while len(word) > 1 and word_in > width_in:  # split an over-long word
+                cut = len(word) - 1
+                while cut > 1 and text_width_in(word[:cut], size_pt, bold) > width_in:
+                    cut -= 1
+                lines.append(word[:cut])
+                word = word[cut:]
+                word_in = text_width_in(word, size_pt, bold)
+            line, used = word, word_in
+        lines.append(line)
+    return lines
+
+
+def _plain(text: str) -> str:
+    return text.replace("$", r"\$")
+
+
+class PageWriter:
+    """Places blocks top to bottom on A4 figures, starting a new page when the next block does not fit."""
+
+    def __init__(self, report: Report) -> None:
+        self.report = report
+        self.pages: list[Any] = []
+        self.fig: Any = None
+        self.y = 0.0  # distance of the cursor from the page top [in]
+
+    # -- pages
+    def new_page(self) -> None:
+        from matplotlib.backends.backend_agg import FigureCanvasAgg
+        from matplotlib.figure import Figure as MplFigure
+
+        self.fig = MplFigure(figsize=(PAGE_W_IN, PAGE_H_IN), dpi=DPI, facecolor="white")
+        FigureCanvasAgg(self.fig)
+        self.pages.append(self.fig)
+        self.y = MARGIN_IN
+        footer = f"{self.report.title} · {self.report.generated} · {self.report.tool} · page {len(self.pages)}"
+        self._text(MARGIN_IN, PAGE_H_IN - MARGIN_IN + 0.12, footer, 7, SOFT)
+
+    def room(self) -> float:
+        return PAGE_H_IN - MARGIN_IN - FOOTER_IN - self.y
+
+    def ensure(self, height_in: float) -> None:
+        if self.fig is None or (height_in > self.room() and self.y > MARGIN_IN + 1e-9):
+            self.new_page()
+
+    # -- primitives (inches from the top-left corner)
+    def _text(self, x_in: float, y_in: float, text: str, size: float, colour: str = INK,
+              weight: str = "normal", style: str = "normal") -> None:
+        self.fig.text(x_in / PAGE_W_IN, 1 - y_in / PAGE_H_IN, _plain(text), fontsize=size, color=colour,
+                      fontweight=weight, fontstyle=style, va="top", ha="left")
+
+    def _rule(self, y_in: float, colour: str = RULE, width: float = 0.6, x0: float = MARGIN_IN,
+              x1: float = PAGE_W_IN - MARGIN_IN) -> None:
+        from matplotlib.lines import Line2D
+
+        y = 1 - y_in / PAGE_H_IN
+        self.fig.add_artist(Line2D([x0 / PAGE_W_IN, x1 / PAGE_W_IN], [y, y], color=colour, linewidth=width))
+
+    def _fill(self, x_in: float, y_in: float, w_in: float, h_in: float, colour: str) -> None:
+        from matplotlib.patches import Rectangle
+
+        self.fig.add_artist(Rectangle((x_in / PAGE_W_IN, 1 - (y_in + h_in) / PAGE_H_IN), w_in / PAGE_W_IN,
+                                      h_in / PAGE_H_IN, facecolor=colour, edgecolor="none", zorder=0))
+
+    def lines(self, lines: Sequence[str], size: float, colour: str = INK, weight: str = "normal",
+              indent_in: float = 0.0, style: str = "normal") -> None:
+        step = size * LINE_SPACING / PT_PER_IN
+        for line in lines:
+            self.ensure(step)
+            self._text(MARGIN_IN + indent_in, self.y, line, size, colour, weight, style)
+            self.y += step
+
+    # -- blocks
+    def cover(self) -> None:
+        r = self.report
+        self.new_page()
+        self._fill(0, 0, PAGE_W_IN, 0.18, ACCENT)
+        self._text(MARGIN_IN, self.y, "STANDING EARTH-LEAKAGE REPORT", 8.5, ACCENT, "bold")
+        self.y += 0.25
+        self.lines(_wrap(r.title, CONTENT_W_IN, 20, True), 20, weight="bold")
+        self.lines(_wrap(r.subtitle, CONTENT_W_IN, 10.5), 10.5, SOFT)
+        self.y += 0.1
+        tone = TONE_COLOURS.get(r.verdict.tone or "", INK)
+        self.lines(_wrap(r.verdict.text, CONTENT_W_IN - 0.2, 11, True), 11, tone, "bold", indent_in=0.15)
+        counts = "   ".join(f"{n} {status}" for status, n in sorted(r.status_counts.items()))
+        self.lines([counts], 9.5, SOFT, indent_in=0.15)
+        self.y += 0.1
+        self._rule(self.y)
+        self.y += 0.1
+
+    def heading(self, title: str) -> None:
+        self.ensure(0.9)  # a heading never ends a page
+        self.y += 0.12
+        self.lines([title], 14, ACCENT, "bold")
+        self.y += 0.04
+
+    def paragraph(self, p: Paragraph) -> None:
+        colour = TONE_COLOURS.get(p.tone or "", INK)
+        bold = p.tone in STATUS_COLOURS
+        self.lines(_wrap(p.text, CONTENT_W_IN, 9, bold), 9, colour, "bold" if bold else "normal")
+        self.y += 0.08
+
+    def facts(self, facts: Facts) -> None:
+        label_w = 1.5
+        for label, cell in facts.items:
+            value = _wrap(_cell_text(cell), CONTENT_W_IN - label_w, 9)
+            self.ensure(len(value) * 9 * LINE_SPACING / PT_PER_IN)
+            self._text(MARGIN_IN, self.y, label, 9, SOFT)
+            self.lines(value, 9, indent_in=label_w)
+        self.y += 0.08
+
+    def figure(self, fig: Figure) -> None:
+        from matplotlib.image import imread
+
+        image = imread(io.BytesIO(fig.png), format="png")
+        height_px, width_px = image.shape[:2]
+        width_in = min(CONTENT_W_IN, width_px / DPI)
+        height_in = width_in * height_px / width_px
+        caption = _wrap(fig.caption, CONTENT_W_IN, 7.5)
+        self.ensure(height_in + 0.1 + len(caption) * 7.5 * LINE_SPACING / PT_PER_IN)
+        ax = self.fig.add_axes((MARGIN_IN / PAGE_W_IN, 1 - (self.y + height_in) / PAGE_H_IN,
+                                width_in / PAGE_W_IN, height_in / PAGE_H_IN))
+        ax.imshow(image, interpolation="lanczos")
+        ax.set_axis_off()
+        self.y += height_in + 0.05
+        self.lines(caption, 7.5, SOFT)
+        self.y += 0.1
+
+    def table(self, table: Table, size: float = 7.0) -> None:
+        pad = 0.05
+        widths = column_widths(table, size, pad)
+        step = size * LINE_SPACING / PT_PER_IN
+
+        def cells(texts: Sequence[str], bold: Sequence[bool]) -> list[list[str]]:
+            return [_wrap(t, w - 2 * pad, size, b) for t, w, b in zip(texts, widths, bold)]
+
+        header = cells(table.headers, [True] * len(widths))
+        rows = [cells([_cell_text(c) for c in row], [c.tone is not None for c in row]) for row in table.rows]
+        header_h = max(len(c) for c in header) * step + 2 * pad
+
+        def draw_header() -> None:
+            self._fill(MARGIN_IN, self.y, CONTENT_W_IN, header_h, HEADER_FILL)
+            self._row(header, widths, size, ACCENT, "bold", pad, [None] * len(header))
+            self.y += header_h
+            self._rule(self.y, ACCENT, 1.0)
+
+        caption = _wrap(table.caption, CONTENT_W_IN, 8.5, True) if table.caption else []
+        first_h = (rows and max(len(c) for c in rows[0]) * step + 2 * pad) or 0
+        self.ensure(len(caption) * 8.5 * LINE_SPACING / PT_PER_IN + header_h + first_h)
+        self.lines(caption, 8.5, weight="bold")
+        draw_header()
+        for texts, row in zip(rows, table.rows):
+            height = max(len(c) for c in texts) * step + 2 * pad
+            if height > self.room():
+                self.new_page()
+                draw_header()
+            self._row(texts, widths, size, INK, "normal", pad, [c.tone for c in row])
+            self.y += height
+            self._rule(self.y)
+        self.y += 0.15
+
+    def _row(self, texts: Sequence[Sequence[str]], widths: Sequence[float], size: float, colour: str,
+             weight: str, pad: float, tones: Sequence[str | None]) -> None:
+        x = MARGIN_IN
+        step = size * LINE_SPACING / PT_PER_IN
+        for lines, width, tone in zip(texts, widths, tones):
+            cell_colour = TONE_COLOURS.get(tone, colour) if tone else colour
+            for i, line in enumerate(lines):
+                self._text(x + pad, self.y + pad + i * step, line, size, cell_colour,
+                           "bold" if tone else weight)
+            x += width
+
+    def section(self, section: Section) -> None:
+        self.heading(section.title)
+        for block in section.blocks:
+            if isinstance(block, Table):
+                self.table(block)
+            elif isinstance(block, Figure):
+                self.figure(block)
+            elif isinstance(block, Facts):
+                self.facts(block)
+            else:
+                self.paragraph(block)
+
+
+def column_widths(table: Table, size: float, pad: float) -> list[float]:
+    """Column widths [in] filling the content width: each column at least as wide as its longest word, the
+    rest shared by the table's relative widths (by those alone when the longest words do not fit)."""
+    weights = table.widths or (1.0,) * len(table.headers)
+    share = [w / sum(weights) for w in weights]
+    columns = zip(table.headers, *([_cell_text(c) for c in row] for row in table.rows))
+    least = [max(text_width_in(word, size, True) for text in column for word in text.split() or [""])
+             / WRAP_SLACK + 2 * pad for column in columns]
+    spare = CONTENT_W_IN - sum(least)
+    if spare < 0:
+        return [CONTENT_W_IN * s for s in share]
+    return [m + spare * s for m, s in zip(least, share)]
+
+
+def _cell_text(cell: Cell) -> str:
+    """A cell as plain text: value, provenance mark in brackets (unless it repeats the value), source below."""
+    text = cell.text
+    if cell.kind and cell.kind != cell.text:
+        text += f" [{cell.kind}]"
+    if cell.note:
+        text += f"\n{cell.note}"
+    return text
+
+
+def pdf_pages(report: Report) -> list[Any]:
+    """The report as a list of A4 matplotlib Figures, one per page."""
+    writer = PageWriter(report)
+    writer.cover()
+    for section in report.sections:
+        if section.anchor in NEW_PAGE_SECTIONS:
+            writer.new_page()
+        elif section.anchor.startswith("circuit-"):
+            writer.ensure(3.0)  # keep a circuit's heading with its chart
+        writer.section(section)
+    return writer.pages
+
+
+def render_pdf(report: Report) -> bytes:
+    """The report as PDF bytes (A4 pages, fonts embedded as TrueType)."""
+    import matplotlib
+    from matplotlib.backends.backend_pdf import PdfPages
+
+    buffer = io.BytesIO()
+    with matplotlib.rc_context({"pdf.fonttype": 42}):
+        with PdfPages(buffer, metadata={"Title": report.title, "Creator": report.tool,
+                                        "Subject": "Standing earth-leakage report"}) as pdf:
+            for page in pdf_pages(report):
+                pdf.savefig(page)
+    return buffer.getvalue()

@@ -1,0 +1,402 @@
+"""The hand-over report: it renders, holds every circuit, its numbers equal `check --json`, its charts show them.
+
+The shipped example and the small conftest workbook are reported through the real command line; the HTML is
+read back with the standard library's HTML parser and the embedded PNGs with matplotlib's image reader.
+"""
+
+from __future__ import annotations
+
+import base64
+import contextlib
+import datetime as dt
+import io
+import json
+import math
+import re
+import shutil
+import sys
+from dataclasses import dataclass
+from html.parser import HTMLParser
+from pathlib import Path
+
+import pytest
+
+from leakbudget import charts
+from leakbudget.cli import main
+from leakbudget.errors import ReportError
+from leakbudget.estimate import check
+from leakbudget.jobs import example_path, report_workbook
+from leakbudget.report import build_report, iter_tables
+from leakbudget.report_html import render_html
+from leakbudget.report_pdf import pdf_pages, render_pdf
+from leakbudget.workbook import read_project
+from tests.conftest import basic_sheets, write_workbook
+from tests.pixels import decode, line_column, stacked_bar
+
+
+def run_cli(args: list[str], capsys, monkeypatch) -> tuple[int, str, str]:
+    """Run the real entry point (errors → exit 2 in main()) and return exit code, stdout, stderr."""
+    monkeypatch.setattr(sys, "argv", ["leakbudget", *args])
+    monkeypatch.setenv("COLUMNS", "200")
+    with pytest.raises(SystemExit) as exit_info:
+        main()
+    out = capsys.readouterr()
+    return int(exit_info.value.code or 0), out.out, out.err
+
+
+class ReportReader(HTMLParser):
+    """Collects tables (cells with their data-key/data-value), figures, sections, and any external reference."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.tables: dict[str, list[list[dict]]] = {}
+        self.figures: dict[str, dict] = {}
+        self.sections: list[str] = []
+        self.tags: set[str] = set()
+        self.links: list[str] = []
+        self._table: str | None = None
+        self._figure: str | None = None
+        self._cell: dict | None = None
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        self.tags.add(tag)
+        for name in ("src", "href"):
+            if a.get(name) and not a[name].startswith(("data:image/png;base64,", "#")):
+                self.links.append(a[name])
+        if tag == "section":
+            self.sections.append(a["id"])
+        elif tag == "table":
+            self._table = a.get("data-table")
+            self.tables[self._table] = []
+        elif tag == "tr" and self._table is not None:
+            self.tables[self._table].append([])
+        elif tag == "td" and self._table is not None:
+            self._cell = {"key": a.get("data-key"), "value": a.get("data-value"), "text": ""}
+            self.tables[self._table][-1].append(self._cell)
+        elif tag == "span" and self._cell is not None:
+            self._cell["in_badge"] = True
+        elif tag == "small" and self._cell is not None:
+            self._cell["in_note"] = True
+        elif tag == "figure":
+            self._figure = a.get("data-figure")
+        elif tag == "img" and self._figure is not None:
+            self.figures[self._figure] = {"png": base64.b64decode(a["src"].split(",", 1)[1]), "alt": a["alt"],
+                                          "width": int(a["width"]), "height": int(a["height"])}
+
+    def handle_endtag(self, tag):
+        if tag == "table":
+            self._table = None
+        elif tag == "td":
+            self._cell = None
+        elif tag == "figure":
+            self._figure = None
+        elif tag in ("span", "small") and self._cell is not None:
+            self._cell.pop("in_badge" if tag == "span" else "in_note", None)
+
+    def handle_data(self, data):
+        if self._cell is not None and not self._cell.get("in_badge") and not self._cell.get("in_note"):
+            self._cell["text"] += data
+
+
+def read_html(text: str) -> ReportReader:
+    reader = ReportReader()
+    reader.feed(text)
+    return reader
+
+
+@pytest.fixture(scope="module")
+def demo_run(tmp_path_factory):
+    """The shipped example, reported to HTML and PDF and checked with --json, through the command line."""
+    folder = tmp_path_factory.mktemp("demo")
+    workbook = folder / "alder-quay-remodel.xlsx"
+    shutil.copyfile(example_path(), workbook)
+    before = workbook.read_bytes()
+    mp = pytest.MonkeyPatch()  # module scope: monkeypatch and capsys are per test, so patch and capture by hand
+
+    def run(args):
+        mp.setattr(sys, "argv", ["leakbudget", *args])
+        mp.setenv("COLUMNS", "200")
+        out, err = io.StringIO(), io.StringIO()
+        with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err), pytest.raises(SystemExit) as ex:
+            main()
+        return int(ex.value.code or 0), out.getvalue(), err.getvalue()
+
+    html_path, pdf_path = folder / "report.html", folder / "report.pdf"
+    report_run = run(["report", str(workbook), "--html", str(html_path), "--pdf", str(pdf_path)])
+    check_run = run(["check", str(workbook), "--no-write", "--json"])
+    mp.undo()
+    return {
+        "workbook": workbook, "unchanged": workbook.read_bytes() == before, "report": report_run,
+        "check": json.loads(check_run[1]), "check_code": check_run[0], "html_path": html_path,
+        "pdf_path": pdf_path, "html": read_html(html_path.read_text(encoding="utf-8")),
+        "raw_html": html_path.read_text(encoding="utf-8"),
+    }
+
+
+# ---- the command ------------------------------------------------------------------------------------------------
+
+def test_report_command_writes_both_files_and_leaves_the_workbook_alone(demo_run):
+    code, out, err = demo_run["report"]
+    html_path, pdf_path = demo_run["html_path"], demo_run["pdf_path"]
+    assert code == 0
+    assert out.splitlines() == [
+        f"Report written to {html_path} ({html_path.stat().st_size // 1024} KB).",
+        f"Report written to {pdf_path} ({pdf_path.stat().st_size // 1024} KB).",
+        "10 circuit(s), 3 over budget. 3 circuit(s) over budget but below the no-trip level: the plan needs "
+        "changes before installation.",
+    ]
+    assert err.startswith("Caution: leakbudget is a planning aid")
+    assert demo_run["unchanged"]
+    assert pdf_path.read_bytes().startswith(b"%PDF-")
+
+
+@pytest.mark.parametrize("args, message", [
+    (["--html"], None),
+    ([], "alder-quay-remodel.xlsx: say where to write the report; give --html REPORT.html and/or --pdf "
+         "REPORT.pdf."),
+    (["--html", "{folder}/report.txt"], "{folder}/report.txt: the HTML report needs a name ending in .html or "
+                                        ".htm; give e.g. --html report.html."),
+    (["--pdf", "{folder}/missing/report.pdf"], "{folder}/missing/report.pdf: the folder {folder}/missing does "
+                                               "not exist; create it or choose another folder."),
+])
+def test_bad_output_names_exit_2_with_one_sentence_and_write_nothing(args, message, tmp_path, capsys,
+                                                                     monkeypatch):
+    workbook = tmp_path / "alder-quay-remodel.xlsx"
+    shutil.copyfile(example_path(), workbook)
+    if args == ["--html"]:  # the workbook itself as the output: refused even with an .html name
+        html_twin = tmp_path / "plan.html"
+        shutil.copyfile(workbook, html_twin)
+        args, workbook = ["--html", str(html_twin)], html_twin
+        message = f"{html_twin}: this is the workbook itself; give the report a new file name."
+    args = [a.format(folder=tmp_path) for a in args]
+    before = sorted(p.name for p in tmp_path.iterdir())
+    code, out, err = run_cli(["report", str(workbook), *args], capsys, monkeypatch)
+    assert code == 2
+    assert err.strip() == "Error: " + message.format(folder=tmp_path)
+    assert sorted(p.name for p in tmp_path.iterdir()) == before
+
+
+# ---- content ----------------------------------------------------------------------------------------------------
+
+def test_html_is_self_contained(demo_run):
+    html = demo_run["html"]
+    assert html.links == []  # every src/href is an embedded PNG or an in-page anchor
+    assert not {"script", "link", "iframe", "object"} & html.tags
+    assert "http://" not in demo_run["raw_html"] and "https://" not in demo_run["raw_html"]
+    assert demo_run["raw_html"].startswith("<!DOCTYPE html>")
+
+
+def test_report_has_every_circuit_with_its_chart_and_load_table(demo_run):
+    doc, html = demo_run["check"], demo_run["html"]
+    ids = [c["circuit"] for c in doc["circuits"]]
+    assert len(ids) == 10
+    assert [row[0]["text"] for row in html.tables["circuits"][1:]] == ids
+    for cid in ids:
+        assert f"circuit-{cid}" in html.sections
+        assert f"chart-{cid}" in html.figures
+        names = [row[0]["text"] for row in html.tables[f"loads-{cid}"][1:]]
+        assert names == [d["load"] for d in doc["loads"] if d["circuit"] == cid]
+    assert [row[0]["text"] for row in html.tables["loads-unplaced"][1:]] == ["Wine cooler"]
+    for section in ("job", "cautions", "supply", "circuits", "split", "findings", "method"):
+        assert section in html.sections
+
+
+CIRCUIT_KEYS = ("load_count", "cable_leakage_ma", "leakage_ma", "phasor_ma", "budget_ma", "no_trip_ma",
+                "headroom_used")
+
+
+def _numbers(row: list[dict]) -> dict[str, dict]:
+    return {cell["key"]: cell for cell in row if cell["key"]}
+
+
+def test_circuit_numbers_equal_check_json(demo_run):
+    doc, html = demo_run["check"], demo_run["html"]
+    for c, row in zip(doc["circuits"], html.tables["circuits"][1:]):
+        cells = _numbers(row)
+        assert set(cells) == set(CIRCUIT_KEYS)
+        for key in CIRCUIT_KEYS:
+            value = c[key]
+            shown = cells[key]
+            if value is None:
+                assert shown["value"] is None and shown["text"] == "-"
+                continue
+            assert float(shown["value"]) == value, (c["circuit"], key)
+            if key == "headroom_used":
+                assert shown["text"] == f"{100 * value:.0f} %"
+            elif key == "load_count":
+                assert shown["text"] == str(value)
+            else:
+                assert shown["text"] == f"{value:.3f}"
+        assert row[-1]["text"] == c["status"]
+
+
+def test_load_numbers_equal_check_json_and_add_up_to_the_circuit(demo_run):
+    doc, html = demo_run["check"], demo_run["html"]
+    for c in doc["circuits"]:
+        loads = [d for d in doc["loads"] if d["circuit"] == c["circuit"]]
+        rows = html.tables[f"loads-{c['circuit']}"][1:]
+        for d, row in zip(loads, rows, strict=True):
+            cells = _numbers(row)
+            for key in ("quantity", "per_unit_ma", "leakage_ma"):
+                assert float(cells[key]["value"]) == d[key]
+            assert cells["leakage_ma"]["text"] == f"{d['leakage_ma']:.3f}"
+            assert row[-1]["text"] == d["basis"]
+        # the arithmetic sum is the sum of the loads shown (each rounded to 4 decimals in the JSON)
+        shown_sum = sum(float(_numbers(r)["leakage_ma"]["value"]) for r in rows)
+        assert shown_sum == pytest.approx(c["leakage_ma"], abs=1e-4 * (len(rows) + 1))
+
+
+def test_every_load_shows_its_source_and_provenance_mark(demo_run):
+    raw = demo_run["raw_html"]
+    # the measured microwave reading and a catalogue value from memory, each with its mark
+    assert 'measured<small class="src">measured (your Leakage value)</small>' in raw
+    assert ('catalogue<span class="badge k-typical-from-memory">typical, from memory</span><small class="src">'
+            "catalogue &#x27;dishwasher&#x27; typical 0.8 mA: typical, from memory</small>") in raw
+    # the budget rule's source and the device levels' sources (UL 943, BS 7671:2018 reg. 531.3.2)
+    assert "UL 943 Class A (no trip below 4 mA)" in raw
+    assert "30 % of trip level, by analogy with BS 7671:2018 reg. 531.3.2 (common practice)" in raw
+
+
+def test_embedded_charts_show_the_check_numbers(demo_run):
+    doc, html = demo_run["check"], demo_run["html"]
+    by_id = {c["circuit"]: c for c in doc["circuits"]}
+    for cid in ("P-OUT", "K-CTR2", "K-RANGE"):  # 127 %, 6 % and 82 % of budget
+        figure = html.figures[f"chart-{cid}"]
+        image = decode(figure["png"])
+        assert image.shape[:2] == (figure["height"], figure["width"])
+        budget_col, _ = line_column(image, charts.BUDGET_COLOUR)
+        bar = stacked_bar(image)
+        c = by_id[cid]
+        expected_px = c["leakage_ma"] / c["budget_ma"] * (budget_col + 1 - bar.left)
+        assert bar.right + 1 - bar.left == pytest.approx(expected_px, abs=3), cid  # ±3 px: edges anti-aliased
+        assert (bar.right > budget_col) == (c["status"] == "over-budget")
+        assert f"{c['leakage_ma']:.3f} mA" in figure["alt"]
+    overview = decode(html.figures["overview"]["png"])
+    assert overview.shape[1] == 760
+    assert "P-OUT 127 %" in html.figures["overview"]["alt"]
+
+
+def test_pdf_has_every_circuit_and_its_text_stays_on_the_page(demo_run):
+    result = check(read_project(demo_run["workbook"]))
+    report = build_report(result, generated=dt.date(2026, 11, 2))
+    pages = pdf_pages(report)
+    texts = []
+    for page in pages:
+        renderer = page.canvas.get_renderer()
+        width, height = page.bbox.width, page.bbox.height
+        for text in page.texts:
+            box = text.get_window_extent(renderer)
+            assert box.x0 >= 0 and box.y0 >= 0 and box.x1 <= width + 1 and box.y1 <= height + 1, text.get_text()
+            texts.append(text.get_text())
+    for c in demo_run["check"]["circuits"]:
+        assert f"Circuit {c['circuit']}" in texts
+        assert f"{c['leakage_ma']:.3f}" in texts  # the circuit table row, same digits as check --json
+    assert len(re.findall(rb"/Type\s*/Page\b(?!s)", demo_run["pdf_path"].read_bytes())) == len(pages)
+
+
+# ---- the small workbook: physics against published figures -------------------------------------------------------
+
+def test_small_workbook_report_against_published_figures(make_workbook, tmp_path):
+    job = report_workbook(make_workbook(), html=tmp_path / "r.html", generated=dt.date(2026, 1, 5))
+    html = read_html((tmp_path / "r.html").read_text(encoding="utf-8"))
+    rows = {row[0]["text"]: _numbers(row) for row in html.tables["circuits"][1:]}
+    # UL 943 Class A trips at 6 mA; 30 % of it by analogy with BS 7671:2018 reg. 531.3.2 = 1.8 mA.
+    assert float(rows["K1"]["budget_ma"]["value"]) == pytest.approx(0.30 * 6.0)
+    # IEC 61008-1: 30 mA RCD, no operation below 0.5 IΔn = 15 mA; budget 30 % of IΔn = 9 mA (BS 7671 531.3.2).
+    assert float(rows["E1"]["no_trip_ma"]["value"]) == pytest.approx(15.0)
+    assert float(rows["E1"]["budget_ma"]["value"]) == pytest.approx(9.0)
+    # I = 2πfCV: 4.7 nF at 120 V 60 Hz = 0.2126 mA (physics, computed here independently)
+    filter_ma = 2 * math.pi * 60 * 4.7e-9 * 120 * 1e3
+    load = _numbers(html.tables["loads-K1"][1])
+    assert float(load["leakage_ma"]["value"]) == pytest.approx(filter_ma, abs=1e-4)
+    assert load["leakage_ma"]["text"] == f"{filter_ma:.3f}"
+    assert job.report.verdict.text == "Every protected circuit is within its budget."
+
+
+def test_job_settings_head_the_report(tmp_path):
+    sheets = basic_sheets()
+    sheets["Settings"] = [["Setting", "Value"], ["Job", "Bakery fit-out, ground floor"],
+                          ["Site", "4 Tallow Lane, Eskbridge"], ["Client", "Fennick Bakes"],
+                          ["Prepared by", "J. Arkwright"]]
+    workbook = write_workbook(tmp_path / "bakery.xlsx", sheets)
+    report = build_report(check(read_project(workbook)), generated=dt.date(2026, 3, 1))
+    text = render_html(report)
+    assert "<title>Bakery fit-out, ground floor</title>" in text
+    assert '<p class="sub">4 Tallow Lane, Eskbridge · Fennick Bakes</p>' in text
+    assert "<dt>Prepared by</dt><dd>J. Arkwright<small class=\"src\">Settings sheet, row 5</small></dd>" in text
+    assert "Job" not in [row[0].text for row in next(t for t in iter_tables(report) if t.name == "settings").rows]
+
+
+def test_workbook_text_is_escaped(tmp_path):
+    sheets = basic_sheets()
+    sheets["Loads"][1][0] = "<script>alert('x')</script>"
+    sheets["Circuits"][1].append(None)
+    text = render_html(build_report(check(read_project(write_workbook(tmp_path / "x.xlsx", sheets)))))
+    assert "<script>" not in text
+    assert "&lt;script&gt;alert(&#x27;x&#x27;)&lt;/script&gt;" in text
+
+
+# ---- sections filled from the review and the split planner ------------------------------------------------------
+
+@dataclass
+class Finding:
+    severity: str
+    rule: str
+    source: str
+    circuit: str | None
+    load: str | None
+    message: str
+
+
+def test_findings_are_listed_most_severe_first(make_workbook):
+    result = check(read_project(make_workbook()))
+    findings = [
+        Finding("info", "room-unclassified", "common practice", "K1", None, "Room 'Snug' could not be classified."),
+        Finding("error", "location-protection", "NEC 2023 210.8(A)(1)", "K1", None, "Bathroom receptacle needs "
+                "GFCI protection."),
+        Finding("warning", "waveform", "IEC 62423", "E1", "Meter", "Smooth-DC leakage on a Type A RCD."),
+    ]
+    report = build_report(result, findings=findings)
+    table = next(t for t in iter_tables(report) if t.name == "findings")
+    assert [row[0].text for row in table.rows] == ["error", "warning", "info"]
+    assert table.rows[0][3].note == "location-protection" and table.rows[0][4].text == "NEC 2023 210.8(A)(1)"
+    section = next(s for s in report.sections if s.anchor == "findings")
+    assert section.blocks[0].text == "3 finding(s): 1 error, 1 warning, 1 info."
+
+
+def test_findings_section_says_when_the_review_was_not_run_or_found_nothing(make_workbook):
+    result = check(read_project(make_workbook()))
+    for findings, text in ((None, "The compliance review was not run for this report."),
+                           ([], "The review found nothing to report for the rules it checks.")):
+        section = next(s for s in build_report(result, findings=findings).sections if s.anchor == "findings")
+        assert section.blocks[0].text == text
+
+
+def test_split_plan_section_lists_moves_and_circuits_after(make_workbook):
+    result = check(read_project(make_workbook()))
+    plan = {"new_circuits": 1, "optimal": True, "lower_bound_new_circuits": 1,
+            "assignments": [{"load": "Filter", "from": "K1", "to": "K1", "moved": False},
+                            {"load": "Meter", "from": "E1", "to": "NEW-1", "moved": True}],
+            "circuits": [{"circuit": "K1", "leakage_ma": 0.2126, "budget_ma": 1.8, "headroom_used": 0.1181,
+                          "status": "ok"},
+                         {"circuit": "NEW-1", "leakage_ma": 1.5, "budget_ma": 9.0, "headroom_used": 0.1667,
+                          "status": "ok"}]}
+    report = build_report(result, plan=plan)
+    moves = next(t for t in iter_tables(report) if t.name == "split-moves")
+    assert [[c.text for c in row] for row in moves.rows] == [["Meter", "E1", "NEW-1"]]
+    after = next(t for t in iter_tables(report) if t.name == "split-circuits")
+    assert [row[1].text for row in after.rows] == ["0.213", "1.500"]
+    facts = next(s for s in report.sections if s.anchor == "split").blocks[0]
+    assert dict((k, v.text) for k, v in facts.items)["Solution"] == "proven optimal"
+
+
+def test_unprotected_only_plan_renders_without_overview(tmp_path):
+    sheets = basic_sheets()
+    for row in sheets["Circuits"][1:]:
+        row[1] = "none"
+    report = build_report(check(read_project(write_workbook(tmp_path / "u.xlsx", sheets))))
+    html = read_html(render_html(report))
+    assert "overview" not in html.figures and set(html.figures) == {"chart-K1", "chart-E1"}
+    assert report.verdict.text == "Every protected circuit is within its budget."
+    assert render_pdf(report).startswith(b"%PDF-")
