@@ -11,6 +11,7 @@ import math
 from typing import Any
 
 from leakbudget import CAUTION, __version__
+from leakbudget.charts import BUDGET_COLOUR, NO_TRIP_COLOUR, SEGMENT_COLOURS
 from leakbudget.estimate import CheckResult, CircuitResult, LoadResult
 from leakbudget.readings import COVERAGE, THRESHOLDS, ReadingResult
 from leakbudget.risk import TripProbability
@@ -296,6 +297,7 @@ def result_sheets(result: CheckResult) -> list[SheetData]:
         y_axis_title="mA",
         anchor=f"B{len(doc['circuits']) + len(footer) + 4}",
         data_rows=len(doc["circuits"]),
+        colours=(SEGMENT_COLOURS[0], BUDGET_COLOUR, NO_TRIP_COLOUR),  # the report's colours for the same things
     ) if doc["circuits"] else None
     sheets = [
         _sheet(CIRCUIT_RESULTS, CIRCUIT_COLUMNS, doc["circuits"], footer, chart),

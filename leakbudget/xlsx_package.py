@@ -84,6 +84,7 @@ class ChartSpec:
     data_rows: int | None = None  # how many rows below the header to plot (default: all rows of the sheet)
     width_px: int = 720
     height_px: int = 360
+    colours: tuple[str, ...] = ()  # "#rrggbb" fill of each series in turn; empty = the spreadsheet's own palette
 
 
 @dataclass(frozen=True)
@@ -597,12 +598,16 @@ def _add_chart(book, worksheet, sheet: SheetData) -> None:  # noqa: ANN001
             raise ValueError(f"chart column {column} is outside sheet '{sheet.name}' ({width} columns)")
     last = len(sheet.rows) if spec.data_rows is None else min(spec.data_rows, len(sheet.rows))
     chart = book.add_chart({"type": "column"})
-    for column in spec.value_columns:
-        chart.add_series({
+    for i, column in enumerate(spec.value_columns):
+        series = {
             "name": [sheet.name, 0, column],
             "categories": [sheet.name, 1, spec.category_column, last, spec.category_column],
             "values": [sheet.name, 1, column, last, column],
-        })
+        }
+        if i < len(spec.colours):
+            series["fill"] = {"color": spec.colours[i]}
+            series["border"] = {"none": True}
+        chart.add_series(series)
     chart.set_title({"name": spec.title})
     chart.set_y_axis({"name": spec.y_axis_title})
     chart.set_size({"width": spec.width_px, "height": spec.height_px})

@@ -522,3 +522,20 @@ def test_killed_or_interrupted_write_leaves_the_original(tmp_path: Path) -> None
         write_sheets(folder / "panel.xlsx", [load_sheet()])
         assert sorted(p.name for p in folder.iterdir()) == ["panel.before-leakbudget.xlsx", "panel.xlsx"]
         assert (folder / "panel.before-leakbudget.xlsx").read_bytes() == original
+
+
+def test_chart_plots_its_data_rows_in_the_colours_given(tmp_path: Path) -> None:
+    """Notes under the table are not plotted; series fills follow ChartSpec.colours
+    (ECMA-376 Part 1 §21.2.2: c:ser/c:spPr/a:solidFill/a:srgbClr)."""
+    rows = [*CIRCUIT_ROWS, [None, None, None, None], ["Written by a test; replaced on every run.", None, None, None]]
+    sheet = SheetData("Circuit results", ["circuit", "leakage_ma", "budget_ma", "note"], rows,
+                      chart=ChartSpec("Leakage", 0, (1, 2), data_rows=3, colours=("#2f6f8f", "#e0a100")))
+    path = write_sheets(copy_fixture(tmp_path, "libreoffice"), [sheet]).path
+    chart = DET.fromstring(entries(path)["xl/charts/leakbudget_chart1.xml"])
+    ns = {"c": "http://schemas.openxmlformats.org/drawingml/2006/chart",
+          "a": "http://schemas.openxmlformats.org/drawingml/2006/main"}
+    refs = [f.text for f in chart.iter("{%s}f" % ns["c"])]
+    assert refs == ["'Circuit results'!$B$1", "'Circuit results'!$A$2:$A$4", "'Circuit results'!$B$2:$B$4",
+                    "'Circuit results'!$C$1", "'Circuit results'!$A$2:$A$4", "'Circuit results'!$C$2:$C$4"]
+    fills = [c.get("val") for c in chart.iterfind(".//c:ser/c:spPr/a:solidFill/a:srgbClr", ns)]
+    assert fills == ["2F6F8F", "E0A100"]
