@@ -102,6 +102,10 @@ SETTINGS = [
     ["Basis", "typical"],
     ["Sum", "arithmetic"],
     ["Length unit", "ft"],
+    ["Job", "Kitchen, laundry and bath remodel"],
+    ["Site", "12 Alder Quay, Wrenfield"],
+    ["Client", "The Ostrander family"],
+    ["Prepared by", "Mara Quennell"],
 ]
 
 ABOUT = [
