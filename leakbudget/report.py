@@ -514,21 +514,6 @@ def _check_output(path: Path, fmt: str, workbook: Path) -> Path:
     return path
 
 
-def _replace_atomically(path: Path, data: bytes) -> None:
-    """Write ``data`` to a temporary file beside ``path`` and rename it over ``path`` (never a half-written file)."""
-    import os
-    import tempfile
-
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as handle:
-            handle.write(data)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-
-
 def check_outputs(workbook: Path, html: Path | None, pdf: Path | None) -> list[tuple[str, Path]]:
     """Validate the output names before any work: (format, path) pairs; raise ReportError naming the problem."""
     from leakbudget.errors import ReportError
@@ -540,8 +525,13 @@ def check_outputs(workbook: Path, html: Path | None, pdf: Path | None) -> list[t
 
 
 def write_report(report: Report, workbook: Path, html: Path | None = None, pdf: Path | None = None) -> list[Path]:
-    """Write the report as HTML and/or PDF; return the paths written. Checks both names before writing either."""
-    from leakbudget.errors import ReportError
+    """Write the report as HTML and/or PDF; return the paths written. Checks both names before writing either.
+
+    Raises :class:`leakbudget.errors.WriteBackError` naming the file when it cannot be written."""
+    import os
+    import stat
+
+    from leakbudget.xlsx_file import replace_atomically
 
     written = []
     for fmt, path in check_outputs(workbook, html, pdf):
@@ -553,10 +543,8 @@ def write_report(report: Report, workbook: Path, html: Path | None = None, pdf: 
             from leakbudget.report_pdf import render_pdf
 
             data = render_pdf(report)
-        try:
-            _replace_atomically(path, data)
-        except OSError as exc:
-            raise ReportError(f"{path}: could not write the report ({exc.strerror}); check the folder is "
-                              "writable and the file is not open in another program.") from None
+        # a report replacing an earlier one keeps its permissions; a new one gets the workbook's
+        mode = stat.S_IMODE(os.stat(path if path.exists() else workbook).st_mode)
+        replace_atomically(path, mode, lambda handle, payload=data: handle.write(payload))  # never half-written
         written.append(path)
     return written

@@ -400,3 +400,15 @@ def test_unprotected_only_plan_renders_without_overview(tmp_path):
     assert "overview" not in html.figures and set(html.figures) == {"chart-K1", "chart-E1"}
     assert report.verdict.text == "Every protected circuit is within its budget."
     assert render_pdf(report).startswith(b"%PDF-")
+
+
+def test_report_file_takes_the_workbook_permissions_and_keeps_its_own_when_replaced(make_workbook, tmp_path):
+    workbook = make_workbook()
+    workbook.chmod(0o644)
+    out = tmp_path / "r.html"
+    report_workbook(workbook, html=out)
+    assert out.stat().st_mode & 0o777 == 0o644
+    out.chmod(0o640)
+    report_workbook(workbook, html=out)
+    assert out.stat().st_mode & 0o777 == 0o640
+    assert [p.name for p in tmp_path.iterdir() if p.name.startswith("r.html")] == ["r.html"]  # no temp left
