@@ -176,7 +176,7 @@ def _job_section(result: CheckResult, doc: Mapping[str, Any], generated: str) ->
     items: list[tuple[str, Cell]] = []
     for name in JOB_SETTINGS:
         if settings.values.get(name):
-            items.append((name, Cell(str(settings.values[name]), note=str(settings.sources[name]))))
+            items.append((name, Cell(str(settings.values[name]))))
     protected = [c for c in project.circuits if c.device.protected]
     placed = [r for r in result.loads if r.load is not None and r.circuit_id is not None]
     items += [

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import functools
 import io
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import Any
 
 from leakbudget.charts import DPI, INK, STATUS_COLOURS
@@ -88,22 +88,29 @@ def _plain(text: str) -> str:
 class PageWriter:
     """Places blocks top to bottom on A4 figures, starting a new page when the next block does not fit."""
 
-    def __init__(self, report: Report) -> None:
+    def __init__(self, report: Report, sink: Callable[[Any], None]) -> None:
         self.report = report
-        self.pages: list[Any] = []
+        self.sink = sink  # receives each finished page, so only one page is held in memory
+        self.count = 0
         self.fig: Any = None
         self.y = 0.0  # distance of the cursor from the page top [in]
 
     # -- pages
+    def finish(self) -> None:
+        if self.fig is not None:
+            self.sink(self.fig)
+            self.fig = None
+
     def new_page(self) -> None:
         from matplotlib.backends.backend_agg import FigureCanvasAgg
         from matplotlib.figure import Figure as MplFigure
 
+        self.finish()
         self.fig = MplFigure(figsize=(PAGE_W_IN, PAGE_H_IN), dpi=DPI, facecolor="white")
         FigureCanvasAgg(self.fig)
-        self.pages.append(self.fig)
+        self.count += 1
         self.y = MARGIN_IN
-        footer = f"{self.report.title} · {self.report.generated} · {self.report.tool} · page {len(self.pages)}"
+        footer = f"{self.report.title} · {self.report.generated} · {self.report.tool} · page {self.count}"
         self._text(MARGIN_IN, PAGE_H_IN - MARGIN_IN + 0.12, footer, 7, SOFT)
 
     def room(self) -> float:
@@ -190,7 +197,7 @@ class PageWriter:
         self.ensure(height_in + 0.1 + len(caption) * 7.5 * LINE_SPACING / PT_PER_IN)
         ax = self.fig.add_axes((MARGIN_IN / PAGE_W_IN, 1 - (self.y + height_in) / PAGE_H_IN,
                                 width_in / PAGE_W_IN, height_in / PAGE_H_IN))
-        ax.imshow(image, interpolation="lanczos")
+        ax.imshow(image, interpolation="none")  # embedded as drawn, not resampled
         ax.set_axis_off()
         self.y += height_in + 0.05
         self.lines(caption, 7.5, SOFT)
@@ -277,9 +284,9 @@ def _cell_text(cell: Cell) -> str:
     return text
 
 
-def pdf_pages(report: Report) -> list[Any]:
-    """The report as a list of A4 matplotlib Figures, one per page."""
-    writer = PageWriter(report)
+def lay_out(report: Report, sink: Callable[[Any], None]) -> int:
+    """Lay the report out on A4 matplotlib Figures, handing each finished page to ``sink``; return the count."""
+    writer = PageWriter(report, sink)
     writer.cover()
     for section in report.sections:
         if section.anchor in NEW_PAGE_SECTIONS:
@@ -287,7 +294,15 @@ def pdf_pages(report: Report) -> list[Any]:
         elif section.anchor.startswith("circuit-"):
             writer.ensure(3.0)  # keep a circuit's heading with its chart
         writer.section(section)
-    return writer.pages
+    writer.finish()
+    return writer.count
+
+
+def pdf_pages(report: Report) -> list[Any]:
+    """The report's pages as a list of matplotlib Figures (for looking at them; :func:`render_pdf` streams)."""
+    pages: list[Any] = []
+    lay_out(report, pages.append)
+    return pages
 
 
 def render_pdf(report: Report) -> bytes:
@@ -299,6 +314,5 @@ def render_pdf(report: Report) -> bytes:
     with matplotlib.rc_context({"pdf.fonttype": 42}):
         with PdfPages(buffer, metadata={"Title": report.title, "Creator": report.tool,
                                         "Subject": "Standing earth-leakage report"}) as pdf:
-            for page in pdf_pages(report):
-                pdf.savefig(page)
+            lay_out(report, pdf.savefig)
     return buffer.getvalue()

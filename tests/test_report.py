@@ -324,7 +324,7 @@ def test_job_settings_head_the_report(tmp_path):
     text = render_html(report)
     assert "<title>Bakery fit-out, ground floor</title>" in text
     assert '<p class="sub">4 Tallow Lane, Eskbridge · Fennick Bakes</p>' in text
-    assert "<dt>Prepared by</dt><dd>J. Arkwright<small class=\"src\">Settings sheet, row 5</small></dd>" in text
+    assert "<dt>Prepared by</dt><dd>J. Arkwright</dd>" in text
     assert "Job" not in [row[0].text for row in next(t for t in iter_tables(report) if t.name == "settings").rows]
 
 
