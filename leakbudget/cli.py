@@ -326,12 +326,15 @@ REVIEW_HELP = (
 )
 
 
+CodeOpt = Annotated[Optional[str], typer.Option(
+    "--code", help="Code to review against: nec-2020, nec-2023, iec-60364 or bs-7671. Default: the Code "
+                   "setting, else nec-2023 for a 60 Hz plan and iec-60364 for a 50 Hz plan.")]
+
+
 @app.command(help=REVIEW_HELP)
 def review(
     path: PathArg,
-    code: Annotated[Optional[str], typer.Option(
-        "--code", help="Code to review against: nec-2020, nec-2023, iec-60364 or bs-7671. Default: the Code "
-                       "setting, else nec-2023 for a 60 Hz plan and iec-60364 for a 50 Hz plan.")] = None,
+    code: CodeOpt = None,
     out: OutOpt = None,
     as_json: JsonOpt = False,
     no_write: Annotated[bool, typer.Option("--no-write", help="Review only; write nothing.")] = False,
@@ -455,22 +458,27 @@ def report(
     html: Annotated[Optional[Path], typer.Option("--html", help="Write the report as one self-contained HTML "
                                                  "file (charts embedded, no external links).")] = None,
     pdf: Annotated[Optional[Path], typer.Option("--pdf", help="Write the report as a PDF (A4 pages).")] = None,
+    code: CodeOpt = None,
 ) -> None:
-    """Write a hand-over report of the check: job, cautions, settings, a chart per circuit, tables with sources.
+    """Write a hand-over report: job, cautions, settings, a chart per circuit, tables with sources, findings.
 
-    The workbook is only read. Exit code 0 when the report was written (whatever the circuits' status), 2 on bad
-    input.
+    Runs the check and the review (against --code) and lays them out; the workbook is only read. Exit code 0
+    when the report was written (whatever the circuits' status), 2 on bad input.
     """
     from leakbudget.jobs import report_workbook
+    from leakbudget.review import Severity
 
-    job = report_workbook(path, html, pdf)
+    job = report_workbook(path, html, pdf, code)
+    rv = job.review
     counts = job.report.status_counts
     over = counts.get("over-budget", 0) + counts.get("trip-risk", 0)
     for written in job.written:
         out_console.print(f"Report written to {written} ({written.stat().st_size // 1024 or 1} KB).",
                           highlight=False)
-    out_console.print(f"{len(job.result.circuits)} circuit(s), {over} over budget. {job.report.verdict.text}",
+    out_console.print(f"{len(rv.check.circuits)} circuit(s), {over} over budget. {job.report.verdict.text}",
                       highlight=False)
+    out_console.print(f"Reviewed against {rv.code.label}: {rv.count(Severity.ERROR)} error(s), "
+                      f"{rv.count(Severity.WARNING)} warning(s), {rv.count(Severity.INFO)} info.", highlight=False)
     _caution()
 
 

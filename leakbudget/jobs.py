@@ -141,24 +141,28 @@ def split_workbook(path: str | Path, out: str | Path | None = None, write: bool 
 
 @dataclass
 class ReportJob:
-    result: CheckResult
+    review: Review
     report: Report
     written: list[Path]
 
 
 def report_workbook(path: str | Path, html: str | Path | None = None, pdf: str | Path | None = None,
-                    generated: date | None = None) -> ReportJob:
-    """Check a workbook (writing nothing into it) and write the hand-over report as HTML and/or PDF."""
+                    code: str | None = None, generated: date | None = None) -> ReportJob:
+    """Check and review a workbook (writing nothing into it) and write the hand-over report as HTML and/or PDF.
+
+    ``code`` is the wiring code the review uses (as for :func:`review_workbook`)."""
     from leakbudget.report import build_report, check_outputs, write_report
+    from leakbudget.review import run_review
 
     path = Path(path)
     html = Path(html) if html is not None else None
     pdf = Path(pdf) if pdf is not None else None
     check_outputs(path, html, pdf)
-    result = check(read_project(path))
-    report = build_report(result, generated=generated)
+    rv = run_review(read_project(path), code)
+    report = build_report(rv.check, findings=rv.findings, generated=generated,
+                          review_basis=f"{rv.code.label} ({rv.code_source})")
     written = write_report(report, path, html, pdf)
-    return ReportJob(result, report, written)
+    return ReportJob(rv, report, written)
 
 
 def example_path(name: str = "alder-quay-remodel.xlsx") -> Path:

@@ -382,25 +382,28 @@ def _plan_section(plan: Mapping[str, Any] | None) -> Section:
     return Section("split", "Split plan", blocks)
 
 
-def _findings_section(findings: Sequence[FindingLike] | None) -> Section:
+def _findings_section(findings: Sequence[FindingLike] | None, basis: str | None) -> Section:
     if findings is None:
         return Section("findings", "Review findings", [Paragraph(
             "The compliance review was not run for this report.", "muted")])
+    head = [Paragraph(f"Reviewed against {basis}.", "muted")] if basis else []
     if not findings:
-        return Section("findings", "Review findings", [Paragraph(
+        return Section("findings", "Review findings", [*head, Paragraph(
             "The review found nothing to report for the rules it checks.")])
     ordered = sorted(findings, key=lambda f: (SEVERITY_ORDER.index(_word(f.severity))
                                               if _word(f.severity) in SEVERITY_ORDER else 9))
     counts = {s: sum(1 for f in findings if _word(f.severity) == s) for s in SEVERITY_ORDER}
-    summary = ", ".join(f"{n} {s}{'s' if n != 1 else ''}" for s, n in counts.items() if n)
+    summary = ", ".join(f"{n} {s}{'s' if n != 1 and s != 'info' else ''}" for s, n in counts.items() if n)
     rows = []
     for f in ordered:
         source = f.source
         kind = source.kind.value if isinstance(source, Source) else None
         rows.append([Cell(_word(f.severity), tone=_word(f.severity)), Cell(_text(f.circuit)), Cell(_text(f.load)),
-                     Cell(f.message, note=f.rule), Cell(str(source), kind=kind)])
+                     Cell(f.message, note=f"rule: {f.rule}"), Cell(str(source), kind=kind)])
     return Section("findings", "Review findings", [
-        Paragraph(f"{len(findings)} finding(s): {summary}."),
+        *head,
+        Paragraph(f"{len(findings)} finding(s): {summary}. Each names the rule it comes from and that rule's "
+                  "source; the review never suggests removing or up-rating protection."),
         Table(("Severity", "Circuit", "Load", "Finding (rule)", "Source"), rows, "Findings, most severe first",
               "findings", (0.7, 0.8, 1.1, 3.2, 2)),
     ])
@@ -440,24 +443,31 @@ def circuit_bars(result: CheckResult, doc: Mapping[str, Any]) -> list[Any]:
     return bars
 
 
-def _verdict(doc: Mapping[str, Any], counts: Mapping[str, int]) -> Paragraph:
+def _verdict(doc: Mapping[str, Any], counts: Mapping[str, int], findings: Sequence[FindingLike] | None
+             ) -> Paragraph:
+    errors = sum(1 for f in findings or () if _word(f.severity) == "error")
+    review = f" The review found {errors} error(s): see 'Review findings'." if errors else ""
     if not doc["circuits"]:
         return Paragraph("The workbook lists no circuits yet.", "muted")
     trip, over = counts.get("trip-risk", 0), counts.get("over-budget", 0)
     if trip:
         return Paragraph(f"{trip} circuit(s) at or above the no-trip level (nuisance trips likely) and {over} "
-                         "more over budget: the plan needs changes before installation.", "trip-risk")
+                         f"more over budget: the plan needs changes before installation.{review}", "trip-risk")
     if over:
         return Paragraph(f"{over} circuit(s) over budget but below the no-trip level: the plan needs changes "
-                         "before installation.", "over-budget")
+                         f"before installation.{review}", "over-budget")
+    if errors:
+        return Paragraph(f"Every protected circuit is within its budget.{review}", "over-budget")
     return Paragraph("Every protected circuit is within its budget.", "ok")
 
 
 def build_report(result: CheckResult, findings: Sequence[FindingLike] | None = None,
-                 plan: Mapping[str, Any] | None = None, generated: dt.date | None = None) -> Report:
+                 plan: Mapping[str, Any] | None = None, generated: dt.date | None = None,
+                 review_basis: str | None = None) -> Report:
     """Assemble the report's sections from a check result, the review findings and a split-plan document.
 
-    ``findings`` None means the review was not run (the section says so); ``plan`` is the document
+    ``findings`` are :func:`leakbudget.review.review`'s, None when the review was not run (the section says so);
+    ``review_basis`` says which code they were found against and why. ``plan`` is the document
     ``leakbudget split --json`` prints, or None when no plan was made. ``generated`` is the report date (today
     when None).
     """
@@ -477,13 +487,13 @@ def build_report(result: CheckResult, findings: Sequence[FindingLike] | None = N
         _circuits_section(result, doc, bars),
         *_detail_sections(result, doc, bars),
         _plan_section(plan),
-        _findings_section(findings),
+        _findings_section(findings, review_basis),
         _method_section(),
     ]
     title = settings.values.get("Job") or f"Earth-leakage budget: {result.project.path.stem}"
     subtitle = " · ".join(str(settings.values[k]) for k in ("Site", "Client") if settings.values.get(k)) or \
         "Standing earth leakage per GFCI/RCD-protected circuit"
-    return Report(title=str(title), subtitle=subtitle, verdict=_verdict(doc, counts), status_counts=counts,
+    return Report(title=str(title), subtitle=subtitle, verdict=_verdict(doc, counts, findings), status_counts=counts,
                   sections=sections, generated=date, tool=f"leakbudget {__version__}")
 
 

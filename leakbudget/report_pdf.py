@@ -275,9 +275,9 @@ def column_widths(table: Table, size: float, pad: float) -> list[float]:
 
 
 def _cell_text(cell: Cell) -> str:
-    """A cell as plain text: value, provenance mark in brackets (unless it repeats the value), source below."""
+    """A cell as plain text: value, provenance mark in brackets (unless the text says it already), source below."""
     text = cell.text
-    if cell.kind and cell.kind != cell.text:
+    if cell.kind and cell.kind.lower() not in cell.text.lower():
         text += f" [{cell.kind}]"
     if cell.note:
         text += f"\n{cell.note}"

@@ -125,10 +125,11 @@ def demo_run(tmp_path_factory):
     html_path, pdf_path = folder / "report.html", folder / "report.pdf"
     report_run = run(["report", str(workbook), "--html", str(html_path), "--pdf", str(pdf_path)])
     check_run = run(["check", str(workbook), "--no-write", "--json"])
+    review_run = run(["review", str(workbook), "--no-write", "--json"])
     mp.undo()
     return {
         "workbook": workbook, "unchanged": workbook.read_bytes() == before, "report": report_run,
-        "check": json.loads(check_run[1]), "check_code": check_run[0], "html_path": html_path,
+        "check": json.loads(check_run[1]), "review": json.loads(review_run[1]), "html_path": html_path,
         "pdf_path": pdf_path, "html": read_html(html_path.read_text(encoding="utf-8")),
         "raw_html": html_path.read_text(encoding="utf-8"),
     }
@@ -145,6 +146,7 @@ def test_report_command_writes_both_files_and_leaves_the_workbook_alone(demo_run
         f"Report written to {pdf_path} ({pdf_path.stat().st_size // 1024} KB).",
         "10 circuit(s), 3 over budget. 3 circuit(s) over budget but below the no-trip level: the plan needs "
         "changes before installation.",
+        "Reviewed against NEC 2023 (NFPA 70), dwelling units: 0 error(s), 3 warning(s), 4 info.",
     ]
     assert err.startswith("Caution: leakbudget is a planning aid")
     assert demo_run["unchanged"]
@@ -278,9 +280,8 @@ def test_embedded_charts_show_the_check_numbers(demo_run):
 
 
 def test_pdf_has_every_circuit_and_its_text_stays_on_the_page(demo_run):
-    result = check(read_project(demo_run["workbook"]))
-    report = build_report(result, generated=dt.date(2026, 11, 2))
-    pages = pdf_pages(report)
+    job = report_workbook(demo_run["workbook"], html=demo_run["html_path"].with_name("again.html"))
+    pages = pdf_pages(job.report)  # the same report the command laid out, as figures
     texts = []
     for page in pages:
         renderer = page.canvas.get_renderer()
@@ -293,6 +294,28 @@ def test_pdf_has_every_circuit_and_its_text_stays_on_the_page(demo_run):
         assert f"Circuit {c['circuit']}" in texts
         assert f"{c['leakage_ma']:.3f}" in texts  # the circuit table row, same digits as check --json
     assert len(re.findall(rb"/Type\s*/Page\b(?!s)", demo_run["pdf_path"].read_bytes())) == len(pages)
+
+
+def test_findings_equal_review_json(demo_run):
+    doc, html = demo_run["review"], demo_run["html"]
+    rows = html.tables["findings"][1:]
+    assert len(rows) == len(doc["findings"]) == 7
+    for f, row in zip(doc["findings"], rows, strict=True):  # both most severe first, then in circuit order
+        assert [cell["text"] for cell in row] == [f["severity"], f["circuit"] or "-", f["load"] or "-",
+                                                  f["message"], f["source"]]
+    assert f"Reviewed against {doc['code_label']} ({doc['code_source']})." in demo_run["raw_html"]
+
+
+def test_code_option_reaches_the_review(make_workbook, tmp_path, capsys, monkeypatch):
+    out = tmp_path / "r.html"
+    code, stdout, _ = run_cli(["report", str(make_workbook()), "--html", str(out), "--code", "bs-7671"], capsys,
+                              monkeypatch)
+    assert code == 0
+    assert "Reviewed against BS 7671" in stdout
+    assert "Reviewed against BS 7671" in out.read_text(encoding="utf-8")
+    code, _, err = run_cli(["report", str(make_workbook()), "--html", str(out), "--code", "nec-1999"], capsys,
+                           monkeypatch)
+    assert code == 2 and err.startswith("Error: 'nec-1999' is not a code leakbudget reviews against")
 
 
 # ---- the small workbook: physics against published figures -------------------------------------------------------
@@ -360,9 +383,11 @@ def test_findings_are_listed_most_severe_first(make_workbook):
     report = build_report(result, findings=findings)
     table = next(t for t in iter_tables(report) if t.name == "findings")
     assert [row[0].text for row in table.rows] == ["error", "warning", "info"]
-    assert table.rows[0][3].note == "location-protection" and table.rows[0][4].text == "NEC 2023 210.8(A)(1)"
+    assert table.rows[0][3].note == "rule: location-protection" and table.rows[0][4].text == "NEC 2023 210.8(A)(1)"
     section = next(s for s in report.sections if s.anchor == "findings")
-    assert section.blocks[0].text == "3 finding(s): 1 error, 1 warning, 1 info."
+    assert section.blocks[0].text.startswith("3 finding(s): 1 error, 1 warning, 1 info. ")
+    assert report.verdict.text == ("Every protected circuit is within its budget. The review found 1 error(s): "
+                                   "see 'Review findings'.")
 
 
 def test_findings_section_says_when_the_review_was_not_run_or_found_nothing(make_workbook):
