@@ -16,6 +16,7 @@ from typing import Any
 DPI = 100  # pixels per inch of the PNGs; the report shows them at this size
 WIDTH_IN = 7.6  # chart width [in] → 760 px, the width of the report's column
 TITLE_IN, BAR_IN, AXIS_LABEL_IN = 0.55, 0.8, 0.42  # bands of a circuit chart, top to bottom [in]
+LEGEND_ROW_IN, BOTTOM_IN = 0.19, 0.1  # one row of the legend, and the margin under it [in]
 
 BACKGROUND = "#ffffff"
 INK = "#26303b"  # axis text and the phasor marker
@@ -92,10 +93,10 @@ def circuit_chart_png(bar: CircuitBar) -> bytes:
     """
     segments = sorted(bar.segments, key=lambda s: -s.leakage_ma)
     columns = 3
-    legend_in = 0.19 * max(1, math.ceil((len(segments) + 1) / columns))
-    height = TITLE_IN + BAR_IN + AXIS_LABEL_IN + legend_in + 0.08
+    legend_in = LEGEND_ROW_IN * max(1, math.ceil((len(segments) + 1) / columns))
+    height = TITLE_IN + BAR_IN + AXIS_LABEL_IN + legend_in + BOTTOM_IN
     fig = _figure(height)
-    ax = fig.add_axes((0.03, (legend_in + AXIS_LABEL_IN) / height, 0.94, BAR_IN / height))
+    ax = fig.add_axes((0.03, (BOTTOM_IN + legend_in + AXIS_LABEL_IN) / height, 0.94, BAR_IN / height))
     _style_axis(ax)
     left = 0.0
     handles = []
@@ -126,7 +127,8 @@ def circuit_chart_png(bar: CircuitBar) -> bytes:
     fig.text(0.03, 1 - 0.08 / height, _plain(headline), fontsize=10.5, fontweight="bold",
              color=STATUS_COLOURS.get(bar.status, INK), va="top")
     fig.text(0.03, 1 - 0.32 / height, _plain(bar.device_label), fontsize=8.5, color=INK, va="top")
-    fig.legend(handles=handles, loc="lower left", bbox_to_anchor=(0.02, 0.0), ncols=columns, fontsize=7.5,
+    fig.legend(handles=handles, loc="lower left", bbox_to_anchor=(0.02, BOTTOM_IN / 2 / height), ncols=columns,
+               fontsize=7.5,
                frameon=False, handlelength=1.2, columnspacing=1.2, labelcolor=INK)
     return _png(fig)
 

@@ -212,6 +212,10 @@ def _caution_section(result: CheckResult, doc: Mapping[str, Any]) -> Section:
             f"Over budget: {', '.join(bad)}. Cure this by splitting loads across circuits, measuring the largest "
             "contributors, and repairing appliances that leak far above their typical value; never by removing "
             "or up-rating protection.", "over-budget"))
+    for d in doc.get("readings") or ():
+        if d["flag"] != "consistent":
+            blocks.append(Paragraph(f"Reading on {d['circuit']} ({d['reading_ma']:g} mA, {d['conditions']}): "
+                                    f"{d['message']}.", "caution"))
     for line in doc["defaults_used"]:
         blocks.append(Paragraph(f"Default used: {line}", "muted"))
     for line in doc["warnings"]:
@@ -318,6 +322,54 @@ def _circuits_section(result: CheckResult, doc: Mapping[str, Any], bars: Sequenc
         "no-trip and trip levels are in the table 'Protective devices' and of each supply in 'Supplies', "
         "under 'Supply and settings used'.", "muted"))
     return Section("circuits", "Circuits", blocks)
+
+
+def _likelihood_section(doc: Mapping[str, Any]) -> Section | None:
+    risk = doc.get("risk")
+    if not risk:
+        return None
+    rows = [[Cell(c["circuit"], tone=c["status"]), Cell(c["status"], tone=c["status"]),
+             Cell(c["trip_probability_text"] or "-", "trip_probability", c["trip_probability"]),
+             Cell(c["trip_probability_switch_on_text"] or "-", "trip_probability_switch_on",
+                  c["trip_probability_switch_on"])]
+            for c in doc["circuits"]]
+    return Section("likelihood", "Likelihood of a nuisance trip", [
+        Paragraph("How likely the standing leakage reaches the point where the device trips, given the spread of "
+                  "each value and of the device's own trip point: in normal running, and just after switch-on "
+                  "when heating elements that stood idle leak more."),
+        Table(("Circuit", "Status", "Running", "At switch-on after idle"), rows, "Trip likelihood per circuit",
+              "likelihood", (1, 1, 1.2, 1.2)),
+        *(Paragraph(line, "muted") for line in risk["method"]),
+    ])
+
+
+def _readings_section(doc: Mapping[str, Any]) -> Section | None:
+    from leakbudget.readings import THRESHOLDS
+
+    readings = doc.get("readings")
+    if not readings:
+        return None
+    rows = []
+    for d in readings:
+        calibrated = "-"
+        if d["calibration_factor"] is not None:
+            calibrated = (f"×{d['calibration_factor']:.2f}: sum {d['estimate_gate_ma']:.3f} → "
+                          f"{d['calibrated_gate_ma']:.3f} mA, {d['estimate_status']} → {d['calibrated_status']}")
+        rows.append([
+            Cell(d["circuit"], note=f"Readings row {d['row']}"),
+            _ma(d["reading_ma"], "reading_ma", kind=Kind.MEASURED.value,
+                note=", ".join(x for x in (d["conditions"], d["date"], d["note"]) if x)),
+            Cell(f"{d['estimate_median_ma']:.3f}", "estimate_median_ma", d["estimate_median_ma"],
+                 note=f"{d['estimate_low_ma']:.3f}-{d['estimate_high_ma']:.3f} ({100 * d['coverage']:.0f} %)"),
+            Cell(d["flag"], note=d["message"], tone="ok" if d["flag"] == "consistent" else "warning"),
+            Cell(calibrated, note=d["calibration"]),
+        ])
+    return Section("readings", "Readings on site", [
+        Paragraph("Leakage-clamp readings from the Readings sheet beside the estimate of the same circuit."),
+        Table(("Circuit", "Reading (mA)", "Estimate (mA)", "Against the estimate", "Calibration"), rows,
+              "Readings against the estimate (median and coverage interval)", "readings", (0.9, 1.3, 1.1, 2.2, 1.6)),
+        Paragraph(f"Thresholds: {THRESHOLDS}", "muted"),
+    ])
 
 
 def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any]) -> list[Section]:
@@ -485,6 +537,7 @@ def build_report(result: CheckResult, findings: Sequence[FindingLike] | None = N
         _caution_section(result, doc),
         _settings_section(result, doc),
         _circuits_section(result, doc, bars),
+        *(x for x in (_likelihood_section(doc), _readings_section(doc)) if x is not None),
         *_detail_sections(result, doc, bars),
         _plan_section(plan),
         _findings_section(findings, review_basis),

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import functools
 import io
+from dataclasses import dataclass
 from collections.abc import Callable, Sequence
 from typing import Any
 
@@ -207,44 +208,41 @@ class PageWriter:
         pad = 0.05
         widths = column_widths(table, size, pad)
         step = size * LINE_SPACING / PT_PER_IN
-
-        def cells(texts: Sequence[str], bold: Sequence[bool]) -> list[list[str]]:
-            return [_wrap(t, w - 2 * pad, size, b) for t, w, b in zip(texts, widths, bold)]
-
-        header = cells(table.headers, [True] * len(widths))
-        rows = [cells([_cell_text(c) for c in row], [c.tone is not None for c in row]) for row in table.rows]
-        header_h = max(len(c) for c in header) * step + 2 * pad
+        header = [PdfCell(_wrap(h, w - 2 * pad, size, True), [], ACCENT, "bold")
+                  for h, w in zip(table.headers, widths)]
+        rows = [[_pdf_cell(c, w - 2 * pad, size) for c, w in zip(row, widths)] for row in table.rows]
+        header_h = max(len(c.lines) for c in header) * step + 2 * pad
 
         def draw_header() -> None:
             self._fill(MARGIN_IN, self.y, CONTENT_W_IN, header_h, HEADER_FILL)
-            self._row(header, widths, size, ACCENT, "bold", pad, [None] * len(header))
+            self._row(header, widths, size, pad)
             self.y += header_h
             self._rule(self.y, ACCENT, 1.0)
 
+        def height(row: list[PdfCell]) -> float:
+            return max(len(c.lines) + len(c.notes) for c in row) * step + 2 * pad
+
         caption = _wrap(table.caption, CONTENT_W_IN, 8.5, True) if table.caption else []
-        first_h = (rows and max(len(c) for c in rows[0]) * step + 2 * pad) or 0
-        self.ensure(len(caption) * 8.5 * LINE_SPACING / PT_PER_IN + header_h + first_h)
+        self.ensure(len(caption) * 8.5 * LINE_SPACING / PT_PER_IN + header_h + (height(rows[0]) if rows else 0))
         self.lines(caption, 8.5, weight="bold")
         draw_header()
-        for texts, row in zip(rows, table.rows):
-            height = max(len(c) for c in texts) * step + 2 * pad
-            if height > self.room():
+        for row in rows:
+            if height(row) > self.room():
                 self.new_page()
                 draw_header()
-            self._row(texts, widths, size, INK, "normal", pad, [c.tone for c in row])
-            self.y += height
+            self._row(row, widths, size, pad)
+            self.y += height(row)
             self._rule(self.y)
         self.y += 0.15
 
-    def _row(self, texts: Sequence[Sequence[str]], widths: Sequence[float], size: float, colour: str,
-             weight: str, pad: float, tones: Sequence[str | None]) -> None:
+    def _row(self, row: Sequence[PdfCell], widths: Sequence[float], size: float, pad: float) -> None:
         x = MARGIN_IN
         step = size * LINE_SPACING / PT_PER_IN
-        for lines, width, tone in zip(texts, widths, tones):
-            cell_colour = TONE_COLOURS.get(tone, colour) if tone else colour
-            for i, line in enumerate(lines):
-                self._text(x + pad, self.y + pad + i * step, line, size, cell_colour,
-                           "bold" if tone else weight)
+        for cell, width in zip(row, widths):
+            for i, line in enumerate(cell.lines):
+                self._text(x + pad, self.y + pad + i * step, line, size, cell.colour, cell.weight)
+            for i, line in enumerate(cell.notes, start=len(cell.lines)):
+                self._text(x + pad, self.y + pad + i * step, line, size, SOFT)
             x += width
 
     def section(self, section: Section) -> None:
@@ -272,6 +270,25 @@ def column_widths(table: Table, size: float, pad: float) -> list[float]:
     if spare < 0:
         return [CONTENT_W_IN * s for s in share]
     return [m + spare * s for m, s in zip(least, share)]
+
+
+@dataclass(slots=True)
+class PdfCell:
+    """A table cell broken into lines: its value (in the cell's colour and weight), then its source note."""
+
+    lines: list[str]
+    notes: list[str]
+    colour: str = INK
+    weight: str = "normal"
+
+
+def _pdf_cell(cell: Cell, width_in: float, size: float) -> PdfCell:
+    bold = cell.tone is not None
+    text = cell.text
+    if cell.kind and cell.kind.lower() not in cell.text.lower():
+        text += f" [{cell.kind}]"
+    return PdfCell(_wrap(text, width_in, size, bold), _wrap(cell.note, width_in, size) if cell.note else [],
+                   TONE_COLOURS.get(cell.tone or "", INK), "bold" if bold else "normal")
 
 
 def _cell_text(cell: Cell) -> str:

@@ -10,7 +10,7 @@ import pytest
 
 from leakbudget import charts
 from leakbudget.charts import CircuitBar, Segment
-from tests.pixels import background_share, decode, line_column, mask, stacked_bar
+from tests.pixels import axis_row, background_share, decode, line_column, mask, stacked_bar
 
 
 def _bar(circuit: str, loads: tuple[float, ...], budget_ma: float | None = 1.8, no_trip_ma: float | None = 4.0,
@@ -28,10 +28,15 @@ def test_chart_size_follows_the_legend_rows():
     # 3 legend entries per row: 2 loads + phasor marker = 1 row; 7 loads + marker = 3 rows.
     one = decode(charts.circuit_chart_png(_bar("A", (0.5, 0.4))))
     three = decode(charts.circuit_chart_png(_bar("B", (0.3,) * 7)))
-    band_px = charts.TITLE_IN + charts.BAR_IN + charts.AXIS_LABEL_IN + 0.08
-    assert one.shape[:2] == (round((band_px + 0.19) * charts.DPI), round(charts.WIDTH_IN * charts.DPI))
-    assert three.shape[0] == round((band_px + 3 * 0.19) * charts.DPI)
-    assert three.shape[1] == 760
+    bands_in = charts.TITLE_IN + charts.BAR_IN + charts.AXIS_LABEL_IN + charts.BOTTOM_IN
+    assert one.shape[:2] == (round((bands_in + charts.LEGEND_ROW_IN) * charts.DPI), 760)
+    assert three.shape[:2] == (round((bands_in + 3 * charts.LEGEND_ROW_IN) * charts.DPI), 760)
+    # the legend fills its three columns top to bottom: the 3rd load's swatch ends the first column, in the last
+    # row, drawn whole and clear of the bottom edge
+    swatch = mask(three, charts.SEGMENT_COLOURS[2], 3)
+    swatch[:axis_row(three) + 1] = False  # below the axis: the legend, not the bar
+    rows = swatch.any(axis=1).nonzero()[0]
+    assert len(rows) >= 3 and three.shape[0] - 25 < rows.max() < three.shape[0] - 5
 
 
 def test_over_budget_bar_crosses_the_budget_line_at_the_right_place():

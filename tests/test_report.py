@@ -200,7 +200,8 @@ def test_report_has_every_circuit_with_its_chart_and_load_table(demo_run):
         names = [row[0]["text"] for row in html.tables[f"loads-{cid}"][1:]]
         assert names == [d["load"] for d in doc["loads"] if d["circuit"] == cid]
     assert [row[0]["text"] for row in html.tables["loads-unplaced"][1:]] == ["Wine cooler"]
-    for section in ("job", "cautions", "supply", "circuits", "split", "findings", "method"):
+    for section in ("job", "cautions", "supply", "circuits", "likelihood", "readings", "split", "findings",
+                    "method"):
         assert section in html.sections
 
 
@@ -231,6 +232,26 @@ def test_circuit_numbers_equal_check_json(demo_run):
             else:
                 assert shown["text"] == f"{value:.3f}"
         assert row[-1]["text"] == c["status"]
+
+
+def test_trip_likelihood_and_readings_equal_check_json(demo_run):
+    doc, html = demo_run["check"], demo_run["html"]
+    for c, row in zip(doc["circuits"], html.tables["likelihood"][1:], strict=True):
+        cells = _numbers(row)
+        for key in ("trip_probability", "trip_probability_switch_on"):
+            shown = cells[key]
+            assert (float(shown["value"]) if shown["value"] is not None else None) == c[key]
+            assert shown["text"] == (c[f"{key}_text"] or "-")
+    assert "Monte Carlo, 10,000 samples, seed 1" in demo_run["raw_html"]
+    readings = html.tables["readings"][1:]
+    assert [row[0]["text"] for row in readings] == [d["circuit"] for d in doc["readings"]]
+    for d, row in zip(doc["readings"], readings, strict=True):
+        cells = _numbers(row)
+        assert float(cells["reading_ma"]["value"]) == d["reading_ma"]
+        assert float(cells["estimate_median_ma"]["value"]) == d["estimate_median_ma"]
+        assert row[3]["text"] == d["flag"]
+    # a reading far above the estimate is a caution, in words the reader can act on
+    assert "Reading on K-DW (3.1 mA, all on): far above the estimate" in demo_run["raw_html"]
 
 
 def test_load_numbers_equal_check_json_and_add_up_to_the_circuit(demo_run):
