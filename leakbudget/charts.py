@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import io
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -56,6 +56,21 @@ class CircuitBar:
         return self.budget_ma is not None and self.no_trip_ma is not None
 
 
+@dataclass(frozen=True, slots=True)
+class Chart:
+    """A chart ready to draw: its height [in] at any width near :data:`WIDTH_IN`, and the function that draws it
+    onto a matplotlib Figure or SubFigure of that size (all positions are fractions of that target)."""
+
+    height_in: float
+    draw: Callable[[Any], None]
+
+    def png(self) -> bytes:
+        """The chart as a PNG of WIDTH_IN × height_in at :data:`DPI`."""
+        fig = _figure(self.height_in)
+        self.draw(fig)
+        return _png(fig)
+
+
 def _plain(text: str) -> str:
     """Text for matplotlib with ``$`` escaped, so a load name is never read as mathtext."""
     return text.replace("$", r"\$")
@@ -85,17 +100,27 @@ def _style_axis(ax: Any) -> None:
     ax.set_axisbelow(True)
 
 
-def circuit_chart_png(bar: CircuitBar) -> bytes:
+LEGEND_COLUMNS = 3
+
+
+def circuit_chart(bar: CircuitBar) -> Chart:
     """A horizontal stacked bar of the circuit's leakage by load, with its budget and no-trip level as lines.
 
     The bar's length is the arithmetic sum [mA]; a diamond marks the phasor sum. The x axis runs from 0 to a
     little beyond the larger of the no-trip level and the sums, so both lines are always in view.
     """
-    segments = sorted(bar.segments, key=lambda s: -s.leakage_ma)
-    columns = 3
-    legend_in = LEGEND_ROW_IN * max(1, math.ceil((len(segments) + 1) / columns))
+    legend_in = LEGEND_ROW_IN * max(1, math.ceil((len(bar.segments) + 1) / LEGEND_COLUMNS))
     height = TITLE_IN + BAR_IN + AXIS_LABEL_IN + legend_in + BOTTOM_IN
-    fig = _figure(height)
+    return Chart(height, lambda fig: _draw_circuit(fig, bar, height, legend_in))
+
+
+def circuit_chart_png(bar: CircuitBar) -> bytes:
+    """:func:`circuit_chart` as a PNG."""
+    return circuit_chart(bar).png()
+
+
+def _draw_circuit(fig: Any, bar: CircuitBar, height: float, legend_in: float) -> None:
+    segments = sorted(bar.segments, key=lambda s: -s.leakage_ma)
     ax = fig.add_axes((0.03, (BOTTOM_IN + legend_in + AXIS_LABEL_IN) / height, 0.94, BAR_IN / height))
     _style_axis(ax)
     left = 0.0
@@ -127,13 +152,12 @@ def circuit_chart_png(bar: CircuitBar) -> bytes:
     fig.text(0.03, 1 - 0.08 / height, _plain(headline), fontsize=10.5, fontweight="bold",
              color=STATUS_COLOURS.get(bar.status, INK), va="top")
     fig.text(0.03, 1 - 0.32 / height, _plain(bar.device_label), fontsize=8.5, color=INK, va="top")
-    fig.legend(handles=handles, loc="lower left", bbox_to_anchor=(0.02, BOTTOM_IN / 2 / height), ncols=columns,
-               fontsize=7.5,
-               frameon=False, handlelength=1.2, columnspacing=1.2, labelcolor=INK)
-    return _png(fig)
+    fig.legend(handles=handles, loc="lower left", bbox_to_anchor=(0.02, BOTTOM_IN / 2 / height),
+               ncols=LEGEND_COLUMNS, fontsize=7.5, frameon=False, handlelength=1.2, columnspacing=1.2,
+               labelcolor=INK)
 
 
-def overview_chart_png(bars: Sequence[CircuitBar]) -> bytes | None:
+def overview_chart(bars: Sequence[CircuitBar]) -> Chart | None:
     """Budget used by every protected circuit (gate sum ÷ budget, in %), with 100 % and each no-trip level.
 
     Circuits on different devices have budgets of different size; a share of budget puts them on one scale.
@@ -143,7 +167,16 @@ def overview_chart_png(bars: Sequence[CircuitBar]) -> bytes | None:
     if not rows:
         return None
     height = 0.9 + 0.3 * len(rows)
-    fig = _figure(height)
+    return Chart(height, lambda fig: _draw_overview(fig, rows, height))
+
+
+def overview_chart_png(bars: Sequence[CircuitBar]) -> bytes | None:
+    """:func:`overview_chart` as a PNG, None when no circuit is protected."""
+    chart = overview_chart(bars)
+    return chart.png() if chart is not None else None
+
+
+def _draw_overview(fig: Any, rows: Sequence[CircuitBar], height: float) -> None:
     ax = fig.add_axes((0.16, 0.55 / height, 0.8, (height - 0.85) / height))
     _style_axis(ax)
     names = [_plain(b.circuit) for b in rows][::-1]
@@ -165,4 +198,3 @@ def overview_chart_png(bars: Sequence[CircuitBar]) -> bytes | None:
              color=INK, va="top")
     fig.text(0.96, 1 - 0.12 / height, "dashed: budget (100 %)   |  red tick: no-trip level", fontsize=8,
              color=INK, va="top", ha="right")
-    return _png(fig)

@@ -43,6 +43,7 @@ METHOD_NOTES = (
     "device; no budget applies).",
 )
 SEVERITY_ORDER = ("error", "warning", "info")
+OVERVIEW_ROWS = 28  # circuits per overview chart: 0.9 in + 0.3 in each stays within an A4 page
 
 
 # ---- the format-independent document -------------------------------------------------------------------------
@@ -85,12 +86,22 @@ class Table:
     widths: tuple[float, ...] = ()  # relative column widths for paged layouts; empty = equal
 
 
-@dataclass(slots=True)
+@dataclass
 class Figure:
-    png: bytes
+    """A chart (a :class:`leakbudget.charts.Chart`): the HTML embeds its PNG, the PDF draws it as vectors."""
+
+    chart: Any
     alt: str
     caption: str
     name: str = ""
+    _png: bytes | None = None
+
+    @property
+    def png(self) -> bytes:
+        """The chart as PNG bytes, rendered on first use."""
+        if self._png is None:
+            self._png = self.chart.png()
+        return self._png
 
 
 Block = Paragraph | Facts | Table | Figure
@@ -301,17 +312,20 @@ LOAD_WIDTHS = (1.5, 0.35, 0.7, 0.7, 0.55, 0.45, 0.8, 3.5)
 
 
 def _circuits_section(result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any]) -> Section:
-    from leakbudget.charts import overview_chart_png
+    from leakbudget.charts import overview_chart
 
     blocks: list[Block] = []
-    png = overview_chart_png(bars)
-    if png is not None:
-        used = ", ".join(f"{b.circuit} {100 * b.gate_ma / b.budget_ma:.0f} %" for b in bars
-                         if b.protected and b.budget_ma)
-        blocks.append(Figure(png, f"Bar chart of budget used per protected circuit: {used}.",
-                             "Share of each protected circuit's budget its standing leakage uses. Dashed line: "
-                             "the budget (100 %); red tick: the device's no-trip level on the same scale.",
-                             "overview"))
+    protected = [b for b in bars if b.protected and b.budget_ma]
+    parts = range(0, len(protected), OVERVIEW_ROWS)
+    for start in parts:  # one chart per OVERVIEW_ROWS circuits, so each fits a page
+        group = protected[start:start + OVERVIEW_ROWS]
+        chart = overview_chart(group)
+        used = ", ".join(f"{b.circuit} {100 * b.gate_ma / b.budget_ma:.0f} %" for b in group)
+        part = f" ({start // OVERVIEW_ROWS + 1} of {len(parts)})" if len(parts) > 1 else ""
+        blocks.append(Figure(chart, f"Bar chart of budget used per protected circuit{part}: {used}.",
+                             f"Share of each protected circuit's budget its standing leakage uses{part}. Dashed "
+                             "line: the budget (100 %); red tick: the device's no-trip level on the same scale.",
+                             "overview" + (f"-{start // OVERVIEW_ROWS + 1}" if part else "")))
     gate = "phasor" if doc["sum_rule"] == "phasor" else "arithmetic"
     blocks.append(Table(CIRCUIT_HEADERS, [_circuit_row(c, o) for c, o in zip(doc["circuits"], result.circuits)],
                         f"Circuits: standing leakage against budget ({gate} sum compared; catalogue basis "
@@ -373,7 +387,7 @@ def _readings_section(doc: Mapping[str, Any]) -> Section | None:
 
 
 def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any]) -> list[Section]:
-    from leakbudget.charts import circuit_chart_png
+    from leakbudget.charts import circuit_chart
 
     pairs = list(zip(doc["loads"], result.loads))
     sections = []
@@ -385,7 +399,7 @@ def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence
                   if c["budget_ma"] is not None else " (unprotected: no budget)")
         alt = f"Stacked bar: {c['circuit']} standing leakage {c['leakage_ma']:.3f} mA{levels}{largest}."
         blocks: list[Block] = [
-            Figure(circuit_chart_png(bar), alt, "Leakage by load, largest first; the diamond marks the phasor "
+            Figure(circuit_chart(bar), alt, "Leakage by load, largest first; the diamond marks the phasor "
                    "sum.", f"chart-{c['circuit']}"),
             Table(LOAD_HEADERS, rows, f"Loads on {c['circuit']}", f"loads-{c['circuit']}", LOAD_WIDTHS),
         ]

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 from collections.abc import Callable, Sequence
 from typing import Any
 
-from leakbudget.charts import DPI, INK, STATUS_COLOURS
+from leakbudget.charts import DPI, INK, STATUS_COLOURS, WIDTH_IN
 from leakbudget.report import Cell, Facts, Figure, Paragraph, Report, Section, Table
 
 PAGE_W_IN, PAGE_H_IN = 8.27, 11.69  # A4 (ISO 216: 210 mm × 297 mm)
@@ -95,6 +95,7 @@ class PageWriter:
         self.count = 0
         self.fig: Any = None
         self.y = 0.0  # distance of the cursor from the page top [in]
+        self.dry = False  # measuring: move the cursor, draw nothing, never break the page
 
     # -- pages
     def finish(self) -> None:
@@ -115,26 +116,47 @@ class PageWriter:
         self._text(MARGIN_IN, PAGE_H_IN - MARGIN_IN + 0.12, footer, 7, SOFT)
 
     def room(self) -> float:
-        return PAGE_H_IN - MARGIN_IN - FOOTER_IN - self.y
+        return float("inf") if self.dry else PAGE_H_IN - MARGIN_IN - FOOTER_IN - self.y
 
     def ensure(self, height_in: float) -> None:
         if self.fig is None or (height_in > self.room() and self.y > MARGIN_IN + 1e-9):
             self.new_page()
 
+    def measure(self, section: Section) -> float:
+        """Height [in] the section takes when laid out without a page break."""
+        y, self.y, self.dry = self.y, 0.0, True
+        try:
+            self.section(section)
+            return self.y
+        finally:
+            self.y, self.dry = y, False
+
+    def keep_together(self, section: Section) -> None:
+        """Start a new page when the section would fit on one page but not in the room left on this one."""
+        height = self.measure(section)
+        if height <= PAGE_H_IN - 2 * MARGIN_IN - FOOTER_IN:
+            self.ensure(height)
+
     # -- primitives (inches from the top-left corner)
     def _text(self, x_in: float, y_in: float, text: str, size: float, colour: str = INK,
               weight: str = "normal", style: str = "normal") -> None:
+        if self.dry:
+            return
         self.fig.text(x_in / PAGE_W_IN, 1 - y_in / PAGE_H_IN, _plain(text), fontsize=size, color=colour,
                       fontweight=weight, fontstyle=style, va="top", ha="left")
 
     def _rule(self, y_in: float, colour: str = RULE, width: float = 0.6, x0: float = MARGIN_IN,
               x1: float = PAGE_W_IN - MARGIN_IN) -> None:
+        if self.dry:
+            return
         from matplotlib.lines import Line2D
 
         y = 1 - y_in / PAGE_H_IN
         self.fig.add_artist(Line2D([x0 / PAGE_W_IN, x1 / PAGE_W_IN], [y, y], color=colour, linewidth=width))
 
     def _fill(self, x_in: float, y_in: float, w_in: float, h_in: float, colour: str) -> None:
+        if self.dry:
+            return
         from matplotlib.patches import Rectangle
 
         self.fig.add_artist(Rectangle((x_in / PAGE_W_IN, 1 - (y_in + h_in) / PAGE_H_IN), w_in / PAGE_W_IN,
@@ -188,18 +210,17 @@ class PageWriter:
         self.y += 0.08
 
     def figure(self, fig: Figure) -> None:
-        from matplotlib.image import imread
-
-        image = imread(io.BytesIO(fig.png), format="png")
-        height_px, width_px = image.shape[:2]
-        width_in = min(CONTENT_W_IN, width_px / DPI)
-        height_in = width_in * height_px / width_px
+        """Draw the chart itself (vectors, not its PNG) in a sub-figure the chart's own height."""
+        width_in = min(CONTENT_W_IN, WIDTH_IN)
+        height_in = fig.chart.height_in
         caption = _wrap(fig.caption, CONTENT_W_IN, 7.5)
         self.ensure(height_in + 0.1 + len(caption) * 7.5 * LINE_SPACING / PT_PER_IN)
-        ax = self.fig.add_axes((MARGIN_IN / PAGE_W_IN, 1 - (self.y + height_in) / PAGE_H_IN,
-                                width_in / PAGE_W_IN, height_in / PAGE_H_IN))
-        ax.imshow(image, interpolation="none")  # embedded as drawn, not resampled
-        ax.set_axis_off()
+        # sub-figures take their place from a grid's width and height ratios (not its margins): a 3 × 3 grid
+        # whose middle cell is the chart's rectangle on the page
+        if not self.dry:
+            grid = self.fig.add_gridspec(3, 3, width_ratios=(MARGIN_IN, width_in, PAGE_W_IN - MARGIN_IN - width_in),
+                                         height_ratios=(self.y, height_in, PAGE_H_IN - self.y - height_in))
+            fig.chart.draw(self.fig.add_subfigure(grid[1, 1]))
         self.y += height_in + 0.05
         self.lines(caption, 7.5, SOFT)
         self.y += 0.1
@@ -308,8 +329,8 @@ def lay_out(report: Report, sink: Callable[[Any], None]) -> int:
     for section in report.sections:
         if section.anchor in NEW_PAGE_SECTIONS:
             writer.new_page()
-        elif section.anchor.startswith("circuit-"):
-            writer.ensure(3.0)  # keep a circuit's heading with its chart
+        else:
+            writer.keep_together(section)
         writer.section(section)
     writer.finish()
     return writer.count

@@ -458,3 +458,17 @@ def test_report_file_takes_the_workbook_permissions_and_keeps_its_own_when_repla
     report_workbook(workbook, html=out)
     assert out.stat().st_mode & 0o777 == 0o640
     assert [p.name for p in tmp_path.iterdir() if p.name.startswith("r.html")] == ["r.html"]  # no temp left
+
+
+def test_overview_is_split_so_each_chart_fits_a_page(tmp_path):
+    from benchmarks.workbooks import make_workbook
+    from leakbudget.report import OVERVIEW_ROWS
+    from leakbudget.report_pdf import FOOTER_IN, MARGIN_IN, PAGE_H_IN
+
+    workbook = make_workbook(tmp_path / "floor.xlsx", 150)  # 30 circuits on 30 mA RCDs
+    report = build_report(check(read_project(workbook)))
+    section = next(s for s in report.sections if s.anchor == "circuits")
+    overviews = [b for b in section.blocks if hasattr(b, "chart")]
+    assert [f.name for f in overviews] == ["overview-1", "overview-2"]
+    assert [f.alt.count(" %") for f in overviews] == [OVERVIEW_ROWS, 30 - OVERVIEW_ROWS]
+    assert all(f.chart.height_in < PAGE_H_IN - 2 * MARGIN_IN - FOOTER_IN - 0.5 for f in overviews)
