@@ -417,34 +417,46 @@ def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence
 
 
 def _plan_section(plan: Mapping[str, Any] | None) -> Section:
+    """The split plan, from the document ``leakbudget split --json`` prints."""
     if plan is None:
         return Section("split", "Split plan", [Paragraph(
             "No split plan was made for this report. `leakbudget split` proposes the fewest changes that bring "
-            "every protected circuit within budget.",
-            "muted")])
-    optimal = "proven optimal" if plan.get("optimal") else "not proven optimal"
-    moves = [a for a in plan.get("assignments", []) if a.get("moved")]
-    facts = Facts([
+            "every protected circuit within budget.", "muted")])
+    changes = [a for a in plan.get("assignments", []) if a.get("moved") or a.get("placed")]
+    blocks: list[Block] = []
+    if plan.get("summary"):
+        blocks.append(Paragraph(str(plan["summary"])))
+    blocks.append(Facts([
         ("New circuits", Cell(str(plan.get("new_circuits", 0)), "new_circuits", plan.get("new_circuits"))),
-        ("Loads moved or placed", Cell(str(len(moves)), "moves", len(moves))),
+        ("Loads moved or placed", Cell(str(len(changes)))),
         ("Lower bound on new circuits", Cell(_text(plan.get("lower_bound_new_circuits")))),
-        ("Solution", Cell(optimal)),
-    ])
-    blocks: list[Block] = [facts]
-    if moves:
-        blocks.append(Table(("Load", "From", "To"), [[Cell(a["load"]), Cell(_text(a.get("from")) if a.get("from")
-                                                                               else "not placed"),
-                                                       Cell(_text(a["to"]))] for a in moves],
-                            "Moves", "split-moves", (2, 1, 1)))
+        ("Solution", Cell("proven optimal" if plan.get("optimal") else "not proven optimal")),
+    ]))
+    for blocked in plan.get("blocked", []):
+        blocks.append(Paragraph(f"Cannot be planned: {blocked['message']}.", "trip-risk"))
+    if changes:
+        blocks.append(Table(("Load", "From", "To", "Leakage (mA)"),
+                            [[Cell(a["load"]), Cell(_text(a["from"]) if a.get("from") else "not placed"),
+                              Cell(_text(a["to"])), _ma(a.get("leakage_ma"), "leakage_ma")] for a in changes],
+                            "Loads to move or place", "split-moves", (2, 1, 1, 1)))
     else:
         blocks.append(Paragraph("No load needs to move: every protected circuit is within budget as planned."))
+    details = plan.get("new_circuit_details") or []
+    if details:
+        blocks.append(Table(("New circuit", "Device", "Rating (A)", "Rooms", "Copies"),
+                            [[Cell(n["circuit"]), Cell(n["device"]), Cell(_text(n.get("rating_a"))),
+                              Cell(", ".join(n.get("rooms") or []) or "-"), Cell(_text(n.get("copies")))]
+                             for n in details], "New circuits", "split-new", (1, 1, 0.8, 1.4, 2.4)))
     after = plan.get("circuits") or []
     if after:
-        blocks.append(Table(("Circuit", "Sum (mA)", "Budget (mA)", "Used", "Status"),
+        blocks.append(Table(("Circuit", "Sum (mA)", "Budget (mA)", "Used", "Status", "Before"),
                             [[Cell(c["circuit"], tone=c["status"]), _ma(c.get("leakage_ma"), "leakage_ma"),
                               _ma(c.get("budget_ma"), "budget_ma"), _share(c.get("headroom_used"), "headroom_used"),
-                              Cell(c["status"], tone=c["status"])] for c in after],
-                            "Circuits after the plan", "split-circuits", (1.2, 1, 1, 0.7, 1)))
+                              Cell(c["status"], tone=c["status"]),
+                              Cell(_text(c.get("before_status")) if c.get("before_status") else "new circuit")]
+                             for c in after],
+                            "Circuits after the plan", "split-circuits", (1.2, 1, 1, 0.7, 1, 1)))
+    blocks.extend(Paragraph(note, "muted") for note in plan.get("notes", []))
     return Section("split", "Split plan", blocks)
 
 

@@ -421,20 +421,32 @@ def test_findings_section_says_when_the_review_was_not_run_or_found_nothing(make
 
 def test_split_plan_section_lists_moves_and_circuits_after(make_workbook):
     result = check(read_project(make_workbook()))
-    plan = {"new_circuits": 1, "optimal": True, "lower_bound_new_circuits": 1,
-            "assignments": [{"load": "Filter", "from": "K1", "to": "K1", "moved": False},
-                            {"load": "Meter", "from": "E1", "to": "NEW-1", "moved": True}],
-            "circuits": [{"circuit": "K1", "leakage_ma": 0.2126, "budget_ma": 1.8, "headroom_used": 0.1181,
-                          "status": "ok"},
-                         {"circuit": "NEW-1", "leakage_ma": 1.5, "budget_ma": 9.0, "headroom_used": 0.1667,
-                          "status": "ok"}]}
+    plan = {  # the shape of the `leakbudget split --json` document
+        "new_circuits": 1, "optimal": True, "lower_bound_new_circuits": 1,
+        "summary": "1 new circuit(s), 1 load(s) moved, 0 placed; proven optimal.",
+        "blocked": [], "notes": ["NEW-1 copies E1."],
+        "new_circuit_details": [{"circuit": "NEW-1", "copies": "E1 (rcd-30, 32 A)", "device": "rcd-30",
+                                 "rating_a": 32.0, "rooms": ["Office"]}],
+        "assignments": [{"load": "Filter", "from": "K1", "to": "K1", "moved": False, "placed": False,
+                         "leakage_ma": 0.2126},
+                        {"load": "Meter", "from": "E1", "to": "NEW-1", "moved": True, "placed": False,
+                         "leakage_ma": 1.5}],
+        "circuits": [{"circuit": "K1", "leakage_ma": 0.2126, "budget_ma": 1.8, "headroom_used": 0.1181,
+                      "status": "ok", "before_status": "ok"},
+                     {"circuit": "NEW-1", "leakage_ma": 1.5, "budget_ma": 9.0, "headroom_used": 0.1667,
+                      "status": "ok", "before_status": None}],
+    }
     report = build_report(result, plan=plan)
     moves = next(t for t in iter_tables(report) if t.name == "split-moves")
-    assert [[c.text for c in row] for row in moves.rows] == [["Meter", "E1", "NEW-1"]]
+    assert [[c.text for c in row] for row in moves.rows] == [["Meter", "E1", "NEW-1", "1.500"]]
+    new = next(t for t in iter_tables(report) if t.name == "split-new")
+    assert [c.text for c in new.rows[0]] == ["NEW-1", "rcd-30", "32", "Office", "E1 (rcd-30, 32 A)"]
     after = next(t for t in iter_tables(report) if t.name == "split-circuits")
-    assert [row[1].text for row in after.rows] == ["0.213", "1.500"]
-    facts = next(s for s in report.sections if s.anchor == "split").blocks[0]
-    assert dict((k, v.text) for k, v in facts.items)["Solution"] == "proven optimal"
+    assert [(row[1].text, row[5].text) for row in after.rows] == [("0.213", "ok"), ("1.500", "new circuit")]
+    section = next(s for s in report.sections if s.anchor == "split")
+    assert section.blocks[0].text == plan["summary"]
+    assert dict((k, v.text) for k, v in section.blocks[1].items)["Solution"] == "proven optimal"
+    assert render_html(report).count('data-table="split-') == 3
 
 
 def test_unprotected_only_plan_renders_without_overview(tmp_path):
