@@ -22,7 +22,7 @@ def commands() -> list[str]:
 
 
 def test_every_command_has_help_and_is_documented():
-    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    readme = documentation()
     for name in commands():
         result = runner.invoke(app, [name, "--help"])
         assert result.exit_code == 0, name
