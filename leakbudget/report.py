@@ -162,6 +162,17 @@ def _word(value: object) -> str:
     return str(getattr(value, "value", value))
 
 
+def _anchor(text: str, used: set[str]) -> str:
+    """A section id from free text: no white space (HTML ids cannot hold it), unique among ``used``."""
+    base = "_".join(text.split())
+    anchor, n = base, 1
+    while anchor.lower() in used:
+        n += 1
+        anchor = f"{base}-{n}"
+    used.add(anchor.lower())
+    return anchor
+
+
 def load_kind(r: LoadResult, basis: str) -> Kind:
     """Provenance kind of one load estimate: measured, computed, or the catalogue row's own kind.
 
@@ -391,6 +402,7 @@ def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence
 
     pairs = list(zip(doc["loads"], result.loads))
     sections = []
+    used: set[str] = set()
     for c, bar in zip(doc["circuits"], bars):
         rows = [_load_row(d, r, doc["basis"]) for d, r in pairs if d["circuit"] == c["circuit"]]
         largest = f"; largest: {c['largest_contributor']} {c['largest_contributor_ma']:.3f} mA" \
@@ -405,7 +417,7 @@ def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence
         ]
         if c["note"]:
             blocks.insert(0, Paragraph(f"Note: {c['note']}", "muted"))
-        sections.append(Section(f"circuit-{c['circuit']}", f"Circuit {c['circuit']}", blocks))
+        sections.append(Section(_anchor(f"circuit-{c['circuit']}", used), f"Circuit {c['circuit']}", blocks))
     unplaced = [_load_row(d, r, doc["basis"]) for d, r in pairs if d["kind"] == "load" and d["circuit"] is None]
     if unplaced:
         sections.append(Section("unplaced", "Loads not yet placed", [

@@ -372,6 +372,17 @@ def test_job_settings_head_the_report(tmp_path):
     assert "Job" not in [row[0].text for row in next(t for t in iter_tables(report) if t.name == "settings").rows]
 
 
+def test_circuit_ids_with_spaces_give_working_links(tmp_path):
+    sheets = basic_sheets()
+    sheets["Circuits"][1][0] = "Kitchen 1"
+    sheets["Circuits"][2][0] = "Kitchen_1"
+    sheets["Loads"][1][1], sheets["Loads"][2][1] = "Kitchen 1", "Kitchen_1"
+    text = render_html(build_report(check(read_project(write_workbook(tmp_path / "s.xlsx", sheets)))))
+    assert {"circuit-Kitchen_1", "circuit-Kitchen_1-2"} <= set(read_html(text).sections)
+    assert '<a href="#circuit-Kitchen_1">Circuit Kitchen 1</a>' in text
+    assert '<a href="#circuit-Kitchen_1-2">Circuit Kitchen_1</a>' in text
+
+
 def test_workbook_text_is_escaped(tmp_path):
     sheets = basic_sheets()
     sheets["Loads"][1][0] = "<script>alert('x')</script>"
