@@ -424,18 +424,23 @@ SPLIT_HELP = (
 )
 
 
+TimeLimitOpt = Annotated[float, typer.Option("--time-limit", help="Seconds to spend at most on proving and "
+                                                                  "improving the plan.", min=0.1)]
+NewDeviceOpt = Annotated[Optional[str], typer.Option(
+    "--new-device", help="Device key for new circuits (default: that of the circuits serving the room).")]
+NewRatingOpt = Annotated[Optional[float], typer.Option(
+    "--new-rating", help="Rating of new circuits in A (default: that of the circuits serving the room).")]
+
+
 @app.command(help=SPLIT_HELP)
 def split(
     path: PathArg,
     out: OutOpt = None,
     as_json: JsonOpt = False,
     no_write: Annotated[bool, typer.Option("--no-write", help="Plan only; write nothing.")] = False,
-    time_limit: Annotated[float, typer.Option("--time-limit", help="Seconds to spend at most on proving and "
-                                                                   "improving the plan.", min=0.1)] = 20.0,
-    new_device: Annotated[Optional[str], typer.Option(
-        "--new-device", help="Device key for new circuits (default: that of the circuits serving the room).")] = None,
-    new_rating: Annotated[Optional[float], typer.Option(
-        "--new-rating", help="Rating of new circuits in A (default: that of the circuits serving the room).")] = None,
+    time_limit: TimeLimitOpt = 20.0,
+    new_device: NewDeviceOpt = None,
+    new_rating: NewRatingOpt = None,
 ) -> None:
     from leakbudget.jobs import split_workbook
     from leakbudget.planner import SplitOptions
@@ -459,16 +464,24 @@ def report(
                                                  "file (charts embedded, no external links).")] = None,
     pdf: Annotated[Optional[Path], typer.Option("--pdf", help="Write the report as a PDF (A4 pages).")] = None,
     code: CodeOpt = None,
+    split: Annotated[bool, typer.Option("--split", help="Also plan a split (as `leakbudget split`) and put the "
+                                                        "plan in the report.")] = False,
+    time_limit: TimeLimitOpt = 20.0,
+    new_device: NewDeviceOpt = None,
+    new_rating: NewRatingOpt = None,
 ) -> None:
     """Write a hand-over report: job, cautions, settings, a chart per circuit, tables with sources, findings.
 
-    Runs the check and the review (against --code) and lays them out; the workbook is only read. Exit code 0
-    when the report was written (whatever the circuits' status), 2 on bad input.
+    Runs the check and the review (against --code), with --split the split planner too (--time-limit,
+    --new-device and --new-rating apply to it), and lays them out; the workbook is only read. Exit code 0 when
+    the report was written (whatever the circuits' status), 2 on bad input.
     """
     from leakbudget.jobs import report_workbook
+    from leakbudget.planner import SplitOptions
     from leakbudget.review import Severity
 
-    job = report_workbook(path, html, pdf, code)
+    options = SplitOptions(time_limit_s=time_limit, new_device=new_device, new_rating_a=new_rating) if split else None
+    job = report_workbook(path, html, pdf, code, options)
     rv = job.review
     counts = job.report.status_counts
     over = counts.get("over-budget", 0) + counts.get("trip-risk", 0)
@@ -479,6 +492,10 @@ def report(
                       highlight=False)
     out_console.print(f"Reviewed against {rv.code.label}: {rv.count(Severity.ERROR)} error(s), "
                       f"{rv.count(Severity.WARNING)} warning(s), {rv.count(Severity.INFO)} info.", highlight=False)
+    if job.plan is not None:
+        from leakbudget.split_results import summary
+
+        out_console.print(f"Split plan: {summary(job.plan)}", highlight=False)
     _caution()
 
 

@@ -144,11 +144,14 @@ class ReportJob:
     review: Review
     report: Report
     written: list[Path]
+    plan: SplitPlan | None = None
 
 
 def report_workbook(path: str | Path, html: str | Path | None = None, pdf: str | Path | None = None,
-                    code: str | None = None, generated: date | None = None) -> ReportJob:
-    """Check and review a workbook (writing nothing into it) and write the hand-over report as HTML and/or PDF.
+                    code: str | None = None, split: SplitOptions | None = None, generated: date | None = None
+                    ) -> ReportJob:
+    """Check and review a workbook (writing nothing into it), plan a split when ``split`` options are given, and
+    write the hand-over report as HTML and/or PDF.
 
     ``code`` is the wiring code the review uses (as for :func:`review_workbook`)."""
     from leakbudget.report import build_report, check_outputs, write_report
@@ -158,11 +161,23 @@ def report_workbook(path: str | Path, html: str | Path | None = None, pdf: str |
     html = Path(html) if html is not None else None
     pdf = Path(pdf) if pdf is not None else None
     check_outputs(path, html, pdf)
-    rv = run_review(read_project(path), code)
+    project = read_project(path)
+    rv = run_review(project, code)
+    plan = None
+    if split is not None:
+        from leakbudget.planner import plan_split
+
+        plan = plan_split(project, split)
     report = build_report(rv.check, findings=rv.findings, generated=generated,
-                          review_basis=f"{rv.code.label} ({rv.code_source})")
+                          review_basis=f"{rv.code.label} ({rv.code_source})", plan=_plan_document(plan))
     written = write_report(report, path, html, pdf)
-    return ReportJob(rv, report, written)
+    return ReportJob(rv, report, written, plan)
+
+
+def _plan_document(plan: SplitPlan | None) -> dict | None:
+    from leakbudget.split_results import to_json
+
+    return to_json(plan) if plan is not None else None
 
 
 def example_path(name: str = "alder-quay-remodel.xlsx") -> Path:

@@ -430,11 +430,15 @@ def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence
 
 def _plan_section(plan: Mapping[str, Any] | None) -> Section:
     """The split plan, from the document ``leakbudget split --json`` prints."""
+    from leakbudget.charts import overview_chart
+
     if plan is None:
         return Section("split", "Split plan", [Paragraph(
-            "No split plan was made for this report. `leakbudget split` proposes the fewest changes that bring "
-            "every protected circuit within budget.", "muted")])
-    changes = [a for a in plan.get("assignments", []) if a.get("moved") or a.get("placed")]
+            "No split plan was made for this report. `leakbudget report --split` includes one: the fewest new "
+            "circuits, then the fewest moved loads, that bring every protected circuit within its budget and "
+            "current limit (as `leakbudget split`).", "muted")])
+    changes = [a for a in plan.get("assignments", []) if a.get("moved") or a.get("placed")
+               or a.get("change") == "left unplaced"]
     blocks: list[Block] = []
     if plan.get("summary"):
         blocks.append(Paragraph(str(plan["summary"])))
@@ -443,13 +447,16 @@ def _plan_section(plan: Mapping[str, Any] | None) -> Section:
         ("Loads moved or placed", Cell(str(len(changes)))),
         ("Lower bound on new circuits", Cell(_text(plan.get("lower_bound_new_circuits")))),
         ("Solution", Cell("proven optimal" if plan.get("optimal") else "not proven optimal")),
+        *((("Current limit", Cell(f"rating × {plan['load_factor']:g}", note=plan.get("load_factor_source"))),)
+          if plan.get("load_factor") is not None else ()),
     ]))
     for blocked in plan.get("blocked", []):
         blocks.append(Paragraph(f"Cannot be planned: {blocked['message']}.", "trip-risk"))
     if changes:
         blocks.append(Table(("Load", "From", "To", "Leakage (mA)"),
                             [[Cell(a["load"]), Cell(_text(a["from"]) if a.get("from") else "not placed"),
-                              Cell(_text(a["to"])), _ma(a.get("leakage_ma"), "leakage_ma")] for a in changes],
+                              Cell(_text(a["to"]) if a.get("to") else "not placed"),
+                              _ma(a.get("leakage_ma"), "leakage_ma")] for a in changes],
                             "Loads to move or place", "split-moves", (2, 1, 1, 1)))
     else:
         blocks.append(Paragraph("No load needs to move: every protected circuit is within budget as planned."))
@@ -460,16 +467,29 @@ def _plan_section(plan: Mapping[str, Any] | None) -> Section:
                               Cell(", ".join(n.get("rooms") or []) or "-"), Cell(_text(n.get("copies")))]
                              for n in details], "New circuits", "split-new", (1, 1, 0.8, 1.4, 2.4)))
     after = plan.get("circuits") or []
+    chart = overview_chart(_bars(after, plan.get("sum_rule") == "phasor", {})) if after else None
+    if chart is not None:
+        blocks.append(Figure(chart, "Bar chart of budget used per protected circuit after the plan: " + ", ".join(
+            f"{c['circuit']} {100 * c['headroom_used']:.0f} %" for c in after if c.get("headroom_used") is not None)
+            + ".", "Share of each protected circuit's budget used after the plan.", "split-overview"))
     if after:
-        blocks.append(Table(("Circuit", "Sum (mA)", "Budget (mA)", "Used", "Status", "Before"),
+        blocks.append(Table(("Circuit", "Sum (mA)", "Budget (mA)", "Used", "Status", "Before", "Current (A)"),
                             [[Cell(c["circuit"], tone=c["status"]), _ma(c.get("leakage_ma"), "leakage_ma"),
                               _ma(c.get("budget_ma"), "budget_ma"), _share(c.get("headroom_used"), "headroom_used"),
                               Cell(c["status"], tone=c["status"]),
-                              Cell(_text(c.get("before_status")) if c.get("before_status") else "new circuit")]
+                              Cell(_text(c.get("before_status")) if c.get("before_status") else "new circuit"),
+                              _current(c)]
                              for c in after],
-                            "Circuits after the plan", "split-circuits", (1.2, 1, 1, 0.7, 1, 1)))
+                            "Circuits after the plan", "split-circuits", (1.2, 1, 1, 0.7, 1, 1, 1.1)))
     blocks.extend(Paragraph(note, "muted") for note in plan.get("notes", []))
     return Section("split", "Split plan", blocks)
+
+
+def _current(c: Mapping[str, Any]) -> Cell:
+    """A circuit's load current after a plan [A], with its limit (rating × load factor) beneath."""
+    current, limit = c.get("current_a"), c.get("current_limit_a")
+    return Cell("-" if current is None else f"{current:.1f}", "current_a", current,
+                note=None if limit is None else f"limit {limit:.1f}")
 
 
 def _findings_section(findings: Sequence[FindingLike] | None, basis: str | None) -> Section:
@@ -518,25 +538,37 @@ def _method_section() -> Section:
 
 def circuit_bars(result: CheckResult, doc: Mapping[str, Any]) -> list[Any]:
     """One :class:`leakbudget.charts.CircuitBar` per circuit, from the check-JSON numbers."""
-    from leakbudget.charts import CircuitBar, Segment
+    from leakbudget.charts import Segment
 
-    gate_is_phasor = doc["sum_rule"] == "phasor"
-    bars = []
-    for c in doc["circuits"]:
-        segments = tuple(Segment(d["load"] if d["kind"] == "load" else "cable run", d["leakage_ma"] or 0.0)
-                         for d in doc["loads"] if d["circuit"] == c["circuit"])
-        bars.append(CircuitBar(
-            circuit=c["circuit"], device_label=c["device_label"], status=c["status"], segments=segments,
-            leakage_ma=c["leakage_ma"] or 0.0, phasor_ma=c["phasor_ma"] or 0.0, gate_ma=c["gate_ma"] or 0.0,
-            gate_is_phasor=gate_is_phasor, budget_ma=c["budget_ma"], no_trip_ma=c["no_trip_ma"],
-        ))
-    return bars
+    segments: dict[str, list[Any]] = {}
+    for d in doc["loads"]:
+        if d["circuit"] is not None:
+            segments.setdefault(d["circuit"], []).append(
+                Segment(d["load"] if d["kind"] == "load" else "cable run", d["leakage_ma"] or 0.0))
+    return _bars(doc["circuits"], doc["sum_rule"] == "phasor", segments)
 
 
-def _verdict(doc: Mapping[str, Any], counts: Mapping[str, int], findings: Sequence[FindingLike] | None
-             ) -> Paragraph:
+def _bars(circuits: Sequence[Mapping[str, Any]], gate_is_phasor: bool, segments: Mapping[str, list[Any]]
+          ) -> list[Any]:
+    """Chart data from circuit documents as ``check --json`` (or ``split --json``) gives them."""
+    from leakbudget.charts import CircuitBar
+
+    return [CircuitBar(
+        circuit=c["circuit"], device_label=c["device_label"], status=c["status"],
+        segments=tuple(segments.get(c["circuit"], ())), leakage_ma=c["leakage_ma"] or 0.0,
+        phasor_ma=c["phasor_ma"] or 0.0, gate_ma=c["gate_ma"] or 0.0, gate_is_phasor=gate_is_phasor,
+        budget_ma=c["budget_ma"], no_trip_ma=c["no_trip_ma"],
+    ) for c in circuits]
+
+
+def _verdict(doc: Mapping[str, Any], counts: Mapping[str, int], findings: Sequence[FindingLike] | None,
+             plan: Mapping[str, Any] | None) -> Paragraph:
     errors = sum(1 for f in findings or () if _word(f.severity) == "error")
     review = f" The review found {errors} error(s): see 'Review findings'." if errors else ""
+    if plan is not None and (counts.get("trip-risk", 0) or counts.get("over-budget", 0)):
+        review += (" The split plan in this report brings every protected circuit within its budget and current "
+                   "limit." if plan.get("feasible", True) else " No split plan within every limit exists: see "
+                   "'Split plan'.")
     if not doc["circuits"]:
         return Paragraph("The workbook lists no circuits yet.", "muted")
     trip, over = counts.get("trip-risk", 0), counts.get("over-budget", 0)
@@ -584,7 +616,8 @@ def build_report(result: CheckResult, findings: Sequence[FindingLike] | None = N
     title = settings.values.get("Job") or f"Earth-leakage budget: {result.project.path.stem}"
     subtitle = " · ".join(str(settings.values[k]) for k in ("Site", "Client") if settings.values.get(k)) or \
         "Standing earth leakage per GFCI/RCD-protected circuit"
-    return Report(title=str(title), subtitle=subtitle, verdict=_verdict(doc, counts, findings), status_counts=counts,
+    return Report(title=str(title), subtitle=subtitle, verdict=_verdict(doc, counts, findings, plan),
+                  status_counts=counts,
                   sections=sections, generated=date, tool=f"leakbudget {__version__}")
 
 

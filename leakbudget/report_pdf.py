@@ -201,7 +201,7 @@ class PageWriter:
         self.y += 0.08
 
     def facts(self, facts: Facts) -> None:
-        label_w = 1.5
+        label_w = max(text_width_in(label, 9) for label, _ in facts.items) + 0.25 if facts.items else 0.0
         for label, cell in facts.items:
             value = _wrap(_cell_text(cell), CONTENT_W_IN - label_w, 9)
             self.ensure(len(value) * 9 * LINE_SPACING / PT_PER_IN)
