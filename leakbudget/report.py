@@ -322,21 +322,24 @@ def _load_row(d: Mapping[str, Any], r: LoadResult, basis: str) -> list[Cell]:
 LOAD_WIDTHS = (1.5, 0.35, 0.7, 0.7, 0.55, 0.45, 0.8, 3.5)
 
 
-def _circuits_section(result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any]) -> Section:
+def _overview_figures(bars: Sequence[Any], name: str, when: str) -> Iterable[Figure]:
+    """Budget-used charts of the protected circuits, one per OVERVIEW_ROWS circuits so each fits a page."""
     from leakbudget.charts import overview_chart
 
-    blocks: list[Block] = []
     protected = [b for b in bars if b.protected and b.budget_ma]
     parts = range(0, len(protected), OVERVIEW_ROWS)
-    for start in parts:  # one chart per OVERVIEW_ROWS circuits, so each fits a page
+    for start in parts:
         group = protected[start:start + OVERVIEW_ROWS]
-        chart = overview_chart(group)
         used = ", ".join(f"{b.circuit} {100 * b.gate_ma / b.budget_ma:.0f} %" for b in group)
         part = f" ({start // OVERVIEW_ROWS + 1} of {len(parts)})" if len(parts) > 1 else ""
-        blocks.append(Figure(chart, f"Bar chart of budget used per protected circuit{part}: {used}.",
-                             f"Share of each protected circuit's budget its standing leakage uses{part}. Dashed "
-                             "line: the budget (100 %); red tick: the device's no-trip level on the same scale.",
-                             "overview" + (f"-{start // OVERVIEW_ROWS + 1}" if part else "")))
+        yield Figure(overview_chart(group), f"Bar chart of budget used per protected circuit{when}{part}: {used}.",
+                     f"Share of each protected circuit's budget its standing leakage uses{when}{part}. Dashed "
+                     "line: the budget (100 %); red tick: the device's no-trip level on the same scale.",
+                     name + (f"-{start // OVERVIEW_ROWS + 1}" if part else ""))
+
+
+def _circuits_section(result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any]) -> Section:
+    blocks: list[Block] = list(_overview_figures(bars, "overview", ""))
     gate = "phasor" if doc["sum_rule"] == "phasor" else "arithmetic"
     blocks.append(Table(CIRCUIT_HEADERS, [_circuit_row(c, o) for c, o in zip(doc["circuits"], result.circuits)],
                         f"Circuits: standing leakage against budget ({gate} sum compared; catalogue basis "
@@ -430,8 +433,6 @@ def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence
 
 def _plan_section(plan: Mapping[str, Any] | None) -> Section:
     """The split plan, from the document ``leakbudget split --json`` prints."""
-    from leakbudget.charts import overview_chart
-
     if plan is None:
         return Section("split", "Split plan", [Paragraph(
             "No split plan was made for this report. `leakbudget report --split` includes one: the fewest new "
@@ -467,11 +468,8 @@ def _plan_section(plan: Mapping[str, Any] | None) -> Section:
                               Cell(", ".join(n.get("rooms") or []) or "-"), Cell(_text(n.get("copies")))]
                              for n in details], "New circuits", "split-new", (1, 1, 0.8, 1.4, 2.4)))
     after = plan.get("circuits") or []
-    chart = overview_chart(_bars(after, plan.get("sum_rule") == "phasor", {})) if after else None
-    if chart is not None:
-        blocks.append(Figure(chart, "Bar chart of budget used per protected circuit after the plan: " + ", ".join(
-            f"{c['circuit']} {100 * c['headroom_used']:.0f} %" for c in after if c.get("headroom_used") is not None)
-            + ".", "Share of each protected circuit's budget used after the plan.", "split-overview"))
+    blocks.extend(_overview_figures(_bars(after, plan.get("sum_rule") == "phasor", {}), "split-overview",
+                                    " after the plan"))
     if after:
         blocks.append(Table(("Circuit", "Sum (mA)", "Budget (mA)", "Used", "Status", "Before", "Current (A)"),
                             [[Cell(c["circuit"], tone=c["status"]), _ma(c.get("leakage_ma"), "leakage_ma"),
