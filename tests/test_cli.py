@@ -31,9 +31,8 @@ def test_every_command_has_help_and_is_documented():
 
 
 def documentation() -> str:
-    """README.md plus the feature sections in docs/readme/ that the integrator folds into it."""
-    parts = [ROOT / "README.md", *sorted((ROOT / "docs" / "readme").glob("*.md"))]
-    return "\n".join(p.read_text(encoding="utf-8") for p in parts)
+    """The user documentation: README.md."""
+    return (ROOT / "README.md").read_text(encoding="utf-8")
 
 
 def test_every_workbook_column_and_setting_is_documented():
