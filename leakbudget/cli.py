@@ -64,7 +64,7 @@ app = typer.Typer(
 TERMINAL_TABLE_ROWS = 40
 STATUS_STYLE = {"ok": "green", "over-budget": "yellow", "trip-risk": "bold red", "unprotected": "magenta"}
 
-PathArg = Annotated[Path, typer.Argument(help="The workbook (.xlsx).", show_default=False)]
+PathArg = Annotated[Path, typer.Argument(help="The workbook (.xlsx).", show_default=False, metavar="PATH")]
 OutOpt = Annotated[
     Optional[Path],
     typer.Option("--out", "-o", help="Write the results into this new file and leave PATH untouched."),
@@ -515,7 +515,8 @@ def demo(
 
 @app.command()
 def template(
-    path: Annotated[Path, typer.Argument(help="The new workbook to create (.xlsx).", show_default=False)],
+    path: Annotated[Path, typer.Argument(help="The new workbook to create (.xlsx).", show_default=False,
+                                         metavar="PATH")],
 ) -> None:
     """Create a blank workbook with the sheets, headers, instructions and drop-down lists."""
     from leakbudget.template import write_template
