@@ -137,11 +137,11 @@ def cable_result(circuit: Circuit, project: Project) -> LoadResult | None:
     n = len(phys.LEG_ANGLES_DEG[circuit.system])
     phasor = 1j * per_conductor * phys.conductor_rotation_sum(circuit.system)
     return LoadResult(
-        name=f"cable run ({circuit.cable_length_m:g} m {cable.key})", circuit_id=circuit.circuit_id, load=None,
+        name=f"cable run ({circuit.cable_length_m:.4g} m {cable.key})", circuit_id=circuit.circuit_id, load=None,
         appliance=None, quantity=n, per_unit_ma=per_conductor, leakage_ma=per_conductor * n, phasor_ma=phasor,
         basis=COMPUTED,
         source=(f"computed: 2πfCV per line conductor, {cable.capacitance_pf_per_m:g} pF/m × "
-                f"{circuit.cable_length_m:g} m ({cable.source}) at {_supply_text(circuit.voltage_v, circuit.frequency_hz)}"),
+                f"{circuit.cable_length_m:.4g} m ({cable.source}) at {_supply_text(circuit.voltage_v, circuit.frequency_hz)}"),
         voltage_v=circuit.voltage_v, frequency_hz=circuit.frequency_hz,
     )
 
