@@ -74,7 +74,7 @@ SAMPLES_SOURCE = Source(Kind.DEFAULT, "auto: 10,000 samples, fewer (at least 1,0
 SAMPLES_MAX = 10_000  # auto: standard error at most 0.5 / √10,000 = 0.005
 SAMPLES_MIN = 1_000  # auto never goes below this (standard error at most 0.016)
 SAMPLES_LIMIT = 1_000_000  # the largest count the Samples setting accepts
-ELEMENT_BUDGET = 50_000_000  # auto: random loads × samples kept below this unless SAMPLES_MIN forces more
+ELEMENT_BUDGET = 20_000_000  # auto: random loads × samples kept below this unless SAMPLES_MIN forces more
 BLOCK_ELEMENTS = 250_000  # rows × samples drawn at once: 1 MB of float32, small enough to stay in cache
 STREAM_CACHE_ELEMENTS = 4_000_000  # random-number matrices up to this size are kept for reuse (16 MB each)
 RULE_OF_THREE = 3.0  # 95 % upper bound on a probability after 0 events in N trials is 3 / N (Hanley 1983)

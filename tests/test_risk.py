@@ -213,7 +213,7 @@ def test_many_circuits_at_once_equal_one_at_a_time_and_blocks_do_not_matter():
 
 def test_auto_sample_count():
     assert risk.auto_samples(30) == 10_000
-    assert risk.auto_samples(10_000) == 5_000
+    assert risk.auto_samples(10_000) == 2_000
     assert risk.auto_samples(100_000) == 1_000  # floor: never fewer than 1,000
 
 
