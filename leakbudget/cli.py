@@ -351,7 +351,7 @@ def review(
 
 
 def render_split(job: Any) -> None:
-    from leakbudget.split_results import circuits_list, summary
+    from leakbudget.split_results import circuits_list, likelihood_line, summary
 
     plan = job.plan
     project = plan.before.project
@@ -398,6 +398,8 @@ def render_split(job: Any) -> None:
     out_console.print(f"Limits: budget = {project.settings.budget_fraction:g} × trip level on the arithmetic sum "
                       f"(check gates on the {gate} sum); current ≤ {plan.load_factor:g} × rating, from "
                       f"{project.settings.sources['Load factor']}.", highlight=False)
+    if plan.likelihood_cap is not None:
+        out_console.print(f"Trip likelihood: {likelihood_line(plan)}", highlight=False)
     for b in plan.blockers:
         out_console.print(f"[bold red]Cannot fix:[/] {b.message}.", highlight=False)
     for line in plan.notes:
@@ -419,6 +421,9 @@ SPLIT_HELP = (
     "are placed. The plan has the fewest new circuits (NEW-1, ...), then the fewest moved loads, then the most "
     "headroom on the tightest circuit; the current limit is rating × the Load factor setting (default 0.8). "
     "Small plans are solved exactly (a MILP, HiGHS), large ones by a heuristic with a lower bound and gap.\n\n"
+    "With --max-trip-likelihood (or the Max trip likelihood setting) every protected circuit's switch-on trip "
+    "likelihood must also stay within that cap: circuits above it get tighter budgets and the plan is made "
+    "again.\n\n"
     "Exit code 0 when a plan within every limit was found, 1 when none exists (the circuits and loads that "
     "prevent it are named), 2 on bad input."
 )
@@ -430,6 +435,18 @@ NewDeviceOpt = Annotated[Optional[str], typer.Option(
     "--new-device", help="Device key for new circuits (default: that of the circuits serving the room).")]
 NewRatingOpt = Annotated[Optional[float], typer.Option(
     "--new-rating", help="Rating of new circuits in A (default: that of the circuits serving the room).")]
+MaxLikelihoodOpt = Annotated[Optional[str], typer.Option(
+    "--max-trip-likelihood", metavar="P", help="Highest switch-on trip likelihood a protected circuit may keep, "
+    "e.g. '1 %' or 0.01 (default: the Max trip likelihood setting; none).")]
+
+
+def _split_options(time_limit: float, new_device: str | None, new_rating: float | None,
+                   max_likelihood: str | None) -> Any:
+    from leakbudget.planner import SplitOptions, parse_likelihood_cap
+
+    cap = parse_likelihood_cap(max_likelihood) if max_likelihood is not None else None
+    return SplitOptions(time_limit_s=time_limit, new_device=new_device, new_rating_a=new_rating,
+                        max_trip_likelihood=cap)
 
 
 @app.command(help=SPLIT_HELP)
@@ -441,11 +458,11 @@ def split(
     time_limit: TimeLimitOpt = 20.0,
     new_device: NewDeviceOpt = None,
     new_rating: NewRatingOpt = None,
+    max_likelihood: MaxLikelihoodOpt = None,
 ) -> None:
     from leakbudget.jobs import split_workbook
-    from leakbudget.planner import SplitOptions
 
-    options = SplitOptions(time_limit_s=time_limit, new_device=new_device, new_rating_a=new_rating)
+    options = _split_options(time_limit, new_device, new_rating, max_likelihood)
     with progress_bar(as_json) as progress:
         job = split_workbook(path, out, write=not no_write, options=options, progress=progress)
     if as_json:
@@ -469,18 +486,18 @@ def report(
     time_limit: TimeLimitOpt = 20.0,
     new_device: NewDeviceOpt = None,
     new_rating: NewRatingOpt = None,
+    max_likelihood: MaxLikelihoodOpt = None,
 ) -> None:
     """Write a hand-over report: job, cautions, settings, a chart per circuit, tables with sources, findings.
 
     Runs the check and the review (against --code), with --split the split planner too (--time-limit,
-    --new-device and --new-rating apply to it), and lays them out; the workbook is only read. Exit code 0 when
+    --new-device, --new-rating and --max-trip-likelihood apply to it), and lays them out; the workbook is only read. Exit code 0 when
     the report was written (whatever the circuits' status), 2 on bad input.
     """
     from leakbudget.jobs import report_workbook
-    from leakbudget.planner import SplitOptions
     from leakbudget.review import Severity
 
-    options = SplitOptions(time_limit_s=time_limit, new_device=new_device, new_rating_a=new_rating) if split else None
+    options = _split_options(time_limit, new_device, new_rating, max_likelihood) if split else None
     job = report_workbook(path, html, pdf, code, options)
     rv = job.review
     counts = job.report.status_counts

@@ -68,6 +68,7 @@ class SplitOptions:
     new_device: str | None = None  # device key for new circuits (default: copy the room's circuits)
     new_rating_a: float | None = None  # rating of new circuits [A] (default: copy the room's circuits)
     exact_max_items: int = EXACT_MAX_ITEMS
+    max_trip_likelihood: float | None = None  # cap on switch-on likelihood (default: the setting) [fraction]
 
 
 @dataclass(slots=True)
@@ -92,6 +93,7 @@ class Assignment:
 class NewCircuit:
     circuit: Circuit
     template: str  # in words: what it copies
+    room_key: str | None = None  # the room whose new-circuit kind it is
 
 
 @dataclass
@@ -113,6 +115,10 @@ class SplitPlan:
     current_after_a: dict[str, float] = field(default_factory=dict)
     capacity_a: dict[str, float] = field(default_factory=dict)  # rating × load factor per circuit id [A]
     notes: list[str] = field(default_factory=list)
+    likelihood_cap: float | None = None  # cap on each protected circuit's switch-on trip likelihood [fraction]
+    likelihood_cap_source: str | None = None
+    likelihood_iterations: int = 0  # plans made under the cap (1: the first plan met it)
+    tightened_budget_ma: dict[str, float] = field(default_factory=dict)  # budgets the cap lowered, per circuit id
 
     @property
     def feasible(self) -> bool:
@@ -145,6 +151,20 @@ def _check_options(options: SplitOptions) -> None:
         raise PlannerError(f"--new-rating {options.new_rating_a:g} A must be greater than zero.")
     if not options.time_limit_s > 0:
         raise PlannerError(f"--time-limit {options.time_limit_s:g} s must be greater than zero.")
+    cap = options.max_trip_likelihood
+    if cap is not None and not 0 < cap <= 1:
+        raise PlannerError(f"--max-trip-likelihood {cap:g} must be a fraction between 0 and 1 (type 0.01 or 1 %).")
+
+
+def parse_likelihood_cap(text: str) -> float:
+    """The --max-trip-likelihood option ("1 %", 0.01) as a fraction; PlannerError when it is not one."""
+    from leakbudget.settings import parse_likelihood_cap as parse
+    from leakbudget.units import UnitProblem
+
+    try:
+        return parse(text)
+    except UnitProblem as exc:
+        raise PlannerError(f"--max-trip-likelihood: {exc}.") from None
 
 
 def plan_split(project: Project, options: SplitOptions = SplitOptions(),
@@ -152,15 +172,28 @@ def plan_split(project: Project, options: SplitOptions = SplitOptions(),
     """Plan where every load goes (see the module docstring); never returns a plan that breaks a limit.
 
     ``progress`` (optional, :mod:`leakbudget.progress`) hears of each stage: room groups planned, proved,
-    widened, and the final check.
+    widened, and the final check. With a trip-likelihood cap (``options.max_trip_likelihood``, else the ``Max
+    trip likelihood`` setting) the plan is made again with tighter budgets until every protected circuit meets
+    it (:mod:`leakbudget.planner_risk`).
     """
     _check_options(options)
+    if options.max_trip_likelihood is not None or project.settings["Max trip likelihood"] is not None:
+        from leakbudget.planner_risk import plan_within_cap
+
+        return plan_within_cap(project, options, progress)
+    return plan_once(project, options, progress)
+
+
+def plan_once(project: Project, options: SplitOptions, progress: Progress | None = None,
+              limits_ma: dict[tuple[str, str | None], float] | None = None) -> SplitPlan:
+    """One plan on the budget rule's budgets, lowered where ``limits_ma`` says (see
+    :func:`leakbudget.planner_build.build`); the trip-likelihood cap is not looked at."""
     started = time.monotonic()
     before = check(project)
     # keep time for the check of the planned project and its verification at the end (about two checks)
     deadline = started + options.time_limit_s - 2 * (time.monotonic() - started)
     setup = build(project, before.loads, options.new_device.strip().lower() if options.new_device else None,
-                  options.new_rating_a)
+                  options.new_rating_a, limits_ma)
     loads, circuits = project.loads, project.circuits
     groups = setup.groups
     _solve_groups(groups, deadline, options, progress)
@@ -336,7 +369,7 @@ def _apply(project: Project, groups: list[RoomGroup], loads: list[Load], circuit
             circuit = dataclasses.replace(
                 kind.prototype, circuit_id=names[-1], rooms=tuple(rooms) or kind.prototype.rooms,
                 note=f"new circuit proposed by leakbudget split ({kind.template})", row=0)
-            new_circuits.append(NewCircuit(circuit, kind.template))
+            new_circuits.append(NewCircuit(circuit, kind.template, kind.key))
         for r, b in enumerate(sol.bin_of.tolist()):
             i = g.items[r]
             target[i] = circuits[g.bins[b]].circuit_id if b < p.n_existing else names[b - p.n_existing]

@@ -16,6 +16,7 @@ from __future__ import annotations
 import dataclasses
 import math
 from collections import Counter
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -170,16 +171,32 @@ def new_kind(project: Project, room: str | None, room_text: str | None, new_devi
     return NewKind(room, proto, text, cable_ma(proto, project), budget, current_capacity_a(proto, factor))
 
 
-def build(project: Project, estimates: list[LoadResult], new_device: str | None, new_rating_a: float | None
-          ) -> Setup:
-    """Everything the solver needs (see the module docstring); ``estimates`` are the check's load results."""
+def circuit_limit_key(circuit_id: str) -> tuple[str, str | None]:
+    """Key of an existing circuit in ``build``'s ``limits_ma``."""
+    return "circuit", circuit_id.lower()
+
+
+def kind_limit_key(room: str | None) -> tuple[str, str | None]:
+    """Key of a room's new-circuit kind in ``build``'s ``limits_ma``."""
+    return "kind", room
+
+
+def build(project: Project, estimates: list[LoadResult], new_device: str | None, new_rating_a: float | None,
+          limits_ma: Mapping[tuple[str, str | None], float] | None = None) -> Setup:
+    """Everything the solver needs (see the module docstring); ``estimates`` are the check's load results.
+
+    ``limits_ma`` lowers budgets below the budget rule's [mA]: per existing circuit (:func:`circuit_limit_key`)
+    and per room's new-circuit kind (:func:`kind_limit_key`); the trip-likelihood cap uses it."""
+    limits_ma = limits_ma or {}
     settings = project.settings
     factor = float(settings["Load factor"])
     figures = Figures(project, estimates)
     circuits = project.circuits
     loads = project.loads
     index = project.circuit_index()
-    budgets = [budget_ma(c.device, settings.budget_fraction) if c.device.protected else math.nan for c in circuits]
+    budgets = [min(budget_ma(c.device, settings.budget_fraction), limits_ma.get(circuit_limit_key(c.circuit_id),
+                                                                               math.inf))
+               if c.device.protected else math.nan for c in circuits]
     capacity = [current_capacity_a(c, factor) for c in circuits]
     cable = [cable_ma(c, project) for c in circuits]
     on = [index[ld.circuit_id.lower()] if ld.circuit_id else -1 for ld in loads]
@@ -206,6 +223,9 @@ def build(project: Project, estimates: list[LoadResult], new_device: str | None,
             if key not in kinds:
                 kinds[key] = new_kind(project, key, loads[i].room, new_device, new_rating_a, factor,
                                       [circuits[j] for j in all_protected.serving(key)])
+                limit = limits_ma.get(kind_limit_key(key))
+                if kinds[key] is not None and limit is not None:
+                    kinds[key] = dataclasses.replace(kinds[key], budget_ma=min(kinds[key].budget_ma, limit))
         usable = [j for j in protected if j not in frozen]
         spare_leak = np.full(len(circuits), -math.inf)
         spare_amps = np.full(len(circuits), -math.inf)

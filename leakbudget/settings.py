@@ -36,6 +36,11 @@ def _fraction(value: Any) -> float:
     return result
 
 
+def parse_likelihood_cap(value: Any) -> float:
+    """A trip-likelihood cap: a fraction or percentage in (0, 1] ("1 %", 0.01)."""
+    return _fraction(value)
+
+
 def _choice(*allowed: str) -> Callable[[Any], str]:
     def parse(value: Any) -> str:
         text = str(value).strip().lower()
@@ -102,6 +107,9 @@ SETTING_SPECS: tuple[SettingSpec, ...] = (
     SettingSpec("Load factor", _fraction, LOAD_FACTOR_DEFAULT,
                 Source.common_practice("80 % of rating for continuous load"),
                 "Share of a circuit's rating the split planner may load it to (default 0.8)."),
+    SettingSpec("Max trip likelihood", _fraction, None, Source(Kind.DEFAULT, "no limit"),
+                "Highest switch-on trip likelihood `leakbudget split` may leave on a protected circuit, e.g. 1 % "
+                "(blank: no limit; --max-trip-likelihood overrides it)."),
     SettingSpec("Code", _choice(*CODE_KEYS), None, Source(Kind.DEFAULT, "default by supply frequency"),
                 f"Wiring code `leakbudget review` checks against: {', '.join(CODE_KEYS)} (default nec-2023 for a "
                 "60 Hz plan, iec-60364 for a 50 Hz plan)."),

@@ -67,6 +67,9 @@ def circuits_list(plan: SplitPlan) -> list[dict[str, Any]]:
             "current_a": _num(plan.current_after_a.get(cid)),
             "before_current_a": _num(plan.current_before_a.get(cid)) if b else None,
             "current_limit_a": _capacity(plan.capacity_a.get(cid)),
+            "tightened_budget_ma": _num(plan.tightened_budget_ma.get(cid)),
+            "within_likelihood_cap": (None if plan.likelihood_cap is None or c.risk is None
+                                      else c.risk.switch_on <= plan.likelihood_cap),
         })
         out.append(d)
     return out
@@ -82,7 +85,21 @@ def summary(plan: SplitPlan) -> str:
     else:
         proof = (f"not proven optimal within the time limit: at least {plan.lower_bound_new_circuits} new "
                  f"circuit(s) are needed (gap {plan.gap}), at least {plan.moves_lower_bound} move(s)")
+    if plan.tightened_budget_ma:
+        proof += " (for the budgets the trip-likelihood cap tightened, not for the cap itself)"
     return f"{what}; {proof}."
+
+
+def likelihood_line(plan: SplitPlan) -> str:
+    """One sentence on the trip-likelihood cap: its value and source, the plans made, the budgets it lowered."""
+    assert plan.likelihood_cap is not None
+    tightened = ", ".join(f"{cid} {ma:.3f} mA" for cid, ma in plan.tightened_budget_ma.items())
+    met = sum(1 for c in plan.after.circuits if c.risk is not None and c.risk.switch_on <= plan.likelihood_cap)
+    total = sum(1 for c in plan.after.circuits if c.risk is not None)
+    return (f"switch-on likelihood capped at {100 * plan.likelihood_cap:g} % ({plan.likelihood_cap_source}); "
+            f"{met} of {total} protected circuit(s) within it after {plan.likelihood_iterations} plan(s) "
+            f"(the check's Monte Carlo, seed {plan.after.risk.seed if plan.after.risk else '-'}); "
+            + (f"budgets tightened: {tightened}." if tightened else "no budget needed tightening."))
 
 
 def to_json(plan: SplitPlan) -> dict[str, Any]:
@@ -105,6 +122,11 @@ def to_json(plan: SplitPlan) -> dict[str, Any]:
         "planned_on": "arithmetic sum",
         "load_factor": plan.load_factor,
         "load_factor_source": str(project.settings.sources["Load factor"]),
+        "likelihood_cap": plan.likelihood_cap,
+        "likelihood_cap_source": plan.likelihood_cap_source,
+        "likelihood_capped_scenario": "switch-on" if plan.likelihood_cap is not None else None,
+        "likelihood_iterations": plan.likelihood_iterations,
+        "optimal_for": "tightened budgets" if plan.tightened_budget_ma else "budgets",
         "room_groups": plan.groups,
         "exact_groups": plan.exact_groups,
         "time_s": round(plan.elapsed_s, 3),
@@ -157,6 +179,7 @@ def split_sheet(plan: SplitPlan) -> SheetData:
                      c["leakage_ma"], c["current_a"], limits])
     footer = [f"Written by leakbudget {__version__}; this sheet is replaced on every run of `leakbudget split`.",
               f"Plan: {doc['summary']}",
+              *([f"Trip likelihood: {likelihood_line(plan)}"] if plan.likelihood_cap is not None else []),
               "Nothing else in the workbook was changed: move the loads in the Loads sheet yourself, then check again.",
               *(f"No plan can meet every limit: {b['message']}." for b in doc["blocked"]),
               *(f"Note: {n}" for n in doc["notes"]),
