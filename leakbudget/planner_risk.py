@@ -48,30 +48,37 @@ def over_cap(plan: SplitPlan, cap: float) -> list[CircuitResult]:
 
 
 def plan_within_cap(project: Project, options: SplitOptions, progress: Progress | None = None) -> SplitPlan:
-    """Plan so that every protected circuit's switch-on likelihood is within the cap (module docstring)."""
+    """Plan so that every protected circuit's switch-on likelihood is within the cap (module docstring).
+
+    A circuit that cannot be tightened (only loads that must stay on it) is set aside with its reason, and the
+    others go on being tightened.
+    """
     cap, source = likelihood_cap(project.settings, options)
     limits: dict[LimitKey, float] = {}
     plan = plan_once(project, options, progress)
     plans = 1
     why: dict[str, str] = {}
-    while over := over_cap(plan, cap):
-        tighter, why = _tighten(plan, over, limits)
-        if why:
+    while over := [c for c in over_cap(plan, cap) if c.circuit.circuit_id not in why]:
+        tighter, stuck = _tighten(plan, over, limits)
+        why.update(stuck)
+        if tighter == limits:
             break
         if plans >= MAX_PLANS:
-            why = {c.circuit.circuit_id: f"{MAX_PLANS} plans with ever tighter budgets did not bring it under"
-                   for c in over}
+            why.update({c.circuit.circuit_id: f"{MAX_PLANS} plans with ever tighter budgets did not bring it under"
+                        for c in over if c.circuit.circuit_id not in why})
             break
         candidate = plan_once(project, options, progress, tighter)
         plans += 1
         if len(candidate.blockers) > len(plan.blockers):
-            why = {c.circuit.circuit_id: "a tighter budget leaves loads with no circuit that may take them"
-                   for c in over}
+            why.update({c.circuit.circuit_id: "a tighter budget leaves loads with no circuit that may take them"
+                        for c in over if c.circuit.circuit_id not in why})
             break
         plan, limits = candidate, tighter
     plan.likelihood_cap, plan.likelihood_cap_source, plan.likelihood_iterations = cap, source, plans
     plan.tightened_budget_ma = _tightened(plan, limits)
-    plan.blockers.extend(_blocker(plan, c, cap, source, why[c.circuit.circuit_id]) for c in over_cap(plan, cap))
+    plan.blockers.extend(
+        _blocker(plan, c, cap, source, why.get(c.circuit.circuit_id, "its budget could not be tightened further"))
+        for c in over_cap(plan, cap))
     return plan
 
 
@@ -87,7 +94,7 @@ def _sums(plan: SplitPlan, circuit_id: str) -> tuple[float, float]:
 
 def _tighten(plan: SplitPlan, over: list[CircuitResult], limits: dict[LimitKey, float]
              ) -> tuple[dict[LimitKey, float], dict[str, str]]:
-    """Lower budgets for the circuits above the cap; or, when one of them cannot go lower, why not (by id)."""
+    """Lower budgets for the circuits above the cap that can go lower, and why the others cannot (by id)."""
     new = {n.circuit.circuit_id: n for n in plan.new_circuits}
     blocked = {b.circuit_id for b in plan.blockers}
     tighter = dict(limits)
@@ -101,10 +108,7 @@ def _tighten(plan: SplitPlan, over: list[CircuitResult], limits: dict[LimitKey, 
             continue
         key = kind_limit_key(new[cid].room_key) if cid in new else circuit_limit_key(cid)
         tighter[key] = min(tighter.get(key, target), target)
-    if why:
-        return tighter, {c.circuit.circuit_id: why.get(c.circuit.circuit_id, "another circuit above the cap "
-                                                        "cannot be tightened") for c in over}
-    return tighter, {}
+    return tighter, why
 
 
 def _tightened(plan: SplitPlan, limits: dict[LimitKey, float]) -> dict[str, float]:
