@@ -22,6 +22,7 @@ The scan has a fast path over the raw bytes for packages written the usual way (
 
 from __future__ import annotations
 
+import html
 import mmap
 import posixpath
 import re
@@ -35,11 +36,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from xml.sax import SAXException
 from xml.sax.handler import ContentHandler
-from xml.sax.saxutils import unescape
 
 import defusedxml
 import defusedxml.ElementTree as DET
-import defusedxml.sax
 
 from leakbudget.errors import WorkbookError
 from leakbudget.tables import column_index, column_letter
@@ -435,8 +434,8 @@ def _scan_chunk(data: bytes, scan: SheetScan) -> bool:
 def _note(scan: SheetScan, col: bytes, row: bytes, formula: bytes | None, error: bytes | None) -> None:
     key = (int(row) - 1, column_index(col.decode()))
     old = scan.notes.get(key)
-    text = unescape(formula.decode("utf-8", "replace"), {"&quot;": '"', "&apos;": "'"}) if formula else None
-    shown = unescape(error.decode("utf-8", "replace")) if error else None
+    text = html.unescape(formula.decode("utf-8", "replace")) if formula else None  # XML's entities and char refs
+    shown = html.unescape(error.decode("utf-8", "replace")) if error else None
     scan.notes[key] = CellNote(*key, shown or (old.error if old else None), text or (old.formula if old else None))
 
 
@@ -519,6 +518,8 @@ def _parsed_scan(archive: zipfile.ZipFile, info: zipfile.ZipInfo, max_cells: int
     scan = SheetScan()
     try:
         with archive.open(info) as stream:
+            import defusedxml.sax  # only for sheets the fast scan cannot vouch for (it imports urllib: 30-40 ms)
+
             defusedxml.sax.parse(stream, _CellHandler(scan, max_cells), forbid_dtd=True)
     except _LimitReached:
         pass

@@ -32,7 +32,6 @@ from io import BytesIO
 from pathlib import Path
 from typing import IO
 from urllib.parse import unquote
-from xml.sax.saxutils import quoteattr
 
 from leakbudget.errors import WriteBackError
 # The zip-bomb limits are shared with the reader; Python's zipfile never inflates an entry past its declared size.
@@ -43,7 +42,7 @@ from leakbudget.progress import Progress
 from leakbudget.xlsx_file import COPY_CHUNK_BYTES, rewrite
 from leakbudget.xlsx_rows import EXCEL_MAX_NUMBER, SAMPLE_ROW, SheetXml, with_rows
 from leakbudget.xlsx_styles import merge_styles, remap_cell_styles
-from leakbudget.xlsx_xml import BadXmlError, Span, UnsafeXmlError, XmlPart
+from leakbudget.xlsx_xml import BadXmlError, Span, UnsafeXmlError, XmlPart, quoteattr
 
 # zipfile must know before streaming an entry whether it may pass 2 GiB (ZIP64); a sheet of more rows than this
 # could, at 10 KB a row, so it gets ZIP64 sizes (APPNOTE.TXT 4.5.3; Excel, LibreOffice and calamine read them).

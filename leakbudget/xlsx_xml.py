@@ -8,11 +8,12 @@ Re-serialising with ElementTree would rename prefixes and break ``mc:Ignorable``
 
 from __future__ import annotations
 
+import html
+
 import re
 import xml.etree.ElementTree as ET
 from dataclasses import dataclass, field
 from xml.parsers import expat
-from xml.sax.saxutils import quoteattr
 
 import defusedxml
 import defusedxml.ElementTree as DET
@@ -21,6 +22,14 @@ import defusedxml.ElementTree as DET
 _START_TAG = re.compile(rb'<[^\s/>]+(?:\s+[^\s=/>]+\s*=\s*(?:"[^"]*"|\'[^\']*\'))*\s*(/?)>')
 _ATTRIBUTE = re.compile(rb'\s+([^\s=/>]+)(\s*=\s*)("[^"]*"|\'[^\']*\')')
 _ENCODING = re.compile(rb'^<\?xml[^>]*encoding\s*=\s*["\']([A-Za-z0-9._-]+)["\']')
+_ATTRIBUTE_WHITESPACE = str.maketrans({"\n": "&#10;", "\r": "&#13;", "\t": "&#9;"})
+
+
+def quoteattr(value: str) -> str:
+    """``value`` as a double-quoted XML attribute value, escaped as xml.sax.saxutils.quoteattr escapes it (&, <,
+    >, quotes, and newline, carriage return and tab as character references). html.escape does the work without
+    importing saxutils, which pulls in urllib (30-40 ms of start-up)."""
+    return '"' + html.escape(value, quote=True).translate(_ATTRIBUTE_WHITESPACE) + '"'
 
 
 class UnsafeXmlError(Exception):

@@ -539,3 +539,16 @@ def test_chart_plots_its_data_rows_in_the_colours_given(tmp_path: Path) -> None:
                     "'Circuit results'!$C$1", "'Circuit results'!$A$2:$A$4", "'Circuit results'!$C$2:$C$4"]
     fills = [c.get("val") for c in chart.iterfind(".//c:ser/c:spPr/a:solidFill/a:srgbClr", ns)]
     assert fills == ["2F6F8F", "E0A100"]
+
+
+@pytest.mark.parametrize("value", ["Circuit results", 'a "quoted" & <tagged> \'name\'', "tab\there\nnew\rline", "Küche ✓"])
+def test_quoteattr_matches_the_standard_library(value):
+    # Reference: xml.sax.saxutils.quoteattr (the standard library's attribute quoting).
+    from xml.sax.saxutils import quoteattr as reference
+
+    from leakbudget.xlsx_xml import quoteattr
+
+    import xml.etree.ElementTree as ET
+
+    ours = quoteattr(value)
+    assert ET.fromstring(f"<a v={ours}/>").get("v") == ET.fromstring(f"<a v={reference(value)}/>").get("v") == value
