@@ -106,18 +106,24 @@ def _csv_table(name: str, spec: Sheet) -> RawTable:
         raise CatalogueError(str(exc)) from None
 
 
+def _unique_key(table: RawTable, row: tuple[int, list[object]], seen: dict[str, int], kind: str) -> str:
+    """The row's key, lower-cased; refuses a blank key or one an earlier row of the table already used."""
+    key = (table.text(row, "Key") or "").lower()
+    if not key:
+        raise table.error(row, "Key", "the key is blank", hint=f"give every {kind} row a key")
+    if key in seen:
+        raise table.error(row, "Key", f"the key '{key}' is used twice (also row {seen[key]})",
+                          hint="keep one row per key")
+    seen[key] = row[0]
+    return key
+
+
 def appliances_from_table(table: RawTable, origin_prefix: str | None = None) -> list[Appliance]:
     """Parse catalogue rows (built-in CSV or the user's Appliances sheet) into :class:`Appliance` rows."""
     out: list[Appliance] = []
     seen: dict[str, int] = {}
     for row in table.rows:
-        key = (table.text(row, "Key") or "").lower()
-        if not key:
-            raise table.error(row, "Key", "the key is blank", hint="give every catalogue row a key")
-        if key in seen:
-            raise table.error(row, "Key", f"the key '{key}' is used twice (also row {seen[key]})",
-                              hint="keep one row per key")
-        seen[key] = row[0]
+        key = _unique_key(table, row, seen, "catalogue")
         typical = table.number(row, "Typical leakage", "mA", positive=False, plausible=STANDING_LEAKAGE_MA)
         if typical is None:
             raise table.error(row, "Typical leakage", "the typical leakage is blank",
@@ -165,13 +171,7 @@ def cables_from_table(table: RawTable, origin_prefix: str | None = None) -> list
     out: list[Cable] = []
     seen: dict[str, int] = {}
     for row in table.rows:
-        key = (table.text(row, "Key") or "").lower()
-        if not key:
-            raise table.error(row, "Key", "the key is blank", hint="give every cable row a key")
-        if key in seen:
-            raise table.error(row, "Key", f"the key '{key}' is used twice (also row {seen[key]})",
-                              hint="keep one row per key")
-        seen[key] = row[0]
+        key = _unique_key(table, row, seen, "cable")
         capacitance = table.number(row, "Capacitance", "pF/m", positive=True, plausible=CABLE_CAPACITANCE_PF_PER_M)
         if capacitance is None:
             raise table.error(row, "Capacitance", "the capacitance is blank",
