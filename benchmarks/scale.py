@@ -53,10 +53,10 @@ def best(command: list[str], runs: int) -> tuple[float, float]:
 def stages(path: Path, out: Path) -> dict[str, float]:
     """Seconds of each stage of a check, in this process (each stage once, as the command runs them)."""
     from leakbudget.estimate import CheckResult, check, estimate, evaluate
-    from leakbudget.jobs import bulk_work
-    from leakbudget.results import result_sheets
-    from leakbudget.workbook import read_project
-    from leakbudget.xlsx_package import write_sheets
+    from leakbudget.api import bulk_work
+    from leakbudget.output.check import result_sheets
+    from leakbudget.workbook.read import read_project
+    from leakbudget.xlsx.package import write_sheets
 
     times: dict[str, float] = {}
     with bulk_work():

@@ -15,10 +15,10 @@ from importlib import resources
 from pathlib import Path
 
 from leakbudget.errors import CatalogueError, WorkbookError
-from leakbudget.plausible import CABLE_CAPACITANCE_PF_PER_M, FREQUENCY_HZ, STANDING_LEAKAGE_MA, VOLTAGE_V
+from leakbudget.input.ranges import CABLE_CAPACITANCE_PF_PER_M, FREQUENCY_HZ, STANDING_LEAKAGE_MA, VOLTAGE_V
 from leakbudget.provenance import Kind, Source, classify
-from leakbudget.schema import APPLIANCES, CABLES, Sheet
-from leakbudget.tables import RawTable
+from leakbudget.input.schema import APPLIANCES, CABLES, Sheet
+from leakbudget.input.table import RawTable
 
 NATURES = ("capacitive", "resistive", "mixed")
 WAVEFORMS = ("sine", "pulsating-dc", "high-frequency", "smooth-dc")

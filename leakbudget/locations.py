@@ -16,8 +16,8 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 from leakbudget.errors import CatalogueError, WorkbookError
-from leakbudget.schema import LOCATIONS
-from leakbudget.tables import RawTable
+from leakbudget.input.schema import LOCATIONS
+from leakbudget.input.table import RawTable
 
 # The kinds of location the codes' rules are written against, with what each means.
 LOCATION_KINDS: dict[str, str] = {

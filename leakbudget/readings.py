@@ -33,7 +33,7 @@ from leakbudget import leakage as phys
 from leakbudget.devices import Status, status
 from leakbudget.model import Circuit, Project, Reading
 from leakbudget.provenance import Source
-from leakbudget.tables import RawTable
+from leakbudget.input.table import RawTable
 
 if TYPE_CHECKING:
     from leakbudget.estimate import CheckResult, LoadResult

@@ -50,7 +50,7 @@ import numpy as np
 
 from leakbudget.devices import Device
 from leakbudget.provenance import Kind, Source
-from leakbudget.units import UnitProblem, to_unit
+from leakbudget.input.units import UnitProblem, to_unit
 
 if TYPE_CHECKING:
     from leakbudget.estimate import CheckResult, LoadResult

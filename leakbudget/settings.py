@@ -10,12 +10,12 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
-from leakbudget.codes import CODE_KEYS
+from leakbudget.review.codes import CODE_KEYS
 from leakbudget.devices import BUDGET_FRACTION_DEFAULT
 from leakbudget.provenance import Kind, Source
 from leakbudget import risk
-from leakbudget.schema import normalise
-from leakbudget.units import UnitProblem, to_unit
+from leakbudget.input.schema import normalise
+from leakbudget.input.units import UnitProblem, to_unit
 
 # Default supplies by market, used when neither the circuit nor the Settings sheet gives one.
 US_SUPPLY = (120.0, 60.0)  # NEC nominal 120 V, 60 Hz (common practice for US dwellings)

@@ -10,9 +10,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from leakbudget import charts
-
-
+from leakbudget.report import charts
 def decode(png: bytes) -> np.ndarray:
     """RGB pixels of a PNG as an (height, width, 3) integer array, 0-255."""
     from matplotlib.image import imread

@@ -3,7 +3,7 @@ asserts on them) and benchmarks/robustness.py (which counts them).
 
 - :data:`BAD_INPUTS`: named bad files, each with a fragment of the one-sentence error it must get.
 - :func:`contract_sheets` and the damage operators: random workbooks made from the contract
-  (leakbudget.schema), damaged at the cell level (before XlsxWriter writes them) or at the package level (the
+  (leakbudget.input.schema), damaged at the cell level (before XlsxWriter writes them) or at the package level (the
   written bytes).
 - :func:`judge`: run ``leakbudget check`` on a file the way a user would and list what went wrong: an exit code
   other than 0, 1 or 2, a traceback, the input changed, a lost cell of the user's, an error that is not one line
@@ -30,8 +30,8 @@ from datetime import date, datetime
 from pathlib import Path
 from typing import Any
 
-from leakbudget.package_guard import MAX_SHEET_CELLS
-from leakbudget.schema import CIRCUITS, LOADS
+from leakbudget.xlsx.guard import MAX_SHEET_CELLS
+from leakbudget.input.schema import CIRCUITS, LOADS
 from tests.conftest import basic_sheets, write_workbook
 
 DATA = Path(__file__).parent / "data"
@@ -395,7 +395,7 @@ def _table(rng: random.Random, columns: tuple, values: dict[str, Callable[[int],
 
 
 def _same(a: str, b: str) -> bool:
-    from leakbudget.schema import normalise
+    from leakbudget.input.schema import normalise
 
     return normalise(a) == normalise(b)
 
@@ -525,7 +525,7 @@ ROOT = Path(__file__).resolve().parents[1]
 # /proc/self/status (Linux, proc(5)); getrusage's maxrss would include the parent's memory at fork time.
 CHILD = """
 import re, sys
-from leakbudget.cli import main
+from leakbudget.cli.app import main
 sys.argv = ["leakbudget", *sys.argv[1:]]
 try:
     main()
@@ -578,8 +578,8 @@ def judge(path: Path, out: Path | None = None, expected: str | None = None) -> V
 
     from typer.testing import CliRunner
 
-    from leakbudget.cli import app
-    from leakbudget.xlsx_file import backup_path
+    from leakbudget.cli.app import app
+    from leakbudget.xlsx.files import backup_path
 
     folder_before = sorted(p.name for p in path.parent.iterdir())
     before = path.read_bytes()
@@ -618,7 +618,7 @@ def lost_cells(source: Path, written: Path) -> list[str]:
     from python_calamine import CalamineWorkbook
 
     from leakbudget.errors import LeakbudgetError
-    from leakbudget.package_guard import GuardedPackage
+    from leakbudget.xlsx.guard import GuardedPackage
 
     problems = []
     guard = GuardedPackage(source)

@@ -8,8 +8,8 @@ from pathlib import Path
 import pytest
 from typer.testing import CliRunner
 
-from leakbudget.cli import app
-from leakbudget.schema import SHEETS
+from leakbudget.cli.app import app
+from leakbudget.input.schema import SHEETS
 from leakbudget.settings import SETTING_SPECS
 from tests.conftest import basic_sheets
 

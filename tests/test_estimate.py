@@ -9,7 +9,7 @@ import pytest
 from leakbudget.catalogue import built_in
 from leakbudget.devices import Status
 from leakbudget.estimate import CATALOGUE, COMPUTED, MEASURED, check
-from leakbudget.workbook import read_project
+from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
 
 
@@ -102,7 +102,7 @@ def test_vectorised_estimate_equals_the_scalar_reference():
     # The vectorised pass must give exactly what the scalar per-load formula gives, load by load.
     from leakbudget import leakage as phys
     from leakbudget.estimate import estimate, estimate_load
-    from leakbudget.jobs import example_path
+    from leakbudget.api import example_path
 
     project = read_project(example_path())
     circuits = {c.circuit_id: c for c in project.circuits}

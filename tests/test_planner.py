@@ -12,10 +12,10 @@ from typing import Any
 import pytest
 from typer.testing import CliRunner
 
-from leakbudget.cli import app
+from leakbudget.cli.app import app
 from leakbudget.estimate import check
-from leakbudget.planner import SplitOptions, plan_split
-from leakbudget.workbook import read_project
+from leakbudget.planner.plan import SplitOptions, plan_split
+from leakbudget.workbook.read import read_project
 
 runner = CliRunner()
 CIRCUITS = ["Circuit", "Device", "Voltage", "Frequency", "System", "Rating", "Rooms"]

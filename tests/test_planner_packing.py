@@ -12,10 +12,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from leakbudget.planner_bounds import continuous_bound, l2_bound, new_bins_bound, packing_bound
-from leakbudget.planner_heuristic import first_fit_decreasing, improve
-from leakbudget.planner_milp import lp_bound, solve_exact
-from leakbudget.planner_packing import Packing
+from leakbudget.planner.packing.bounds import continuous_bound, l2_bound, new_bins_bound, packing_bound
+from leakbudget.planner.packing.heuristic import first_fit_decreasing, improve
+from leakbudget.planner.packing.milp import lp_bound, solve_exact
+from leakbudget.planner.packing.problem import Packing
 
 
 def packing(leak: list[float], amps: list[float] | None = None, spares: list[float] = (), new_spare: float = 1.8,

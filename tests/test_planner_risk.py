@@ -10,11 +10,11 @@ from typing import Any
 import pytest
 from typer.testing import CliRunner
 
-from leakbudget.cli import app
+from leakbudget.cli.app import app
 from leakbudget.errors import WorkbookError
-from leakbudget.planner import SplitOptions, plan_split
+from leakbudget.planner.plan import SplitOptions, plan_split
 from leakbudget.risk import RiskParameters, circuit_distributions, trip_probability
-from leakbudget.workbook import read_project
+from leakbudget.workbook.read import read_project
 from tests.test_planner import kitchen, sheets
 
 runner = CliRunner()

@@ -18,8 +18,8 @@ import pytest
 from typer.testing import CliRunner
 
 from benchmarks.workbooks import make_workbook
-from leakbudget.cli import app
-from leakbudget.jobs import bulk_work, check_workbook
+from leakbudget.cli.app import app
+from leakbudget.api import bulk_work, check_workbook
 from leakbudget.progress import tracked
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -110,7 +110,7 @@ def test_piped_output_has_no_bar(tmp_path: Path):
 def test_a_big_project_shows_the_circuits_nearest_their_budget(tmp_path: Path):
     """A campus has thousands of circuits; the terminal shows the 40 using most of their budget, all of the
     over-budget ones among them when they fit, and says where the rest are."""
-    from leakbudget.cli import TERMINAL_TABLE_ROWS
+    from leakbudget.cli.app import TERMINAL_TABLE_ROWS
 
     path = make_workbook(tmp_path / "campus.xlsx", 1_000)  # 200 circuits
     result = CliRunner().invoke(app, ["check", str(path), "--no-write"], env={"COLUMNS": "200"})

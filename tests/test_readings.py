@@ -14,12 +14,12 @@ import pytest
 from typer.testing import CliRunner
 
 from leakbudget import risk
-from leakbudget.cli import app
+from leakbudget.cli.app import app
 from leakbudget.devices import Status
 from leakbudget.errors import WorkbookError
 from leakbudget.estimate import CATALOGUE, COMPUTED, MEASURED, check
 from leakbudget.readings import CONSISTENT, FAR_ABOVE, FAR_BELOW, calibration_factor, classify
-from leakbudget.workbook import read_project
+from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
 
 READINGS_HEADER = ["Circuit", "Reading", "Conditions", "Date", "Calibrate", "Note"]

@@ -13,9 +13,9 @@ import zipfile
 import defusedxml.ElementTree as ET
 from typer.testing import CliRunner
 
-from leakbudget import charts
-from leakbudget.cli import app
-from leakbudget.jobs import example_path
+from leakbudget.report import charts
+from leakbudget.cli.app import app
+from leakbudget.api import example_path
 
 NS = {"c": "http://schemas.openxmlformats.org/drawingml/2006/chart",
       "a": "http://schemas.openxmlformats.org/drawingml/2006/main"}

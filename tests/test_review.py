@@ -13,15 +13,15 @@ from typing import Any
 import pytest
 from typer.testing import CliRunner
 
-from leakbudget.cli import app
+from leakbudget.cli.app import app
 from leakbudget.errors import WorkbookError
 from leakbudget.locations import classify
 from leakbudget.provenance import Kind
 from leakbudget.risk import SWITCH_ON_FACTOR_DEFAULT as SWITCH_ON_FACTOR
-from leakbudget.review import (
+from leakbudget.review.rules import (
     GFCI_RUN_LIMIT_M, RULES, Finding, ReviewError, Severity, review, rule_description, run_review,
 )
-from leakbudget.workbook import read_project
+from leakbudget.workbook.read import read_project
 
 runner = CliRunner()
 
@@ -520,7 +520,7 @@ def test_cli_review_text_and_bad_code(make_workbook):
 
 
 def test_findings_sheet_rows(plan):
-    from leakbudget.review import FINDING_COLUMNS, findings_rows
+    from leakbudget.review.rules import FINDING_COLUMNS, findings_rows
 
     p = plan([circuit("B1", "none", "Main bath")], [load("Hair dryer", "B1", "hair-dryer")])
     rv = run_review(p, "nec-2023")
@@ -554,7 +554,7 @@ def test_cli_review_writes_the_findings_sheet(make_workbook, tmp_path):
 
 
 def test_demo_review_agrees_with_its_check():
-    from leakbudget.jobs import example_path
+    from leakbudget.api import example_path
 
     rv = run_review(read_project(example_path()))
     flagged = {c.circuit.circuit_id for c in rv.check.circuits if c.status.value in ("over-budget", "trip-risk")}

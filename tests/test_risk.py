@@ -21,7 +21,7 @@ from leakbudget.devices import DEVICES
 from leakbudget.errors import WorkbookError
 from leakbudget.estimate import check
 from leakbudget.risk import FIXED, LOGNORMAL, UNIFORM, LeakageDistribution as D
-from leakbudget.workbook import read_project
+from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
 
 GFCI = DEVICES["gfci-a"]  # UL 943 Class A: no trip below 4 mA, trips at 6 mA

@@ -29,11 +29,11 @@ from hypothesis import strategies as st
 from python_calamine import CalamineWorkbook, PasswordError
 from typer.testing import CliRunner
 
-from leakbudget import package_guard
-from leakbudget.cli import app
+from leakbudget.xlsx import guard as package_guard
+from leakbudget.cli.app import app
 from leakbudget.errors import WorkbookError
-from leakbudget.package_guard import MAX_SHEET_CELLS, GuardedPackage, _fast_scan, _parsed_scan
-from leakbudget.workbook import read_project
+from leakbudget.xlsx.guard import MAX_SHEET_CELLS, GuardedPackage, _fast_scan, _parsed_scan
+from leakbudget.workbook.read import read_project
 from tests.conftest import basic_sheets, write_workbook
 from tests.robustness_cases import (
     BAD_INPUTS, DATA, damaged_workbook, entity_bomb, far_cell, judge, lock_file_cases, million_formatted_rows,
@@ -188,7 +188,7 @@ def test_fast_and_parsed_scans_agree_and_cover_calamines_grid(cells: list[tuple[
     larger)."""
     import io
 
-    from leakbudget.tables import column_letter
+    from leakbudget.input.table import column_letter
 
     rows: dict[int, list[bytes]] = {}
     for r, c, form in sorted(set(cells)):

@@ -1,6 +1,6 @@
 """RawTable reads whole columns at once but reports problems row by row, as reading cell by cell would.
 
-References: the row-by-row order of checks in leakbudget.workbook.read_loads (Quantity before Leakage in a row), and
+References: the row-by-row order of checks in leakbudget.workbook.read.read_loads (Quantity before Leakage in a row), and
 pint, counted as it parses, for "each distinct text once".
 """
 
@@ -8,9 +8,9 @@ from __future__ import annotations
 
 import pytest
 
-from leakbudget import units
+from leakbudget.input import units
 from leakbudget.errors import WorkbookError
-from leakbudget.workbook import read_project
+from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
 
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from leakbudget.units import UnitProblem, to_unit
+from leakbudget.input.units import UnitProblem, to_unit
 
 
 @pytest.mark.parametrize(
@@ -37,8 +37,8 @@ def test_wrong_dimension_names_it():
 
 def test_the_precomputed_factors_are_what_pint_computes():
     """leakbudget/unit_factors.py against pint, the reference library it was generated from."""
-    from leakbudget.unit_factors import FACTORS
-    from leakbudget.units import COMMON_SPELLINGS, unit_factor_table
+    from leakbudget.input.unit_factors import FACTORS
+    from leakbudget.input.units import COMMON_SPELLINGS, unit_factor_table
 
     fresh = unit_factor_table()
     assert list(FACTORS) == list(COMMON_SPELLINGS) == list(fresh)
@@ -47,8 +47,8 @@ def test_the_precomputed_factors_are_what_pint_computes():
 
 
 def test_common_spellings_convert_as_pint_converts_them():
-    from leakbudget.unit_factors import FACTORS
-    from leakbudget.units import registry
+    from leakbudget.input.unit_factors import FACTORS
+    from leakbudget.input.units import registry
 
     ureg = registry()
     for spelling, (dimension, _) in FACTORS.items():
@@ -62,7 +62,7 @@ def test_common_spellings_do_not_import_pint():
     import subprocess
     import sys
 
-    code = ("import sys; from leakbudget.units import to_unit; "
+    code = ("import sys; from leakbudget.input.units import to_unit; "
             "values = [to_unit('250 uA', 'mA'), to_unit('4.7nF', 'nF'), to_unit('30 ft', 'm'), to_unit(50, 'ft', 'm')]; "
             "print('pint' in sys.modules, values)")
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)

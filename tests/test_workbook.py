@@ -7,7 +7,7 @@ import copy
 import pytest
 
 from leakbudget.errors import WorkbookError
-from leakbudget.workbook import read_project
+from leakbudget.workbook.read import read_project
 from tests.conftest import basic_sheets
 
 

@@ -1,4 +1,4 @@
-"""Tests of leakbudget.xlsx_package: results written into real LibreOffice and Gnumeric workbooks.
+"""Tests of leakbudget.xlsx.package: results written into real LibreOffice and Gnumeric workbooks.
 
 The fixtures in tests/data/ are the programs' own output (tests/data/make_fixtures.py says how they were made).
 Independent references: python-calamine reads the cells back, Gnumeric's ssconvert re-opens the written files
@@ -30,9 +30,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from python_calamine import CalamineWorkbook
 
-from leakbudget import xlsx_package
+from leakbudget.xlsx import package as xlsx_package
 from leakbudget.errors import WriteBackError
-from leakbudget.xlsx_package import (
+from leakbudget.xlsx.package import (
     MAX_COMPRESSION_RATIO,
     MAX_UNCOMPRESSED_BYTES,
     MAX_ZIP_ENTRIES,
@@ -478,7 +478,7 @@ def test_too_many_entries_is_refused(tmp_path: Path) -> None:
 CHILD = """
 import sys
 from pathlib import Path
-from leakbudget.xlsx_package import SheetData, write_sheets
+from leakbudget.xlsx.package import SheetData, write_sheets
 rows = [[f"C{i}", i * 0.001, 1.8, "a note of some length", i] for i in range(int(sys.argv[2]))]
 sheet = SheetData("Circuit results", ["circuit", "leakage_ma", "budget_ma", "note", "n"], rows, {1: "0.000"})
 print("writing", flush=True)
@@ -546,7 +546,7 @@ def test_quoteattr_matches_the_standard_library(value):
     # Reference: xml.sax.saxutils.quoteattr (the standard library's attribute quoting).
     from xml.sax.saxutils import quoteattr as reference
 
-    from leakbudget.xlsx_xml import quoteattr
+    from leakbudget.xlsx.xml_text import quoteattr
 
     import xml.etree.ElementTree as ET
 

@@ -18,8 +18,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from leakbudget.xlsx_package import SheetData, write_sheets
-from leakbudget.xlsx_rows import EXCEL_MAX_NUMBER, EXCEL_MAX_TEXT_UTF16, ROWS_PER_CHUNK, escape_text, rows_xml
+from leakbudget.xlsx.package import SheetData, write_sheets
+from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER, EXCEL_MAX_TEXT_UTF16, ROWS_PER_CHUNK, escape_text, rows_xml
 from tests.test_xlsx_package import DATA, MAIN, cells, entries, real_program_csv
 
 AWKWARD_TEXT = [
@@ -186,8 +186,7 @@ def test_progress_hears_every_row_once_in_order() -> None:
 
 def test_a_sheet_streamed_with_zip64_sizes_reads_back(tmp_path: Path, monkeypatch) -> None:
     """Sheets of more than ZIP64_ROWS rows get ZIP64 sizes (APPNOTE.TXT 4.5.3); both readers must accept them."""
-    from leakbudget import xlsx_package
-
+    from leakbudget.xlsx import package as xlsx_package
     monkeypatch.setattr(xlsx_package, "ZIP64_ROWS", 0)
     rows = [["K1", 0.85], ["K2", 1.4]]
     path = fast_workbook(tmp_path, "Big", ["circuit", "leakage_ma"], rows)

@@ -1,0 +1,5 @@
+"""The command line: typer commands (:mod:`leakbudget.cli.app`) over :mod:`leakbudget.api`."""
+
+from leakbudget.cli.app import app, main
+
+__all__ = ["app", "main"]

@@ -1,0 +1,309 @@
+"""Check results as plain data: JSON documents and the rows of the result sheets.
+
+One place decides what a circuit or load result is called at the edges (unit-suffixed keys, column headers
+with units), so the JSON, the workbook sheets and the report agree.
+"""
+
+from __future__ import annotations
+
+import cmath
+import math
+from typing import Any
+
+from leakbudget.about import CAUTION, __version__
+from leakbudget.report.charts import BUDGET_COLOUR, NO_TRIP_COLOUR, SEGMENT_COLOURS
+from leakbudget.estimate import CheckResult, CircuitResult, LoadResult
+from leakbudget.readings import COVERAGE, THRESHOLDS, ReadingResult
+from leakbudget.risk import TripProbability
+from leakbudget.xlsx.package import ChartSpec, SheetData
+from leakbudget.input.schema import CIRCUIT_RESULTS, LOAD_RESULTS, READING_RESULTS
+
+PROBABILITY_DIGITS = 6
+
+
+def _num(value: float | None, digits: int = 4) -> float | None:
+    if value is None or (isinstance(value, float) and (math.isnan(value) or math.isinf(value))):
+        return None
+    return round(float(value), digits)
+
+
+def likelihood_text(p: TripProbability | None, switch_on: bool = False) -> str:
+    """A trip likelihood for people: '2.4% ±0.1', '<0.03%' (no sample reached the no-trip level), '-'."""
+    if p is None:
+        return "-"
+    value, se = (p.switch_on, p.switch_on_se) if switch_on else (p.dry, p.dry_se)
+    bound = p.upper_95(switch_on)
+    if bound is not None:
+        return f"<{100 * bound:.2g}%"
+    if not p.sampled or se == 0.0:
+        return f"{100 * value:.3g}%"
+    digits = max(0, min(3, 1 - math.floor(math.log10(100 * se))))
+    return f"{100 * value:.{digits}f}% ±{100 * se:.{digits}f}"
+
+
+def risk_dict(p: TripProbability | None) -> dict[str, Any]:
+    """The four likelihood keys of a circuit (None when unprotected)."""
+    return {
+        "trip_probability": _num(p.dry, PROBABILITY_DIGITS) if p else None,
+        "trip_probability_se": _num(p.dry_se, PROBABILITY_DIGITS) if p else None,
+        "trip_probability_switch_on": _num(p.switch_on, PROBABILITY_DIGITS) if p else None,
+        "trip_probability_switch_on_se": _num(p.switch_on_se, PROBABILITY_DIGITS) if p else None,
+        "trip_probability_text": likelihood_text(p),
+        "trip_probability_switch_on_text": likelihood_text(p, switch_on=True),
+    }
+
+
+def reading_dict(rr: ReadingResult, c: CircuitResult) -> dict[str, Any]:
+    """One reading beside its circuit's estimate and, when calibrated, the calibrated figures."""
+    reading = rr.reading
+    cal = rr.calibration
+    return {
+        "circuit": reading.circuit_id,
+        "row": reading.row,
+        "reading_ma": _num(reading.reading_ma),
+        "conditions": reading.conditions,
+        "date": reading.date,
+        "estimate_phasor_ma": _num(rr.estimate_ma),
+        "estimate_low_ma": _num(rr.low_ma),
+        "estimate_median_ma": _num(rr.median_ma),
+        "estimate_high_ma": _num(rr.high_ma),
+        "coverage": COVERAGE,
+        "reading_to_median": _num(reading.reading_ma / rr.median_ma if rr.median_ma > 0 else None),
+        "flag": rr.flag,
+        "message": rr.message,
+        "calibrate": reading.calibrate,
+        "calibration": rr.calibration_note,
+        "estimate_gate_ma": _num(c.gate_ma),
+        "estimate_status": c.status.value,
+        **{f"estimate_{k}": v for k, v in risk_dict(c.risk).items()},
+        "calibration_factor": _num(cal.factor) if cal else None,
+        "calibrated_leakage_ma": _num(cal.leakage_ma) if cal else None,
+        "calibrated_phasor_ma": _num(cal.phasor_ma) if cal else None,
+        "calibrated_gate_ma": _num(cal.gate_ma) if cal else None,
+        "calibrated_headroom_used": _num(cal.headroom_used) if cal else None,
+        "calibrated_status": cal.status.value if cal else None,
+        **{f"calibrated_{k}": v for k, v in risk_dict(cal.risk if cal else None).items()},
+        "note": reading.note,
+    }
+
+
+def phase_deg(r: LoadResult) -> float | None:
+    if abs(r.phasor_ma) == 0:
+        return None
+    return round(math.degrees(cmath.phase(r.phasor_ma)), 1)
+
+
+def circuit_dict(c: CircuitResult) -> dict[str, Any]:
+    circuit = c.circuit
+    dev = circuit.device
+    return {
+        "circuit": circuit.circuit_id,
+        "device": dev.key,
+        "device_label": dev.label,
+        "rcd_type": circuit.rcd_type,
+        "system": circuit.system,
+        "voltage_v": circuit.voltage_v,
+        "frequency_hz": circuit.frequency_hz,
+        "supply_source": str(circuit.supply_source),
+        "rating_a": circuit.rating_a,
+        "rooms": list(circuit.rooms),
+        "load_count": c.load_count,
+        "cable_leakage_ma": _num(c.cable_ma),
+        "leakage_ma": _num(c.leakage_ma),
+        "phasor_ma": _num(c.phasor_ma),
+        "gate_ma": _num(c.gate_ma),
+        "budget_ma": _num(c.budget_ma),
+        "budget_source": str(c.budget_source) if dev.protected else None,
+        "no_trip_ma": _num(dev.no_trip_ma),
+        "no_trip_source": str(dev.no_trip_source) if dev.protected else None,
+        "trip_ma": _num(dev.trip_ma),
+        "trip_source": str(dev.trip_source) if dev.protected else None,
+        "headroom_used": _num(c.headroom_used),
+        "status": c.status.value,
+        "largest_contributor": c.largest,
+        "largest_contributor_ma": _num(c.largest_ma),
+        **risk_dict(c.risk),
+        "note": circuit.note,
+    }
+
+
+def load_dict(r: LoadResult) -> dict[str, Any]:
+    load = r.load
+    return {
+        "load": r.name,
+        "kind": "load" if load is not None else "cable",
+        "circuit": r.circuit_id,
+        "appliance": r.appliance.key if r.appliance else None,
+        "quantity": r.quantity,
+        "per_unit_ma": _num(r.per_unit_ma),
+        "leakage_ma": _num(r.leakage_ma),
+        "phase_deg": phase_deg(r),
+        "basis": r.basis,
+        "source": r.source,
+        "voltage_v": r.voltage_v,
+        "frequency_hz": r.frequency_hz,
+        "leg": load.leg_text if load else None,
+        "room": load.room if load else None,
+        "fixed": load.fixed if load else None,
+        "row": load.row if load else None,
+        "model": load.model if load else None,
+        "measured_on": r.measured_on,
+    }
+
+
+def settings_dict(result: CheckResult) -> dict[str, Any]:
+    s = result.project.settings
+    return {name: {"value": s.values[name], "source": str(s.sources[name])} for name in s.values}
+
+
+def to_json(result: CheckResult) -> dict[str, Any]:
+    """The document ``leakbudget check --json`` prints."""
+    project = result.project
+    return {
+        "tool": f"leakbudget {__version__}",
+        "file": str(project.path),
+        "all_ok": result.all_ok,
+        "sum_rule": project.settings.sum_rule,
+        "basis": project.settings.basis,
+        "settings": settings_dict(result),
+        "defaults_used": project.defaults_used,
+        "warnings": project.warnings,
+        "caution": CAUTION,
+        "circuits": [circuit_dict(c) for c in result.circuits],
+        "loads": [load_dict(r) for r in result.loads],
+        "risk": risk_summary(result),
+        "readings": readings_list(result),
+    }
+
+
+def risk_summary(result: CheckResult) -> dict[str, Any] | None:
+    """How the trip likelihoods were computed (samples, seed, model sentences)."""
+    risk = result.risk
+    if risk is None:
+        return None
+    return {"samples": risk.samples, "seed": risk.seed, "sum_rule": risk.sum_rule, "method": risk.method}
+
+
+def readings_list(result: CheckResult) -> list[dict[str, Any]]:
+    index = result.project.circuit_index()
+    return [reading_dict(rr, result.circuits[index[rr.reading.circuit_id.lower()]]) for rr in result.readings]
+
+
+CIRCUIT_COLUMNS: tuple[tuple[str, str, str | None], ...] = (
+    # (header, json key, number format)
+    ("Circuit", "circuit", None),
+    ("Device", "device", None),
+    ("RCD type", "rcd_type", None),
+    ("System", "system", None),
+    ("Voltage (V)", "voltage_v", "0"),
+    ("Frequency (Hz)", "frequency_hz", "0"),
+    ("Supply source", "supply_source", None),
+    ("Loads", "load_count", "0"),
+    ("Cable leakage (mA)", "cable_leakage_ma", "0.000"),
+    ("Leakage, arithmetic (mA)", "leakage_ma", "0.000"),
+    ("Leakage, phasor (mA)", "phasor_ma", "0.000"),
+    ("Budget (mA)", "budget_ma", "0.000"),
+    ("Budget source", "budget_source", None),
+    ("No-trip level (mA)", "no_trip_ma", "0.000"),
+    ("No-trip source", "no_trip_source", None),
+    ("Trip level (mA)", "trip_ma", "0.000"),
+    ("Trip source", "trip_source", None),
+    ("Budget used", "headroom_used", "0%"),
+    ("Status", "status", None),
+    ("Largest contributor", "largest_contributor", None),
+    ("Largest (mA)", "largest_contributor_ma", "0.000"),
+    ("Trip likelihood, dry", "trip_probability", "0.00%"),
+    ("± (dry)", "trip_probability_se", "0.00%"),
+    ("Trip likelihood, switch-on", "trip_probability_switch_on", "0.00%"),
+    ("± (switch-on)", "trip_probability_switch_on_se", "0.00%"),
+    ("Likelihood (text)", "trip_probability_text", None),
+    ("Note", "note", None),
+)
+
+LOAD_COLUMNS: tuple[tuple[str, str, str | None], ...] = (
+    ("Load", "load", None),
+    ("Row", "row", "0"),
+    ("Circuit", "circuit", None),
+    ("Appliance", "appliance", None),
+    ("Quantity", "quantity", "0"),
+    ("Per unit (mA)", "per_unit_ma", "0.0000"),
+    ("Leakage (mA)", "leakage_ma", "0.0000"),
+    ("Phase (deg)", "phase_deg", "0.0"),
+    ("Basis", "basis", None),
+    ("Source", "source", None),
+    ("Voltage (V)", "voltage_v", "0"),
+    ("Frequency (Hz)", "frequency_hz", "0"),
+    ("Leg", "leg", None),
+    ("Room", "room", None),
+    ("Model", "model", None),
+    ("Measured on", "measured_on", None),
+)
+
+READING_COLUMNS: tuple[tuple[str, str, str | None], ...] = (
+    ("Circuit", "circuit", None),
+    ("Row", "row", "0"),
+    ("Reading (mA)", "reading_ma", "0.000"),
+    ("Conditions", "conditions", None),
+    ("Date", "date", None),
+    ("Estimate, phasor (mA)", "estimate_phasor_ma", "0.000"),
+    ("Estimate 2.5 % (mA)", "estimate_low_ma", "0.000"),
+    ("Estimate median (mA)", "estimate_median_ma", "0.000"),
+    ("Estimate 97.5 % (mA)", "estimate_high_ma", "0.000"),
+    ("Reading / median", "reading_to_median", "0.00"),
+    ("Flag", "flag", None),
+    ("What it means", "message", None),
+    ("Estimate status", "estimate_status", None),
+    ("Estimate trip likelihood", "estimate_trip_probability_text", None),
+    ("Calibration", "calibration", None),
+    ("Factor", "calibration_factor", "0.000"),
+    ("Calibrated sum (mA)", "calibrated_gate_ma", "0.000"),
+    ("Calibrated status", "calibrated_status", None),
+    ("Calibrated trip likelihood", "calibrated_trip_probability_text", None),
+    ("Note", "note", None),
+)
+
+
+def _sheet(name: str, columns: tuple[tuple[str, str, str | None], ...], records: list[dict[str, Any]],
+           footer: list[str], chart: ChartSpec | None = None) -> SheetData:
+    rows: list[list[Any]] = [[rec.get(key) for _, key, _ in columns] for rec in records]
+    if footer:
+        rows.append([None] * len(columns))
+        rows.extend([[line] + [None] * (len(columns) - 1) for line in footer])
+    return SheetData(
+        name=name,
+        header=[h for h, _, _ in columns],
+        rows=rows,
+        number_formats={i: fmt for i, (_, _, fmt) in enumerate(columns) if fmt},
+        column_widths={i: (60.0 if "source" in h.lower() or h == "Note" else max(10.0, len(h) + 2.0))
+                       for i, (h, _, _) in enumerate(columns)},
+        chart=chart,
+    )
+
+
+def result_sheets(result: CheckResult) -> list[SheetData]:
+    """The ``Circuit results`` and ``Load results`` sheets for write-back."""
+    doc = to_json(result)
+    footer = [f"Written by leakbudget {__version__}; this sheet is replaced on every run.",
+              *(f"Default used: {d}" for d in doc["defaults_used"]),
+              *(f"Warning: {w}" for w in doc["warnings"]),
+              *(f"Trip likelihood: {line}" for line in (doc["risk"] or {}).get("method", [])),
+              f"Caution: {CAUTION}"]
+    headers = [h for h, _, _ in CIRCUIT_COLUMNS]
+    chart = ChartSpec(
+        title="Standing leakage against budget and no-trip level",
+        category_column=0,
+        value_columns=(headers.index("Leakage, arithmetic (mA)"), headers.index("Budget (mA)"),
+                       headers.index("No-trip level (mA)")),
+        y_axis_title="mA",
+        anchor=f"B{len(doc['circuits']) + len(footer) + 4}",
+        data_rows=len(doc["circuits"]),
+        colours=(SEGMENT_COLOURS[0], BUDGET_COLOUR, NO_TRIP_COLOUR),  # the report's colours for the same things
+    ) if doc["circuits"] else None
+    sheets = [
+        _sheet(CIRCUIT_RESULTS, CIRCUIT_COLUMNS, doc["circuits"], footer, chart),
+        _sheet(LOAD_RESULTS, LOAD_COLUMNS, doc["loads"], footer[:1]),
+    ]
+    if doc["readings"]:
+        sheets.append(_sheet(READING_RESULTS, READING_COLUMNS, doc["readings"],
+                             [footer[0], f"Thresholds: {THRESHOLDS}"]))
+    return sheets

@@ -1,0 +1,588 @@
+"""Compliance review: the check's results read against one wiring code's rules, as a list of findings.
+
+Each :class:`Finding` has a severity (error / warning / info), the rule it comes from and that rule's source
+(standard, edition and clause, or common practice), the circuit and load it concerns, and one line saying what
+is wrong and what to do. The advice is always to split, measure, repair, relocate or fit the kind of device the
+code asks for; never to remove protection or raise its rated residual current.
+
+Rules (ids in :data:`RULES`): location, appliance-outlet, ev-charging, socket-outlets, room-unclassified,
+waveform, fault-sign, high-leakage, shared-neutral, long-run, switch-on, budget. The codes' requirements are
+data in :mod:`leakbudget.review.codes`; room names are classified by :mod:`leakbudget.locations`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+from enum import Enum
+from typing import Any
+
+from leakbudget.review.codes import (
+    CODE_KEYS, CODES, DEFAULT_CODE_BY_FREQUENCY_HZ, SOCKET_OUTLET_MAX_A, Code, LocationRule, Scope, is_ev_charger,
+)
+from leakbudget.devices import Family, Status
+from leakbudget.errors import LeakbudgetError
+from leakbudget.estimate import CheckResult, CircuitResult, LoadResult, MEASURED, check
+from leakbudget.locations import Classification, classify
+from leakbudget.model import Circuit, Project
+from leakbudget.provenance import Kind, Source
+from leakbudget.settings import US_SUPPLY
+
+# Heating and cooking elements take up moisture through their end seals while cold; at switch-on their leakage
+# can be several times the dry value until they dry out (BS 7671:2001 guidance). The factor is the risk model's
+# `Switch-on factor` setting (one default, in risk.py), so the review and the likelihood agree.
+
+
+def _switch_on(settings) -> tuple[float, Source]:  # type: ignore[no-untyped-def]
+    factor = float(settings["Switch-on factor"])
+    origin = settings.sources["Switch-on factor"]
+    return factor, Source(origin.kind, f"switch-on leakage of a cold heating element about {factor:g} × its dry "
+                                       f"value ({origin}); moist elements: BS 7671:2001 guidance")
+
+# IEC 60950-1 5.1.7 / IEC 62368-1: plug-connected equipment (ordinary plug) may have at most 3.5 mA protective
+# conductor current; above it, permanent connection or an industrial plug and a high-leakage label (IEC 61140
+# Annex B gives the general limits).
+HIGH_LEAKAGE_PLUG_MA = 3.5
+HIGH_LEAKAGE_SOURCE = Source.published("IEC 60950-1 5.1.7 / IEC 62368-1; IEC 61140 Annex B")
+
+# Common practice: keep the load-side run of a 5 mA (UL 943 Class A) GFCI under about 75 m / 250 ft.
+M_PER_FT = 0.3048  # the international foot, exact by definition
+GFCI_RUN_LIMIT_M = 250 * M_PER_FT
+GFCI_RUN_SOURCE = Source.common_practice("load-side run of a 5 mA GFCI under about 75 m / 250 ft (common practice)")
+
+# IEC 60335-1 cl. 13.2, class I stationary heating appliances: 0.75 mA per kW of rated input, at least 0.75 mA,
+# at most 5 mA. Used to scale a catalogue limit to the load's own power.
+IEC_60335_HEATING_MA_PER_KW = 0.75
+IEC_60335_HEATING_MIN_MA = 0.75
+IEC_60335_HEATING_MAX_MA = 5.0
+IEC_60335_HEATING_ROW = "class I stationary heating"  # how catalogue Upper sources name that limit
+
+SHARED_NEUTRAL_SOURCE = Source.common_practice(
+    "a neutral shared with another circuit carries that circuit's return current through a single-pole "
+    "device's sensing coil (common practice)"
+)
+SMOOTH_DC_SOURCE = Source.published("IEC 62423 (Type B); IEC 62955 (6 mA DC detection for EV charging)")
+
+# What each RCD type detects (IEC 60755 / IEC 62423): AC sine only; A adds pulsating DC; F adds the composite
+# frequencies of single-phase inverters; B adds smooth DC.
+WAVEFORM_ORDER = ("sine", "pulsating-dc", "high-frequency", "smooth-dc")
+RCD_TYPE_DETECTS = {"AC": 1, "A": 2, "F": 3, "B": 4}  # how many of WAVEFORM_ORDER each type sees
+
+
+class ReviewError(LeakbudgetError):
+    """A review option has a value leakbudget does not know."""
+
+
+class Severity(str, Enum):
+    ERROR = "error"  # the plan does not meet the code, or will trip
+    WARNING = "warning"  # likely a problem; check it
+    INFO = "info"  # worth knowing; nothing wrong shown
+
+
+SEVERITY_ORDER = {Severity.ERROR: 0, Severity.WARNING: 1, Severity.INFO: 2}
+
+
+@dataclass(frozen=True, slots=True)
+class Finding:
+    """One review finding. ``circuit`` / ``load`` are None when it concerns no single circuit / load."""
+
+    severity: Severity
+    rule: str  # a key of RULES
+    source: Source  # standard, edition and clause, or common practice / from memory
+    circuit: str | None
+    load: str | None
+    message: str
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"severity": self.severity.value, "rule": self.rule, "source": str(self.source),
+                "source_kind": self.source.kind.value, "circuit": self.circuit, "load": self.load,
+                "message": self.message}
+
+
+@dataclass
+class Review:
+    """The findings of one review, the code used and why, and the check they rest on."""
+
+    check: CheckResult
+    code: Code
+    code_source: Source
+    findings: list[Finding]
+
+    @property
+    def errors(self) -> list[Finding]:
+        return [f for f in self.findings if f.severity is Severity.ERROR]
+
+    def count(self, severity: Severity) -> int:
+        return sum(f.severity is severity for f in self.findings)
+
+
+# ------------------------------------------------------------------------------------------------ code choice
+
+
+def choose_code(project: Project, code: str | None = None) -> tuple[Code, Source]:
+    """The code to review against and why: ``code`` if given, else the Code setting, else by supply frequency."""
+    if code is not None:
+        key = code.strip().lower()
+        if key not in CODES:
+            raise ReviewError(f"'{code}' is not a code leakbudget reviews against; use one of {', '.join(CODE_KEYS)}.")
+        return CODES[key], Source(Kind.USER, "chosen for this run (--code)")
+    if project.settings["Code"] is not None:
+        return CODES[project.settings["Code"]], project.settings.sources["Code"]
+    nearest = [_nearest_frequency_hz(c.frequency_hz) for c in project.circuits]
+    if nearest:
+        f_hz = max(DEFAULT_CODE_BY_FREQUENCY_HZ, key=nearest.count)
+        why = f"default for a {f_hz:g} Hz supply ({nearest.count(f_hz)} of {len(nearest)} circuits)"
+    else:
+        f_hz = _nearest_frequency_hz(project.settings["Frequency"] or US_SUPPLY[1])
+        why = f"default for a {f_hz:g} Hz supply (no circuits yet)"
+    code_key = DEFAULT_CODE_BY_FREQUENCY_HZ[f_hz]
+    return CODES[code_key], Source(Kind.DEFAULT, f"{why}; set Code in Settings or use --code")
+
+
+def _nearest_frequency_hz(frequency_hz: float) -> float:
+    return min(DEFAULT_CODE_BY_FREQUENCY_HZ, key=lambda f0: abs(f0 - frequency_hz))
+
+
+# ------------------------------------------------------------------------------------------------ context
+
+
+@dataclass
+class _Circuit:
+    """One circuit as the rules see it: its check result, its loads (no cable line) and its rooms."""
+
+    result: CircuitResult
+    loads: list[LoadResult]
+    rooms: list[Classification]
+
+    @property
+    def circuit(self) -> Circuit:
+        return self.result.circuit
+
+    @property
+    def cid(self) -> str:
+        return self.result.circuit.circuit_id
+
+    def outlets(self) -> str:
+        """Evidence of receptacles: "plug" (a plug-connected load), "fixed" (every load fixed-wired), else
+        "unknown" (no loads, or a load whose connection is not known)."""
+        kinds = [r.appliance.connection if r.appliance is not None else None for r in self.loads]
+        if "plug" in kinds:
+            return "plug"
+        if kinds and all(k == "fixed" for k in kinds):
+            return "fixed"
+        return "unknown"
+
+
+def _circuits(result: CheckResult) -> list[_Circuit]:
+    project = result.project
+    by_circuit: dict[str, list[LoadResult]] = {}
+    for r in result.loads:
+        if r.load is not None and r.circuit_id is not None:
+            by_circuit.setdefault(r.circuit_id, []).append(r)
+    classified: dict[str, Classification] = {}  # a room name is classified once per review
+    views = []
+    for c in result.circuits:
+        loads = by_circuit.get(c.circuit.circuit_id, [])
+        names = list(c.circuit.rooms) + [r.load.room for r in loads if r.load is not None and r.load.room]
+        rooms = []
+        for name in dict.fromkeys(n.strip() for n in names if n.strip()):
+            if name not in classified:
+                classified[name] = classify(name, project.location_rows)
+            rooms.append(classified[name])
+        views.append(_Circuit(c, loads, rooms))
+    return views
+
+
+def _missing(view: _Circuit) -> str:
+    """What a circuit that lacks the code's protection has instead."""
+    dev = view.circuit.device
+    if not dev.protected:
+        return f"{view.cid} has no ground-fault protection"
+    return f"{view.cid} has {dev.key} ({dev.label}), not that kind"
+
+
+def _clause(source: Source) -> str:
+    """A citation without its parenthesised gloss: "NEC 2023 210.8(A)", "BS 7671:2018 reg. 411.3.3 and 415.1.1"."""
+    return source.text.split(" (")[0]
+
+
+def _ma(value: float) -> str:
+    return f"{value:.2f} mA"
+
+
+# ------------------------------------------------------------------------------------------------ rules
+
+RuleFunc = Callable[[list[_Circuit], Code, CheckResult], Iterator[Finding]]
+
+SCOPE_STRENGTH = (Scope.ALL_CIRCUITS, Scope.RECEPTACLES, Scope.COUNTERTOP)  # strongest first
+SCOPE_SEVERITY = {  # (scope, receptacle evidence) → severity of a missing-protection finding
+    (Scope.RECEPTACLES, "plug"): Severity.ERROR,
+    (Scope.RECEPTACLES, "unknown"): Severity.WARNING,
+    (Scope.RECEPTACLES, "fixed"): Severity.INFO,
+    (Scope.COUNTERTOP, "plug"): Severity.WARNING,
+    (Scope.COUNTERTOP, "unknown"): Severity.WARNING,
+    (Scope.COUNTERTOP, "fixed"): Severity.INFO,
+}
+EVIDENCE_NOTE = {
+    "plug": "",
+    "unknown": " It applies if the circuit feeds a receptacle there (the loads' connection is not known).",
+    "fixed": " Its loads are all fixed-wired, so it applies only if the circuit also feeds a receptacle there.",
+}
+
+
+def rule_location(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """Rooms where the code requires protection for people (NEC 210.8(A); IEC 60364-7-701 / BS 7671 701)."""
+    for v in views:
+        if code.satisfied_by(v.circuit.device):
+            continue
+        hits: list[tuple[str, str, LocationRule]] = [
+            (c.room, kind, code.locations[kind]) for c in v.rooms for kind in c.kinds if kind in code.locations
+        ]
+        if not hits:
+            continue
+        evidence = v.outlets()
+        scope = min((rule.scope for _, _, rule in hits), key=SCOPE_STRENGTH.index)
+        rule = next(r for _, _, r in hits if r.scope is scope)
+        severity = Severity.ERROR if scope is Scope.ALL_CIRCUITS else SCOPE_SEVERITY[(scope, evidence)]
+        rooms = ", ".join(dict.fromkeys(f"{room} ({kind})" for room, kind, _ in hits))
+        covers = "every circuit serving it" if scope is Scope.ALL_CIRCUITS else f"{scope.value} there"
+        note = "" if scope is Scope.ALL_CIRCUITS else EVIDENCE_NOTE[evidence]
+        yield Finding(severity, "location", rule.source, v.cid, None,
+                      f"{v.cid} serves {rooms}: {_clause(rule.source)} requires {code.requirement} for {covers}; "
+                      f"{_missing(v)}: {code.remedy}.{note}")
+
+
+def rule_room_unclassified(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """Rooms the room table could not classify, so their location rules went unchecked."""
+    for v in views:
+        for c in v.rooms:
+            if c.classified:
+                continue
+            protected = code.satisfied_by(v.circuit.device)
+            yield Finding(
+                Severity.INFO if protected else Severity.WARNING, "room-unclassified", code.location_source, v.cid,
+                None,
+                f"Room '{c.room}' on {v.cid} is not in the room table, so the location rules were not checked for "
+                f"it{'' if protected else ' (' + _missing(v) + ')'}; add it to a Locations sheet (Room name, "
+                f"Location kind, e.g. dry or bathroom).",
+            )
+
+
+def rule_appliance_outlet(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """Appliance outlets the code names (NEC 2023 210.8(D); NEC 2020 210.8(D) dishwashers)."""
+    if code.appliance_source is None:
+        return
+    for v in views:
+        if code.satisfied_by(v.circuit.device):
+            continue
+        for r in v.loads:
+            key = r.appliance.key if r.appliance is not None else None
+            if key in code.appliance_outlets:
+                yield Finding(Severity.ERROR, "appliance-outlet", code.appliance_source, v.cid, r.name,
+                              f"{r.name} ({key}) is on {v.cid}: {_clause(code.appliance_source)} requires GFCI "
+                              f"protection for outlets supplying {code.appliance_outlets[key]}; {_missing(v)}: "
+                              f"{code.remedy}.")
+
+
+def rule_ev_charging(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """EV charging: NEC 625.54 (receptacles for EV charging need GFCI for personnel); IEC / BS 722 (an RCD)."""
+    if code.ev_source is None:
+        return
+    for v in views:
+        if code.satisfied_by(v.circuit.device):
+            continue
+        for r in v.loads:
+            a = r.appliance
+            if a is None or not is_ev_charger(a.key):
+                continue
+            if code.family == "nec" and a.connection != "plug":
+                continue  # 625.54 covers receptacles; fixed equipment carries its own personnel protection
+            yield Finding(Severity.ERROR, "ev-charging", code.ev_source, v.cid, r.name,
+                          f"{r.name} ({a.key}) is EV charging equipment on {v.cid}: {_clause(code.ev_source)} "
+                          f"requires {code.requirement}; {_missing(v)}: {code.remedy}.")
+
+
+def rule_socket_outlets(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """IEC 60364-4-41 / BS 7671 411.3.3: socket-outlets up to 32 A need 30 mA additional protection (415.1.1)."""
+    if code.socket_source is None:
+        return
+    for v in views:
+        rating = v.circuit.rating_a
+        evidence = v.outlets()
+        if code.satisfied_by(v.circuit.device) or evidence == "fixed" or (rating and rating > SOCKET_OUTLET_MAX_A):
+            continue
+        plugs = [r.name for r in v.loads if r.appliance is not None and r.appliance.connection == "plug"]
+        what = (f"plug-connected loads ({', '.join(plugs[:4])}{', …' if len(plugs) > 4 else ''})" if plugs
+                else "loads whose connection is not known")
+        yield Finding(Severity.ERROR if plugs else Severity.WARNING, "socket-outlets", code.socket_source, v.cid,
+                      None,
+                      f"{v.cid} feeds {what} through socket-outlets up to {SOCKET_OUTLET_MAX_A:g} A: "
+                      f"{_clause(code.socket_source)} requires {code.requirement}; {_missing(v)}: {code.remedy}.")
+
+
+def effective_waveform(r: LoadResult) -> tuple[str, str]:
+    """A load's leakage waveform and where it comes from: the Waveform column, else the catalogue, else sine."""
+    if r.load is not None and r.load.waveform:
+        return r.load.waveform, "Waveform column"
+    if r.appliance is not None:
+        return r.appliance.waveform, f"catalogue '{r.appliance.key}'"
+    return "sine", "no catalogue row; sine assumed"
+
+
+def _types_seeing(wave: str) -> str:
+    """The RCD types that see a waveform, in words: "Type F or B"."""
+    types = [t for t, n in RCD_TYPE_DETECTS.items() if n > WAVEFORM_ORDER.index(wave)]
+    return "Type " + (" or ".join(types) if len(types) < 3 else ", ".join(types[:-1]) + " or " + types[-1])
+
+
+def rule_waveform(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """Loads whose leakage waveform the RCD type cannot see (IEC 60755 / IEC 62423; IEC 62955 DC detection)."""
+    for v in views:
+        if not v.circuit.device.protected:
+            continue
+        rcd_type = v.circuit.rcd_type
+        for r in v.loads:
+            wave, origin = effective_waveform(r)
+            if wave == "sine" or (rcd_type is not None and WAVEFORM_ORDER.index(wave) < RCD_TYPE_DETECTS[rcd_type]):
+                continue
+            source = SMOOTH_DC_SOURCE if wave == "smooth-dc" else code.waveform_source
+            if rcd_type is None:
+                yield Finding(Severity.INFO, "waveform", source, v.cid, r.name,
+                              f"The leakage of {r.name} is {wave} ({origin}) and the device type (AC, A, F or B) of "
+                              f"{v.cid} is not given; {_types_seeing(wave)} sees it: check the device's datasheet "
+                              f"and give its type in the RCD type column.")
+                continue
+            cure = f"fit a {_types_seeing(wave)} device of the same IΔn"
+            if wave == "smooth-dc":
+                cure += (", or a Type A with an IEC 62955 6 mA DC-detecting device (many EV chargers have one "
+                         "built in: check the datasheet); a Type A still trips with up to 6 mA smooth DC, a Type F "
+                         "up to 10 mA")
+            yield Finding(Severity.ERROR if rcd_type == "AC" else Severity.WARNING, "waveform", source, v.cid,
+                          r.name,
+                          f"The leakage of {r.name} is {wave} ({origin}) and {v.cid} has a Type {rcd_type} device, "
+                          f"which cannot reliably see it and can be blinded by it: {cure}.")
+
+
+def published_limit(r: LoadResult) -> tuple[float, Source] | None:
+    """The appliance's published upper leakage limit per unit [mA] and its source, or None when the catalogue
+    row's upper value is not a published limit. A class I stationary heating limit (IEC 60335-1 cl. 13.2) is
+    scaled to the load's own Power when given."""
+    a = r.appliance
+    if a is None or a.upper_source.kind is not Kind.PUBLISHED:
+        return None
+    power_w = r.load.power_w if r.load is not None else None
+    if IEC_60335_HEATING_ROW in a.upper_source.text and power_w:
+        limit = min(max(IEC_60335_HEATING_MA_PER_KW * power_w / 1000.0, IEC_60335_HEATING_MIN_MA),
+                    IEC_60335_HEATING_MAX_MA)
+        return limit, Source.published(f"IEC 60335-1 cl. 13.2 (class I stationary heating, 0.75 mA/kW at "
+                                       f"{power_w / 1000.0:g} kW, at least 0.75 mA, at most 5 mA)")
+    return a.upper_ma, a.upper_source
+
+
+def rule_fault_sign(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """A measured leakage above the appliance's upper limit (IEC 60335-1 cl. 13.2, UL 101, …): likely a fault."""
+    for r in result.loads:
+        if r.load is None or r.basis != MEASURED or r.appliance is None:
+            continue
+        measured = r.load.leakage_ma or 0.0
+        limit = published_limit(r)
+        if limit is not None and measured > limit[0]:
+            yield Finding(Severity.ERROR, "fault-sign", limit[1], r.circuit_id, r.name,
+                          f"{r.name} measured {_ma(measured)} per unit, above the {_ma(limit[0])} limit for "
+                          f"'{r.appliance.key}': the appliance is probably faulty (damp or damaged insulation, "
+                          f"failed filter); have it repaired or replaced and measure again. This is a fault, not a "
+                          f"budget problem.")
+        elif limit is None and measured > r.appliance.upper_ma:
+            yield Finding(Severity.INFO, "fault-sign", r.appliance.upper_source, r.circuit_id, r.name,
+                          f"{r.name} measured {_ma(measured)} per unit, above the catalogue's upper figure "
+                          f"{_ma(r.appliance.upper_ma)} for '{r.appliance.key}' (not a published limit): measure "
+                          f"again, and have the appliance checked if the reading holds.")
+
+
+def rule_high_leakage(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """Plug-connected equipment above 3.5 mA (IEC 60950-1 5.1.7 / IEC 62368-1 / IEC 61140 Annex B)."""
+    for r in result.loads:
+        plug = r.appliance is not None and r.appliance.connection == "plug"
+        if r.load is None or not plug or r.per_unit_ma <= HIGH_LEAKAGE_PLUG_MA:
+            continue
+        yield Finding(Severity.WARNING, "high-leakage", HIGH_LEAKAGE_SOURCE, r.circuit_id, r.name,
+                      f"{r.name} leaks {_ma(r.per_unit_ma)} per unit ({r.basis}) on a plug: above "
+                      f"{HIGH_LEAKAGE_PLUG_MA:g} mA equipment must be permanently connected or use an industrial plug, "
+                      f"and carry a high-leakage label; measure it, and connect it that way or have it repaired.")
+
+
+def rule_shared_neutral(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """A circuit marked as sharing its neutral, on a single-pole (single-phase) device."""
+    for v in views:
+        c = v.circuit
+        if not (c.shared_neutral and c.device.protected and c.system == "single"):
+            continue
+        yield Finding(Severity.ERROR, "shared-neutral", SHARED_NEUTRAL_SOURCE, v.cid, None,
+                      f"{v.cid} shares its neutral with another circuit, but its {c.device.label} ({c.device.key}) "
+                      f"is single-pole: the other circuit's return current passes through its sensing coil and it "
+                      f"will trip; give {v.cid} its own neutral, or protect both circuits of the shared neutral with "
+                      f"one two-pole device of the same kind.")
+
+
+def rule_long_run(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """A load-side cable run longer than the usual limit for a 5 mA GFCI (common practice)."""
+    for v in views:
+        c = v.circuit
+        if c.device.family is not Family.GFCI or not c.cable_length_m or c.cable_length_m <= GFCI_RUN_LIMIT_M:
+            continue
+        yield Finding(Severity.WARNING, "long-run", GFCI_RUN_SOURCE, v.cid, None,
+                      f"{v.cid}'s load-side cable run is {c.cable_length_m:.0f} m ({c.cable_length_m / M_PER_FT:.0f} "
+                      f"ft), longer than the usual 75 m / 250 ft for a 5 mA GFCI: the cable's own capacitance adds "
+                      f"{_ma(v.result.cable_ma)} of standing leakage here and surges may trip it; place the GFCI "
+                      f"nearer the loads (a GFCI receptacle or a GFCI at a sub-panel) or split the run.")
+
+
+def rule_switch_on(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """A heating element whose switch-on (moist) leakage would reach the no-trip level while the dry circuit total
+    is within budget."""
+    phasor = result.project.settings.sum_rule == "phasor"
+    factor, source = _switch_on(result.project.settings)
+    total_phasor: dict[str, complex] = {}
+    for r in result.loads:
+        if r.circuit_id is not None:
+            total_phasor[r.circuit_id] = total_phasor.get(r.circuit_id, 0j) + r.phasor_ma
+    for v in views:
+        dev = v.circuit.device
+        if not dev.protected or v.result.status is not Status.OK:
+            continue
+        for r in v.loads:
+            if r.appliance is None or not r.appliance.heating:
+                continue
+            extra = factor - 1.0
+            wet_total = (abs(total_phasor[v.cid] + r.phasor_ma * extra) if phasor
+                         else v.result.gate_ma + r.leakage_ma * extra)
+            if wet_total < dev.no_trip_ma:
+                continue
+            yield Finding(Severity.WARNING, "switch-on", source, v.cid, r.name,
+                          f"{r.name} is a heating element: its {_ma(r.leakage_ma)} dry leakage may be about "
+                          f"{_ma(r.leakage_ma * factor)} at switch-on after standing cold, taking {v.cid} "
+                          f"from {_ma(v.result.gate_ma)} to {_ma(wet_total)}, at or above its no-trip level "
+                          f"{_ma(dev.no_trip_ma)}; measure it at switch-on, and move it to a circuit with more "
+                          f"headroom (`leakbudget split`) or have the element's seals repaired if it trips.")
+
+
+def rule_budget(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """The check's verdict: over budget (BS 7671:2018 reg. 531.3.2) or at the no-trip level."""
+    for v in views:
+        c = v.result
+        dev = c.circuit.device
+        largest = f"; the largest contributor is {c.largest} ({_ma(c.largest_ma)})" if c.largest else ""
+        advice = ("split the circuit (`leakbudget split`), measure the largest contributors, and repair appliances "
+                  "that leak far above their typical value")
+        if c.status is Status.TRIP_RISK:
+            yield Finding(Severity.ERROR, "budget", dev.no_trip_source, v.cid, None,
+                          f"{v.cid}'s standing leakage {_ma(c.gate_ma)} reaches the no-trip level "
+                          f"{_ma(dev.no_trip_ma)} of its {dev.label}, so nuisance trips are likely{largest}: "
+                          f"{advice}.")
+        elif c.status is Status.OVER_BUDGET:
+            regulation = code.budget_is_regulation and dev.family is Family.RCD
+            yield Finding(Severity.ERROR if regulation else Severity.WARNING, "budget", c.budget_source, v.cid,
+                          None,
+                          f"{v.cid}'s standing leakage {_ma(c.gate_ma)} is over its budget {_ma(c.budget_ma)} (below "
+                          f"the no-trip level {_ma(dev.no_trip_ma)}){largest}: {advice}.")
+
+
+RULES: dict[str, RuleFunc] = {
+    "location": rule_location,
+    "appliance-outlet": rule_appliance_outlet,
+    "ev-charging": rule_ev_charging,
+    "socket-outlets": rule_socket_outlets,
+    "room-unclassified": rule_room_unclassified,
+    "waveform": rule_waveform,
+    "fault-sign": rule_fault_sign,
+    "high-leakage": rule_high_leakage,
+    "shared-neutral": rule_shared_neutral,
+    "long-run": rule_long_run,
+    "switch-on": rule_switch_on,
+    "budget": rule_budget,
+}
+
+
+
+
+def rule_description(rule: str) -> str:
+    """One line saying what a rule looks for (the first paragraph of its function's docstring)."""
+    return " ".join((RULES[rule].__doc__ or "").split("\n\n")[0].split()).rstrip(".")
+
+
+# ------------------------------------------------------------------------------------------------ entry points
+
+
+def run_review(subject: Project | CheckResult, code: str | None = None) -> Review:
+    """Check ``subject`` (unless it is already a check result) and apply every rule of the chosen code."""
+    result = subject if isinstance(subject, CheckResult) else check(subject)
+    chosen, why = choose_code(result.project, code)
+    views = _circuits(result)
+    order = {c.circuit.circuit_id: i for i, c in enumerate(result.circuits)}
+    findings = [f for func in RULES.values() for f in func(views, chosen, result)]
+    findings.sort(key=lambda f: (SEVERITY_ORDER[f.severity], order.get(f.circuit or "", len(order))))
+    return Review(result, chosen, why, findings)
+
+
+def review(subject: Project | CheckResult, code: str | None = None) -> list[Finding]:
+    """Findings for a project or a check result under ``code`` (one of CODE_KEYS; default: the Code setting, else
+    by supply frequency), errors first, then warnings, then info; within a severity in circuit order."""
+    return run_review(subject, code).findings
+
+
+# ------------------------------------------------------------------------------------------------ edges
+
+FINDING_COLUMNS = ("Severity", "Rule", "Circuit", "Load", "Finding", "Source", "Source kind")
+
+
+def to_json(rv: Review) -> dict[str, Any]:
+    """The document ``leakbudget review --json`` prints."""
+    from leakbudget.about import CAUTION, __version__
+
+    project = rv.check.project
+    return {
+        "tool": f"leakbudget {__version__}",
+        "file": str(project.path),
+        "code": rv.code.key,
+        "code_label": rv.code.label,
+        "code_source": str(rv.code_source),
+        "counts": {s.value: rv.count(s) for s in Severity},
+        "findings": [f.to_dict() for f in rv.findings],
+        "unplaced_loads": [r.name for r in rv.check.unplaced],
+        "warnings": project.warnings,
+        "caution": CAUTION,
+    }
+
+
+def findings_rows(rv: Review) -> list[list[Any]]:
+    """The rows of the ``Review findings`` sheet under :data:`FINDING_COLUMNS`: one per finding, a blank row,
+    then footer lines (code used, counts, provenance of the sheet, caution) in the first column."""
+    from leakbudget.about import CAUTION, __version__
+
+    rows: list[list[Any]] = [
+        [f.severity.value, f.rule, f.circuit, f.load, f.message, str(f.source), f.source.kind.value]
+        for f in rv.findings
+    ]
+    blank: list[Any] = [None] * len(FINDING_COLUMNS)
+    footer = [
+        f"Reviewed against {rv.code.label}: {rv.code_source}.",
+        f"{rv.count(Severity.ERROR)} error(s), {rv.count(Severity.WARNING)} warning(s), "
+        f"{rv.count(Severity.INFO)} info.",
+        f"Written by leakbudget {__version__}; this sheet is replaced on every run.",
+        f"Caution: {CAUTION}",
+    ]
+    return rows + [blank] + [[line] + blank[1:] for line in footer]
+
+
+def findings_sheet(rv: Review) -> Any:
+    """The ``Review findings`` sheet (an :class:`leakbudget.xlsx.package.SheetData`) for write-back."""
+    from leakbudget.input.schema import REVIEW_FINDINGS
+    from leakbudget.xlsx.package import SheetData
+
+    return SheetData(
+        name=REVIEW_FINDINGS,
+        header=list(FINDING_COLUMNS),
+        rows=findings_rows(rv),
+        number_formats={},
+        column_widths={0: 10.0, 1: 18.0, 2: 12.0, 3: 20.0, 4: 100.0, 5: 60.0, 6: 20.0},
+    )
