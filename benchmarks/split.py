@@ -31,7 +31,8 @@ from leakbudget.catalogue import built_in
 from leakbudget.devices import device
 from leakbudget.leakage import parse_leg
 from leakbudget.model import Circuit, Load, Project
-from leakbudget.planner.plan import SplitOptions, plan_split
+from leakbudget.planner.plan import SplitOptions
+from leakbudget.planner.split import plan_split
 from leakbudget.provenance import Source
 from leakbudget.settings import Settings
 

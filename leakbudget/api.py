@@ -15,7 +15,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from leakbudget.errors import WorkbookError
-from leakbudget.estimate import CheckResult, check
+from leakbudget.check import CheckResult, check
 from leakbudget.model import Project
 from leakbudget.progress import Progress
 from leakbudget.workbook.read import read_project
@@ -24,7 +24,7 @@ from leakbudget.xlsx.package import WriteResult
 if TYPE_CHECKING:
     from leakbudget.planner.plan import SplitOptions, SplitPlan
     from leakbudget.review.rules import Review
-    from leakbudget.report.content import Report
+    from leakbudget.report.document import Report
 
 
 @dataclass
@@ -123,12 +123,13 @@ class SplitJob:
 
 def split_workbook(path: str | Path, out: str | Path | None = None, write: bool = True,
                    options: SplitOptions | None = None, progress: Progress | None = None) -> SplitJob:
-    """Plan a split of a workbook's loads (:func:`leakbudget.planner.plan.plan_split`) and (unless ``write`` is False)
+    """Plan a split of a workbook's loads (:func:`leakbudget.planner.split.plan_split`) and (unless ``write`` is False)
     write the ``Split plan`` sheet into it, or into ``out``. The Loads sheet itself is never changed.
 
     ``progress`` (see :mod:`leakbudget.progress`) hears of reading, each planning stage and the rows written.
     """
-    from leakbudget.planner.plan import SplitOptions, plan_split
+    from leakbudget.planner.plan import SplitOptions
+    from leakbudget.planner.split import plan_split
     from leakbudget.output.split import split_sheet
     from leakbudget.xlsx.package import write_sheets
 
@@ -154,7 +155,8 @@ def report_workbook(path: str | Path, html: str | Path | None = None, pdf: str |
     write the hand-over report as HTML and/or PDF.
 
     ``code`` is the wiring code the review uses (as for :func:`review_workbook`)."""
-    from leakbudget.report.content import build_report, check_outputs, write_report
+    from leakbudget.report.content import build_report
+    from leakbudget.report.write import check_outputs, write_report
     from leakbudget.review.rules import run_review
 
     path = Path(path)
@@ -165,7 +167,7 @@ def report_workbook(path: str | Path, html: str | Path | None = None, pdf: str |
     rv = run_review(project, code)
     plan = None
     if split is not None:
-        from leakbudget.planner.plan import plan_split
+        from leakbudget.planner.split import plan_split
 
         plan = plan_split(project, split)
     report = build_report(rv.check, findings=rv.findings, generated=generated,

@@ -7,18 +7,13 @@ built-in rows and override rows with the same key; the results say so.
 
 from __future__ import annotations
 
-import csv
-import io
 from dataclasses import dataclass
 from functools import lru_cache
-from importlib import resources
-from pathlib import Path
 
-from leakbudget.errors import CatalogueError, WorkbookError
 from leakbudget.input.ranges import CABLE_CAPACITANCE_PF_PER_M, FREQUENCY_HZ, STANDING_LEAKAGE_MA, VOLTAGE_V
 from leakbudget.provenance import Kind, Source, classify
-from leakbudget.input.schema import APPLIANCES, CABLES, Sheet
-from leakbudget.input.table import RawTable
+from leakbudget.input.schema import APPLIANCES, CABLES
+from leakbudget.input.table import RawTable, shipped_table
 
 NATURES = ("capacitive", "resistive", "mixed")
 WAVEFORMS = ("sine", "pulsating-dc", "high-frequency", "smooth-dc")
@@ -85,25 +80,6 @@ class Catalogue:
             return rows
         w = word.lower()
         return [a for a in rows if w in a.key or w in a.description.lower() or w in a.category]
-
-
-def _data_file(name: str) -> tuple[Path, str]:
-    """The path and text of a shipped catalogue file (inside the wheel, or the source tree)."""
-    try:
-        ref = resources.files("leakbudget.appliance_data").joinpath(name)
-        return Path(str(ref)), ref.read_text(encoding="utf-8")
-    except (ModuleNotFoundError, FileNotFoundError):
-        path = Path(__file__).resolve().parent.parent / "appliance_data" / name
-        return path, path.read_text(encoding="utf-8")
-
-
-def _csv_table(name: str, spec: Sheet) -> RawTable:
-    path, text = _data_file(name)
-    grid: list[list[object]] = [list(r) for r in csv.reader(io.StringIO(text))]
-    try:
-        return RawTable.from_grid(path, name, grid, spec)
-    except WorkbookError as exc:
-        raise CatalogueError(str(exc)) from None
 
 
 def _unique_key(table: RawTable, row: tuple[int, list[object]], seen: dict[str, int], kind: str) -> str:
@@ -190,6 +166,6 @@ def cables_from_table(table: RawTable, origin_prefix: str | None = None) -> list
 @lru_cache(maxsize=1)
 def built_in() -> Catalogue:
     """The shipped catalogue (parsed once per process)."""
-    appliances = appliances_from_table(_csv_table("appliances.csv", APPLIANCES))
-    cables = cables_from_table(_csv_table("cables.csv", CABLES))
+    appliances = appliances_from_table(shipped_table("appliances.csv", APPLIANCES))
+    cables = cables_from_table(shipped_table("cables.csv", CABLES))
     return Catalogue({a.key: a for a in appliances}, {c.key: c for c in cables})

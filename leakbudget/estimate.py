@@ -4,7 +4,7 @@ Order of preference per load (the results say which was used):
 1. ``Leakage`` given → measured (per unit, at the circuit's supply);
 2. ``Y capacitance`` and/or ``Insulation resistance`` → computed, I = 2π f C V and I = V / R;
 3. a ``Leakage`` measured on an identical unit (same ``Appliance`` and ``Model``) → measured, rescaled to this
-   load's supply (:func:`leakbudget.readings.stand_in_readings`);
+   load's supply (:func:`stand_in_readings`);
 4. catalogue row → typical or upper value (the ``Basis`` setting), rescaled from the row's reference supply
    (capacitive part ∝ V·f, resistive part ∝ V).
 Times quantity. The cable run of each circuit adds its own computed line (capacitance to earth × length).
@@ -13,7 +13,7 @@ Times quantity. The cable run of each circuit adds its own computed line (capaci
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -23,11 +23,9 @@ from leakbudget.catalogue import Appliance
 from leakbudget.devices import Status, budget_ma, budget_source, status
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.provenance import Source
-from leakbudget.readings import stand_in_readings
 
 if TYPE_CHECKING:
-    from leakbudget.readings import ReadingResult
-    from leakbudget.risk import RiskResult, TripProbability
+    from leakbudget.risk import TripProbability
 
 MEASURED = "measured"
 COMPUTED = "computed"
@@ -71,20 +69,12 @@ class CircuitResult:
 
 
 @dataclass
-class CheckResult:
+class Estimate:
+    """A project's estimate: every load's figure and every circuit's sums against its device's levels."""
+
     project: Project
     circuits: list[CircuitResult]
     loads: list[LoadResult]  # loads in sheet order, then cable lines
-    risk: RiskResult | None = None  # trip likelihoods and how they were computed
-    readings: list[ReadingResult] = field(default_factory=list)  # Readings sheet reconciled with the estimate
-
-    @property
-    def all_ok(self) -> bool:
-        return all(c.status in (Status.OK, Status.UNPROTECTED) for c in self.circuits)
-
-    @property
-    def unplaced(self) -> list[LoadResult]:
-        return [r for r in self.loads if r.load is not None and r.circuit_id is None]
 
 
 def _supply_text(v: float, f: float) -> str:
@@ -276,13 +266,51 @@ def evaluate(project: Project, loads: list[LoadResult]) -> list[CircuitResult]:
     return results
 
 
-def check(project: Project) -> CheckResult:
-    """Estimate every load, evaluate every circuit, then its trip likelihood and any readings."""
-    from leakbudget.readings import reconcile
-    from leakbudget.risk import assess
+# --- Identical units -------------------------------------------------------------------------------------------
+def _unit_key(appliance_key: str | None, model: str | None) -> tuple[str, str] | None:
+    if not model:
+        return None
+    return (appliance_key or "", model.strip().lower())
 
-    loads = estimate(project)
-    result = CheckResult(project, evaluate(project, loads), loads)
-    result.risk = assess(result)
-    result.readings = reconcile(result)
-    return result
+
+def stand_in_readings(project: Project, results: list[LoadResult]) -> None:
+    """Give loads without a figure of their own the Leakage measured on an identical unit (same key and model).
+
+    Changes ``results`` in place: basis becomes measured, ``measured_on`` names the unit(s) measured.
+    """
+    measured: dict[tuple[str, str], list[LoadResult]] = {}
+    for r in results:
+        load = r.load
+        if load is not None and load.leakage_ma is not None:
+            key = _unit_key(load.appliance_key, load.model)
+            if key is not None:
+                measured.setdefault(key, []).append(r)
+    if not measured:
+        return
+    circuits = {c.circuit_id: c for c in project.circuits}
+    for r in results:
+        load = r.load
+        key = _unit_key(load.appliance_key, load.model) if load is not None else None
+        if load is None or r.basis != CATALOGUE or key not in measured:
+            continue
+        nature = r.appliance.nature if r.appliance is not None else "capacitive"
+        per_unit = 0j
+        for m in measured[key]:
+            res, cap = phys.split_by_nature(m.load.leakage_ma, nature)  # type: ignore[union-attr]
+            res, cap = phys.rescale(res, cap, m.voltage_v, m.frequency_hz, r.voltage_v, r.frequency_hz)
+            per_unit += complex(float(res), float(cap)) / len(measured[key])
+        circuit = circuits.get(load.circuit_id) if load.circuit_id else None
+        rotation = phys.leg_rotation(load.leg, circuit.system) if circuit else 1.0
+        units = ", ".join(f"'{m.name}' (Loads row {m.load.row})" for m in measured[key])  # type: ignore[union-attr]
+        values = ", ".join(f"{m.load.leakage_ma:g} mA at {m.voltage_v:g} V {m.frequency_hz:g} Hz"  # type: ignore[union-attr]
+                           for m in measured[key])
+        r.per_unit_ma = abs(per_unit)
+        r.leakage_ma = abs(per_unit) * r.quantity
+        r.phasor_ma = per_unit * rotation * r.quantity
+        r.basis = MEASURED
+        r.measured_on = units
+        mean = "mean of the readings on" if len(measured[key]) > 1 else "reading on"
+        r.source = (f"measured on an identical unit: {mean} {units}, same appliance '{load.appliance_key or '-'}' "
+                    f"and model '{load.model}' ({values})")
+        if (measured[key][0].voltage_v, measured[key][0].frequency_hz) != (r.voltage_v, r.frequency_hz):
+            r.source += f"; rescaled to {r.voltage_v:g} V {r.frequency_hz:g} Hz ({nature})"

@@ -17,7 +17,7 @@ from functools import lru_cache
 
 from leakbudget.errors import CatalogueError, WorkbookError
 from leakbudget.input.schema import LOCATIONS
-from leakbudget.input.table import RawTable
+from leakbudget.input.table import RawTable, shipped_table
 
 # The kinds of location the codes' rules are written against, with what each means.
 LOCATION_KINDS: dict[str, str] = {
@@ -96,9 +96,7 @@ def rows_from_table(table: RawTable, origin_prefix: str | None = None) -> list[L
 @lru_cache(maxsize=1)
 def built_in() -> tuple[LocationRow, ...]:
     """The shipped room table (appliance_data/locations.csv), parsed once per process."""
-    from leakbudget.catalogue import _csv_table  # the shared reader of shipped CSV tables
-
-    table = _csv_table("locations.csv", LOCATIONS)
+    table = shipped_table("locations.csv", LOCATIONS)
     try:
         return tuple(rows_from_table(table))
     except WorkbookError as exc:  # a broken shipped file is a packaging fault, reported as such

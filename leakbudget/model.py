@@ -54,6 +54,13 @@ class Load:
     model: str | None = None  # model reference; a Leakage reading on one unit stands for units of the same model
 
 
+# What a Readings row's Conditions say: every load running, or loads connected but not running.
+ALL_ON = "all on"
+IDLE = "idle"
+CONDITION_WORDS = {"all on": ALL_ON, "all loads on": ALL_ON, "on": ALL_ON, "running": ALL_ON, "idle": IDLE,
+                   "standby": IDLE}
+
+
 @dataclass(slots=True)
 class Reading:
     """A measured total leakage of one circuit (Readings sheet), with a leakage clamp around its live conductors."""

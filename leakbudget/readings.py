@@ -1,4 +1,7 @@
-"""Measured readings: reconcile circuit readings with the estimate, calibrate, and let one unit stand for others.
+"""Measured readings: reconcile circuit readings with the estimate, and calibrate the estimate with them.
+
+The Readings sheet is parsed by :mod:`leakbudget.workbook.readings`; a Leakage measured on one unit standing for
+identical units is part of the estimate (:func:`leakbudget.estimate.stand_in_readings`).
 
 * Readings sheet: one clamp reading of a circuit's residual (protective conductor) current per row. A leakage
   clamp around the line and neutral conductors sees the phasor sum, so the reading is compared with the
@@ -16,33 +19,21 @@
   |F + k·C| = reading, where F is the phasor sum of the measured and computed parts (kept as they are) and C
   that of the catalogue parts. The calibrated values are then treated as measured (uniform within the meter
   accuracy) for the trip likelihood. The results show the estimate and the calibrated figures side by side.
-
-* Identical units: a load with no leakage figure of its own takes the ``Leakage`` measured on loads with the same
-  ``Appliance`` key and ``Model`` (the mean if several were measured), rescaled to its own supply by the row's
-  nature (capacitive part ∝ V·f, resistive part ∝ V); its source says which unit was measured.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from datetime import date, datetime
-from typing import TYPE_CHECKING
 
-from leakbudget import leakage as phys
+from leakbudget import risk
+from leakbudget.risk import TripProbability
 from leakbudget.devices import Status, status
-from leakbudget.model import Circuit, Project, Reading
+from leakbudget.estimate import CATALOGUE, Estimate
+from leakbudget.model import IDLE, Reading
 from leakbudget.provenance import Source
-from leakbudget.input.table import RawTable
 
-if TYPE_CHECKING:
-    from leakbudget.estimate import CheckResult, LoadResult
-    from leakbudget.risk import TripProbability
 
-ALL_ON = "all on"
-IDLE = "idle"
-CONDITION_WORDS = {"all on": ALL_ON, "all loads on": ALL_ON, "on": ALL_ON, "running": ALL_ON, "idle": IDLE,
-                   "standby": IDLE}
 
 CALIBRATE_ADVICE = "consider calibrating this circuit with the reading (Calibrate = yes)"
 FAR_ABOVE = "far above"
@@ -59,103 +50,6 @@ THRESHOLDS = (
 )
 
 
-def read_readings(table: RawTable, circuits: list[Circuit], defaults_used: list[str]) -> list[Reading]:
-    """Parse the Readings sheet; every problem is a WorkbookError naming the cell."""
-    by_id = {c.circuit_id.lower(): c for c in circuits}
-    readings: list[Reading] = []
-    calibrating: dict[str, int] = {}
-    defaulted: list[str] = []
-    for row in table.rows:
-        cid = table.text(row, "Circuit")
-        circuit = by_id.get(cid.lower()) if cid else None
-        if circuit is None:
-            raise table.error(row, "Circuit", f"'{cid or ''}' is not a circuit in the Circuits sheet",
-                              hint="use a circuit id from the Circuits sheet")
-        value = table.number(row, "Reading", "mA")
-        if value is None:
-            raise table.error(row, "Reading", "the reading is blank", hint="type the clamp reading, e.g. '1.2 mA'")
-        words = table.text(row, "Conditions")
-        if words is None:
-            conditions = ALL_ON
-            defaulted.append(str(row[0]))
-        elif words.strip().lower() in CONDITION_WORDS:
-            conditions = CONDITION_WORDS[words.strip().lower()]
-        else:
-            raise table.error(row, "Conditions", f"'{words}' is not 'all on' or 'idle'",
-                              hint="type 'all on' (every load running) or 'idle' (connected, not running)")
-        calibrate = bool(table.flag(row, "Calibrate"))
-        if calibrate and conditions != ALL_ON:
-            raise table.error(row, "Calibrate", "only an 'all on' reading can calibrate a circuit",
-                              hint="set Calibrate to no, or measure with every load running")
-        if calibrate and circuit.circuit_id in calibrating:
-            raise table.error(row, "Calibrate", f"circuit '{circuit.circuit_id}' is already calibrated by row "
-                              f"{calibrating[circuit.circuit_id]}", hint="mark one reading per circuit")
-        if calibrate:
-            calibrating[circuit.circuit_id] = row[0]
-        raw_date = table.raw(row, "Date")
-        readings.append(Reading(
-            circuit_id=circuit.circuit_id, reading_ma=value, conditions=conditions,
-            date=raw_date.date().isoformat() if isinstance(raw_date, datetime) else
-            raw_date.isoformat() if isinstance(raw_date, date) else table.text(row, "Date"),
-            calibrate=calibrate, note=table.text(row, "Note"), row=row[0],
-        ))
-    if defaulted:
-        defaults_used.append(f"Readings conditions '{ALL_ON}' for row(s) {', '.join(defaulted)} (blank Conditions)")
-    return readings
-
-
-# --- Identical units -------------------------------------------------------------------------------------------
-def _unit_key(appliance_key: str | None, model: str | None) -> tuple[str, str] | None:
-    if not model:
-        return None
-    return (appliance_key or "", model.strip().lower())
-
-
-def stand_in_readings(project: Project, results: list["LoadResult"]) -> None:
-    """Give loads without a figure of their own the Leakage measured on an identical unit (same key and model).
-
-    Changes ``results`` in place: basis becomes measured, ``measured_on`` names the unit(s) measured.
-    """
-    from leakbudget.estimate import CATALOGUE, MEASURED
-
-    measured: dict[tuple[str, str], list[LoadResult]] = {}
-    for r in results:
-        load = r.load
-        if load is not None and load.leakage_ma is not None:
-            key = _unit_key(load.appliance_key, load.model)
-            if key is not None:
-                measured.setdefault(key, []).append(r)
-    if not measured:
-        return
-    circuits = {c.circuit_id: c for c in project.circuits}
-    for r in results:
-        load = r.load
-        key = _unit_key(load.appliance_key, load.model) if load is not None else None
-        if load is None or r.basis != CATALOGUE or key not in measured:
-            continue
-        nature = r.appliance.nature if r.appliance is not None else "capacitive"
-        per_unit = 0j
-        for m in measured[key]:
-            res, cap = phys.split_by_nature(m.load.leakage_ma, nature)  # type: ignore[union-attr]
-            res, cap = phys.rescale(res, cap, m.voltage_v, m.frequency_hz, r.voltage_v, r.frequency_hz)
-            per_unit += complex(float(res), float(cap)) / len(measured[key])
-        circuit = circuits.get(load.circuit_id) if load.circuit_id else None
-        rotation = phys.leg_rotation(load.leg, circuit.system) if circuit else 1.0
-        units = ", ".join(f"'{m.name}' (Loads row {m.load.row})" for m in measured[key])  # type: ignore[union-attr]
-        values = ", ".join(f"{m.load.leakage_ma:g} mA at {m.voltage_v:g} V {m.frequency_hz:g} Hz"  # type: ignore[union-attr]
-                           for m in measured[key])
-        r.per_unit_ma = abs(per_unit)
-        r.leakage_ma = abs(per_unit) * r.quantity
-        r.phasor_ma = per_unit * rotation * r.quantity
-        r.basis = MEASURED
-        r.measured_on = units
-        mean = "mean of the readings on" if len(measured[key]) > 1 else "reading on"
-        r.source = (f"measured on an identical unit: {mean} {units}, same appliance '{load.appliance_key or '-'}' "
-                    f"and model '{load.model}' ({values})")
-        if (measured[key][0].voltage_v, measured[key][0].frequency_hz) != (r.voltage_v, r.frequency_hz):
-            r.source += f"; rescaled to {r.voltage_v:g} V {r.frequency_hz:g} Hz ({nature})"
-
-
 # --- Reconciliation and calibration ------------------------------------------------------------------------------
 @dataclass
 class Calibration:
@@ -167,7 +61,7 @@ class Calibration:
     gate_ma: float  # the sum that gates the budget (Sum setting) [mA]
     headroom_used: float  # gate / budget; NaN when unprotected
     status: Status
-    risk: "TripProbability | None"
+    risk: TripProbability | None
 
 
 @dataclass
@@ -214,10 +108,7 @@ def calibration_factor(fixed: complex, catalogue: complex, reading_ma: float) ->
     return k if k >= 0.0 else None
 
 
-def _calibrate(result: "CheckResult", reading: Reading) -> tuple[Calibration | None, str]:
-    from leakbudget import risk
-    from leakbudget.estimate import CATALOGUE
-
+def _calibrate(result: Estimate, reading: Reading) -> tuple[Calibration | None, str]:
     index = result.project.circuit_index()[reading.circuit_id.lower()]
     circuit_result = result.circuits[index]
     mine = [r for r in result.loads if r.circuit_id == reading.circuit_id]
@@ -259,10 +150,8 @@ def _calibrate(result: "CheckResult", reading: Reading) -> tuple[Calibration | N
     return calibration, how
 
 
-def reconcile(result: "CheckResult") -> list[ReadingResult]:
+def reconcile(result: Estimate) -> list[ReadingResult]:
     """Compare every reading with its circuit's estimate; calibrate where asked."""
-    from leakbudget import risk
-
     project = result.project
     if not project.readings:
         return []

@@ -44,36 +44,21 @@ from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from functools import lru_cache
 from statistics import NormalDist
-from typing import TYPE_CHECKING, Any, NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
 
 from leakbudget.devices import Device
-from leakbudget.provenance import Kind, Source
-from leakbudget.input.units import UnitProblem, to_unit
+from leakbudget.estimate import CATALOGUE, MEASURED, Estimate, LoadResult
+from leakbudget.settings import (
+    COMPONENT_TOLERANCE_DEFAULT, METER_ACCURACY_DEFAULT, SEED_DEFAULT, SWITCH_ON_FACTOR_DEFAULT,
+    UPPER_PERCENTILE_DEFAULT,
+)
 
-if TYPE_CHECKING:
-    from leakbudget.estimate import CheckResult, LoadResult
-
-# --- Settings defaults, each with its source ---------------------------------------------------------------------
-METER_ACCURACY_DEFAULT = 0.05
-METER_ACCURACY_SOURCE = Source.from_memory("±5 % of reading, a usual leakage-clamp accuracy on milliamp ranges")
-COMPONENT_TOLERANCE_DEFAULT = 0.20
-COMPONENT_TOLERANCE_SOURCE = Source.common_practice(
-    "±20 % (tolerance letter M of IEC 60062), the usual tolerance of Y-capacitors")
-UPPER_PERCENTILE_DEFAULT = 0.95
-UPPER_PERCENTILE_SOURCE = Source(Kind.DEFAULT, "modelling choice: the catalogue upper value as the 95th percentile")
-SWITCH_ON_FACTOR_DEFAULT = 3.0
-SWITCH_ON_FACTOR_SOURCE = Source.from_memory(
-    "damp heating element at switch-on leaks 3 × its dry value (guidance says only 'several times')")
-SEED_DEFAULT = 1
-SEED_SOURCE = Source(Kind.DEFAULT, "default seed 1")
-SAMPLES_SOURCE = Source(Kind.DEFAULT, "auto: 10,000 samples, fewer (at least 1,000) for very large workbooks")
 
 # --- Sample count and work sizes -----------------------------------------------------------------------------------
 SAMPLES_MAX = 10_000  # auto: standard error at most 0.5 / √10,000 = 0.005
 SAMPLES_MIN = 1_000  # auto never goes below this (standard error at most 0.016)
-SAMPLES_LIMIT = 1_000_000  # the largest count the Samples setting accepts
 ELEMENT_BUDGET = 20_000_000  # auto: random loads × samples kept below this unless SAMPLES_MIN forces more
 BLOCK_ELEMENTS = 250_000  # rows × samples drawn at once: 1 MB of float32, small enough to stay in cache
 STREAM_CACHE_ELEMENTS = 4_000_000  # random-number matrices up to this size are kept for reuse (16 MB each)
@@ -84,46 +69,6 @@ FIXED = "fixed"
 UNIFORM = "uniform"
 LOGNORMAL = "lognormal"
 SHAPES = (FIXED, UNIFORM, LOGNORMAL)
-
-
-# --- Parsers for the Settings sheet ------------------------------------------------------------------------------
-def _shown(value: Any) -> str:
-    """A cell value as the user typed it (a whole float without its '.0')."""
-    return str(int(value)) if isinstance(value, float) and value.is_integer() else str(value)
-
-
-def parse_percentile(value: Any) -> float:
-    """A percentile as a fraction strictly between 0.5 and 1 ('95 %' or 0.95)."""
-    result = to_unit(value, "dimensionless")
-    if not 0.5 < result < 1.0:
-        raise UnitProblem(f"'{_shown(value)}' is not a percentile between 50 % and 100 % (type 95 % or 0.95)")
-    return result
-
-
-def parse_factor(value: Any) -> float:
-    """A multiplier of at least 1."""
-    result = to_unit(value, "dimensionless")
-    if result < 1.0:
-        raise UnitProblem(f"'{_shown(value)}' is below 1 (a switch-on factor multiplies the dry leakage)")
-    return result
-
-
-def parse_samples(value: Any) -> int | None:
-    """'auto' (None) or a whole number of samples from 100 to 1,000,000."""
-    if str(value).strip().lower() == "auto":
-        return None
-    result = to_unit(value, "dimensionless")
-    if not float(result).is_integer() or not 100 <= result <= SAMPLES_LIMIT:
-        raise UnitProblem(f"'{_shown(value)}' is not auto or a whole number from 100 to {SAMPLES_LIMIT:,}")
-    return int(result)
-
-
-def parse_seed(value: Any) -> int:
-    """A whole number from 0 upwards."""
-    result = to_unit(value, "dimensionless")
-    if not float(result).is_integer() or result < 0:
-        raise UnitProblem(f"'{_shown(value)}' is not a whole number of 0 or more")
-    return int(result)
 
 
 # --- The model ---------------------------------------------------------------------------------------------------
@@ -486,12 +431,24 @@ def leakage_quantiles(loads: Sequence[LeakageDistribution], probabilities: Seque
     return np.quantile(dry[0], np.asarray(probabilities, dtype=float))
 
 
+def likelihood_text(p: TripProbability | None, switch_on: bool = False) -> str:
+    """A trip likelihood for people: '2.4% ±0.1', '<0.03%' (no sample reached the no-trip level), '-'."""
+    if p is None:
+        return "-"
+    value, se = (p.switch_on, p.switch_on_se) if switch_on else (p.dry, p.dry_se)
+    bound = p.upper_95(switch_on)
+    if bound is not None:
+        return f"<{100 * bound:.2g}%"
+    if not p.sampled or se == 0.0:
+        return f"{100 * value:.3g}%"
+    digits = max(0, min(3, 1 - math.floor(math.log10(100 * se))))
+    return f"{100 * value:.{digits}f}% ±{100 * se:.{digits}f}"
+
+
 # --- From the check's estimates to distributions -------------------------------------------------------------------
-def _describe(results: Sequence["LoadResult"], params: RiskParameters
+def _describe(results: Sequence[LoadResult], params: RiskParameters
               ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Shape code, centre [mA], spread, phasor coefficient, switch-on factor and cap of each estimated load."""
-    from leakbudget.estimate import CATALOGUE, MEASURED
-
     n = len(results)
     appliances: dict[int, tuple[int, Any]] = {}
     code = np.fromiter((_appliance_code(appliances, r.appliance) for r in results), dtype=np.int64, count=n)
@@ -525,7 +482,7 @@ def _appliance_code(appliances: dict[int, Any], appliance: Any) -> int:
     return appliances[key][0]
 
 
-def distribution(result: "LoadResult", params: RiskParameters) -> LeakageDistribution:
+def distribution(result: LoadResult, params: RiskParameters) -> LeakageDistribution:
     """The distribution of one estimated load (or cable run), in its circuit's phasor frame.
 
     Measured: uniform ± meter accuracy; computed and cable: uniform ± component tolerance; catalogue: lognormal
@@ -536,7 +493,7 @@ def distribution(result: "LoadResult", params: RiskParameters) -> LeakageDistrib
                                float(factor[0]), float(cap[0]))
 
 
-def circuit_distributions(result: "CheckResult", params: RiskParameters
+def circuit_distributions(result: Estimate, params: RiskParameters
                           ) -> tuple[list[int], list[LeakageDistribution]]:
     """Circuit index and distribution of every placed load and cable run, in the check's order."""
     index = result.project.circuit_index()
@@ -544,7 +501,7 @@ def circuit_distributions(result: "CheckResult", params: RiskParameters
     return [index[r.circuit_id.lower()] for r in placed], [distribution(r, params) for r in placed]  # type: ignore[union-attr]
 
 
-def _check_rows(result: "CheckResult", params: RiskParameters) -> _Rows:
+def _check_rows(result: Estimate, params: RiskParameters) -> _Rows:
     """The check's placed loads and cable runs as arrays, grouped by circuit index."""
     index = result.project.circuit_index()
     placed = [r for r in result.loads if r.circuit_id is not None]
@@ -567,7 +524,7 @@ def method_lines(params: RiskParameters, samples: int, sum_rule: str) -> list[st
     ]
 
 
-def assess(result: "CheckResult") -> RiskResult:
+def assess(result: Estimate) -> RiskResult:
     """Trip probability of every protected circuit of a check; also sets ``CircuitResult.risk``."""
     settings = result.project.settings
     params = RiskParameters.from_settings(settings)

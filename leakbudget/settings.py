@@ -10,10 +10,8 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
-from leakbudget.review.codes import CODE_KEYS
 from leakbudget.devices import BUDGET_FRACTION_DEFAULT
 from leakbudget.provenance import Kind, Source
-from leakbudget import risk
 from leakbudget.input.schema import normalise
 from leakbudget.input.units import UnitProblem, to_unit
 
@@ -26,7 +24,68 @@ SUPPLY_SOURCES = {
 }
 LOAD_FACTOR_DEFAULT = 0.8  # continuous load at 80 % of rating, common practice (cf. NEC 210.19/210.20)
 BY_DEVICE = "by device: 120 V 60 Hz for UL devices (common practice), 230 V 50 Hz for RCDs (IEC 60038)"
-MAX_PLAUSIBLE_LEAKAGE_MA = 100.0  # per unit; above this a value is a unit typo or a fault (common practice)
+
+
+# The wiring codes `leakbudget review` knows, by key; leakbudget.review.codes defines each (and checks it defines
+# exactly these). Named here so the Code setting is refused at reading time, like every other setting.
+CODE_KEYS = ("nec-2020", "nec-2023", "iec-60364", "bs-7671")
+
+# --- The trip-likelihood model's settings (leakbudget.risk), each default with its source ---------------------------------------------------------------------
+METER_ACCURACY_DEFAULT = 0.05
+METER_ACCURACY_SOURCE = Source.from_memory("±5 % of reading, a usual leakage-clamp accuracy on milliamp ranges")
+COMPONENT_TOLERANCE_DEFAULT = 0.20
+COMPONENT_TOLERANCE_SOURCE = Source.common_practice(
+    "±20 % (tolerance letter M of IEC 60062), the usual tolerance of Y-capacitors")
+UPPER_PERCENTILE_DEFAULT = 0.95
+UPPER_PERCENTILE_SOURCE = Source(Kind.DEFAULT, "modelling choice: the catalogue upper value as the 95th percentile")
+SWITCH_ON_FACTOR_DEFAULT = 3.0
+SWITCH_ON_FACTOR_SOURCE = Source.from_memory(
+    "damp heating element at switch-on leaks 3 × its dry value (guidance says only 'several times')")
+SEED_DEFAULT = 1
+SEED_SOURCE = Source(Kind.DEFAULT, "default seed 1")
+SAMPLES_SOURCE = Source(Kind.DEFAULT, "auto: 10,000 samples, fewer (at least 1,000) for very large workbooks")
+
+SAMPLES_LIMIT = 1_000_000  # the largest count the Samples setting accepts
+
+
+# --- Parsers ------------------------------------------------------------------------------
+def _shown(value: Any) -> str:
+    """A cell value as the user typed it (a whole float without its '.0')."""
+    return str(int(value)) if isinstance(value, float) and value.is_integer() else str(value)
+
+
+def parse_percentile(value: Any) -> float:
+    """A percentile as a fraction strictly between 0.5 and 1 ('95 %' or 0.95)."""
+    result = to_unit(value, "dimensionless")
+    if not 0.5 < result < 1.0:
+        raise UnitProblem(f"'{_shown(value)}' is not a percentile between 50 % and 100 % (type 95 % or 0.95)")
+    return result
+
+
+def parse_factor(value: Any) -> float:
+    """A multiplier of at least 1."""
+    result = to_unit(value, "dimensionless")
+    if result < 1.0:
+        raise UnitProblem(f"'{_shown(value)}' is below 1 (a switch-on factor multiplies the dry leakage)")
+    return result
+
+
+def parse_samples(value: Any) -> int | None:
+    """'auto' (None) or a whole number of samples from 100 to 1,000,000."""
+    if str(value).strip().lower() == "auto":
+        return None
+    result = to_unit(value, "dimensionless")
+    if not float(result).is_integer() or not 100 <= result <= SAMPLES_LIMIT:
+        raise UnitProblem(f"'{_shown(value)}' is not auto or a whole number from 100 to {SAMPLES_LIMIT:,}")
+    return int(result)
+
+
+def parse_seed(value: Any) -> int:
+    """A whole number from 0 upwards."""
+    result = to_unit(value, "dimensionless")
+    if not float(result).is_integer() or result < 0:
+        raise UnitProblem(f"'{_shown(value)}' is not a whole number of 0 or more")
+    return int(result)
 
 
 def _fraction(value: Any) -> float:
@@ -113,18 +172,18 @@ SETTING_SPECS: tuple[SettingSpec, ...] = (
     SettingSpec("Code", _choice(*CODE_KEYS), None, Source(Kind.DEFAULT, "default by supply frequency"),
                 f"Wiring code `leakbudget review` checks against: {', '.join(CODE_KEYS)} (default nec-2023 for a "
                 "60 Hz plan, iec-60364 for a 50 Hz plan)."),
-    SettingSpec("Meter accuracy", _fraction, risk.METER_ACCURACY_DEFAULT, risk.METER_ACCURACY_SOURCE,
+    SettingSpec("Meter accuracy", _fraction, METER_ACCURACY_DEFAULT, METER_ACCURACY_SOURCE,
                 "± accuracy of your leakage clamp as a share of the reading (default 5 %)."),
-    SettingSpec("Component tolerance", _fraction, risk.COMPONENT_TOLERANCE_DEFAULT, risk.COMPONENT_TOLERANCE_SOURCE,
+    SettingSpec("Component tolerance", _fraction, COMPONENT_TOLERANCE_DEFAULT, COMPONENT_TOLERANCE_SOURCE,
                 "± tolerance of Y capacitance, insulation resistance and cable figures (default 20 %)."),
-    SettingSpec("Upper percentile", risk.parse_percentile, risk.UPPER_PERCENTILE_DEFAULT,
-                risk.UPPER_PERCENTILE_SOURCE,
+    SettingSpec("Upper percentile", parse_percentile, UPPER_PERCENTILE_DEFAULT,
+                UPPER_PERCENTILE_SOURCE,
                 "Percentile the catalogue upper value stands for in the trip likelihood (default 95 %)."),
-    SettingSpec("Switch-on factor", risk.parse_factor, risk.SWITCH_ON_FACTOR_DEFAULT, risk.SWITCH_ON_FACTOR_SOURCE,
+    SettingSpec("Switch-on factor", parse_factor, SWITCH_ON_FACTOR_DEFAULT, SWITCH_ON_FACTOR_SOURCE,
                 "Leakage of a heating element at switch-on after idle, as a multiple of its dry value (default 3)."),
-    SettingSpec("Samples", risk.parse_samples, None, risk.SAMPLES_SOURCE,
+    SettingSpec("Samples", parse_samples, None, SAMPLES_SOURCE,
                 "Monte Carlo samples for the trip likelihood: auto (default) or a whole number."),
-    SettingSpec("Seed", risk.parse_seed, risk.SEED_DEFAULT, risk.SEED_SOURCE,
+    SettingSpec("Seed", parse_seed, SEED_DEFAULT, SEED_SOURCE,
                 "Seed of the random numbers; the same workbook and seed give the same likelihoods."),
     # Job details, shown at the head of `leakbudget report`; free text, case kept.
     SettingSpec("Job", _free_text, None, Source(Kind.DEFAULT, "not given"),

@@ -13,8 +13,9 @@ import pytest
 from typer.testing import CliRunner
 
 from leakbudget.cli.app import app
-from leakbudget.estimate import check
-from leakbudget.planner.plan import SplitOptions, plan_split
+from leakbudget.check import check
+from leakbudget.planner.plan import SplitOptions
+from leakbudget.planner.split import plan_split
 from leakbudget.workbook.read import read_project
 
 runner = CliRunner()

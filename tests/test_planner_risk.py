@@ -12,7 +12,8 @@ from typer.testing import CliRunner
 
 from leakbudget.cli.app import app
 from leakbudget.errors import WorkbookError
-from leakbudget.planner.plan import SplitOptions, plan_split
+from leakbudget.planner.plan import SplitOptions
+from leakbudget.planner.split import plan_split
 from leakbudget.risk import RiskParameters, circuit_distributions, trip_probability
 from leakbudget.workbook.read import read_project
 from tests.test_planner import kitchen, sheets

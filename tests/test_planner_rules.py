@@ -10,10 +10,10 @@ import random
 import pytest
 
 from leakbudget.devices import device
-from leakbudget.estimate import check
+from leakbudget.check import check
 from leakbudget.leakage import parse_leg
 from leakbudget.model import Circuit, Load
-from leakbudget.planner.plan import plan_split
+from leakbudget.planner.split import plan_split
 from leakbudget.planner.rules import Eligibility, line_voltage_v, load_current_a, may_go_on, verify_plan
 from leakbudget.provenance import Source
 from leakbudget.workbook.read import read_project

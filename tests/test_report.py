@@ -24,10 +24,11 @@ import pytest
 from leakbudget.report import charts
 from leakbudget.cli.app import main
 from leakbudget.errors import ReportError
-from leakbudget.estimate import check
+from leakbudget.check import check
 from leakbudget.api import example_path, report_workbook
 from leakbudget.planner.plan import SplitOptions
-from leakbudget.report.content import build_report, iter_tables
+from leakbudget.report.content import build_report
+from leakbudget.report.document import iter_tables
 from leakbudget.report.html import render_html
 from leakbudget.report.pdf import pdf_pages, render_pdf
 from leakbudget.workbook.read import read_project

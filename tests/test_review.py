@@ -17,7 +17,7 @@ from leakbudget.cli.app import app
 from leakbudget.errors import WorkbookError
 from leakbudget.locations import classify
 from leakbudget.provenance import Kind
-from leakbudget.risk import SWITCH_ON_FACTOR_DEFAULT as SWITCH_ON_FACTOR
+from leakbudget.settings import SWITCH_ON_FACTOR_DEFAULT as SWITCH_ON_FACTOR
 from leakbudget.review.rules import (
     GFCI_RUN_LIMIT_M, RULES, Finding, ReviewError, Severity, review, rule_description, run_review,
 )
@@ -478,7 +478,7 @@ def test_finding_shape(plan):
 
 
 def test_review_accepts_a_check_result(plan):
-    from leakbudget.estimate import check
+    from leakbudget.check import check
 
     p = plan([circuit("B1", "none", "Main bath")], [load("Hair dryer", "B1", "hair-dryer")])
     assert review(check(p)) == review(p)

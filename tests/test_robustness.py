@@ -188,7 +188,7 @@ def test_fast_and_parsed_scans_agree_and_cover_calamines_grid(cells: list[tuple[
     larger)."""
     import io
 
-    from leakbudget.input.table import column_letter
+    from leakbudget.xlsx.cells import column_letter
 
     rows: dict[int, list[bytes]] = {}
     for r, c, form in sorted(set(cells)):

@@ -36,11 +36,11 @@ from leakbudget.xlsx.package import (
     MAX_COMPRESSION_RATIO,
     MAX_UNCOMPRESSED_BYTES,
     MAX_ZIP_ENTRIES,
-    EXCEL_MAX_NUMBER,
     ChartSpec,
     SheetData,
     write_sheets,
 )
+from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER
 
 DATA = Path(__file__).parent / "data"
 FIXTURES = ["libreoffice", "gnumeric", "libreoffice_extension"]

@@ -442,9 +442,10 @@ MaxLikelihoodOpt = Annotated[Optional[str], typer.Option(
 
 def _split_options(time_limit: float, new_device: str | None, new_rating: float | None,
                    max_likelihood: str | None) -> Any:
-    from leakbudget.planner.plan import SplitOptions, parse_likelihood_cap
+    from leakbudget.planner.plan import SplitOptions
+    from leakbudget.planner.split import likelihood_cap_option
 
-    cap = parse_likelihood_cap(max_likelihood) if max_likelihood is not None else None
+    cap = likelihood_cap_option(max_likelihood) if max_likelihood is not None else None
     return SplitOptions(time_limit_s=time_limit, new_device=new_device, new_rating_a=new_rating,
                         max_trip_likelihood=cap)
 

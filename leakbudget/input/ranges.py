@@ -2,14 +2,14 @@
 
 A value outside its range is refused (exit code 2) with a hint naming the unit, never silently used: "23" for a
 230 V supply would make every capacitive leakage ten times too small and a circuit look safe. Each range states
-its source; the standing-leakage ceiling is :data:`leakbudget.settings.MAX_PLAUSIBLE_LEAKAGE_MA`.
+its source; the standing-leakage ceiling is :data:`MAX_PLAUSIBLE_LEAKAGE_MA`.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
 
-from leakbudget.settings import MAX_PLAUSIBLE_LEAKAGE_MA
+MAX_PLAUSIBLE_LEAKAGE_MA = 100.0  # per unit; above this a value is a unit typo or a fault (common practice)
 
 
 @dataclass(frozen=True, slots=True)

@@ -12,16 +12,20 @@ a formula without saved result, an error value) and merged ranges' values (:clas
 
 from __future__ import annotations
 
+import csv
+import io
 import unicodedata
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
+from importlib import resources
 from datetime import date, datetime, time, timedelta
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from leakbudget.errors import WorkbookError
+from leakbudget.errors import CatalogueError, WorkbookError
 from leakbudget.input.schema import Column, Sheet, normalise
 from leakbudget.input.units import UnitProblem, to_unit
+from leakbudget.xlsx.cells import column_letter
 
 if TYPE_CHECKING:
     from leakbudget.input.ranges import Plausible
@@ -61,24 +65,6 @@ class MergedValue:
 # Merged cells, as python-calamine reports them: ((first row, first column), (last row, last column)), 0-based.
 MergedRange = tuple[tuple[int, int], tuple[int, int]]
 NAN = Unreadable("the cell holds NaN, which is not a number", "type the value again, or clear the cell")
-
-
-def column_letter(index: int) -> str:
-    """Spreadsheet column letter for a 0-based column index (0 → A, 27 → AB)."""
-    letters = ""
-    n = index + 1
-    while n:
-        n, rem = divmod(n - 1, 26)
-        letters = chr(65 + rem) + letters
-    return letters
-
-
-def column_index(letters: str) -> int:
-    """0-based column index of spreadsheet column letters ('A' -> 0, 'AB' -> 27, 'XFD' -> 16383)."""
-    n = 0
-    for ch in letters:
-        n = n * 26 + ord(ch) - 64
-    return n - 1
 
 
 def is_blank(value: Any) -> bool:
@@ -366,3 +352,24 @@ def _quantity(value: Any, default_unit: str, target_unit: str | None) -> float |
         return to_unit(value, default_unit, target_unit)
     except UnitProblem as exc:
         return Unreadable(str(exc), f"type a number (taken in {default_unit}) or a number with a unit")
+
+
+def _data_file(name: str) -> tuple[Path, str]:
+    """The path and text of a shipped catalogue file (inside the wheel, or the source tree)."""
+    try:
+        ref = resources.files("leakbudget.appliance_data").joinpath(name)
+        return Path(str(ref)), ref.read_text(encoding="utf-8")
+    except (ModuleNotFoundError, FileNotFoundError):
+        path = Path(__file__).resolve().parents[2] / "appliance_data" / name
+        return path, path.read_text(encoding="utf-8")
+
+
+def shipped_table(name: str, spec: Sheet) -> RawTable:
+    """A CSV table shipped with the package (``appliance_data/NAME``), read and validated against ``spec``;
+    a broken shipped file is a packaging fault, raised as :class:`CatalogueError`."""
+    path, text = _data_file(name)
+    grid: list[list[object]] = [list(r) for r in csv.reader(io.StringIO(text))]
+    try:
+        return RawTable.from_grid(path, name, grid, spec)
+    except WorkbookError as exc:
+        raise CatalogueError(str(exc)) from None

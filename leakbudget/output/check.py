@@ -11,10 +11,11 @@ import math
 from typing import Any
 
 from leakbudget.about import CAUTION, __version__
-from leakbudget.report.charts import BUDGET_COLOUR, NO_TRIP_COLOUR, SEGMENT_COLOURS
-from leakbudget.estimate import CheckResult, CircuitResult, LoadResult
+from leakbudget.output.palette import BUDGET_COLOUR, NO_TRIP_COLOUR, SEGMENT_COLOURS
+from leakbudget.estimate import CircuitResult, LoadResult
+from leakbudget.check import CheckResult
 from leakbudget.readings import COVERAGE, THRESHOLDS, ReadingResult
-from leakbudget.risk import TripProbability
+from leakbudget.risk import TripProbability, likelihood_text
 from leakbudget.xlsx.package import ChartSpec, SheetData
 from leakbudget.input.schema import CIRCUIT_RESULTS, LOAD_RESULTS, READING_RESULTS
 
@@ -25,20 +26,6 @@ def _num(value: float | None, digits: int = 4) -> float | None:
     if value is None or (isinstance(value, float) and (math.isnan(value) or math.isinf(value))):
         return None
     return round(float(value), digits)
-
-
-def likelihood_text(p: TripProbability | None, switch_on: bool = False) -> str:
-    """A trip likelihood for people: '2.4% ±0.1', '<0.03%' (no sample reached the no-trip level), '-'."""
-    if p is None:
-        return "-"
-    value, se = (p.switch_on, p.switch_on_se) if switch_on else (p.dry, p.dry_se)
-    bound = p.upper_95(switch_on)
-    if bound is not None:
-        return f"<{100 * bound:.2g}%"
-    if not p.sampled or se == 0.0:
-        return f"{100 * value:.3g}%"
-    digits = max(0, min(3, 1 - math.floor(math.log10(100 * se))))
-    return f"{100 * value:.{digits}f}% ±{100 * se:.{digits}f}"
 
 
 def risk_dict(p: TripProbability | None) -> dict[str, Any]:

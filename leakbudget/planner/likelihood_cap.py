@@ -28,6 +28,7 @@ from leakbudget.planner.build import Blocker, cable_ma, circuit_limit_key, kind_
 from leakbudget.planner.packing.problem import MARGIN_MA
 from leakbudget.model import Project
 from leakbudget.progress import Progress
+from leakbudget.risk import likelihood_text
 from leakbudget.settings import Settings
 
 TIGHTEN = 0.9  # each pass lowers an over-cap circuit's budget to 90 % of its planned sum (a step size, a choice)
@@ -124,8 +125,6 @@ def _tightened(plan: SplitPlan, limits: dict[LimitKey, float]) -> dict[str, floa
 
 
 def _blocker(plan: SplitPlan, c: CircuitResult, cap: float, source: str, reason: str) -> Blocker:
-    from leakbudget.output.check import likelihood_text
-
     cid = c.circuit.circuit_id
     loads = tuple(a.load.name for a in plan.assignments if a.to_id == cid)
     return Blocker(cid, loads, f"{cid}: its switch-on trip likelihood {likelihood_text(c.risk, switch_on=True)} is "

@@ -1,26 +1,6 @@
-"""The split planner: the fewest changes that bring every protected circuit within budget and rating.
+"""One plan: the packing problem built, solved by room group, applied to a copy of the project and verified.
 
-From a workbook's project it proposes where each load goes so that, on every protected circuit, the standing
-leakage is within budget and the load current within rating × load factor, with loads only on circuits that
-serve their room, fixed loads left alone and unplaced loads placed (the rules: :mod:`leakbudget.planner.rules`).
-Objective, in order: fewest new circuits, fewest moved loads, most headroom on the tightest circuit.
-
-How:
-1. :mod:`leakbudget.planner.build` reports circuits no plan can fix and loads that fit nowhere, and splits the
-   rest into independent room groups, each a :class:`~leakbudget.planner.packing.problem.Packing`.
-2. Every group gets a fast plan (:mod:`leakbudget.planner.packing.heuristic`) and lower bounds
-   (:mod:`leakbudget.planner.packing.bounds`; the LP relaxation for large groups); groups up to ``exact_max_items``
-   movable loads the bounds do not settle are solved exactly (:mod:`leakbudget.planner.packing.milp`, HiGHS), then
-   polished for headroom, all within the time limit.
-3. The plan is applied to a copy of the project, checked by :func:`leakbudget.estimate.check` and re-verified by
-   :func:`leakbudget.planner.rules.verify_plan`, independently of the solver.
-
-Leakage sum: the plan keeps the arithmetic sum (Σ of magnitudes, the conservative figure) within budget, whatever
-the ``Sum`` setting; the phasor sum is never larger, so a plan valid on the arithmetic sum is valid on both. With
-``Sum = phasor`` this is a conservative proxy: the planner may move a load that the phasor sum would allow.
-
-"Optimal" means proven fewest new circuits and, with that, fewest moves; the headroom tie-break is reported
-separately (``headroom_optimal``).
+The method is described in :mod:`leakbudget.planner`.
 """
 
 from __future__ import annotations
@@ -34,7 +14,7 @@ import numpy as np
 
 from leakbudget.devices import DEVICES, device as find_device
 from leakbudget.errors import LeakbudgetError
-from leakbudget.estimate import CheckResult, check
+from leakbudget.check import CheckResult, check
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.planner.packing.bounds import packing_bound
 from leakbudget.planner.build import Blocker, Figures, RoomGroup, build
@@ -55,7 +35,6 @@ STAGE_EXACT = "Proving the best plan"
 STAGE_HEADROOM = "Widening headroom"
 STAGE_CHECK = "Checking the plan"
 
-__all__ = ["Assignment", "Blocker", "NewCircuit", "PlannerError", "SplitOptions", "SplitPlan", "plan_split"]
 
 
 class PlannerError(LeakbudgetError):
@@ -141,7 +120,7 @@ class SplitPlan:
         return self.new_count - self.lower_bound_new_circuits
 
 
-def _check_options(options: SplitOptions) -> None:
+def check_options(options: SplitOptions) -> None:
     if options.new_device is not None:
         key = options.new_device.strip().lower()
         if key not in DEVICES or not find_device(key).protected:
@@ -154,34 +133,6 @@ def _check_options(options: SplitOptions) -> None:
     cap = options.max_trip_likelihood
     if cap is not None and not 0 < cap <= 1:
         raise PlannerError(f"--max-trip-likelihood {cap:g} must be a fraction between 0 and 1 (type 0.01 or 1 %).")
-
-
-def parse_likelihood_cap(text: str) -> float:
-    """The --max-trip-likelihood option ("1 %", 0.01) as a fraction; PlannerError when it is not one."""
-    from leakbudget.settings import parse_likelihood_cap as parse
-    from leakbudget.input.units import UnitProblem
-
-    try:
-        return parse(text)
-    except UnitProblem as exc:
-        raise PlannerError(f"--max-trip-likelihood: {exc}.") from None
-
-
-def plan_split(project: Project, options: SplitOptions = SplitOptions(),
-               progress: Progress | None = None) -> SplitPlan:
-    """Plan where every load goes (see the module docstring); never returns a plan that breaks a limit.
-
-    ``progress`` (optional, :mod:`leakbudget.progress`) hears of each stage: room groups planned, proved,
-    widened, and the final check. With a trip-likelihood cap (``options.max_trip_likelihood``, else the ``Max
-    trip likelihood`` setting) the plan is made again with tighter budgets until every protected circuit meets
-    it (:mod:`leakbudget.planner.likelihood_cap`).
-    """
-    _check_options(options)
-    if options.max_trip_likelihood is not None or project.settings["Max trip likelihood"] is not None:
-        from leakbudget.planner.likelihood_cap import plan_within_cap
-
-        return plan_within_cap(project, options, progress)
-    return plan_once(project, options, progress)
 
 
 def plan_once(project: Project, options: SplitOptions, progress: Progress | None = None,

@@ -1,8 +1,9 @@
 """Pictures for the report: one gauge chart per circuit and an overview of budget used, as PNG bytes.
 
 Drawn with matplotlib's object-oriented API on an Agg canvas (no pyplot, no global backend state); matplotlib is
-imported inside the functions, so importing this module costs nothing. Colours are defined once here so the
-report's legend, the tests that read the pixels back, and the charts agree.
+imported inside the functions, so importing this module costs nothing. Colours are defined once in
+:mod:`leakbudget.output.palette`, so the report's legend, the workbook's chart, the tests that read the pixels back
+and these charts agree.
 """
 
 from __future__ import annotations
@@ -13,19 +14,15 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
+from leakbudget.output.palette import (
+    BACKGROUND, BUDGET_COLOUR, GRID, INK, NO_TRIP_COLOUR, SEGMENT_COLOURS, STATUS_COLOURS,
+)
+
 DPI = 100  # pixels per inch of the PNGs; the report shows them at this size
 WIDTH_IN = 7.6  # chart width [in] → 760 px, the width of the report's column
 TITLE_IN, BAR_IN, AXIS_LABEL_IN = 0.55, 0.8, 0.42  # bands of a circuit chart, top to bottom [in]
 LEGEND_ROW_IN, BOTTOM_IN = 0.19, 0.1  # one row of the legend, and the margin under it [in]
 
-BACKGROUND = "#ffffff"
-INK = "#26303b"  # axis text and the phasor marker
-GRID = "#e3e6ea"
-BUDGET_COLOUR = "#e0a100"  # amber dashed line: the standing-leakage budget
-NO_TRIP_COLOUR = "#c4162a"  # crimson solid line: the device's no-trip level
-# Load segments: calm hues far from the amber and crimson of the two levels.
-SEGMENT_COLOURS = ("#2f6f8f", "#6aa6a0", "#3f4f7a", "#8fb3d9", "#4d8a5c", "#a3c48f", "#7a6a9e", "#b9b2d6")
-STATUS_COLOURS = {"ok": "#2e7d4f", "over-budget": "#b36b00", "trip-risk": "#b3122a", "unprotected": "#6b5b95"}
 
 
 @dataclass(frozen=True, slots=True)

@@ -11,13 +11,13 @@ from __future__ import annotations
 
 import datetime as dt
 from collections.abc import Iterable, Mapping, Sequence
-from dataclasses import dataclass, field
-from pathlib import Path
 from typing import Any, Protocol
 
 from leakbudget.about import CAUTION, __version__
-from leakbudget.estimate import COMPUTED, MEASURED, CheckResult, LoadResult
+from leakbudget.estimate import COMPUTED, MEASURED, LoadResult
+from leakbudget.check import CheckResult
 from leakbudget.provenance import Kind, Source
+from leakbudget.report.document import Block, Cell, Facts, Figure, Paragraph, Report, Section, Table
 from leakbudget.settings import JOB_SETTINGS
 
 # Why personnel protection trips at a few milliamperes: IEC 60479-1 effects of current on people.
@@ -44,85 +44,6 @@ METHOD_NOTES = (
 )
 SEVERITY_ORDER = ("error", "warning", "info")
 OVERVIEW_ROWS = 28  # circuits per overview chart: 0.9 in + 0.3 in each stays within an A4 page
-
-
-# ---- the format-independent document -------------------------------------------------------------------------
-
-@dataclass(frozen=True, slots=True)
-class Cell:
-    """One table cell: display text, and for numbers the check-JSON key and value it shows.
-
-    ``kind`` is a provenance kind (a :class:`leakbudget.provenance.Kind` value) shown as a badge, ``note`` the
-    source text shown beneath the value, ``tone`` a status or severity word the layout may colour.
-    """
-
-    text: str
-    key: str | None = None
-    value: float | None = None
-    kind: str | None = None
-    note: str | None = None
-    tone: str | None = None
-
-
-@dataclass(slots=True)
-class Paragraph:
-    text: str
-    tone: str | None = None  # "caution", "muted", or a status word
-
-
-@dataclass(slots=True)
-class Facts:
-    """Label → value pairs (a definition list)."""
-
-    items: list[tuple[str, Cell]]
-
-
-@dataclass(slots=True)
-class Table:
-    headers: tuple[str, ...]
-    rows: list[list[Cell]]
-    caption: str = ""
-    name: str = ""  # stable id, e.g. "circuits" or "loads-K1"
-    widths: tuple[float, ...] = ()  # relative column widths for paged layouts; empty = equal
-
-
-@dataclass
-class Figure:
-    """A chart (a :class:`leakbudget.report.charts.Chart`): the HTML embeds its PNG, the PDF draws it as vectors."""
-
-    chart: Any
-    alt: str
-    caption: str
-    name: str = ""
-    _png: bytes | None = None
-
-    @property
-    def png(self) -> bytes:
-        """The chart as PNG bytes, rendered on first use."""
-        if self._png is None:
-            self._png = self.chart.png()
-        return self._png
-
-
-Block = Paragraph | Facts | Table | Figure
-
-
-@dataclass(slots=True)
-class Section:
-    anchor: str
-    title: str
-    blocks: list[Block] = field(default_factory=list)
-
-
-@dataclass(slots=True)
-class Report:
-    title: str
-    subtitle: str
-    verdict: Paragraph
-    status_counts: dict[str, int]
-    sections: list[Section]
-    generated: str
-    tool: str
 
 
 # ---- inputs from the review and the split planner ---------------------------------------------------------------
@@ -617,66 +538,3 @@ def build_report(result: CheckResult, findings: Sequence[FindingLike] | None = N
     return Report(title=str(title), subtitle=subtitle, verdict=_verdict(doc, counts, findings, plan),
                   status_counts=counts,
                   sections=sections, generated=date, tool=f"leakbudget {__version__}")
-
-
-def iter_tables(report: Report) -> Iterable[Table]:
-    """Every table of the report, in order (for layouts and tests)."""
-    for section in report.sections:
-        for block in section.blocks:
-            if isinstance(block, Table):
-                yield block
-
-
-# ---- writing ---------------------------------------------------------------------------------------------------
-
-OUTPUT_SUFFIXES = {"html": (".html", ".htm"), "pdf": (".pdf",)}
-
-
-def _check_output(path: Path, fmt: str, workbook: Path) -> Path:
-    from leakbudget.errors import ReportError
-
-    path = Path(path)
-    if path.suffix.lower() not in OUTPUT_SUFFIXES[fmt]:
-        raise ReportError(f"{path}: the {fmt.upper()} report needs a name ending in "
-                          f"{' or '.join(OUTPUT_SUFFIXES[fmt])}; give e.g. --{fmt} report{OUTPUT_SUFFIXES[fmt][0]}.")
-    if path.exists() and path.resolve() == workbook.resolve():
-        raise ReportError(f"{path}: this is the workbook itself; give the report a new file name.")
-    if not path.parent.is_dir():
-        raise ReportError(f"{path}: the folder {path.parent} does not exist; create it or choose another folder.")
-    return path
-
-
-def check_outputs(workbook: Path, html: Path | None, pdf: Path | None) -> list[tuple[str, Path]]:
-    """Validate the output names before any work: (format, path) pairs; raise ReportError naming the problem."""
-    from leakbudget.errors import ReportError
-
-    if html is None and pdf is None:
-        raise ReportError(f"{workbook.name}: say where to write the report; give --html REPORT.html and/or "
-                          "--pdf REPORT.pdf.")
-    return [(fmt, _check_output(p, fmt, workbook)) for fmt, p in (("html", html), ("pdf", pdf)) if p is not None]
-
-
-def write_report(report: Report, workbook: Path, html: Path | None = None, pdf: Path | None = None) -> list[Path]:
-    """Write the report as HTML and/or PDF; return the paths written. Checks both names before writing either.
-
-    Raises :class:`leakbudget.errors.WriteBackError` naming the file when it cannot be written."""
-    import os
-    import stat
-
-    from leakbudget.xlsx.files import replace_atomically
-
-    written = []
-    for fmt, path in check_outputs(workbook, html, pdf):
-        if fmt == "html":
-            from leakbudget.report.html import render_html
-
-            data = render_html(report).encode("utf-8")
-        else:
-            from leakbudget.report.pdf import render_pdf
-
-            data = render_pdf(report)
-        # a report replacing an earlier one keeps its permissions; a new one gets the workbook's
-        mode = stat.S_IMODE(os.stat(path if path.exists() else workbook).st_mode)
-        replace_atomically(path, mode, lambda handle, payload=data: handle.write(payload))  # never half-written
-        written.append(path)
-    return written

@@ -13,6 +13,7 @@ from typing import Any
 
 from leakbudget.devices import Device, Family
 from leakbudget.provenance import Source
+from leakbudget.settings import CODE_KEYS
 
 # Default code when neither --code nor the Code setting gives one, by the circuits' supply frequency: a 60 Hz
 # plan is taken as a US dwelling (the current NEC edition), a 50 Hz plan as IEC 60364 (the international base
@@ -134,7 +135,8 @@ CODES: dict[str, Code] = {
         budget_is_regulation=True,
     ),
 }
-CODE_KEYS = tuple(CODES)
+if tuple(CODES) != CODE_KEYS:  # the Code setting's choices (leakbudget.settings) must be exactly these codes
+    raise AssertionError(f"codes defined {tuple(CODES)} differ from the Code setting's {CODE_KEYS}")
 
 EV_CHARGER_KEY_PREFIX = "ev-charger"  # catalogue keys of EV charging equipment start with this
 

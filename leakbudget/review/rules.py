@@ -22,7 +22,8 @@ from leakbudget.review.codes import (
 )
 from leakbudget.devices import Family, Status
 from leakbudget.errors import LeakbudgetError
-from leakbudget.estimate import CheckResult, CircuitResult, LoadResult, MEASURED, check
+from leakbudget.estimate import CircuitResult, LoadResult, MEASURED
+from leakbudget.check import CheckResult, check
 from leakbudget.locations import Classification, classify
 from leakbudget.model import Circuit, Project
 from leakbudget.provenance import Kind, Source

@@ -19,7 +19,7 @@ from leakbudget.model import Circuit, Load, Project
 from leakbudget.progress import Progress
 from leakbudget.provenance import Source
 from leakbudget.locations import rows_from_table
-from leakbudget.readings import read_readings
+from leakbudget.workbook.readings import read_readings
 from leakbudget.input.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, READINGS, SETTINGS, Sheet, normalise
 from leakbudget.settings import (
     IEC_SUPPLY, SPECS_BY_NAME, SUPPLY_SOURCES, US_SUPPLY, Settings,

@@ -41,7 +41,7 @@ import defusedxml
 import defusedxml.ElementTree as DET
 
 from leakbudget.errors import WorkbookError
-from leakbudget.input.table import column_index, column_letter
+from leakbudget.xlsx.cells import column_index, column_letter
 from leakbudget.xlsx.xml_text import BadXmlError, UnsafeXmlError, local_name, parse
 
 # Zip-bomb guard, checked on the central directory before any entry is inflated (common practice; a workbook of

@@ -40,7 +40,7 @@ from leakbudget.xlsx.guard import (  # noqa: F401 (the limits are part of this m
 )
 from leakbudget.progress import Progress
 from leakbudget.xlsx.files import COPY_CHUNK_BYTES, rewrite
-from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER, SAMPLE_ROW, SheetXml, with_rows
+from leakbudget.xlsx.rows import SAMPLE_ROW, SheetXml, with_rows
 from leakbudget.xlsx.styles import merge_styles, remap_cell_styles
 from leakbudget.xlsx.xml_text import BadXmlError, Span, UnsafeXmlError, XmlPart, quoteattr
 

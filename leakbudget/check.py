@@ -1,0 +1,40 @@
+"""The check: estimate every load, sum and judge every circuit, then the trip likelihood and the readings.
+
+The orchestrator above the physics (:mod:`leakbudget.estimate`, :mod:`leakbudget.risk`,
+:mod:`leakbudget.readings`); it reads and writes nothing (:mod:`leakbudget.api` does).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from leakbudget.devices import Status
+from leakbudget.estimate import Estimate, LoadResult, estimate, evaluate
+from leakbudget.model import Project
+from leakbudget.readings import ReadingResult, reconcile
+from leakbudget.risk import RiskResult, assess
+
+
+@dataclass
+class CheckResult(Estimate):
+    """The estimate with each protected circuit's trip likelihood and the Readings sheet reconciled."""
+
+    risk: RiskResult | None = None  # trip likelihoods and how they were computed
+    readings: list[ReadingResult] = field(default_factory=list)  # Readings sheet reconciled with the estimate
+
+    @property
+    def all_ok(self) -> bool:
+        return all(c.status in (Status.OK, Status.UNPROTECTED) for c in self.circuits)
+
+    @property
+    def unplaced(self) -> list[LoadResult]:
+        return [r for r in self.loads if r.load is not None and r.circuit_id is None]
+
+
+def check(project: Project) -> CheckResult:
+    """Estimate every load, evaluate every circuit, then its trip likelihood and any readings."""
+    loads = estimate(project)
+    result = CheckResult(project, evaluate(project, loads), loads)
+    result.risk = assess(result)
+    result.readings = reconcile(result)
+    return result
