@@ -106,11 +106,12 @@ def review_workbook(path: str | Path, code: str | None = None, out: str | Path |
                     ) -> ReviewJob:
     """Check a workbook, review it against ``code`` (default: Code setting, else by supply) and (unless ``write``
     is False) write the ``Review findings`` sheet into it, or into ``out``."""
-    from leakbudget.review.rules import findings_sheet, run_review
+    from leakbudget.output.review import findings_sheet
+    from leakbudget.review.rules import review
     from leakbudget.xlsx.package import write_sheets
 
     path = Path(path)
-    rv = run_review(_read_for_writing(path, out, write), code)
+    rv = review(_read_for_writing(path, out, write), code)
     written = write_sheets(path, [findings_sheet(rv)], _out_path(path, out)) if write else None
     return ReviewJob(rv, written)
 
@@ -157,14 +158,14 @@ def report_workbook(path: str | Path, html: str | Path | None = None, pdf: str |
     ``code`` is the wiring code the review uses (as for :func:`review_workbook`)."""
     from leakbudget.report.content import build_report
     from leakbudget.report.write import check_outputs, write_report
-    from leakbudget.review.rules import run_review
+    from leakbudget.review.rules import review
 
     path = Path(path)
     html = Path(html) if html is not None else None
     pdf = Path(pdf) if pdf is not None else None
     check_outputs(path, html, pdf)
     project = read_project(path)
-    rv = run_review(project, code)
+    rv = review(project, code)
     plan = None
     if split is not None:
         from leakbudget.planner.split import plan_split

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 from leakbudget.input.ranges import CABLE_CAPACITANCE_PF_PER_M, FREQUENCY_HZ, STANDING_LEAKAGE_MA, VOLTAGE_V
-from leakbudget.provenance import Kind, Source, classify
+from leakbudget.provenance import Kind, Source, source_from_text
 from leakbudget.input.schema import APPLIANCES, CABLES
 from leakbudget.input.table import RawTable, shipped_table
 
@@ -132,9 +132,9 @@ def appliances_from_table(table: RawTable, origin_prefix: str | None = None) -> 
                                                     plausible=FREQUENCY_HZ)
                 or DEFAULT_REFERENCE_FREQUENCY_HZ,
                 typical_power_w=table.number(row, "Typical power", "W"),
-                typical_source=classify(typical_src) if typical_src else
+                typical_source=source_from_text(typical_src) if typical_src else
                 (Source(Kind.USER, f"{origin} (no source given)") if user else Source.from_memory()),
-                upper_source=classify(upper_src) if upper_src else
+                upper_source=source_from_text(upper_src) if upper_src else
                 (Source(Kind.USER, f"{origin} (no source given)") if user else Source.from_memory()),
                 origin=origin,
             )
@@ -157,7 +157,7 @@ def cables_from_table(table: RawTable, origin_prefix: str | None = None) -> list
             key=key,
             description=table.text(row, "Description") or key,
             capacitance_pf_per_m=capacitance,
-            source=classify(source) if source else Source.from_memory(),
+            source=source_from_text(source) if source else Source.from_memory(),
             origin=BUILT_IN if origin_prefix is None else f"{origin_prefix} row {row[0]}",
         ))
     return out

@@ -117,7 +117,7 @@ def _claim(name: str, rows: Iterable[LocationRow], taken: list[tuple[int, int]])
     return found
 
 
-def classify(room: str, user_rows: Sequence[LocationRow] = ()) -> Classification:
+def classify_room(room: str, user_rows: Sequence[LocationRow] = ()) -> Classification:
     """Classify one room name: the user's rows claim words first, then the built-in table fills the rest.
 
     "dry" is dropped when another kind is also named ("Bedroom balcony" is outdoors).

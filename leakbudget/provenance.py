@@ -54,7 +54,7 @@ class Source:
         return Source(Kind.COMMON_PRACTICE, text)
 
 
-def classify(text: str) -> Source:
+def source_from_text(text: str) -> Source:
     """Turn a source string from a catalogue row or sheet into a :class:`Source`.
 
     "typical, from memory" and "common practice" are recognised by those words; "measured" and "computed" by

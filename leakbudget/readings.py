@@ -77,7 +77,7 @@ class ReadingResult:
     calibration_note: str | None  # how it was calibrated, or why it could not be
 
 
-def classify(reading_ma: float, conditions: str, low_ma: float, high_ma: float, meter_accuracy: float
+def reading_verdict(reading_ma: float, conditions: str, low_ma: float, high_ma: float, meter_accuracy: float
              ) -> tuple[str, str]:
     """Flag and message for a reading against the estimate's 95 % interval [mA] (see the module notes)."""
     if reading_ma * (1.0 - meter_accuracy) > high_ma:
@@ -169,7 +169,7 @@ def reconcile(result: Estimate) -> list[ReadingResult]:
                                        seed=params.seed)
             intervals[cid] = (float(q[0]), float(q[1]), float(q[2]))
         low, median, high = intervals[cid]
-        flag, message = classify(reading.reading_ma, reading.conditions, low, high, params.meter_accuracy)
+        flag, message = reading_verdict(reading.reading_ma, reading.conditions, low, high, params.meter_accuracy)
         calibration, note = _calibrate(result, reading) if reading.calibrate else (None, None)
         if flag == FAR_BELOW and calibration is not None:
             message = message.replace(CALIBRATE_ADVICE, "calibrated with this reading")

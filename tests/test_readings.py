@@ -19,7 +19,7 @@ from leakbudget.devices import Status
 from leakbudget.errors import WorkbookError
 from leakbudget.estimate import CATALOGUE, COMPUTED, MEASURED
 from leakbudget.check import check
-from leakbudget.readings import CONSISTENT, FAR_ABOVE, FAR_BELOW, calibration_factor, classify
+from leakbudget.readings import CONSISTENT, FAR_ABOVE, FAR_BELOW, calibration_factor, reading_verdict
 from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
 
@@ -75,12 +75,12 @@ def test_catalogue_interval_is_the_lognormal_quantiles_scipy(make_workbook):
 
 
 def test_classify_thresholds_include_the_meter_accuracy():
-    assert classify(1.10, "all on", 0.9, 1.045, 0.05)[0] == CONSISTENT  # 1.10 × 0.95 = 1.045: not above
-    assert classify(1.11, "all on", 0.9, 1.045, 0.05)[0] == FAR_ABOVE
-    assert classify(0.858, "all on", 0.9, 1.2, 0.05)[0] == CONSISTENT  # 0.858 × 1.05 = 0.9009 ≥ 0.9
-    assert classify(0.85, "all on", 0.9, 1.2, 0.05)[0] == FAR_BELOW
-    assert "faulty" in classify(2.0, "all on", 0.9, 1.2, 0.05)[1]
-    assert "too high for this site" in classify(0.1, "all on", 0.9, 1.2, 0.05)[1]
+    assert reading_verdict(1.10, "all on", 0.9, 1.045, 0.05)[0] == CONSISTENT  # 1.10 × 0.95 = 1.045: not above
+    assert reading_verdict(1.11, "all on", 0.9, 1.045, 0.05)[0] == FAR_ABOVE
+    assert reading_verdict(0.858, "all on", 0.9, 1.2, 0.05)[0] == CONSISTENT  # 0.858 × 1.05 = 0.9009 ≥ 0.9
+    assert reading_verdict(0.85, "all on", 0.9, 1.2, 0.05)[0] == FAR_BELOW
+    assert "faulty" in reading_verdict(2.0, "all on", 0.9, 1.2, 0.05)[1]
+    assert "too high for this site" in reading_verdict(0.1, "all on", 0.9, 1.2, 0.05)[1]
 
 
 @pytest.mark.parametrize(("fixed", "catalogue", "reading", "expected"), [

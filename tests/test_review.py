@@ -15,11 +15,11 @@ from typer.testing import CliRunner
 
 from leakbudget.cli.app import app
 from leakbudget.errors import WorkbookError
-from leakbudget.locations import classify
+from leakbudget.locations import classify_room
 from leakbudget.provenance import Kind
 from leakbudget.settings import SWITCH_ON_FACTOR_DEFAULT as SWITCH_ON_FACTOR
 from leakbudget.review.rules import (
-    GFCI_RUN_LIMIT_M, RULES, Finding, ReviewError, Severity, review, rule_description, run_review,
+    GFCI_RUN_LIMIT_M, RULES, Finding, ReviewError, Severity, review, rule_description,
 )
 from leakbudget.workbook.read import read_project
 
@@ -59,7 +59,7 @@ def plan(make_workbook):
 
 
 def found(project, rule: str, code: str | None = None) -> list[Finding]:
-    return [f for f in review(project, code) if f.rule == rule]
+    return [f for f in review(project, code).findings if f.rule == rule]
 
 
 # --------------------------------------------------------------------------------------------- code choice
@@ -68,19 +68,19 @@ def found(project, rule: str, code: str | None = None) -> list[Finding]:
 def test_code_defaults_by_supply_frequency(plan):
     us = plan([circuit("K1", "gfci-a", "Kitchen")], [load("Kettle", "K1", "kettle")])
     iec = plan([circuit("K1", "rcd-30", "Kitchen", us=False)], [load("Kettle", "K1", "kettle")])
-    assert run_review(us).code.key == "nec-2023"
-    assert run_review(iec).code.key == "iec-60364"
-    assert run_review(us).code_source.kind is Kind.DEFAULT
+    assert review(us).code.key == "nec-2023"
+    assert review(iec).code.key == "iec-60364"
+    assert review(us).code_source.kind is Kind.DEFAULT
 
 
 def test_code_setting_and_option(plan):
     p = plan([circuit("K1", "rcd-30", "Kitchen", us=False)], [load("Kettle", "K1", "kettle")],
              settings=[["Code", "BS-7671"]])
-    rv = run_review(p)
+    rv = review(p)
     assert rv.code.key == "bs-7671" and rv.code_source.kind is Kind.USER
-    assert run_review(p, "nec-2020").code.key == "nec-2020"  # the option wins over the setting
+    assert review(p, "nec-2020").code.key == "nec-2020"  # the option wins over the setting
     with pytest.raises(ReviewError, match="'nec-2017' is not a code"):
-        run_review(p, "nec-2017")
+        review(p, "nec-2017")
 
 
 # --------------------------------------------------------------------------------------------- room table
@@ -97,15 +97,15 @@ def test_code_setting_and_option(plan):
     ("Snug", ()),
 ])
 def test_room_names_classify_through_the_built_in_table(room, kinds):
-    assert classify(room).kinds == kinds
+    assert classify_room(room).kinds == kinds
 
 
 def test_users_locations_rows_come_first(plan):
     p = plan([circuit("U1", "none", "Utility, Snug")], [load("Iron", "U1", "iron")],
              locations=[["utility", "damp"], ["Snug", "dry"]])
-    assert classify("Utility", p.location_rows).kinds == ("damp",)  # built-in says laundry
-    assert classify("Snug", p.location_rows).kinds == ("dry",)
-    assert "your sheet 'Locations' row 2" in classify("Utility", p.location_rows).matches[0].origin
+    assert classify_room("Utility", p.location_rows).kinds == ("damp",)  # built-in says laundry
+    assert classify_room("Snug", p.location_rows).kinds == ("dry",)
+    assert "your sheet 'Locations' row 2" in classify_room("Utility", p.location_rows).matches[0].origin
 
 
 def test_locations_sheet_with_unknown_kind_names_the_cell(plan):
@@ -442,7 +442,7 @@ def everything(plan):
     )
     iec = plan([circuit("C1", "rcd-30", "Office", us=False, rcd_type="AC"), circuit("C2", "none", "Office", us=False)],
                [load("Drive", "C1", None, "1 mA", waveform="high-frequency"), load("Kettle", "C2", "kettle")])
-    return review(us, "nec-2023"), review(iec, "bs-7671")
+    return review(us, "nec-2023").findings, review(iec, "bs-7671").findings
 
 
 def test_every_rule_is_exercised_and_described(plan):
@@ -481,7 +481,7 @@ def test_review_accepts_a_check_result(plan):
     from leakbudget.check import check
 
     p = plan([circuit("B1", "none", "Main bath")], [load("Hair dryer", "B1", "hair-dryer")])
-    assert review(check(p)) == review(p)
+    assert review(check(p)).findings == review(p).findings
 
 
 # --------------------------------------------------------------------------------------------- command line
@@ -520,10 +520,10 @@ def test_cli_review_text_and_bad_code(make_workbook):
 
 
 def test_findings_sheet_rows(plan):
-    from leakbudget.review.rules import FINDING_COLUMNS, findings_rows
+    from leakbudget.output.review import FINDING_COLUMNS, findings_rows
 
     p = plan([circuit("B1", "none", "Main bath")], [load("Hair dryer", "B1", "hair-dryer")])
-    rv = run_review(p, "nec-2023")
+    rv = review(p, "nec-2023")
     rows = findings_rows(rv)
     assert FINDING_COLUMNS == ("Severity", "Rule", "Circuit", "Load", "Finding", "Source", "Source kind")
     assert rows[0][:4] == ["error", "location", "B1", None]
@@ -556,7 +556,7 @@ def test_cli_review_writes_the_findings_sheet(make_workbook, tmp_path):
 def test_demo_review_agrees_with_its_check():
     from leakbudget.api import example_path
 
-    rv = run_review(read_project(example_path()))
+    rv = review(read_project(example_path()))
     flagged = {c.circuit.circuit_id for c in rv.check.circuits if c.status.value in ("over-budget", "trip-risk")}
     assert {f.circuit for f in rv.findings if f.rule == "budget"} == flagged == {"K-CTR1", "G-BENCH", "P-OUT"}
     assert rv.code.key == "nec-2023" and rv.errors == []  # every wet-location circuit of the demo has a Class A GFCI

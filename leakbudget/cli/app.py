@@ -340,7 +340,7 @@ def review(
     no_write: Annotated[bool, typer.Option("--no-write", help="Review only; write nothing.")] = False,
 ) -> None:
     from leakbudget.api import review_workbook
-    from leakbudget.review.rules import to_json
+    from leakbudget.output.review import to_json
 
     job = review_workbook(path, code, out, write=not no_write)
     if as_json:

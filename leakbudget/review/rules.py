@@ -24,7 +24,7 @@ from leakbudget.devices import Family, Status
 from leakbudget.errors import LeakbudgetError
 from leakbudget.estimate import CircuitResult, LoadResult, MEASURED
 from leakbudget.check import CheckResult, check
-from leakbudget.locations import Classification, classify
+from leakbudget.locations import Classification, classify_room
 from leakbudget.model import Circuit, Project
 from leakbudget.provenance import Kind, Source
 from leakbudget.settings import US_SUPPLY
@@ -188,7 +188,7 @@ def _circuits(result: CheckResult) -> list[_Circuit]:
         rooms = []
         for name in dict.fromkeys(n.strip() for n in names if n.strip()):
             if name not in classified:
-                classified[name] = classify(name, project.location_rows)
+                classified[name] = classify_room(name, project.location_rows)
             rooms.append(classified[name])
         views.append(_Circuit(c, loads, rooms))
     return views
@@ -514,8 +514,10 @@ def rule_description(rule: str) -> str:
 # ------------------------------------------------------------------------------------------------ entry points
 
 
-def run_review(subject: Project | CheckResult, code: str | None = None) -> Review:
-    """Check ``subject`` (unless it is already a check result) and apply every rule of the chosen code."""
+def review(subject: Project | CheckResult, code: str | None = None) -> Review:
+    """The review's one entry point: check ``subject`` (unless it is already a check result) and apply every rule
+    of ``code`` (one of CODE_KEYS; default: the Code setting, else by supply frequency). Findings come errors
+    first, then warnings, then info; within a severity in circuit order."""
     result = subject if isinstance(subject, CheckResult) else check(subject)
     chosen, why = choose_code(result.project, code)
     views = _circuits(result)
@@ -523,67 +525,3 @@ def run_review(subject: Project | CheckResult, code: str | None = None) -> Revie
     findings = [f for func in RULES.values() for f in func(views, chosen, result)]
     findings.sort(key=lambda f: (SEVERITY_ORDER[f.severity], order.get(f.circuit or "", len(order))))
     return Review(result, chosen, why, findings)
-
-
-def review(subject: Project | CheckResult, code: str | None = None) -> list[Finding]:
-    """Findings for a project or a check result under ``code`` (one of CODE_KEYS; default: the Code setting, else
-    by supply frequency), errors first, then warnings, then info; within a severity in circuit order."""
-    return run_review(subject, code).findings
-
-
-# ------------------------------------------------------------------------------------------------ edges
-
-FINDING_COLUMNS = ("Severity", "Rule", "Circuit", "Load", "Finding", "Source", "Source kind")
-
-
-def to_json(rv: Review) -> dict[str, Any]:
-    """The document ``leakbudget review --json`` prints."""
-    from leakbudget.about import CAUTION, __version__
-
-    project = rv.check.project
-    return {
-        "tool": f"leakbudget {__version__}",
-        "file": str(project.path),
-        "code": rv.code.key,
-        "code_label": rv.code.label,
-        "code_source": str(rv.code_source),
-        "counts": {s.value: rv.count(s) for s in Severity},
-        "findings": [f.to_dict() for f in rv.findings],
-        "unplaced_loads": [r.name for r in rv.check.unplaced],
-        "warnings": project.warnings,
-        "caution": CAUTION,
-    }
-
-
-def findings_rows(rv: Review) -> list[list[Any]]:
-    """The rows of the ``Review findings`` sheet under :data:`FINDING_COLUMNS`: one per finding, a blank row,
-    then footer lines (code used, counts, provenance of the sheet, caution) in the first column."""
-    from leakbudget.about import CAUTION, __version__
-
-    rows: list[list[Any]] = [
-        [f.severity.value, f.rule, f.circuit, f.load, f.message, str(f.source), f.source.kind.value]
-        for f in rv.findings
-    ]
-    blank: list[Any] = [None] * len(FINDING_COLUMNS)
-    footer = [
-        f"Reviewed against {rv.code.label}: {rv.code_source}.",
-        f"{rv.count(Severity.ERROR)} error(s), {rv.count(Severity.WARNING)} warning(s), "
-        f"{rv.count(Severity.INFO)} info.",
-        f"Written by leakbudget {__version__}; this sheet is replaced on every run.",
-        f"Caution: {CAUTION}",
-    ]
-    return rows + [blank] + [[line] + blank[1:] for line in footer]
-
-
-def findings_sheet(rv: Review) -> Any:
-    """The ``Review findings`` sheet (an :class:`leakbudget.xlsx.package.SheetData`) for write-back."""
-    from leakbudget.input.schema import REVIEW_FINDINGS
-    from leakbudget.xlsx.package import SheetData
-
-    return SheetData(
-        name=REVIEW_FINDINGS,
-        header=list(FINDING_COLUMNS),
-        rows=findings_rows(rv),
-        number_formats={},
-        column_widths={0: 10.0, 1: 18.0, 2: 12.0, 3: 20.0, 4: 100.0, 5: 60.0, 6: 20.0},
-    )
