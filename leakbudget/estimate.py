@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -81,31 +82,6 @@ def _supply_text(v: float, f: float) -> str:
     return f"{v:g} V {f:g} Hz"
 
 
-def estimate_load(load: Load, appliance: Appliance | None, voltage_v: float, frequency_hz: float, basis: str
-                  ) -> tuple[complex, str, str]:
-    """Per-unit leakage phasor of one load relative to its own line voltage [mA], with basis and source text.
-
-    The phasor's real part is resistive (in phase), its imaginary part capacitive (leading by 90°).
-    """
-    if load.leakage_ma is not None:
-        nature = appliance.nature if appliance is not None else "capacitive"
-        r, c = phys.split_by_nature(load.leakage_ma, nature)
-        return complex(r, c), MEASURED, "measured (your Leakage value)"
-    if load.y_capacitance_nf is not None or load.insulation_resistance_mohm is not None:
-        c = r = 0.0
-        if load.y_capacitance_nf is not None:
-            c = float(phys.capacitive_current_ma(load.y_capacitance_nf, voltage_v, frequency_hz))
-        if load.insulation_resistance_mohm is not None:
-            r = float(phys.resistive_current_ma(load.insulation_resistance_mohm, voltage_v))
-        return complex(r, c), COMPUTED, _computed_text(load, voltage_v, frequency_hz)
-    assert appliance is not None  # the reader guarantees a leakage source
-    value = appliance.upper_ma if basis == "upper" else appliance.typical_ma
-    r0, c0 = phys.split_by_nature(value, appliance.nature)
-    r, c = phys.rescale(r0, c0, appliance.reference_voltage_v, appliance.reference_frequency_hz,
-                        voltage_v, frequency_hz)
-    return complex(float(r), float(c)), CATALOGUE, _catalogue_text(appliance, basis, voltage_v, frequency_hz)
-
-
 def _fallback_supply(project: Project, load: Load) -> tuple[float, float]:
     """Supply for an unplaced load: a circuit serving its room, else the first circuit, else 120 V 60 Hz."""
     if load.room:
@@ -157,10 +133,45 @@ def _computed_text(load: Load, voltage_v: float, frequency_hz: float) -> str:
     return f"computed: {'; '.join(parts)} at {_supply_text(voltage_v, frequency_hz)}"
 
 
+def per_unit_phasors(loads: Sequence[Load], appliances: Sequence[Appliance | None], voltage_v: np.ndarray,
+                     frequency_hz: np.ndarray, basis: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Per-unit leakage phasor of each load at the given supply, relative to its own line voltage [mA], with
+    which loads are measured and which computed (the rest are catalogue figures). The one estimate formula.
+
+    Measured: the ``Leakage`` value, split into resistive and capacitive parts by the catalogue row's nature
+    (capacitive without a row). Computed: I = 2πfCV for ``Y capacitance``, I = V/R for ``Insulation resistance``.
+    Catalogue: the row's typical or upper value (``basis``), rescaled from the row's reference supply (capacitive
+    part ∝ V·f, resistive part ∝ V). The real part is resistive (in phase), the imaginary part capacitive
+    (leading by 90°).
+    """
+    nan = math.nan
+    measured_ma = np.array([x.leakage_ma if x.leakage_ma is not None else nan for x in loads], dtype=float)
+    y_cap_nf = np.array([x.y_capacitance_nf if x.y_capacitance_nf is not None else nan for x in loads], dtype=float)
+    ins_mohm = np.array([x.insulation_resistance_mohm if x.insulation_resistance_mohm is not None else nan
+                         for x in loads], dtype=float)
+    angle = np.radians([phys.NATURE_ANGLE_DEG[a.nature] if a is not None else 90.0 for a in appliances])
+    value_ma = np.array([(a.upper_ma if basis == "upper" else a.typical_ma) if a is not None else 0.0
+                         for a in appliances])
+    ref_v = np.array([a.reference_voltage_v if a is not None else 1.0 for a in appliances])
+    ref_f = np.array([a.reference_frequency_hz if a is not None else 1.0 for a in appliances])
+
+    is_measured = ~np.isnan(measured_ma)
+    is_computed = ~is_measured & (~np.isnan(y_cap_nf) | ~np.isnan(ins_mohm))
+    cos, sin = np.cos(angle), np.sin(angle)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        r_comp = np.nan_to_num(phys.resistive_current_ma(ins_mohm, voltage_v))
+        c_comp = np.nan_to_num(phys.capacitive_current_ma(y_cap_nf, voltage_v, frequency_hz))
+        r_cat, c_cat = phys.rescale(value_ma * cos, value_ma * sin, ref_v, ref_f, voltage_v, frequency_hz)
+    resistive = np.where(is_measured, measured_ma * cos, np.where(is_computed, r_comp, r_cat))
+    capacitive = np.where(is_measured, measured_ma * sin, np.where(is_computed, c_comp, c_cat))
+    return resistive + 1j * capacitive, is_measured, is_computed
+
+
 def estimate(project: Project) -> list[LoadResult]:
     """Per-load estimates in sheet order, then one cable line per circuit with a cable length.
 
-    Vectorised over loads with numpy (the same formulas as :func:`estimate_load`, which is the scalar reference).
+    Vectorised over loads with numpy (:func:`per_unit_phasors`); a Leakage measured on one unit then stands for
+    identical units without a figure of their own (:func:`stand_in_readings`).
     """
     loads = project.loads
     n = len(loads)
@@ -180,28 +191,10 @@ def estimate(project: Project) -> list[LoadResult]:
             voltage[i], frequency[i] = _fallback_supply(project, load)
         if load.appliance_key:
             apps[i] = appliances.get(load.appliance_key)
-    nan = math.nan
-    measured_ma = np.array([x.leakage_ma if x.leakage_ma is not None else nan for x in loads], dtype=float)
-    y_cap_nf = np.array([x.y_capacitance_nf if x.y_capacitance_nf is not None else nan for x in loads], dtype=float)
-    ins_mohm = np.array([x.insulation_resistance_mohm if x.insulation_resistance_mohm is not None else nan
-                         for x in loads], dtype=float)
     quantity = np.array([x.quantity for x in loads], dtype=float)
-    angle = np.radians([phys.NATURE_ANGLE_DEG[a.nature] if a is not None else 90.0 for a in apps])
-    value_ma = np.array([(a.upper_ma if basis == "upper" else a.typical_ma) if a is not None else 0.0 for a in apps])
-    ref_v = np.array([a.reference_voltage_v if a is not None else 1.0 for a in apps])
-    ref_f = np.array([a.reference_frequency_hz if a is not None else 1.0 for a in apps])
-
-    is_measured = ~np.isnan(measured_ma)
-    is_computed = ~is_measured & (~np.isnan(y_cap_nf) | ~np.isnan(ins_mohm))
-    cos, sin = np.cos(angle), np.sin(angle)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        r_comp = np.nan_to_num(phys.resistive_current_ma(ins_mohm, voltage))
-        c_comp = np.nan_to_num(phys.capacitive_current_ma(y_cap_nf, voltage, frequency))
-        r_cat, c_cat = phys.rescale(value_ma * cos, value_ma * sin, ref_v, ref_f, voltage, frequency)
-    resistive = np.where(is_measured, measured_ma * cos, np.where(is_computed, r_comp, r_cat))
-    capacitive = np.where(is_measured, measured_ma * sin, np.where(is_computed, c_comp, c_cat))
-    per_unit = np.hypot(resistive, capacitive)
-    phasor = (resistive + 1j * capacitive) * rotation * quantity
+    per_unit_phasor, is_measured, is_computed = per_unit_phasors(loads, apps, voltage, frequency, basis)
+    per_unit = np.abs(per_unit_phasor)
+    phasor = per_unit_phasor * rotation * quantity
 
     catalogue_texts: dict[tuple[str, float, float], str] = {}
     results: list[LoadResult] = []

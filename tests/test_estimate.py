@@ -99,20 +99,19 @@ def test_unplaced_loads_are_estimated_but_not_summed(make_workbook):
     assert r.circuits[0].leakage_ma == 0.0 and len(r.unplaced) == 1
 
 
-def test_vectorised_estimate_equals_the_scalar_reference():
-    # The vectorised pass must give exactly what the scalar per-load formula gives, load by load.
-    from leakbudget import leakage as phys
-    from leakbudget.estimate import estimate, estimate_load
-    from leakbudget.api import example_path
+def test_the_planner_estimates_a_load_on_another_supply_with_the_check_formula(make_workbook):
+    # One estimate path: the planner's figure for a load on a candidate circuit comes from the check's own
+    # function. Hand physics (I = 2πfCV): 4.7 nF is 0.2126 mA at 120 V 60 Hz and 0.3396 mA at 230 V 50 Hz
+    # (the capacitive leakage worked example of the Electrical Installation Guide's RCD chapter, recomputed).
+    from leakbudget.planner.build import Figures
 
-    project = read_project(example_path())
-    circuits = {c.circuit_id: c for c in project.circuits}
-    for r in estimate(project):
-        if r.load is None or r.circuit_id is None or r.measured_on:
-            continue  # cable runs, unplaced loads, and identical-unit stand-ins (tests/test_readings.py)
-        c = circuits[r.circuit_id]
-        z, kind, text = estimate_load(r.load, r.appliance, c.voltage_v, c.frequency_hz, project.settings.basis)
-        assert (kind, text) == (r.basis, r.source)
-        assert r.per_unit_ma == pytest.approx(abs(z), rel=1e-12)
-        expected = z * phys.leg_rotation(r.load.leg, c.system) * r.quantity
-        assert abs(r.phasor_ma - expected) == pytest.approx(0.0, abs=1e-12)
+    project = read_project(make_workbook())  # K1: 120 V 60 Hz gfci-a; E1: 230 V 50 Hz rcd-30
+    result = check(project)
+    figures = Figures(project, result.loads)
+    k1, e1 = project.circuits
+    filt, meter = project.loads
+    assert figures.leak_ma(0, filt, k1) == result.loads[0].leakage_ma  # its own supply: the check's figure
+    assert figures.leak_ma(0, filt, k1) == pytest.approx(2 * math.pi * 60 * 4.7e-9 * 120 * 1e3, rel=1e-12)
+    assert figures.leak_ma(0, filt, e1) == pytest.approx(2 * math.pi * 50 * 4.7e-9 * 230 * 1e3, rel=1e-12)
+    assert figures.leak_ma(0, filt, e1) == pytest.approx(0.3396, abs=5e-5)
+    assert figures.leak_ma(1, meter, k1) == pytest.approx(2 * 0.75)  # a measured value holds on any supply

@@ -23,7 +23,7 @@ import numpy as np
 
 from leakbudget.catalogue import Appliance
 from leakbudget.devices import budget_ma, device as find_device
-from leakbudget.estimate import COMPUTED, LoadResult, cable_result, estimate_load
+from leakbudget.estimate import COMPUTED, LoadResult, cable_result, per_unit_phasors
 from leakbudget.leakage import rescale, split_by_nature
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.planner.packing.problem import MARGIN_MA, Packing, Solution
@@ -88,7 +88,7 @@ class Figures:
 
     On the supply the check used for a load (its circuit's, or a room's for an unplaced load) the leakage is the
     check's own figure (``LoadResult.leakage_ma``, which includes readings on identical units). On another
-    supply it follows :func:`leakbudget.estimate.estimate_load`: a Leakage value the user gave holds as it is, a
+    supply it is estimated by the check's own formula (:func:`leakbudget.estimate.per_unit_phasors`): a Leakage value the user gave holds as it is, a
     computed figure is computed again, and a catalogue or identical-unit figure is rescaled (resistive part ∝ V,
     capacitive part ∝ V·f, split by the catalogue row's nature).
     """
@@ -115,8 +115,8 @@ class Figures:
             return known.leakage_ma
         appliance = self.appliance(load)
         if load.leakage_ma is not None or known.basis == COMPUTED or appliance is None:
-            z, _, _ = estimate_load(load, appliance, voltage_v, frequency_hz, self.basis)
-            return abs(z) * load.quantity
+            z, _, _ = per_unit_phasors([load], [appliance], np.array([voltage_v]), np.array([frequency_hz]), self.basis)
+            return float(abs(z[0])) * load.quantity
         resistive, capacitive = split_by_nature(known.per_unit_ma, appliance.nature)
         r, c = rescale(resistive, capacitive, known.voltage_v, known.frequency_hz, voltage_v, frequency_hz)
         return abs(complex(float(r), float(c))) * load.quantity
