@@ -110,7 +110,7 @@ def test_piped_output_has_no_bar(tmp_path: Path):
 def test_a_big_project_shows_the_circuits_nearest_their_budget(tmp_path: Path):
     """A campus has thousands of circuits; the terminal shows the 40 using most of their budget, all of the
     over-budget ones among them when they fit, and says where the rest are."""
-    from leakbudget.cli.app import TERMINAL_TABLE_ROWS
+    from leakbudget.cli.render import TERMINAL_TABLE_ROWS
 
     path = make_workbook(tmp_path / "campus.xlsx", 1_000)  # 200 circuits
     result = CliRunner().invoke(app, ["check", str(path), "--no-write"], env={"COLUMNS": "200"})
