@@ -53,7 +53,7 @@ def best(command: list[str], runs: int) -> tuple[float, float]:
 def stages(path: Path, out: Path) -> dict[str, float]:
     """Seconds of each stage of a check, in this process (each stage once, as the command runs them)."""
     from leakbudget.estimate import estimate, evaluate
-    from leakbudget.check import CheckResult, check
+    from leakbudget.checking import CheckResult, check
     from leakbudget.api import bulk_work
     from leakbudget.output.check import result_sheets
     from leakbudget.workbook.read import read_project

@@ -15,7 +15,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from leakbudget.errors import WorkbookError
-from leakbudget.check import CheckResult, check
+from leakbudget.checking import CheckResult, check
 from leakbudget.model import Project
 from leakbudget.progress import Progress
 from leakbudget.workbook.read import read_project
@@ -23,8 +23,8 @@ from leakbudget.xlsx.package import WriteResult
 
 if TYPE_CHECKING:
     from leakbudget.planner.plan import SplitOptions, SplitPlan
-    from leakbudget.review.rules import Review
-    from leakbudget.report.document import Report
+    from leakbudget.compliance.rules import Review
+    from leakbudget.reporting.document import Report
 
 
 @dataclass
@@ -107,7 +107,7 @@ def review_workbook(path: str | Path, code: str | None = None, out: str | Path |
     """Check a workbook, review it against ``code`` (default: Code setting, else by supply) and (unless ``write``
     is False) write the ``Review findings`` sheet into it, or into ``out``."""
     from leakbudget.output.review import findings_sheet
-    from leakbudget.review.rules import review
+    from leakbudget.compliance.rules import review
     from leakbudget.xlsx.package import write_sheets
 
     path = Path(path)
@@ -156,9 +156,9 @@ def report_workbook(path: str | Path, html: str | Path | None = None, pdf: str |
     write the hand-over report as HTML and/or PDF.
 
     ``code`` is the wiring code the review uses (as for :func:`review_workbook`)."""
-    from leakbudget.report.content import build_report
-    from leakbudget.report.write import check_outputs, write_report
-    from leakbudget.review.rules import review
+    from leakbudget.reporting.content import build_report
+    from leakbudget.reporting.write import check_outputs, write_report
+    from leakbudget.compliance.rules import review
 
     path = Path(path)
     html = Path(html) if html is not None else None

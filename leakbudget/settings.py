@@ -26,7 +26,7 @@ LOAD_FACTOR_DEFAULT = 0.8  # continuous load at 80 % of rating, common practice 
 BY_DEVICE = "by device: 120 V 60 Hz for UL devices (common practice), 230 V 50 Hz for RCDs (IEC 60038)"
 
 
-# The wiring codes `leakbudget review` knows, by key; leakbudget.review.codes defines each (and checks it defines
+# The wiring codes `leakbudget review` knows, by key; leakbudget.compliance.codes defines each (and checks it defines
 # exactly these). Named here so the Code setting is refused at reading time, like every other setting.
 CODE_KEYS = ("nec-2020", "nec-2023", "iec-60364", "bs-7671")
 

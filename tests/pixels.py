@@ -10,7 +10,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from leakbudget.report import charts
+from leakbudget.reporting import charts
 def decode(png: bytes) -> np.ndarray:
     """RGB pixels of a PNG as an (height, width, 3) integer array, 0-255."""
     from matplotlib.image import imread

@@ -8,8 +8,8 @@ from __future__ import annotations
 
 import pytest
 
-from leakbudget.report import charts
-from leakbudget.report.charts import CircuitBar, Segment
+from leakbudget.reporting import charts
+from leakbudget.reporting.charts import CircuitBar, Segment
 from tests.pixels import axis_row, background_share, decode, line_column, mask, stacked_bar
 
 

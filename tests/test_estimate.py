@@ -9,7 +9,7 @@ import pytest
 from leakbudget.catalogue import built_in
 from leakbudget.devices import Status
 from leakbudget.estimate import CATALOGUE, COMPUTED, MEASURED
-from leakbudget.check import check
+from leakbudget.checking import check
 from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
 

@@ -13,7 +13,7 @@ import pytest
 from typer.testing import CliRunner
 
 from leakbudget.cli.app import app
-from leakbudget.check import check
+from leakbudget.checking import check
 from leakbudget.planner.plan import SplitOptions
 from leakbudget.planner.split import plan_split
 from leakbudget.workbook.read import read_project

@@ -10,7 +10,7 @@ import random
 import pytest
 
 from leakbudget.devices import device
-from leakbudget.check import check
+from leakbudget.checking import check
 from leakbudget.leakage import parse_leg
 from leakbudget.model import Circuit, Load
 from leakbudget.planner.split import plan_split

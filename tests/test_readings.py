@@ -18,7 +18,7 @@ from leakbudget.cli.app import app
 from leakbudget.devices import Status
 from leakbudget.errors import WorkbookError
 from leakbudget.estimate import CATALOGUE, COMPUTED, MEASURED
-from leakbudget.check import check
+from leakbudget.checking import check
 from leakbudget.readings import CONSISTENT, FAR_ABOVE, FAR_BELOW, calibration_factor, reading_verdict
 from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER

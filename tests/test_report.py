@@ -21,16 +21,16 @@ from pathlib import Path
 
 import pytest
 
-from leakbudget.report import charts
+from leakbudget.reporting import charts
 from leakbudget.cli.app import main
 from leakbudget.errors import ReportError
-from leakbudget.check import check
+from leakbudget.checking import check
 from leakbudget.api import example_path, report_workbook
 from leakbudget.planner.plan import SplitOptions
-from leakbudget.report.content import build_report
-from leakbudget.report.document import iter_tables
-from leakbudget.report.html import render_html
-from leakbudget.report.pdf import pdf_pages, render_pdf
+from leakbudget.reporting.content import build_report
+from leakbudget.reporting.document import iter_tables
+from leakbudget.reporting.html import render_html
+from leakbudget.reporting.pdf import pdf_pages, render_pdf
 from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER, basic_sheets, write_workbook
 from tests.pixels import decode, line_column, stacked_bar
@@ -504,8 +504,8 @@ def test_report_file_takes_the_workbook_permissions_and_keeps_its_own_when_repla
 
 def test_overview_is_split_so_each_chart_fits_a_page(tmp_path):
     from benchmarks.workbooks import make_workbook
-    from leakbudget.report.content import OVERVIEW_ROWS
-    from leakbudget.report.pdf import FOOTER_IN, MARGIN_IN, PAGE_H_IN
+    from leakbudget.reporting.content import OVERVIEW_ROWS
+    from leakbudget.reporting.pdf import FOOTER_IN, MARGIN_IN, PAGE_H_IN
 
     workbook = make_workbook(tmp_path / "floor.xlsx", 150)  # 30 circuits on 30 mA RCDs
     report = build_report(check(read_project(workbook)))

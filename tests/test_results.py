@@ -13,7 +13,7 @@ import zipfile
 import defusedxml.ElementTree as ET
 from typer.testing import CliRunner
 
-from leakbudget.report import charts
+from leakbudget.reporting import charts
 from leakbudget.cli.app import app
 from leakbudget.api import example_path
 

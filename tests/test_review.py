@@ -18,7 +18,7 @@ from leakbudget.errors import WorkbookError
 from leakbudget.locations import classify_room
 from leakbudget.provenance import Kind
 from leakbudget.settings import SWITCH_ON_FACTOR_DEFAULT as SWITCH_ON_FACTOR
-from leakbudget.review.rules import (
+from leakbudget.compliance.rules import (
     GFCI_RUN_LIMIT_M, RULES, Finding, ReviewError, Severity, review, rule_description,
 )
 from leakbudget.workbook.read import read_project
@@ -478,7 +478,7 @@ def test_finding_shape(plan):
 
 
 def test_review_accepts_a_check_result(plan):
-    from leakbudget.check import check
+    from leakbudget.checking import check
 
     p = plan([circuit("B1", "none", "Main bath")], [load("Hair dryer", "B1", "hair-dryer")])
     assert review(check(p)).findings == review(p).findings

@@ -19,7 +19,7 @@ import pytest
 from leakbudget import risk
 from leakbudget.devices import DEVICES
 from leakbudget.errors import WorkbookError
-from leakbudget.check import check
+from leakbudget.checking import check
 from leakbudget.risk import FIXED, LOGNORMAL, UNIFORM, LeakageDistribution as D
 from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER

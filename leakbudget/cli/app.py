@@ -198,7 +198,7 @@ def report(
     the report was written (whatever the circuits' status), 2 on bad input.
     """
     from leakbudget.api import report_workbook
-    from leakbudget.review.rules import Severity
+    from leakbudget.compliance.rules import Severity
 
     options = _split_options(time_limit, new_device, new_rating, max_likelihood) if split else None
     job = report_workbook(path, html, pdf, code, options)

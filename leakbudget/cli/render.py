@@ -235,7 +235,7 @@ SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
 
 
 def render_review(job: Any) -> None:
-    from leakbudget.review.rules import Severity
+    from leakbudget.compliance.rules import Severity
 
     rv = job.review
     project = rv.check.project

@@ -13,7 +13,7 @@ from typing import Any
 from leakbudget.about import CAUTION, __version__
 from leakbudget.output.palette import BUDGET_COLOUR, NO_TRIP_COLOUR, SEGMENT_COLOURS
 from leakbudget.estimate import CircuitResult, LoadResult
-from leakbudget.check import CheckResult
+from leakbudget.checking import CheckResult
 from leakbudget.readings import COVERAGE, THRESHOLDS, ReadingResult
 from leakbudget.risk import TripProbability, likelihood_text
 from leakbudget.xlsx.package import ChartSpec, SheetData

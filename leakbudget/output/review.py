@@ -6,7 +6,7 @@ from typing import Any
 
 from leakbudget.about import CAUTION, __version__
 from leakbudget.input.schema import REVIEW_FINDINGS
-from leakbudget.review.rules import Review, Severity
+from leakbudget.compliance.rules import Review, Severity
 from leakbudget.xlsx.package import SheetData
 
 FINDING_COLUMNS = ("Severity", "Rule", "Circuit", "Load", "Finding", "Source", "Source kind")

@@ -12,7 +12,7 @@ How:
    (:mod:`leakbudget.planner.packing.bounds`; the LP relaxation for large groups); groups up to ``exact_max_items``
    movable loads the bounds do not settle are solved exactly (:mod:`leakbudget.planner.packing.milp`, HiGHS), then
    polished for headroom, all within the time limit.
-3. The plan is applied to a copy of the project, checked by :func:`leakbudget.check.check` and re-verified by
+3. The plan is applied to a copy of the project, checked by :func:`leakbudget.checking.check` and re-verified by
    :func:`leakbudget.planner.rules.verify_plan`, independently of the solver.
 
 Leakage sum: the plan keeps the arithmetic sum (Σ of magnitudes, the conservative figure) within budget, whatever

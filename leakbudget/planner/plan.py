@@ -14,7 +14,7 @@ import numpy as np
 
 from leakbudget.devices import DEVICES, device as find_device
 from leakbudget.errors import LeakbudgetError
-from leakbudget.check import CheckResult, check
+from leakbudget.checking import CheckResult, check
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.planner.packing.bounds import packing_bound
 from leakbudget.planner.build import Blocker, Figures, RoomGroup, build

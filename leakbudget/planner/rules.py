@@ -20,7 +20,7 @@ import math
 from typing import Protocol, TypeVar
 
 from leakbudget.catalogue import Appliance
-from leakbudget.check import CheckResult
+from leakbudget.checking import CheckResult
 from leakbudget.leakage import parse_leg
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.devices import Status

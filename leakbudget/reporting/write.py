@@ -7,7 +7,7 @@ import stat
 from pathlib import Path
 
 from leakbudget.errors import ReportError
-from leakbudget.report.document import Report
+from leakbudget.reporting.document import Report
 from leakbudget.xlsx.files import replace_atomically
 
 
@@ -41,11 +41,11 @@ def write_report(report: Report, workbook: Path, html: Path | None = None, pdf: 
     written = []
     for fmt, path in check_outputs(workbook, html, pdf):
         if fmt == "html":
-            from leakbudget.report.html import render_html
+            from leakbudget.reporting.html import render_html
 
             data = render_html(report).encode("utf-8")
         else:
-            from leakbudget.report.pdf import render_pdf
+            from leakbudget.reporting.pdf import render_pdf
 
             data = render_pdf(report)
         # a report replacing an earlier one keeps its permissions; a new one gets the workbook's

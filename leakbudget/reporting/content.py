@@ -1,7 +1,7 @@
 """The content of the hand-over report: sections of facts, tables, charts and text, independent of the format.
 
 :func:`build_report` turns a check result (and, when given, the review findings and a split plan) into a
-:class:`Report`; :mod:`leakbudget.report.html` and :mod:`leakbudget.report.pdf` lay it out. Every number is taken
+:class:`Report`; :mod:`leakbudget.reporting.html` and :mod:`leakbudget.reporting.pdf` lay it out. Every number is taken
 from :func:`leakbudget.output.check.to_json`, the document ``check --json`` prints, so the report and the check agree
 to the digit; every value carries its provenance kind (published, measured, computed, typical from memory, common
 practice, user setting, default) and its source text.
@@ -15,9 +15,9 @@ from typing import Any, Protocol
 
 from leakbudget.about import CAUTION, __version__
 from leakbudget.estimate import COMPUTED, MEASURED, LoadResult
-from leakbudget.check import CheckResult
+from leakbudget.checking import CheckResult
 from leakbudget.provenance import Kind, Source
-from leakbudget.report.document import Block, Cell, Facts, Figure, Paragraph, Report, Section, Table
+from leakbudget.reporting.document import Block, Cell, Facts, Figure, Paragraph, Report, Section, Table
 from leakbudget.settings import JOB_SETTINGS
 
 # Why personnel protection trips at a few milliamperes: IEC 60479-1 effects of current on people.
@@ -49,7 +49,7 @@ OVERVIEW_ROWS = 28  # circuits per overview chart: 0.9 in + 0.3 in each stays wi
 # ---- inputs from the review and the split planner ---------------------------------------------------------------
 
 class FindingLike(Protocol):
-    """What the report reads from a review finding (``leakbudget.review.rules``)."""
+    """What the report reads from a review finding (``leakbudget.compliance.rules``)."""
 
     severity: Any
     rule: str
@@ -245,7 +245,7 @@ LOAD_WIDTHS = (1.5, 0.35, 0.7, 0.7, 0.55, 0.45, 0.8, 3.5)
 
 def _overview_figures(bars: Sequence[Any], name: str, when: str) -> Iterable[Figure]:
     """Budget-used charts of the protected circuits, one per OVERVIEW_ROWS circuits so each fits a page."""
-    from leakbudget.report.charts import overview_chart
+    from leakbudget.reporting.charts import overview_chart
 
     protected = [b for b in bars if b.protected and b.budget_ma]
     parts = range(0, len(protected), OVERVIEW_ROWS)
@@ -322,7 +322,7 @@ def _readings_section(doc: Mapping[str, Any]) -> Section | None:
 
 
 def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any]) -> list[Section]:
-    from leakbudget.report.charts import circuit_chart
+    from leakbudget.reporting.charts import circuit_chart
 
     pairs = list(zip(doc["loads"], result.loads))
     sections = []
@@ -456,8 +456,8 @@ def _method_section() -> Section:
 # ---- assembly --------------------------------------------------------------------------------------------------
 
 def circuit_bars(result: CheckResult, doc: Mapping[str, Any]) -> list[Any]:
-    """One :class:`leakbudget.report.charts.CircuitBar` per circuit, from the check-JSON numbers."""
-    from leakbudget.report.charts import Segment
+    """One :class:`leakbudget.reporting.charts.CircuitBar` per circuit, from the check-JSON numbers."""
+    from leakbudget.reporting.charts import Segment
 
     segments: dict[str, list[Any]] = {}
     for d in doc["loads"]:
@@ -470,7 +470,7 @@ def circuit_bars(result: CheckResult, doc: Mapping[str, Any]) -> list[Any]:
 def _bars(circuits: Sequence[Mapping[str, Any]], gate_is_phasor: bool, segments: Mapping[str, list[Any]]
           ) -> list[Any]:
     """Chart data from circuit documents as ``check --json`` (or ``split --json``) gives them."""
-    from leakbudget.report.charts import CircuitBar
+    from leakbudget.reporting.charts import CircuitBar
 
     return [CircuitBar(
         circuit=c["circuit"], device_label=c["device_label"], status=c["status"],
@@ -507,7 +507,7 @@ def build_report(result: CheckResult, findings: Sequence[FindingLike] | None = N
                  review_basis: str | None = None) -> Report:
     """Assemble the report's sections from a check result, the review findings and a split-plan document.
 
-    ``findings`` are :func:`leakbudget.review.rules.review`'s, None when the review was not run (the section says so);
+    ``findings`` are :func:`leakbudget.compliance.rules.review`'s, None when the review was not run (the section says so);
     ``review_basis`` says which code they were found against and why. ``plan`` is the document
     ``leakbudget split --json`` prints, or None when no plan was made. ``generated`` is the report date (today
     when None).

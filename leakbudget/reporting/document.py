@@ -1,7 +1,7 @@
 """The report as a document independent of its format: sections of facts, tables, charts and paragraphs.
 
-:mod:`leakbudget.report.content` fills it from the results; :mod:`leakbudget.report.html` and
-:mod:`leakbudget.report.pdf` lay it out.
+:mod:`leakbudget.reporting.content` fills it from the results; :mod:`leakbudget.reporting.html` and
+:mod:`leakbudget.reporting.pdf` lay it out.
 """
 
 from __future__ import annotations
@@ -51,7 +51,7 @@ class Table:
 
 @dataclass
 class Figure:
-    """A chart (a :class:`leakbudget.report.charts.Chart`): the HTML embeds its PNG, the PDF draws it as vectors."""
+    """A chart (a :class:`leakbudget.reporting.charts.Chart`): the HTML embeds its PNG, the PDF draws it as vectors."""
 
     chart: Any
     alt: str

@@ -7,7 +7,7 @@ code asks for; never to remove protection or raise its rated residual current.
 
 Rules (ids in :data:`RULES`): location, appliance-outlet, ev-charging, socket-outlets, room-unclassified,
 waveform, fault-sign, high-leakage, shared-neutral, long-run, switch-on, budget. The codes' requirements are
-data in :mod:`leakbudget.review.codes`; room names are classified by :mod:`leakbudget.locations`.
+data in :mod:`leakbudget.compliance.codes`; room names are classified by :mod:`leakbudget.locations`.
 """
 
 from __future__ import annotations
@@ -17,13 +17,13 @@ from dataclasses import dataclass
 from enum import Enum
 from typing import Any
 
-from leakbudget.review.codes import (
+from leakbudget.compliance.codes import (
     CODE_KEYS, CODES, DEFAULT_CODE_BY_FREQUENCY_HZ, SOCKET_OUTLET_MAX_A, Code, LocationRule, Scope, is_ev_charger,
 )
 from leakbudget.devices import Family, Status
 from leakbudget.errors import LeakbudgetError
 from leakbudget.estimate import CircuitResult, LoadResult, MEASURED
-from leakbudget.check import CheckResult, check
+from leakbudget.checking import CheckResult, check
 from leakbudget.locations import Classification, classify_room
 from leakbudget.model import Circuit, Project
 from leakbudget.provenance import Kind, Source

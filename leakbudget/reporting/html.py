@@ -1,4 +1,4 @@
-"""Lay a :class:`leakbudget.report.document.Report` out as one self-contained HTML document.
+"""Lay a :class:`leakbudget.reporting.document.Report` out as one self-contained HTML document.
 
 Inline CSS, charts embedded as base64 PNG, no scripts and no external fetches: the file can be mailed, archived
 and opened offline. Every text from the workbook is escaped. Number cells carry ``data-key`` (the ``check --json``
@@ -12,7 +12,7 @@ import html
 import re
 import struct
 
-from leakbudget.report.document import Cell, Facts, Figure, Paragraph, Report, Section, Table
+from leakbudget.reporting.document import Cell, Facts, Figure, Paragraph, Report, Section, Table
 
 TONES = ("ok", "over-budget", "trip-risk", "unprotected", "error", "warning", "info", "caution", "muted")
 

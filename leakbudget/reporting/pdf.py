@@ -1,4 +1,4 @@
-"""Lay a :class:`leakbudget.report.document.Report` out as A4 PDF pages with matplotlib's PdfPages (no browser needed).
+"""Lay a :class:`leakbudget.reporting.document.Report` out as A4 PDF pages with matplotlib's PdfPages (no browser needed).
 
 Each page is a matplotlib Figure the size of an A4 sheet; text is placed line by line at measured positions,
 tables are drawn row by row with wrapped cells and their header repeated on every page, charts are the same PNGs
@@ -15,8 +15,8 @@ from dataclasses import dataclass
 from collections.abc import Callable, Sequence
 from typing import Any
 
-from leakbudget.report.charts import DPI, INK, STATUS_COLOURS, WIDTH_IN
-from leakbudget.report.document import Cell, Facts, Figure, Paragraph, Report, Section, Table
+from leakbudget.reporting.charts import DPI, INK, STATUS_COLOURS, WIDTH_IN
+from leakbudget.reporting.document import Cell, Facts, Figure, Paragraph, Report, Section, Table
 
 PAGE_W_IN, PAGE_H_IN = 8.27, 11.69  # A4 (ISO 216: 210 mm × 297 mm)
 MARGIN_IN = 0.6
