@@ -1,36 +1,91 @@
-"""The jobs behind the commands: read → validate → estimate → evaluate → write, one function per command.
+"""The front door: one function per command, read → run → write, each returning a job you can inspect.
 
-Pure library code (no typer, no rich); the CLI calls one of these and renders what it returns.
+``import leakbudget`` gives these as ``leakbudget.check``, ``leakbudget.split``, ``leakbudget.review``,
+``leakbudget.report`` and ``leakbudget.read_project``. Each reads the workbook and computes; it writes the result
+sheets only when asked (``write=True`` writes into the workbook itself, ``out=`` into a new copy), as the command
+line does by default. A job's ``document()`` is the JSON document the command's ``--json`` prints, and its
+``*_frame()`` methods give the same records as pandas DataFrames whose columns are that document's keys.
+
+Pure library code (no typer, no rich): the CLI calls exactly these and renders what they return. pandas is
+imported only when a frame is asked for.
+
+Every figure is a planning estimate: measure, follow the local code in force and licensed practice, test every
+device after installation, and never remove or up-rate protection to cure nuisance trips (``leakbudget.CAUTION``).
 """
 
 from __future__ import annotations
 
 import gc
 import shutil
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
 from datetime import date
+from functools import cached_property
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
+from leakbudget.checking import CheckResult
+from leakbudget.checking import check as check_project
 from leakbudget.errors import WorkbookError
-from leakbudget.checking import CheckResult, check
 from leakbudget.model import Project
 from leakbudget.progress import Progress
 from leakbudget.workbook.read import read_project
 from leakbudget.xlsx.package import WriteResult
 
 if TYPE_CHECKING:
-    from leakbudget.planner.plan import SplitOptions, SplitPlan
+    import pandas as pd
+
     from leakbudget.compliance.rules import Review
+    from leakbudget.planner.plan import SplitOptions, SplitPlan
     from leakbudget.reporting.document import Report
+
+__all__ = ["CheckJob", "ReportJob", "ReviewJob", "SplitJob", "check", "read_project", "report", "review", "split"]
+
+
+def _frame(records: Sequence[dict[str, Any]]) -> pd.DataFrame:
+    """Records of a JSON document as a DataFrame: one row each, one column per key, in the document's order."""
+    import pandas as pd
+
+    return pd.DataFrame.from_records(list(records))
+
+
+def _with_written(doc: dict[str, Any], written: WriteResult | None) -> dict[str, Any]:
+    """Add where the results were written (and the backup kept) to a command's JSON document."""
+    doc["written_to"] = str(written.path) if written else None
+    doc["backup"] = str(written.backup) if written and written.backup else None
+    return doc
 
 
 @dataclass
 class CheckJob:
+    """What :func:`check` gives: the check result, and where its sheets were written (None: not written)."""
+
     result: CheckResult
     written: WriteResult | None
+
+    @property
+    def all_ok(self) -> bool:
+        """Every protected circuit within its budget (the command's exit code 0)."""
+        return self.result.all_ok
+
+    @cached_property
+    def _document(self) -> dict[str, Any]:
+        from leakbudget.output.check import to_json
+
+        return _with_written(to_json(self.result), self.written)
+
+    def document(self) -> dict[str, Any]:
+        """The document ``leakbudget check --json`` prints."""
+        return self._document
+
+    def circuits_frame(self) -> pd.DataFrame:
+        """One row per circuit: the ``circuits`` records of :meth:`document`."""
+        return _frame(self._document["circuits"])
+
+    def loads_frame(self) -> pd.DataFrame:
+        """One row per load and cable run: the ``loads`` records of :meth:`document`."""
+        return _frame(self._document["loads"])
 
 
 @contextmanager
@@ -50,25 +105,33 @@ def bulk_work() -> Iterator[None]:
             gc.enable()
 
 
-def check_workbook(path: str | Path, out: str | Path | None = None, write: bool = True,
-                   progress: Progress | None = None) -> CheckJob:
-    """Check a workbook and (unless ``write`` is False) write the result sheets into it, or into ``out``.
+def _writes(write: bool, out: str | Path | None) -> bool:
+    return write or out is not None
 
-    ``progress`` (see :mod:`leakbudget.progress`) hears of reading, estimating and the rows written.
+
+def check(path: str | Path, *, write: bool = False, out: str | Path | None = None,
+          progress: Progress | None = None) -> CheckJob:
+    """Check a workbook: estimate every load, judge every circuit, the trip likelihood and any readings.
+
+    Writes nothing unless ``write`` is True (the ``Circuit results`` and ``Load results`` sheets go into the
+    workbook, the previous version kept as a backup) or ``out`` names a new file to write them into (the workbook
+    is left untouched). ``progress`` (see :mod:`leakbudget.progress`) hears of reading, estimating and the rows
+    written.
     """
     from leakbudget.output.check import result_sheets
     from leakbudget.xlsx.package import write_sheets
 
     path = Path(path)
+    writing = _writes(write, out)
     with bulk_work():
-        project = _read_for_writing(path, out, write, progress)
+        project = _read_for_writing(path, out, writing, progress)
         if progress is not None:
             progress("Estimating", 0, 1)
-        result = check(project)
-        sheets = result_sheets(result) if write else []
+        result = check_project(project)
+        sheets = result_sheets(result) if writing else []
         if progress is not None:
             progress("Estimating", 1, 1)
-        written = write_sheets(path, sheets, _out_path(path, out), progress) if write else None
+        written = write_sheets(path, sheets, _out_path(path, out), progress) if writing else None
     return CheckJob(result, written)
 
 
@@ -98,86 +161,132 @@ def _out_path(path: Path, out: str | Path | None) -> Path | None:
 
 @dataclass
 class ReviewJob:
+    """What :func:`review` gives: the review (with the check it reviewed) and where its sheet was written."""
+
     review: Review
     written: WriteResult | None
 
+    @cached_property
+    def _document(self) -> dict[str, Any]:
+        from leakbudget.output.review import to_json
 
-def review_workbook(path: str | Path, code: str | None = None, out: str | Path | None = None, write: bool = True
-                    ) -> ReviewJob:
-    """Check a workbook, review it against ``code`` (default: Code setting, else by supply) and (unless ``write``
-    is False) write the ``Review findings`` sheet into it, or into ``out``."""
+        return _with_written(to_json(self.review), self.written)
+
+    def document(self) -> dict[str, Any]:
+        """The document ``leakbudget review --json`` prints."""
+        return self._document
+
+    def findings_frame(self) -> pd.DataFrame:
+        """One row per finding, errors first: the ``findings`` records of :meth:`document`."""
+        return _frame(self._document["findings"])
+
+
+def review(path: str | Path, code: str | None = None, *, write: bool = False, out: str | Path | None = None
+           ) -> ReviewJob:
+    """Check a workbook and review it against ``code`` (nec-2020, nec-2023, iec-60364, bs-7671; default: the Code
+    setting, else by supply frequency). Writes the ``Review findings`` sheet only when ``write`` is True or into
+    ``out``."""
+    from leakbudget.compliance.rules import review as review_project
     from leakbudget.output.review import findings_sheet
-    from leakbudget.compliance.rules import review
     from leakbudget.xlsx.package import write_sheets
 
     path = Path(path)
-    rv = review(_read_for_writing(path, out, write), code)
-    written = write_sheets(path, [findings_sheet(rv)], _out_path(path, out)) if write else None
+    writing = _writes(write, out)
+    rv = review_project(_read_for_writing(path, out, writing), code)
+    written = write_sheets(path, [findings_sheet(rv)], _out_path(path, out)) if writing else None
     return ReviewJob(rv, written)
 
 
 @dataclass
 class SplitJob:
+    """What :func:`split` gives: the plan (with the checks before and after it) and where its sheet was written."""
+
     plan: SplitPlan
     written: WriteResult | None
 
+    @property
+    def feasible(self) -> bool:
+        """The plan meets every limit (the command's exit code 0)."""
+        return self.plan.feasible
 
-def split_workbook(path: str | Path, out: str | Path | None = None, write: bool = True,
-                   options: SplitOptions | None = None, progress: Progress | None = None) -> SplitJob:
-    """Plan a split of a workbook's loads (:func:`leakbudget.planner.split.plan_split`) and (unless ``write`` is False)
-    write the ``Split plan`` sheet into it, or into ``out``. The Loads sheet itself is never changed.
+    @cached_property
+    def _document(self) -> dict[str, Any]:
+        from leakbudget.output.split import to_json
+
+        return _with_written(to_json(self.plan), self.written)
+
+    def document(self) -> dict[str, Any]:
+        """The document ``leakbudget split --json`` prints."""
+        return self._document
+
+    def assignments_frame(self) -> pd.DataFrame:
+        """One row per load: where it is and where the plan puts it (the ``assignments`` records)."""
+        return _frame(self._document["assignments"])
+
+    def circuits_frame(self) -> pd.DataFrame:
+        """One row per circuit after the plan, with its figures before (the ``circuits`` records)."""
+        return _frame(self._document["circuits"])
+
+
+def split(path: str | Path, options: SplitOptions | None = None, *, write: bool = False,
+          out: str | Path | None = None, progress: Progress | None = None) -> SplitJob:
+    """Plan the fewest changes that bring every protected circuit within its budget and current limit
+    (:func:`leakbudget.planner.split.plan_split`). Writes the ``Split plan`` sheet only when ``write`` is True or
+    into ``out``; the Loads sheet itself is never changed.
 
     ``progress`` (see :mod:`leakbudget.progress`) hears of reading, each planning stage and the rows written.
     """
+    from leakbudget.output.split import split_sheet
     from leakbudget.planner.plan import SplitOptions
     from leakbudget.planner.split import plan_split
-    from leakbudget.output.split import split_sheet
     from leakbudget.xlsx.package import write_sheets
 
     path = Path(path)
+    writing = _writes(write, out)
     with bulk_work():
-        plan = plan_split(_read_for_writing(path, out, write, progress), options or SplitOptions(), progress)
-        written = write_sheets(path, [split_sheet(plan)], _out_path(path, out), progress) if write else None
+        plan = plan_split(_read_for_writing(path, out, writing, progress), options or SplitOptions(), progress)
+        written = write_sheets(path, [split_sheet(plan)], _out_path(path, out), progress) if writing else None
     return SplitJob(plan, written)
 
 
 @dataclass
 class ReportJob:
+    """What :func:`report` gives: the review it ran, the report's content, the files written, and any plan."""
+
     review: Review
     report: Report
     written: list[Path]
     plan: SplitPlan | None = None
 
 
-def report_workbook(path: str | Path, html: str | Path | None = None, pdf: str | Path | None = None,
-                    code: str | None = None, split: SplitOptions | None = None, generated: date | None = None
-                    ) -> ReportJob:
+def report(path: str | Path, html: str | Path | None = None, pdf: str | Path | None = None,
+           code: str | None = None, split: SplitOptions | None = None, generated: date | None = None) -> ReportJob:
     """Check and review a workbook (writing nothing into it), plan a split when ``split`` options are given, and
-    write the hand-over report as HTML and/or PDF.
+    write the hand-over report as HTML and/or PDF (at least one).
 
-    ``code`` is the wiring code the review uses (as for :func:`review_workbook`)."""
+    ``code`` is the wiring code the review uses (as for :func:`review`); ``generated`` the report's date."""
+    from leakbudget.compliance.rules import review as review_project
     from leakbudget.reporting.content import build_report
     from leakbudget.reporting.write import check_outputs, write_report
-    from leakbudget.compliance.rules import review
 
     path = Path(path)
     html = Path(html) if html is not None else None
     pdf = Path(pdf) if pdf is not None else None
     check_outputs(path, html, pdf)
     project = read_project(path)
-    rv = review(project, code)
+    rv = review_project(project, code)
     plan = None
     if split is not None:
         from leakbudget.planner.split import plan_split
 
         plan = plan_split(project, split)
-    report = build_report(rv.check, findings=rv.findings, generated=generated,
-                          review_basis=f"{rv.code.label} ({rv.code_source})", plan=_plan_document(plan))
-    written = write_report(report, path, html, pdf)
-    return ReportJob(rv, report, written, plan)
+    content = build_report(rv.check, findings=rv.findings, generated=generated,
+                           review_basis=f"{rv.code.label} ({rv.code_source})", plan=_plan_document(plan))
+    written = write_report(content, path, html, pdf)
+    return ReportJob(rv, content, written, plan)
 
 
-def _plan_document(plan: SplitPlan | None) -> dict | None:
+def _plan_document(plan: SplitPlan | None) -> dict[str, Any] | None:
     from leakbudget.output.split import to_json
 
     return to_json(plan) if plan is not None else None

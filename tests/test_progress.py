@@ -19,7 +19,7 @@ from typer.testing import CliRunner
 
 from benchmarks.workbooks import make_workbook
 from leakbudget.cli.app import app
-from leakbudget.api import bulk_work, check_workbook
+from leakbudget.api import bulk_work, check
 from leakbudget.progress import tracked
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -37,7 +37,7 @@ def test_tracked_yields_everything_and_reports_every_n_and_the_end():
 def test_check_reports_each_stage_from_start_to_end(tmp_path: Path):
     path = make_workbook(tmp_path / "ward.xlsx", 60)
     heard: list[tuple[str, int, int]] = []
-    check_workbook(path, tmp_path / "out.xlsx", progress=lambda *a: heard.append(a))
+    check(path, out=tmp_path / "out.xlsx", progress=lambda *a: heard.append(a))
     stages = list(dict.fromkeys(stage for stage, _, _ in heard))
     assert stages == ["Reading ward.xlsx", "Estimating", "Writing 'Circuit results'", "Writing 'Load results'"]
     for stage in stages:

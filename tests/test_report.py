@@ -17,15 +17,13 @@ import shutil
 import sys
 from dataclasses import dataclass
 from html.parser import HTMLParser
-from pathlib import Path
 
 import pytest
 
 from leakbudget.reporting import charts
 from leakbudget.cli.app import main
-from leakbudget.errors import ReportError
 from leakbudget.checking import check
-from leakbudget.api import example_path, report_workbook
+from leakbudget.api import example_path, report
 from leakbudget.planner.plan import SplitOptions
 from leakbudget.reporting.content import build_report
 from leakbudget.reporting.document import iter_tables
@@ -315,7 +313,7 @@ def test_embedded_charts_show_the_check_numbers(demo_run):
 
 
 def test_pdf_has_every_circuit_and_its_text_stays_on_the_page(demo_run):
-    job = report_workbook(demo_run["workbook"], html=demo_run["html_path"].with_name("again.html"),
+    job = report(demo_run["workbook"], html=demo_run["html_path"].with_name("again.html"),
                           split=SplitOptions())
     pages = pdf_pages(job.report)  # the same report the command laid out, as figures
     texts = []
@@ -357,7 +355,7 @@ def test_code_option_reaches_the_review(make_workbook, tmp_path, capsys, monkeyp
 # ---- the small workbook: physics against published figures -------------------------------------------------------
 
 def test_small_workbook_report_against_published_figures(make_workbook, tmp_path):
-    job = report_workbook(make_workbook(), html=tmp_path / "r.html", generated=dt.date(2026, 1, 5))
+    job = report(make_workbook(), html=tmp_path / "r.html", generated=dt.date(2026, 1, 5))
     html = read_html((tmp_path / "r.html").read_text(encoding="utf-8"))
     rows = {row[0]["text"]: _numbers(row) for row in html.tables["circuits"][1:]}
     # UL 943 Class A trips at 6 mA; 30 % of it by analogy with BS 7671:2018 reg. 531.3.2 = 1.8 mA.
@@ -494,10 +492,10 @@ def test_report_file_takes_the_workbook_permissions_and_keeps_its_own_when_repla
     workbook = make_workbook()
     workbook.chmod(0o644)
     out = tmp_path / "r.html"
-    report_workbook(workbook, html=out)
+    report(workbook, html=out)
     assert out.stat().st_mode & 0o777 == 0o644
     out.chmod(0o640)
-    report_workbook(workbook, html=out)
+    report(workbook, html=out)
     assert out.stat().st_mode & 0o777 == 0o640
     assert [p.name for p in tmp_path.iterdir() if p.name.startswith("r.html")] == ["r.html"]  # no temp left
 

@@ -19,7 +19,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from leakbudget.xlsx.package import SheetData, write_sheets
-from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER, EXCEL_MAX_TEXT_UTF16, ROWS_PER_CHUNK, escape_text, rows_xml
+from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER, ROWS_PER_CHUNK, escape_text, rows_xml
 from tests.test_xlsx_package import DATA, MAIN, cells, entries, real_program_csv
 
 AWKWARD_TEXT = [

@@ -12,7 +12,7 @@ from rich.table import Table
 
 from leakbudget.about import __version__
 from leakbudget.cli.render import (
-    caution, err_console, out_console, print_json, progress_bar, render_check, render_review, render_split, with_written,
+    caution, err_console, out_console, print_json, progress_bar, render_check, render_review, render_split,
 )
 from leakbudget.errors import LeakbudgetError
 from leakbudget.locations import LOCATION_KINDS
@@ -70,14 +70,12 @@ def check(
 
     Exit code 0 when every protected circuit is within budget, 1 when any is not, 2 on bad input.
     """
-    from leakbudget.api import check_workbook
+    from leakbudget import api
 
     with progress_bar(as_json) as progress:
-        job = check_workbook(path, out, write=not no_write, progress=progress)
+        job = api.check(path, write=not no_write, out=None if no_write else out, progress=progress)
     if as_json:
-        from leakbudget.output.check import to_json
-
-        print_json(with_written(to_json(job.result), job.written))
+        print_json(job.document())
     else:
         render_check(job)
     raise typer.Exit(0 if job.result.all_ok else 1)
@@ -105,12 +103,11 @@ def review(
     as_json: JsonOpt = False,
     no_write: Annotated[bool, typer.Option("--no-write", help="Review only; write nothing.")] = False,
 ) -> None:
-    from leakbudget.api import review_workbook
-    from leakbudget.output.review import to_json
+    from leakbudget import api
 
-    job = review_workbook(path, code, out, write=not no_write)
+    job = api.review(path, code, write=not no_write, out=None if no_write else out)
     if as_json:
-        print_json(with_written(to_json(job.review), job.written))
+        print_json(job.document())
     else:
         render_review(job)
     raise typer.Exit(1 if job.review.errors else 0)
@@ -163,15 +160,13 @@ def split(
     new_rating: NewRatingOpt = None,
     max_likelihood: MaxLikelihoodOpt = None,
 ) -> None:
-    from leakbudget.api import split_workbook
+    from leakbudget import api
 
     options = _split_options(time_limit, new_device, new_rating, max_likelihood)
     with progress_bar(as_json) as progress:
-        job = split_workbook(path, out, write=not no_write, options=options, progress=progress)
+        job = api.split(path, options, write=not no_write, out=None if no_write else out, progress=progress)
     if as_json:
-        from leakbudget.output.split import to_json
-
-        print_json(with_written(to_json(job.plan), job.written))
+        print_json(job.document())
     else:
         render_split(job)
     raise typer.Exit(0 if job.plan.feasible else 1)
@@ -197,11 +192,11 @@ def report(
     --new-device, --new-rating and --max-trip-likelihood apply to it), and lays them out; the workbook is only read. Exit code 0 when
     the report was written (whatever the circuits' status), 2 on bad input.
     """
-    from leakbudget.api import report_workbook
+    from leakbudget import api
     from leakbudget.compliance.rules import Severity
 
     options = _split_options(time_limit, new_device, new_rating, max_likelihood) if split else None
-    job = report_workbook(path, html, pdf, code, options)
+    job = api.report(path, html, pdf, code, options)
     rv = job.review
     counts = job.report.status_counts
     over = counts.get("over-budget", 0) + counts.get("trip-risk", 0)
@@ -224,11 +219,11 @@ def demo(
     folder: Annotated[Path, typer.Option("--folder", help="Where to put the example workbook.")] = Path("."),
 ) -> None:
     """Copy the shipped example (an invented remodel) into FOLDER and check it there."""
-    from leakbudget.api import check_workbook, copy_example
+    from leakbudget import api
 
-    dest = copy_example(folder)
+    dest = api.copy_example(folder)
     out_console.print(f"Copied the example workbook to {dest}.", highlight=False)
-    job = check_workbook(dest)
+    job = api.check(dest, write=True)
     render_check(job)
     out_console.print(f"Open {dest} to see the 'Circuit results' and 'Load results' sheets.", highlight=False)
 
