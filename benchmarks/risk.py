@@ -14,8 +14,8 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from benchmarks.workbooks import make_workbook  # noqa: E402
-from leakbudget.estimate import estimate, evaluate  # noqa: E402
 from leakbudget.checking import CheckResult
+from leakbudget.estimate import estimate, evaluate  # noqa: E402
 from leakbudget.risk import assess  # noqa: E402
 from leakbudget.workbook.read import read_project  # noqa: E402
 

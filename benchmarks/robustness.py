@@ -28,8 +28,10 @@ def jobs(n_random: int, first_seed: int) -> list[dict]:
     from tests.robustness_cases import BAD_INPUTS
 
     named = [{"kind": "named", "id": case.id} for case in BAD_INPUTS]
-    damaged = [{"kind": "random", "id": f"seed {seed}", "seed": seed, "cell": seed % 4, "package": (seed // 4) % 3}
-               for seed in range(first_seed, first_seed + n_random)]
+    damaged = [
+        {"kind": "random", "id": f"seed {seed}", "seed": seed, "cell": seed % 4, "package": (seed // 4) % 3}
+        for seed in range(first_seed, first_seed + n_random)
+    ]
     return named + damaged
 
 
@@ -46,8 +48,13 @@ def run_one(job: dict) -> dict:
         else:
             path = damaged_workbook(folder, job["seed"], job["cell"], job["package"])
             verdict = judge(path, folder / "out.xlsx")
-        return {"id": job["id"], "kind": job["kind"], "exit": verdict.exit_code, "problems": verdict.problems,
-                "seconds": time.perf_counter() - start}
+        return {
+            "id": job["id"],
+            "kind": job["kind"],
+            "exit": verdict.exit_code,
+            "problems": verdict.problems,
+            "seconds": time.perf_counter() - start,
+        }
 
 
 def worker(job_file: Path, start: int, stop: int) -> None:
@@ -62,8 +69,13 @@ def run_share(job_file: Path, todo: list[dict], start: int, stop: int) -> list[d
     results: list[dict] = []
     position = start
     while position < stop:
-        child = subprocess.Popen([sys.executable, __file__, "--worker", str(job_file), str(position), str(stop)],
-                                 stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT)
+        child = subprocess.Popen(
+            [sys.executable, __file__, "--worker", str(job_file), str(position), str(stop)],
+            stdout=subprocess.PIPE,
+            stderr=subprocess.PIPE,
+            text=True,
+            cwd=ROOT,
+        )
         assert child.stdout is not None
         for line in child.stdout:
             results.append(json.loads(line))
@@ -71,9 +83,18 @@ def run_share(job_file: Path, todo: list[dict], start: int, stop: int) -> list[d
         child.wait()
         if position < stop:  # the worker died on jobs[position]
             job = todo[position]
-            results.append({"id": job["id"], "kind": job["kind"], "exit": child.returncode, "seconds": 0.0,
-                            "problems": [f"the process died (exit {child.returncode}): "
-                                         f"{(child.stderr.read() if child.stderr else '')[-300:]!r}"]})
+            results.append(
+                {
+                    "id": job["id"],
+                    "kind": job["kind"],
+                    "exit": child.returncode,
+                    "seconds": 0.0,
+                    "problems": [
+                        f"the process died (exit {child.returncode}): "
+                        f"{(child.stderr.read() if child.stderr else '')[-300:]!r}"
+                    ],
+                }
+            )
             position += 1
     return results
 
@@ -94,8 +115,10 @@ def big_inputs() -> list[str]:
             code, _out, err, peak_kb = run_child("check", str(path), *args)
             seconds = time.perf_counter() - start
             answer = "checked" if code in (0, 1) else err.strip().splitlines()[0][:110]
-            lines.append(f"  {label}: exit {code} in {seconds:.1f} s, peak memory {peak_kb / 1024:.0f} MB "
-                         f"({path.stat().st_size / 1024:,.0f} kB file); {answer}")
+            lines.append(
+                f"  {label}: exit {code} in {seconds:.1f} s, peak memory {peak_kb / 1024:.0f} MB "
+                f"({path.stat().st_size / 1024:,.0f} kB file); {answer}"
+            )
         lines.append(f"  the same 6 kB file read by python-calamine alone: {_calamine_alone(path)}")
     return lines
 
@@ -107,10 +130,13 @@ def _calamine_alone(path: Path) -> str:
     def limit() -> None:
         resource.setrlimit(resource.RLIMIT_AS, (4 << 30, 4 << 30))
 
-    code = ("import python_calamine as c, sys; "
-            "c.CalamineWorkbook.from_path(sys.argv[1]).get_sheet_by_name('Loads').to_python()")
-    done = subprocess.run([sys.executable, "-c", code, str(path)], capture_output=True, text=True,
-                          preexec_fn=limit, timeout=120)
+    code = (
+        "import python_calamine as c, sys; "
+        "c.CalamineWorkbook.from_path(sys.argv[1]).get_sheet_by_name('Loads').to_python()"
+    )
+    done = subprocess.run(
+        [sys.executable, "-c", code, str(path)], capture_output=True, text=True, preexec_fn=limit, timeout=120
+    )
     first = next((line for line in done.stderr.splitlines() if "memory allocation" in line), "")
     return f"exit {done.returncode} ({first.strip() or 'no message'})"
 
@@ -140,20 +166,27 @@ def main() -> None:
     elapsed = time.perf_counter() - started
 
     handled = [r for r in results if not r["problems"]]
-    print(f"leakbudget robustness: {len(results)} bad inputs tried, {len(handled)} handled "
-          f"({100 * len(handled) / len(results):.1f} %) in {elapsed:.0f} s on {args.workers} workers")
-    for kind, label in (("named", "named bad files (tests/robustness_cases.py)"),
-                        ("random", f"random damage (seeds {args.seed}-{args.seed + args.random - 1})")):
+    print(
+        f"leakbudget robustness: {len(results)} bad inputs tried, {len(handled)} handled "
+        f"({100 * len(handled) / len(results):.1f} %) in {elapsed:.0f} s on {args.workers} workers"
+    )
+    for kind, label in (
+        ("named", "named bad files (tests/robustness_cases.py)"),
+        ("random", f"random damage (seeds {args.seed}-{args.seed + args.random - 1})"),
+    ):
         mine = [r for r in results if r["kind"] == kind]
         if not mine:
             continue
         codes = Counter(r["exit"] for r in mine)
         ok = sum(1 for r in mine if not r["problems"])
         times = sorted(r["seconds"] for r in mine)
-        print(f"  {label}: {len(mine)} tried, {ok} handled; exit codes "
-              + ", ".join(f"{code}: {n}" for code, n in sorted(codes.items(), key=lambda kv: str(kv[0])))
-              + f"; median {1000 * times[len(times) // 2]:.0f} ms per input, slowest "
-              + max(mine, key=lambda r: r["seconds"])["id"] + f" ({times[-1]:.1f} s)")
+        print(
+            f"  {label}: {len(mine)} tried, {ok} handled; exit codes "
+            + ", ".join(f"{code}: {n}" for code, n in sorted(codes.items(), key=lambda kv: str(kv[0])))
+            + f"; median {1000 * times[len(times) // 2]:.0f} ms per input, slowest "
+            + max(mine, key=lambda r: r["seconds"])["id"]
+            + f" ({times[-1]:.1f} s)"
+        )
     for line in big_inputs():
         print(line)
     failed = [r for r in results if r["problems"]]

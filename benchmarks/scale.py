@@ -28,8 +28,10 @@ from benchmarks.workbooks import make_workbook  # noqa: E402
 TARGET_VS_OPENPYXL = 0.6
 TARGET_ESTIMATE_S = 1.0
 OPENPYXL_ROUND_TRIP = "import sys, openpyxl; openpyxl.load_workbook(sys.argv[1]).save(sys.argv[2])"
-CALAMINE_READ = ("import sys, python_calamine; b = python_calamine.CalamineWorkbook.from_path(sys.argv[1]); "
-                 "[b.get_sheet_by_name(n).to_python() for n in b.sheet_names]")
+CALAMINE_READ = (
+    "import sys, python_calamine; b = python_calamine.CalamineWorkbook.from_path(sys.argv[1]); "
+    "[b.get_sheet_by_name(n).to_python() for n in b.sheet_names]"
+)
 
 
 def measure(command: list[str]) -> tuple[float, float]:
@@ -52,9 +54,9 @@ def best(command: list[str], runs: int) -> tuple[float, float]:
 
 def stages(path: Path, out: Path) -> dict[str, float]:
     """Seconds of each stage of a check, in this process (each stage once, as the command runs them)."""
-    from leakbudget.estimate import estimate, evaluate
-    from leakbudget.checking import CheckResult, check
     from leakbudget.api import bulk_work
+    from leakbudget.checking import CheckResult, check
+    from leakbudget.estimate import estimate, evaluate
     from leakbudget.output.check import result_sheets
     from leakbudget.workbook.read import read_project
     from leakbudget.xlsx.package import write_sheets
@@ -87,8 +89,10 @@ def main() -> None:
     parser.add_argument("--runs", type=int, default=None, help="runs per measurement (default 3, 1 from 50,000)")
     args = parser.parse_args()
     python = sys.executable
-    print(f"{'loads':>8} {'check s':>8} {'MB':>5} {'openpyxl s':>10} {'MB':>5} {'calamine s':>10} {'MB':>5} "
-          f"{'check/openpyxl':>15} {'check/calamine':>15}   stages of the check [s]")
+    print(
+        f"{'loads':>8} {'check s':>8} {'MB':>5} {'openpyxl s':>10} {'MB':>5} {'calamine s':>10} {'MB':>5} "
+        f"{'check/openpyxl':>15} {'check/calamine':>15}   stages of the check [s]"
+    )
     for n in args.sizes:
         runs = args.runs or (1 if n >= 50_000 else 3)
         with tempfile.TemporaryDirectory() as folder:
@@ -101,10 +105,14 @@ def main() -> None:
         verdict = "" if n < 10_000 else (" ok" if check_s / opx_s <= TARGET_VS_OPENPYXL else " ABOVE TARGET")
         breakdown = ", ".join(f"{k} {v:.2f}" for k, v in parts.items())
         flag = "" if n != 100_000 or parts["estimate+sum"] < TARGET_ESTIMATE_S else " (estimate+sum ABOVE TARGET)"
-        print(f"{n:>8,} {check_s:>8.2f} {check_mb:>5.0f} {opx_s:>10.2f} {opx_mb:>5.0f} {cal_s:>10.2f} {cal_mb:>5.0f} "
-              f"{check_s / opx_s:>12.2f}{verdict:<3} {check_s / cal_s:>15.1f}   {breakdown}{flag}")
-    print(f"targets: check/openpyxl ≤ {TARGET_VS_OPENPYXL} from 10,000 loads; estimate+sum < {TARGET_ESTIMATE_S:g} s "
-          "at 100,000 loads")
+        print(
+            f"{n:>8,} {check_s:>8.2f} {check_mb:>5.0f} {opx_s:>10.2f} {opx_mb:>5.0f} {cal_s:>10.2f} {cal_mb:>5.0f} "
+            f"{check_s / opx_s:>12.2f}{verdict:<3} {check_s / cal_s:>15.1f}   {breakdown}{flag}"
+        )
+    print(
+        f"targets: check/openpyxl ≤ {TARGET_VS_OPENPYXL} from 10,000 loads; estimate+sum < {TARGET_ESTIMATE_S:g} s "
+        "at 100,000 loads"
+    )
 
 
 if __name__ == "__main__":

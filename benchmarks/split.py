@@ -37,8 +37,15 @@ from leakbudget.provenance import Source
 from leakbudget.settings import Settings
 
 HOUSE_ROOMS = {
-    "Kitchen": "kitchen", "Pantry": "kitchen", "Laundry": "laundry", "Main bath": "bathroom",
-    "Guest bath": "bathroom", "Garage": "garage", "Workshop": "garage", "Patio": "outdoor", "Basement": "general",
+    "Kitchen": "kitchen",
+    "Pantry": "kitchen",
+    "Laundry": "laundry",
+    "Main bath": "bathroom",
+    "Guest bath": "bathroom",
+    "Garage": "garage",
+    "Workshop": "garage",
+    "Patio": "outdoor",
+    "Basement": "general",
     "Mudroom": "general",
 }
 US_SUPPLY = (120.0, 60.0)
@@ -65,22 +72,49 @@ def _appliances(categories: set[str], voltage_v: float, max_current_a: float, ma
     return sorted(out, key=lambda a: a.key)
 
 
-def _circuit(cid: str, dev: str, supply: tuple[float, float], rating: float, length_m: float,
-             rooms: tuple[str, ...], row: int) -> Circuit:
-    return Circuit(circuit_id=cid, device=device(dev), rcd_type=None, voltage_v=supply[0], frequency_hz=supply[1],
-                   supply_source=Source.measured("benchmark"), system="single", rating_a=rating,
-                   cable_length_m=length_m, cable_key="generic", rooms=rooms, note=None, row=row)
+def _circuit(
+    cid: str, dev: str, supply: tuple[float, float], rating: float, length_m: float, rooms: tuple[str, ...], row: int
+) -> Circuit:
+    return Circuit(
+        circuit_id=cid,
+        device=device(dev),
+        rcd_type=None,
+        voltage_v=supply[0],
+        frequency_hz=supply[1],
+        supply_source=Source.measured("benchmark"),
+        system="single",
+        rating_a=rating,
+        cable_length_m=length_m,
+        cable_key="generic",
+        rooms=rooms,
+        note=None,
+        row=row,
+    )
 
 
-def _load(name: str, circuit: str | None, appliance: str, power_w: float, room: str | None, fixed: bool,
-          row: int) -> Load:
-    return Load(name=name, circuit_id=circuit, appliance_key=appliance, quantity=1, leakage_ma=None,
-                y_capacitance_nf=None, insulation_resistance_mohm=None, power_w=power_w, current_a=None,
-                leg=parse_leg("L1", "single"), leg_text="L1", room=room, fixed=fixed, note=None, row=row)
+def _load(
+    name: str, circuit: str | None, appliance: str, power_w: float, room: str | None, fixed: bool, row: int
+) -> Load:
+    return Load(
+        name=name,
+        circuit_id=circuit,
+        appliance_key=appliance,
+        quantity=1,
+        leakage_ma=None,
+        y_capacitance_nf=None,
+        insulation_resistance_mohm=None,
+        power_w=power_w,
+        current_a=None,
+        leg=parse_leg("L1", "single"),
+        leg_text="L1",
+        room=room,
+        fixed=fixed,
+        note=None,
+        row=row,
+    )
 
 
-def _dwelling(rng: np.random.Generator, prefix: str, n_loads: int, circuits: list[Circuit], loads: list[Load]
-              ) -> None:
+def _dwelling(rng: np.random.Generator, prefix: str, n_loads: int, circuits: list[Circuit], loads: list[Load]) -> None:
     names = list(HOUSE_ROOMS)
     rooms = [names[k] for k in sorted(rng.choice(len(names), size=int(rng.integers(6, 9)), replace=False))]
     serving: dict[str, list[str]] = {r: [] for r in rooms}
@@ -94,8 +128,9 @@ def _dwelling(rng: np.random.Generator, prefix: str, n_loads: int, circuits: lis
                     served += (f"{prefix}{other}",)
                     serving[other].append(cid)
             serving[room].append(cid)
-            circuits.append(_circuit(cid, "gfci-a", US_SUPPLY, 20.0, float(rng.uniform(5, 40)), served,
-                                     len(circuits) + 2))
+            circuits.append(
+                _circuit(cid, "gfci-a", US_SUPPLY, 20.0, float(rng.uniform(5, 40)), served, len(circuits) + 2)
+            )
     fixed_leak: dict[str, float] = {}
     for k in range(n_loads):
         room = rooms[int(rng.integers(len(rooms)))]
@@ -106,8 +141,7 @@ def _dwelling(rng: np.random.Generator, prefix: str, n_loads: int, circuits: lis
         fixed = cid is not None and rng.random() < 0.08 and fixed_leak.get(cid, 0.0) + a.typical_ma < 0.6
         if fixed:
             fixed_leak[cid] = fixed_leak.get(cid, 0.0) + a.typical_ma
-        loads.append(_load(f"{prefix}{a.key} {k + 1}", cid, a.key, power, f"{prefix}{room}", fixed,
-                           len(loads) + 2))
+        loads.append(_load(f"{prefix}{a.key} {k + 1}", cid, a.key, power, f"{prefix}{room}", fixed, len(loads) + 2))
 
 
 def _project(circuits: list[Circuit], loads: list[Load], supply: tuple[float, float]) -> Project:
@@ -130,8 +164,10 @@ def open_floor(rng: np.random.Generator, n_loads: int) -> Project:
     weights = np.array([4.0 if a.key in ("desktop-pc", "monitor", "laptop-supply") else 1.0 for a in pool])
     weights /= weights.sum()
     n_circuits = max(4, n_loads // 25)
-    circuits = [_circuit(f"F{k + 1}", "rcd-30", EU_SUPPLY, 16.0, float(rng.uniform(10, 60)), (), k + 2)
-                for k in range(n_circuits)]
+    circuits = [
+        _circuit(f"F{k + 1}", "rcd-30", EU_SUPPLY, 16.0, float(rng.uniform(10, 60)), (), k + 2)
+        for k in range(n_circuits)
+    ]
     loads = []
     for k in range(n_loads):
         a = pool[int(rng.choice(len(pool), p=weights))]
@@ -170,10 +206,17 @@ def run(kind_name: str, instances: int | None = None, seed: int = 20261201) -> d
         headroom += plan.optimal and plan.headroom_optimal
         feasible += plan.feasible
     return {
-        "instances": count, "loads": kind.loads, "ratio_mean": statistics.fmean(ratios), "ratio_max": max(ratios),
-        "gap_new_max": max(new_ratio_gaps), "moves_mean": statistics.fmean(moves),
-        "time_mean_s": statistics.fmean(times), "time_max_s": max(times), "proven": proven / count,
-        "headroom_proven": headroom / count, "feasible": feasible / count,
+        "instances": count,
+        "loads": kind.loads,
+        "ratio_mean": statistics.fmean(ratios),
+        "ratio_max": max(ratios),
+        "gap_new_max": max(new_ratio_gaps),
+        "moves_mean": statistics.fmean(moves),
+        "time_mean_s": statistics.fmean(times),
+        "time_max_s": max(times),
+        "proven": proven / count,
+        "headroom_proven": headroom / count,
+        "feasible": feasible / count,
     }
 
 
@@ -182,14 +225,19 @@ def main() -> None:
     parser.add_argument("--quick", action="store_true", help="fewer instances (a smoke run)")
     parser.add_argument("--kind", choices=list(KINDS), action="append", help="run only these kinds")
     args = parser.parse_args()
-    header = (f"{'kind':<16}{'n':>4}{'loads':>7}{'used/LB mean':>14}{'worst':>8}{'new gap':>9}{'moves':>8}"
-              f"{'time mean':>11}{'worst':>8}{'optimal':>9}{'+headroom':>11}")
+    header = (
+        f"{'kind':<16}{'n':>4}{'loads':>7}{'used/LB mean':>14}{'worst':>8}{'new gap':>9}{'moves':>8}"
+        f"{'time mean':>11}{'worst':>8}{'optimal':>9}{'+headroom':>11}"
+    )
     print(header)
     for name in args.kind or list(KINDS):
         r = run(name, instances=(10 if name == "house-50" else 1) if args.quick else None)
-        print(f"{name:<16}{r['instances']:>4}{r['loads']:>7}{r['ratio_mean']:>14.4f}{r['ratio_max']:>8.4f}"
-              f"{r['gap_new_max']:>9}{r['moves_mean']:>8.1f}{r['time_mean_s']:>10.2f}s{r['time_max_s']:>7.2f}s"
-              f"{100 * r['proven']:>8.0f}%{100 * r['headroom_proven']:>10.0f}%", flush=True)
+        print(
+            f"{name:<16}{r['instances']:>4}{r['loads']:>7}{r['ratio_mean']:>14.4f}{r['ratio_max']:>8.4f}"
+            f"{r['gap_new_max']:>9}{r['moves_mean']:>8.1f}{r['time_mean_s']:>10.2f}s{r['time_max_s']:>7.2f}s"
+            f"{100 * r['proven']:>8.0f}%{100 * r['headroom_proven']:>10.0f}%",
+            flush=True,
+        )
 
 
 if __name__ == "__main__":

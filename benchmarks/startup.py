@@ -55,12 +55,15 @@ def main(runs: int) -> None:
         cases = {
             "import openpyxl": wall_times([python, "-c", "import openpyxl"], runs, bytecode),
             "leakbudget --help": wall_times([python, "-m", "leakbudget", "--help"], runs, bytecode),
-            "leakbudget check (20 loads)": wall_times([python, "-m", "leakbudget", "check", str(work)], runs,
-                                                      bytecode, fresh),
+            "leakbudget check (20 loads)": wall_times(
+                [python, "-m", "leakbudget", "check", str(work)], runs, bytecode, fresh
+            ),
         }
     base = min(cases["import openpyxl"])
-    print(f"{'command':<30}{'fastest s':>10}{'median s':>10}{'ratio':>8}   (ratio = fastest / fastest import "
-          f"openpyxl; target ≤ {TARGET_RATIO:g})")
+    print(
+        f"{'command':<30}{'fastest s':>10}{'median s':>10}{'ratio':>8}   (ratio = fastest / fastest import "
+        f"openpyxl; target ≤ {TARGET_RATIO:g})"
+    )
     for name, times in cases.items():
         print(f"{name:<30}{min(times):>10.3f}{statistics.median(times):>10.3f}{min(times) / base:>8.2f}")
 

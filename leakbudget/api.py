@@ -109,8 +109,9 @@ def _writes(write: bool, out: str | Path | None) -> bool:
     return write or out is not None
 
 
-def check(path: str | Path, *, write: bool = False, out: str | Path | None = None,
-          progress: Progress | None = None) -> CheckJob:
+def check(
+    path: str | Path, *, write: bool = False, out: str | Path | None = None, progress: Progress | None = None
+) -> CheckJob:
     """Check a workbook: estimate every load, judge every circuit, the trip likelihood and any readings.
 
     Writes nothing unless ``write`` is True (the ``Circuit results`` and ``Load results`` sheets go into the
@@ -135,8 +136,7 @@ def check(path: str | Path, *, write: bool = False, out: str | Path | None = Non
     return CheckJob(result, written)
 
 
-def _read_for_writing(path: Path, out: str | Path | None, write: bool, progress: Progress | None = None
-                      ) -> Project:
+def _read_for_writing(path: Path, out: str | Path | None, write: bool, progress: Progress | None = None) -> Project:
     """Read the workbook; when results are to be written, first (before any work) refuse a destination that a
     spreadsheet program holds open. A source open there is read as last saved, and a warning says so."""
     from leakbudget.xlsx.files import lock_file, refuse_if_open
@@ -147,8 +147,9 @@ def _read_for_writing(path: Path, out: str | Path | None, write: bool, progress:
     project = read_project(path, progress)
     lock = lock_file(path)
     if lock is not None:
-        project.warnings.append(f"{path.name} is open in a spreadsheet program (lock file {lock}); changes not "
-                                "saved there were not checked")
+        project.warnings.append(
+            f"{path.name} is open in a spreadsheet program (lock file {lock}); changes not saved there were not checked"
+        )
     return project
 
 
@@ -181,8 +182,9 @@ class ReviewJob:
         return _frame(self._document["findings"])
 
 
-def review(path: str | Path, code: str | None = None, *, write: bool = False, out: str | Path | None = None
-           ) -> ReviewJob:
+def review(
+    path: str | Path, code: str | None = None, *, write: bool = False, out: str | Path | None = None
+) -> ReviewJob:
     """Check a workbook and review it against ``code`` (nec-2020, nec-2023, iec-60364, bs-7671; default: the Code
     setting, else by supply frequency). Writes the ``Review findings`` sheet only when ``write`` is True or into
     ``out``."""
@@ -228,8 +230,14 @@ class SplitJob:
         return _frame(self._document["circuits"])
 
 
-def split(path: str | Path, options: SplitOptions | None = None, *, write: bool = False,
-          out: str | Path | None = None, progress: Progress | None = None) -> SplitJob:
+def split(
+    path: str | Path,
+    options: SplitOptions | None = None,
+    *,
+    write: bool = False,
+    out: str | Path | None = None,
+    progress: Progress | None = None,
+) -> SplitJob:
     """Plan the fewest changes that bring every protected circuit within its budget and current limit
     (:func:`leakbudget.planner.split.plan_split`). Writes the ``Split plan`` sheet only when ``write`` is True or
     into ``out``; the Loads sheet itself is never changed.
@@ -259,8 +267,14 @@ class ReportJob:
     plan: SplitPlan | None = None
 
 
-def report(path: str | Path, html: str | Path | None = None, pdf: str | Path | None = None,
-           code: str | None = None, split: SplitOptions | None = None, generated: date | None = None) -> ReportJob:
+def report(
+    path: str | Path,
+    html: str | Path | None = None,
+    pdf: str | Path | None = None,
+    code: str | None = None,
+    split: SplitOptions | None = None,
+    generated: date | None = None,
+) -> ReportJob:
     """Check and review a workbook (writing nothing into it), plan a split when ``split`` options are given, and
     write the hand-over report as HTML and/or PDF (at least one).
 
@@ -280,8 +294,13 @@ def report(path: str | Path, html: str | Path | None = None, pdf: str | Path | N
         from leakbudget.planner.split import plan_split
 
         plan = plan_split(project, split)
-    content = build_report(rv.check, findings=rv.findings, generated=generated,
-                           review_basis=f"{rv.code.label} ({rv.code_source})", plan=_plan_document(plan))
+    content = build_report(
+        rv.check,
+        findings=rv.findings,
+        generated=generated,
+        review_basis=f"{rv.code.label} ({rv.code_source})",
+        plan=_plan_document(plan),
+    )
     written = write_report(content, path, html, pdf)
     return ReportJob(rv, content, written, plan)
 
@@ -310,7 +329,10 @@ def copy_example(folder: str | Path, name: str = "alder-quay-remodel.xlsx") -> P
     src = example_path(name)
     dest = Path(folder) / name
     if dest.exists():
-        raise WorkbookError("a file of this name is already here; the demo will not overwrite it", path=dest,
-                            hint="run the demo in another folder, or move the file away")
+        raise WorkbookError(
+            "a file of this name is already here; the demo will not overwrite it",
+            path=dest,
+            hint="run the demo in another folder, or move the file away",
+        )
     shutil.copyfile(src, dest)
     return dest

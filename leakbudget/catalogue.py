@@ -11,9 +11,9 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 from leakbudget.input.ranges import CABLE_CAPACITANCE_PF_PER_M, FREQUENCY_HZ, STANDING_LEAKAGE_MA, VOLTAGE_V
-from leakbudget.provenance import Kind, Source, source_from_text
 from leakbudget.input.schema import APPLIANCES, CABLES
 from leakbudget.input.table import RawTable, shipped_table
+from leakbudget.provenance import Kind, Source, source_from_text
 
 NATURES = ("capacitive", "resistive", "mixed")
 WAVEFORMS = ("sine", "pulsating-dc", "high-frequency", "smooth-dc")
@@ -65,7 +65,7 @@ class Catalogue:
     cables: dict[str, Cable]
     overridden: tuple[str, ...] = ()  # keys of built-in rows the user's workbook replaced
 
-    def with_user_rows(self, appliances: list[Appliance], cables: list[Cable]) -> "Catalogue":
+    def with_user_rows(self, appliances: list[Appliance], cables: list[Cable]) -> Catalogue:
         merged_a = dict(self.appliances)
         merged_c = dict(self.cables)
         overridden = [a.key for a in appliances if a.key in merged_a] + [c.key for c in cables if c.key in merged_c]
@@ -88,8 +88,9 @@ def _unique_key(table: RawTable, row: tuple[int, list[object]], seen: dict[str, 
     if not key:
         raise table.error(row, "Key", "the key is blank", hint=f"give every {kind} row a key")
     if key in seen:
-        raise table.error(row, "Key", f"the key '{key}' is used twice (also row {seen[key]})",
-                          hint="keep one row per key")
+        raise table.error(
+            row, "Key", f"the key '{key}' is used twice (also row {seen[key]})", hint="keep one row per key"
+        )
     seen[key] = row[0]
     return key
 
@@ -102,14 +103,19 @@ def appliances_from_table(table: RawTable, origin_prefix: str | None = None) -> 
         key = _unique_key(table, row, seen, "catalogue")
         typical = table.number(row, "Typical leakage", "mA", positive=False, plausible=STANDING_LEAKAGE_MA)
         if typical is None:
-            raise table.error(row, "Typical leakage", "the typical leakage is blank",
-                              hint="type the typical leakage per unit in mA")
+            raise table.error(
+                row, "Typical leakage", "the typical leakage is blank", hint="type the typical leakage per unit in mA"
+            )
         upper = table.number(row, "Upper leakage", "mA", plausible=STANDING_LEAKAGE_MA)
         if upper is None:
             upper = typical
         if upper < typical:
-            raise table.error(row, "Upper leakage", f"the upper leakage {upper:g} mA is below the typical {typical:g} mA",
-                              hint="the upper value must be at least the typical value")
+            raise table.error(
+                row,
+                "Upper leakage",
+                f"the upper leakage {upper:g} mA is below the typical {typical:g} mA",
+                hint="the upper value must be at least the typical value",
+            )
         origin = BUILT_IN if origin_prefix is None else f"{origin_prefix} row {row[0]}"
         user = origin_prefix is not None
         typical_src = table.text(row, "Typical source")
@@ -128,14 +134,17 @@ def appliances_from_table(table: RawTable, origin_prefix: str | None = None) -> 
                 upper_ma=upper,
                 reference_voltage_v=table.number(row, "Reference voltage", "V", positive=True, plausible=VOLTAGE_V)
                 or DEFAULT_REFERENCE_VOLTAGE_V,
-                reference_frequency_hz=table.number(row, "Reference frequency", "Hz", positive=True,
-                                                    plausible=FREQUENCY_HZ)
+                reference_frequency_hz=table.number(
+                    row, "Reference frequency", "Hz", positive=True, plausible=FREQUENCY_HZ
+                )
                 or DEFAULT_REFERENCE_FREQUENCY_HZ,
                 typical_power_w=table.number(row, "Typical power", "W"),
-                typical_source=source_from_text(typical_src) if typical_src else
-                (Source(Kind.USER, f"{origin} (no source given)") if user else Source.from_memory()),
-                upper_source=source_from_text(upper_src) if upper_src else
-                (Source(Kind.USER, f"{origin} (no source given)") if user else Source.from_memory()),
+                typical_source=source_from_text(typical_src)
+                if typical_src
+                else (Source(Kind.USER, f"{origin} (no source given)") if user else Source.from_memory()),
+                upper_source=source_from_text(upper_src)
+                if upper_src
+                else (Source(Kind.USER, f"{origin} (no source given)") if user else Source.from_memory()),
                 origin=origin,
             )
         )
@@ -150,16 +159,22 @@ def cables_from_table(table: RawTable, origin_prefix: str | None = None) -> list
         key = _unique_key(table, row, seen, "cable")
         capacitance = table.number(row, "Capacitance", "pF/m", positive=True, plausible=CABLE_CAPACITANCE_PF_PER_M)
         if capacitance is None:
-            raise table.error(row, "Capacitance", "the capacitance is blank",
-                              hint="type the capacitance of one line conductor to earth in pF/m")
+            raise table.error(
+                row,
+                "Capacitance",
+                "the capacitance is blank",
+                hint="type the capacitance of one line conductor to earth in pF/m",
+            )
         source = table.text(row, "Source")
-        out.append(Cable(
-            key=key,
-            description=table.text(row, "Description") or key,
-            capacitance_pf_per_m=capacitance,
-            source=source_from_text(source) if source else Source.from_memory(),
-            origin=BUILT_IN if origin_prefix is None else f"{origin_prefix} row {row[0]}",
-        ))
+        out.append(
+            Cable(
+                key=key,
+                description=table.text(row, "Description") or key,
+                capacitance_pf_per_m=capacitance,
+                source=source_from_text(source) if source else Source.from_memory(),
+                origin=BUILT_IN if origin_prefix is None else f"{origin_prefix} row {row[0]}",
+            )
+        )
     return out
 
 

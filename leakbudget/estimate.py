@@ -13,8 +13,8 @@ Times quantity. The cable run of each circuit adds its own computed line (capaci
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from collections.abc import Sequence
+from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -103,12 +103,21 @@ def cable_result(circuit: Circuit, project: Project) -> LoadResult | None:
     n = len(phys.LEG_ANGLES_DEG[circuit.system])
     phasor = 1j * per_conductor * phys.conductor_rotation_sum(circuit.system)
     return LoadResult(
-        name=f"cable run ({circuit.cable_length_m:.4g} m {cable.key})", circuit_id=circuit.circuit_id, load=None,
-        appliance=None, quantity=n, per_unit_ma=per_conductor, leakage_ma=per_conductor * n, phasor_ma=phasor,
+        name=f"cable run ({circuit.cable_length_m:.4g} m {cable.key})",
+        circuit_id=circuit.circuit_id,
+        load=None,
+        appliance=None,
+        quantity=n,
+        per_unit_ma=per_conductor,
+        leakage_ma=per_conductor * n,
+        phasor_ma=phasor,
         basis=COMPUTED,
-        source=(f"computed: 2πfCV per line conductor, {cable.capacitance_pf_per_m:g} pF/m × "
-                f"{circuit.cable_length_m:.4g} m ({cable.source}) at {_supply_text(circuit.voltage_v, circuit.frequency_hz)}"),
-        voltage_v=circuit.voltage_v, frequency_hz=circuit.frequency_hz,
+        source=(
+            f"computed: 2πfCV per line conductor, {cable.capacitance_pf_per_m:g} pF/m × "
+            f"{circuit.cable_length_m:.4g} m ({cable.source}) at {_supply_text(circuit.voltage_v, circuit.frequency_hz)}"
+        ),
+        voltage_v=circuit.voltage_v,
+        frequency_hz=circuit.frequency_hz,
     )
 
 
@@ -117,8 +126,10 @@ def _catalogue_text(appliance: Appliance, basis: str, voltage_v: float, frequenc
     src = appliance.upper_source if basis == "upper" else appliance.typical_source
     text = f"catalogue '{appliance.key}' {basis} {value:g} mA: {src}"
     if (appliance.reference_voltage_v, appliance.reference_frequency_hz) != (voltage_v, frequency_hz):
-        text += (f"; rescaled from {_supply_text(appliance.reference_voltage_v, appliance.reference_frequency_hz)}"
-                 f" ({appliance.nature})")
+        text += (
+            f"; rescaled from {_supply_text(appliance.reference_voltage_v, appliance.reference_frequency_hz)}"
+            f" ({appliance.nature})"
+        )
     if appliance.origin != "built-in catalogue":
         text += f"; row from {appliance.origin}"
     return text
@@ -133,8 +144,13 @@ def _computed_text(load: Load, voltage_v: float, frequency_hz: float) -> str:
     return f"computed: {'; '.join(parts)} at {_supply_text(voltage_v, frequency_hz)}"
 
 
-def per_unit_phasors(loads: Sequence[Load], appliances: Sequence[Appliance | None], voltage_v: np.ndarray,
-                     frequency_hz: np.ndarray, basis: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def per_unit_phasors(
+    loads: Sequence[Load],
+    appliances: Sequence[Appliance | None],
+    voltage_v: np.ndarray,
+    frequency_hz: np.ndarray,
+    basis: str,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Per-unit leakage phasor of each load at the given supply, relative to its own line voltage [mA], with
     which loads are measured and which computed (the rest are catalogue figures). The one estimate formula.
 
@@ -147,11 +163,13 @@ def per_unit_phasors(loads: Sequence[Load], appliances: Sequence[Appliance | Non
     nan = math.nan
     measured_ma = np.array([x.leakage_ma if x.leakage_ma is not None else nan for x in loads], dtype=float)
     y_cap_nf = np.array([x.y_capacitance_nf if x.y_capacitance_nf is not None else nan for x in loads], dtype=float)
-    ins_mohm = np.array([x.insulation_resistance_mohm if x.insulation_resistance_mohm is not None else nan
-                         for x in loads], dtype=float)
+    ins_mohm = np.array(
+        [x.insulation_resistance_mohm if x.insulation_resistance_mohm is not None else nan for x in loads], dtype=float
+    )
     angle = np.radians([phys.NATURE_ANGLE_DEG[a.nature] if a is not None else 90.0 for a in appliances])
-    value_ma = np.array([(a.upper_ma if basis == "upper" else a.typical_ma) if a is not None else 0.0
-                         for a in appliances])
+    value_ma = np.array(
+        [(a.upper_ma if basis == "upper" else a.typical_ma) if a is not None else 0.0 for a in appliances]
+    )
     ref_v = np.array([a.reference_voltage_v if a is not None else 1.0 for a in appliances])
     ref_f = np.array([a.reference_frequency_hz if a is not None else 1.0 for a in appliances])
 
@@ -210,11 +228,22 @@ def estimate(project: Project) -> list[LoadResult]:
             key = (appliance.key, v, f)
             text = catalogue_texts.get(key) or catalogue_texts.setdefault(key, _catalogue_text(appliance, basis, v, f))
             kind = CATALOGUE
-        results.append(LoadResult(
-            name=load.name, circuit_id=load.circuit_id, load=load, appliance=appliance, quantity=load.quantity,
-            per_unit_ma=float(per_unit[i]), leakage_ma=float(per_unit[i] * quantity[i]),
-            phasor_ma=complex(phasor[i]), basis=kind, source=text, voltage_v=v, frequency_hz=f,
-        ))
+        results.append(
+            LoadResult(
+                name=load.name,
+                circuit_id=load.circuit_id,
+                load=load,
+                appliance=appliance,
+                quantity=load.quantity,
+                per_unit_ma=float(per_unit[i]),
+                leakage_ma=float(per_unit[i] * quantity[i]),
+                phasor_ma=complex(phasor[i]),
+                basis=kind,
+                source=text,
+                voltage_v=v,
+                frequency_hz=f,
+            )
+        )
     for circuit in project.circuits:
         line = cable_result(circuit, project)
         if line is not None:
@@ -249,13 +278,22 @@ def evaluate(project: Project, loads: list[LoadResult]) -> list[CircuitResult]:
         dev = circuit.device
         gate = float(vector[i] if settings.sum_rule == "phasor" else arithmetic[i])
         budget = budget_ma(dev, fraction) if dev.protected else math.nan
-        results.append(CircuitResult(
-            circuit=circuit, leakage_ma=float(arithmetic[i]), phasor_ma=float(vector[i]), gate_ma=gate,
-            cable_ma=float(cable[i]), budget_ma=budget,
-            budget_source=budget_source(dev, fraction, "Budget fraction" in settings.from_user),
-            status=status(dev, gate, budget), headroom_used=gate / budget if dev.protected and budget > 0 else math.nan,
-            largest=largest[i][1], largest_ma=max(largest[i][0], 0.0), load_count=int(counts[i]),
-        ))
+        results.append(
+            CircuitResult(
+                circuit=circuit,
+                leakage_ma=float(arithmetic[i]),
+                phasor_ma=float(vector[i]),
+                gate_ma=gate,
+                cable_ma=float(cable[i]),
+                budget_ma=budget,
+                budget_source=budget_source(dev, fraction, "Budget fraction" in settings.from_user),
+                status=status(dev, gate, budget),
+                headroom_used=gate / budget if dev.protected and budget > 0 else math.nan,
+                largest=largest[i][1],
+                largest_ma=max(largest[i][0], 0.0),
+                load_count=int(counts[i]),
+            )
+        )
     return results
 
 
@@ -295,15 +333,19 @@ def stand_in_readings(project: Project, results: list[LoadResult]) -> None:
         circuit = circuits.get(load.circuit_id) if load.circuit_id else None
         rotation = phys.leg_rotation(load.leg, circuit.system) if circuit else 1.0
         units = ", ".join(f"'{m.name}' (Loads row {m.load.row})" for m in measured[key])  # type: ignore[union-attr]
-        values = ", ".join(f"{m.load.leakage_ma:g} mA at {m.voltage_v:g} V {m.frequency_hz:g} Hz"  # type: ignore[union-attr]
-                           for m in measured[key])
+        values = ", ".join(
+            f"{m.load.leakage_ma:g} mA at {m.voltage_v:g} V {m.frequency_hz:g} Hz"  # type: ignore[union-attr]
+            for m in measured[key]
+        )
         r.per_unit_ma = abs(per_unit)
         r.leakage_ma = abs(per_unit) * r.quantity
         r.phasor_ma = per_unit * rotation * r.quantity
         r.basis = MEASURED
         r.measured_on = units
         mean = "mean of the readings on" if len(measured[key]) > 1 else "reading on"
-        r.source = (f"measured on an identical unit: {mean} {units}, same appliance '{load.appliance_key or '-'}' "
-                    f"and model '{load.model}' ({values})")
+        r.source = (
+            f"measured on an identical unit: {mean} {units}, same appliance '{load.appliance_key or '-'}' "
+            f"and model '{load.model}' ({values})"
+        )
         if (measured[key][0].voltage_v, measured[key][0].frequency_hz) != (r.voltage_v, r.frequency_hz):
             r.source += f"; rescaled to {r.voltage_v:g} V {r.frequency_hz:g} Hz ({nature})"

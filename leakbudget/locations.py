@@ -78,16 +78,22 @@ def rows_from_table(table: RawTable, origin_prefix: str | None = None) -> list[L
         text = table.text(row, "Room name")
         words = normalise_room(text or "")
         if not words:
-            raise table.error(row, "Room name", "the room name is blank",
-                              hint="type a room name or a word in one, e.g. 'Snug'")
+            raise table.error(
+                row, "Room name", "the room name is blank", hint="type a room name or a word in one, e.g. 'Snug'"
+            )
         if words in seen:
-            raise table.error(row, "Room name", f"the room name '{text}' is given twice (also row {seen[words]})",
-                              hint="keep one row per room name")
+            raise table.error(
+                row,
+                "Room name",
+                f"the room name '{text}' is given twice (also row {seen[words]})",
+                hint="keep one row per room name",
+            )
         seen[words] = row[0]
         kind = table.choice(row, "Location kind", tuple(LOCATION_KINDS))
         if kind is None:
-            raise table.error(row, "Location kind", "the location kind is blank",
-                              hint=f"use one of {', '.join(LOCATION_KINDS)}")
+            raise table.error(
+                row, "Location kind", "the location kind is blank", hint=f"use one of {', '.join(LOCATION_KINDS)}"
+            )
         origin = BUILT_IN_ORIGIN if origin_prefix is None else f"{origin_prefix} row {row[0]}"
         rows.append(LocationRow(words, kind, origin))
     return rows

@@ -57,8 +57,14 @@ class Load:
 # What a Readings row's Conditions say: every load running, or loads connected but not running.
 ALL_ON = "all on"
 IDLE = "idle"
-CONDITION_WORDS = {"all on": ALL_ON, "all loads on": ALL_ON, "on": ALL_ON, "running": ALL_ON, "idle": IDLE,
-                   "standby": IDLE}
+CONDITION_WORDS = {
+    "all on": ALL_ON,
+    "all loads on": ALL_ON,
+    "on": ALL_ON,
+    "running": ALL_ON,
+    "idle": IDLE,
+    "standby": IDLE,
+}
 
 
 @dataclass(slots=True)

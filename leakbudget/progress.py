@@ -18,8 +18,7 @@ class Progress(Protocol):
         """``done`` of ``total`` items of ``stage`` are finished (``done == total`` at the end of the stage)."""
 
 
-def tracked(items: Iterable[_T], total: int, stage: str, progress: Progress | None, every: int = 1000
-            ) -> Iterator[_T]:
+def tracked(items: Iterable[_T], total: int, stage: str, progress: Progress | None, every: int = 1000) -> Iterator[_T]:
     """Yield ``items``, telling ``progress`` every ``every`` items and at the end (a no-op wrapper without one)."""
     if progress is None:
         yield from items

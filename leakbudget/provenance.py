@@ -31,25 +31,25 @@ class Source:
         return self.text
 
     @staticmethod
-    def published(citation: str) -> "Source":
+    def published(citation: str) -> Source:
         """A published standard or handbook, e.g. ``"BS 7671:2018 reg. 531.3.2"``."""
         return Source(Kind.PUBLISHED, citation)
 
     @staticmethod
-    def measured(detail: str = "measured") -> "Source":
+    def measured(detail: str = "measured") -> Source:
         return Source(Kind.MEASURED, detail)
 
     @staticmethod
-    def computed(detail: str) -> "Source":
+    def computed(detail: str) -> Source:
         return Source(Kind.COMPUTED, detail)
 
     @staticmethod
-    def from_memory(detail: str = "typical, from memory") -> "Source":
+    def from_memory(detail: str = "typical, from memory") -> Source:
         text = detail if "from memory" in detail else f"{detail} (typical, from memory)"
         return Source(Kind.FROM_MEMORY, text)
 
     @staticmethod
-    def common_practice(detail: str) -> "Source":
+    def common_practice(detail: str) -> Source:
         text = detail if "common practice" in detail else f"{detail} (common practice)"
         return Source(Kind.COMMON_PRACTICE, text)
 

@@ -27,13 +27,11 @@ import math
 from dataclasses import dataclass
 
 from leakbudget import risk
-from leakbudget.risk import TripProbability
 from leakbudget.devices import Status, status
 from leakbudget.estimate import CATALOGUE, Estimate
 from leakbudget.model import IDLE, Reading
 from leakbudget.provenance import Source
-
-
+from leakbudget.risk import TripProbability
 
 CALIBRATE_ADVICE = "consider calibrating this circuit with the reading (Calibrate = yes)"
 FAR_ABOVE = "far above"
@@ -77,17 +75,21 @@ class ReadingResult:
     calibration_note: str | None  # how it was calibrated, or why it could not be
 
 
-def reading_verdict(reading_ma: float, conditions: str, low_ma: float, high_ma: float, meter_accuracy: float
-             ) -> tuple[str, str]:
+def reading_verdict(
+    reading_ma: float, conditions: str, low_ma: float, high_ma: float, meter_accuracy: float
+) -> tuple[str, str]:
     """Flag and message for a reading against the estimate's 95 % interval [mA] (see the module notes)."""
     if reading_ma * (1.0 - meter_accuracy) > high_ma:
-        return FAR_ABOVE, ("far above the estimate: a load is probably faulty (leaking far above its kind) or a "
-                           "load is missing from the Loads sheet; find it before relying on the estimate")
+        return FAR_ABOVE, (
+            "far above the estimate: a load is probably faulty (leaking far above its kind) or a "
+            "load is missing from the Loads sheet; find it before relying on the estimate"
+        )
     if reading_ma * (1.0 + meter_accuracy) < low_ma:
         if conditions == IDLE:
             return CONSISTENT, "below the estimate, as expected with loads idle (not flagged)"
-        return FAR_BELOW, ("far below the estimate: the catalogue values are probably too high for this site; "
-                           + CALIBRATE_ADVICE)
+        return FAR_BELOW, (
+            "far below the estimate: the catalogue values are probably too high for this site; " + CALIBRATE_ADVICE
+        )
     return CONSISTENT, "consistent with the estimate"
 
 
@@ -100,7 +102,7 @@ def calibration_factor(fixed: complex, catalogue: complex, reading_ma: float) ->
     if a == 0.0:
         return None
     b = 2.0 * (fixed * catalogue.conjugate()).real
-    c = abs(fixed) ** 2 - reading_ma ** 2
+    c = abs(fixed) ** 2 - reading_ma**2
     disc = b * b - 4.0 * a * c
     if disc < 0.0:
         return None
@@ -116,9 +118,12 @@ def _calibrate(result: Estimate, reading: Reading) -> tuple[Calibration | None, 
     catalogue = sum((r.phasor_ma for r in mine if r.basis == CATALOGUE), 0j)
     k = calibration_factor(fixed, catalogue, reading.reading_ma)
     if k is None:
-        why = ("the circuit has no catalogue values to calibrate" if catalogue == 0 else
-               "no scaling of the catalogue values reaches the reading (the measured and computed parts alone "
-               "exceed it); check the reading and the measured values")
+        why = (
+            "the circuit has no catalogue values to calibrate"
+            if catalogue == 0
+            else "no scaling of the catalogue values reaches the reading (the measured and computed parts alone "
+            "exceed it); check the reading and the measured values"
+        )
         return None, f"not calibrated: {why}"
     settings = result.project.settings
     params = risk.RiskParameters.from_settings(settings)
@@ -133,20 +138,25 @@ def _calibrate(result: Estimate, reading: Reading) -> tuple[Calibration | None, 
         for r in mine:
             d = risk.distribution(r, params)
             if r.basis == CATALOGUE:
-                d = risk.LeakageDistribution(risk.UNIFORM, k * r.leakage_ma, params.meter_accuracy, d.coefficient,
-                                             d.switch_on_factor)
+                d = risk.LeakageDistribution(
+                    risk.UNIFORM, k * r.leakage_ma, params.meter_accuracy, d.coefficient, d.switch_on_factor
+                )
             loads.append(d)
         samples = result.risk.samples if result.risk is not None else risk.SAMPLES_MAX
-        probability = risk.trip_probability(loads, dev, sum_rule=settings.sum_rule, samples=samples,
-                                            seed=params.seed)
+        probability = risk.trip_probability(loads, dev, sum_rule=settings.sum_rule, samples=samples, seed=params.seed)
     calibration = Calibration(
-        factor=k, leakage_ma=arithmetic, phasor_ma=phasor, gate_ma=gate,
+        factor=k,
+        leakage_ma=arithmetic,
+        phasor_ma=phasor,
+        gate_ma=gate,
         headroom_used=gate / budget if dev.protected and budget > 0 else math.nan,
         status=status(dev, gate, budget),
         risk=probability,
     )
-    how = (f"catalogue values × {k:.3g} so that the phasor sum equals the reading (Readings row {reading.row}); "
-           "measured and computed values kept; calibrated values taken as measured for the likelihood")
+    how = (
+        f"catalogue values × {k:.3g} so that the phasor sum equals the reading (Readings row {reading.row}); "
+        "measured and computed values kept; calibrated values taken as measured for the likelihood"
+    )
     return calibration, how
 
 
@@ -165,14 +175,26 @@ def reconcile(result: Estimate) -> list[ReadingResult]:
         cid = reading.circuit_id
         if cid not in intervals:
             loads = [risk.distribution(r, params) for r in result.loads if r.circuit_id == cid]
-            q = risk.leakage_quantiles(loads, (tail, 0.5, 1.0 - tail), sum_rule="phasor", samples=samples,
-                                       seed=params.seed)
+            q = risk.leakage_quantiles(
+                loads, (tail, 0.5, 1.0 - tail), sum_rule="phasor", samples=samples, seed=params.seed
+            )
             intervals[cid] = (float(q[0]), float(q[1]), float(q[2]))
         low, median, high = intervals[cid]
         flag, message = reading_verdict(reading.reading_ma, reading.conditions, low, high, params.meter_accuracy)
         calibration, note = _calibrate(result, reading) if reading.calibrate else (None, None)
         if flag == FAR_BELOW and calibration is not None:
             message = message.replace(CALIBRATE_ADVICE, "calibrated with this reading")
-        out.append(ReadingResult(reading, result.circuits[index[cid.lower()]].phasor_ma, low, median, high, flag,
-                                 message, calibration, note))
+        out.append(
+            ReadingResult(
+                reading,
+                result.circuits[index[cid.lower()]].phasor_ma,
+                low,
+                median,
+                high,
+                flag,
+                message,
+                calibration,
+                note,
+            )
+        )
     return out

@@ -51,10 +51,12 @@ import numpy as np
 from leakbudget.devices import Device
 from leakbudget.estimate import CATALOGUE, MEASURED, Estimate, LoadResult
 from leakbudget.settings import (
-    COMPONENT_TOLERANCE_DEFAULT, METER_ACCURACY_DEFAULT, SEED_DEFAULT, SWITCH_ON_FACTOR_DEFAULT,
+    COMPONENT_TOLERANCE_DEFAULT,
+    METER_ACCURACY_DEFAULT,
+    SEED_DEFAULT,
+    SWITCH_ON_FACTOR_DEFAULT,
     UPPER_PERCENTILE_DEFAULT,
 )
-
 
 # --- Sample count and work sizes -----------------------------------------------------------------------------------
 SAMPLES_MAX = 10_000  # auto: standard error at most 0.5 / √10,000 = 0.005
@@ -124,7 +126,7 @@ class RiskParameters:
     basis: str = "typical"  # the catalogue value the point estimate used (Basis setting)
 
     @classmethod
-    def from_settings(cls, settings: Any) -> "RiskParameters":
+    def from_settings(cls, settings: Any) -> RiskParameters:
         return cls(
             meter_accuracy=float(settings["Meter accuracy"]),
             component_tolerance=float(settings["Component tolerance"]),
@@ -212,25 +214,47 @@ class _Rows:
     cap: np.ndarray  # lognormal draws are bounded at cap × centre
 
     @classmethod
-    def from_arrays(cls, group: np.ndarray, shape: np.ndarray, centre: np.ndarray, spread: np.ndarray,
-                    coefficient: np.ndarray, factor: np.ndarray, cap: np.ndarray) -> "_Rows":
+    def from_arrays(
+        cls,
+        group: np.ndarray,
+        shape: np.ndarray,
+        centre: np.ndarray,
+        spread: np.ndarray,
+        coefficient: np.ndarray,
+        factor: np.ndarray,
+        cap: np.ndarray,
+    ) -> _Rows:
         """Sort by group (stable) and mark rows without spread, or with nothing to spread, as fixed."""
         shape = np.where((spread <= 0.0) | (centre <= 0.0), 0, shape).astype(np.int8)
         order = np.argsort(group, kind="stable")
-        return cls(group[order], shape[order], centre[order], spread[order], coefficient[order], factor[order],
-                   cap[order])
+        return cls(
+            group[order], shape[order], centre[order], spread[order], coefficient[order], factor[order], cap[order]
+        )
 
     @classmethod
-    def build(cls, groups: Sequence[int], loads: Sequence[LeakageDistribution]) -> "_Rows":
+    def build(cls, groups: Sequence[int], loads: Sequence[LeakageDistribution]) -> _Rows:
         columns = list(zip(*loads)) if loads else [(), (), (), (), (), ()]
         shape = np.array([SHAPES.index(s) for s in columns[0]], dtype=np.int8)
-        return cls.from_arrays(np.asarray(groups, dtype=np.int64), shape, np.asarray(columns[1], dtype=float),
-                               np.asarray(columns[2], dtype=float), np.asarray(columns[3], dtype=complex),
-                               np.asarray(columns[4], dtype=float), np.asarray(columns[5], dtype=float))
+        return cls.from_arrays(
+            np.asarray(groups, dtype=np.int64),
+            shape,
+            np.asarray(columns[1], dtype=float),
+            np.asarray(columns[2], dtype=float),
+            np.asarray(columns[3], dtype=complex),
+            np.asarray(columns[4], dtype=float),
+            np.asarray(columns[5], dtype=float),
+        )
 
-    def subset(self, keep: np.ndarray) -> "_Rows":
-        return _Rows(self.group[keep], self.shape[keep], self.centre[keep], self.spread[keep],
-                     self.coefficient[keep], self.factor[keep], self.cap[keep])
+    def subset(self, keep: np.ndarray) -> _Rows:
+        return _Rows(
+            self.group[keep],
+            self.shape[keep],
+            self.centre[keep],
+            self.spread[keep],
+            self.coefficient[keep],
+            self.factor[keep],
+            self.cap[keep],
+        )
 
     def weights(self, sum_rule: str) -> np.ndarray:
         """Per-row weights whose weighted sums make S: (arithmetic) Σv, Σv(f−1); (phasor) re, im, dry and extra."""
@@ -258,8 +282,15 @@ def _positions(group: np.ndarray) -> np.ndarray:
     return np.arange(n) - np.repeat(starts, np.diff(np.r_[starts, n]))
 
 
-def _draw(shape: np.ndarray, centre: np.ndarray, spread: np.ndarray, pos: np.ndarray, uniform: np.ndarray,
-          normal: np.ndarray, cap: np.ndarray) -> np.ndarray:
+def _draw(
+    shape: np.ndarray,
+    centre: np.ndarray,
+    spread: np.ndarray,
+    pos: np.ndarray,
+    uniform: np.ndarray,
+    normal: np.ndarray,
+    cap: np.ndarray,
+) -> np.ndarray:
     """Leakage draws [mA], one row per random load: centre × (1 + a(2U − 1)) or centre × min(exp(σZ), cap)."""
     with np.errstate(divide="ignore", invalid="ignore"):
         z_cap = np.where(spread > 0.0, np.log(cap) / np.where(spread > 0.0, spread, 1.0), np.inf)
@@ -307,8 +338,9 @@ def _segment_sums(values: np.ndarray, group: np.ndarray, weights: np.ndarray) ->
     return segs, sums
 
 
-def _random_sums(rows: _Rows, sum_rule: str, samples: int, seed: int, block_elements: int = BLOCK_ELEMENTS
-                 ) -> Iterator[tuple[np.ndarray, np.ndarray]]:
+def _random_sums(
+    rows: _Rows, sum_rule: str, samples: int, seed: int, block_elements: int = BLOCK_ELEMENTS
+) -> Iterator[tuple[np.ndarray, np.ndarray]]:
     """Weighted sums over each group's random loads, per sample: yields (group ids, sums[group, weight, sample]).
 
     Groups come in order, each exactly once, in blocks of at most ``block_elements`` draws; a group cut by a
@@ -349,8 +381,10 @@ def _fixed_sums(rows: _Rows, sum_rule: str, n_groups: int) -> np.ndarray:
     """Weighted sums of the fixed (non-random) loads per group: array [group, weight]."""
     fixed = rows.shape == 0
     weights = rows.weights(sum_rule)
-    return np.stack([np.bincount(rows.group[fixed], weights=rows.centre[fixed] * w[fixed], minlength=n_groups)
-                     for w in weights], axis=1)
+    return np.stack(
+        [np.bincount(rows.group[fixed], weights=rows.centre[fixed] * w[fixed], minlength=n_groups) for w in weights],
+        axis=1,
+    )
 
 
 def _mean_se(y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -359,22 +393,34 @@ def _mean_se(y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return y.mean(axis=-1), (y.std(axis=-1, ddof=1) / math.sqrt(n) if n > 1 else np.zeros(y.shape[:-1]))
 
 
-def group_trip_probabilities(groups: Sequence[int], loads: Sequence[LeakageDistribution], n_groups: int,
-                             levels_ma: Sequence[tuple[float, float] | None], *, sum_rule: str = "arithmetic",
-                             samples: int = SAMPLES_MAX, seed: int = SEED_DEFAULT,
-                             block_elements: int = BLOCK_ELEMENTS) -> list[TripProbability | None]:
+def group_trip_probabilities(
+    groups: Sequence[int],
+    loads: Sequence[LeakageDistribution],
+    n_groups: int,
+    levels_ma: Sequence[tuple[float, float] | None],
+    *,
+    sum_rule: str = "arithmetic",
+    samples: int = SAMPLES_MAX,
+    seed: int = SEED_DEFAULT,
+    block_elements: int = BLOCK_ELEMENTS,
+) -> list[TripProbability | None]:
     """P(trip) for many groups (circuits) at once, vectorised over loads and samples.
 
     ``groups[i]`` is the group of ``loads[i]``; ``levels_ma[g]`` is (no-trip, trip) level of group g's device
     [mA], or None for an unprotected group (its result is None).
     """
-    return _trip_probabilities(_Rows.build(groups, loads), n_groups, levels_ma, sum_rule, samples, seed,
-                               block_elements)
+    return _trip_probabilities(_Rows.build(groups, loads), n_groups, levels_ma, sum_rule, samples, seed, block_elements)
 
 
-def _trip_probabilities(rows: _Rows, n_groups: int, levels_ma: Sequence[tuple[float, float] | None], sum_rule: str,
-                        samples: int, seed: int, block_elements: int = BLOCK_ELEMENTS
-                        ) -> list[TripProbability | None]:
+def _trip_probabilities(
+    rows: _Rows,
+    n_groups: int,
+    levels_ma: Sequence[tuple[float, float] | None],
+    sum_rule: str,
+    samples: int,
+    seed: int,
+    block_elements: int = BLOCK_ELEMENTS,
+) -> list[TripProbability | None]:
     fixed = _fixed_sums(rows, sum_rule, n_groups)
     protected = np.array([lv is not None for lv in levels_ma], dtype=bool)
     lo = np.array([lv[0] if lv is not None else 0.0 for lv in levels_ma])
@@ -384,7 +430,8 @@ def _trip_probabilities(rows: _Rows, n_groups: int, levels_ma: Sequence[tuple[fl
     exact_dry = trip_point_cdf(dry[:, 0], lo, hi).tolist()
     exact_sw = trip_point_cdf(sw[:, 0], lo, hi).tolist()
     out: list[TripProbability | None] = [
-        TripProbability(exact_dry[g], 0.0, exact_sw[g], 0.0, 0) if protected[g] else None for g in range(n_groups)]
+        TripProbability(exact_dry[g], 0.0, exact_sw[g], 0.0, 0) if protected[g] else None for g in range(n_groups)
+    ]
     rows = rows.subset(protected[rows.group])
     for segs, sums in _random_sums(rows, sum_rule, samples, seed, block_elements):
         sums += fixed[segs][:, :, None]
@@ -397,8 +444,14 @@ def _trip_probabilities(rows: _Rows, n_groups: int, levels_ma: Sequence[tuple[fl
     return out
 
 
-def trip_probability(loads: Sequence[LeakageDistribution], device: Device, *, sum_rule: str = "arithmetic",
-                     samples: int = SAMPLES_MAX, seed: int = SEED_DEFAULT) -> TripProbability:
+def trip_probability(
+    loads: Sequence[LeakageDistribution],
+    device: Device,
+    *,
+    sum_rule: str = "arithmetic",
+    samples: int = SAMPLES_MAX,
+    seed: int = SEED_DEFAULT,
+) -> TripProbability:
     """P(standing leakage ≥ trip point) for a set of loads on one device, dry and at switch-on.
 
     The pure function the split planner calls for a candidate circuit. With the ``samples`` and ``seed`` that
@@ -408,15 +461,21 @@ def trip_probability(loads: Sequence[LeakageDistribution], device: Device, *, su
     """
     if not device.protected:
         raise ValueError(f"device '{device.key}' does not trip on residual current")
-    result = group_trip_probabilities([0] * len(loads), loads, 1, [(device.no_trip_ma, device.trip_ma)],
-                                      sum_rule=sum_rule, samples=samples, seed=seed)[0]
+    result = group_trip_probabilities(
+        [0] * len(loads), loads, 1, [(device.no_trip_ma, device.trip_ma)], sum_rule=sum_rule, samples=samples, seed=seed
+    )[0]
     assert result is not None
     return result
 
 
-def leakage_quantiles(loads: Sequence[LeakageDistribution], probabilities: Sequence[float], *,
-                      sum_rule: str = "phasor", samples: int = SAMPLES_MAX, seed: int = SEED_DEFAULT
-                      ) -> np.ndarray:
+def leakage_quantiles(
+    loads: Sequence[LeakageDistribution],
+    probabilities: Sequence[float],
+    *,
+    sum_rule: str = "phasor",
+    samples: int = SAMPLES_MAX,
+    seed: int = SEED_DEFAULT,
+) -> np.ndarray:
     """Quantiles of one circuit's dry standing leakage [mA] (e.g. 0.025, 0.5, 0.975 for a 95 % interval).
 
     The interval from the sorted Monte Carlo values is the coverage interval of JCGM 101:2008 clause 7.7.
@@ -446,8 +505,9 @@ def likelihood_text(p: TripProbability | None, switch_on: bool = False) -> str:
 
 
 # --- From the check's estimates to distributions -------------------------------------------------------------------
-def _describe(results: Sequence[LoadResult], params: RiskParameters
-              ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+def _describe(
+    results: Sequence[LoadResult], params: RiskParameters
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Shape code, centre [mA], spread, phasor coefficient, switch-on factor and cap of each estimated load."""
     n = len(results)
     appliances: dict[int, tuple[int, Any]] = {}
@@ -461,8 +521,9 @@ def _describe(results: Sequence[LoadResult], params: RiskParameters
     basis = np.array([r.basis for r in results], dtype=object)
     is_load = np.fromiter((r.load is not None for r in results), dtype=bool, count=n)
     catalogue = (basis == CATALOGUE) & (code >= 0)
-    spread = np.where(catalogue, sigma[code], np.where(basis == MEASURED, params.meter_accuracy,
-                                                       params.component_tolerance))
+    spread = np.where(
+        catalogue, sigma[code], np.where(basis == MEASURED, params.meter_accuracy, params.component_tolerance)
+    )
     factor = np.where(is_load & heating[code], params.switch_on_factor, 1.0)
     leakage = np.fromiter((r.leakage_ma for r in results), dtype=float, count=n)
     phasor = np.fromiter((r.phasor_ma for r in results), dtype=complex, count=n)
@@ -489,12 +550,17 @@ def distribution(result: LoadResult, params: RiskParameters) -> LeakageDistribut
     with the typical value (rescaled to the supply) as median; heating elements carry the switch-on factor.
     """
     shape, centre, spread, coefficient, factor, cap = _describe([result], params)
-    return LeakageDistribution(SHAPES[int(shape[0])], float(centre[0]), float(spread[0]), complex(coefficient[0]),
-                               float(factor[0]), float(cap[0]))
+    return LeakageDistribution(
+        SHAPES[int(shape[0])],
+        float(centre[0]),
+        float(spread[0]),
+        complex(coefficient[0]),
+        float(factor[0]),
+        float(cap[0]),
+    )
 
 
-def circuit_distributions(result: Estimate, params: RiskParameters
-                          ) -> tuple[list[int], list[LeakageDistribution]]:
+def circuit_distributions(result: Estimate, params: RiskParameters) -> tuple[list[int], list[LeakageDistribution]]:
     """Circuit index and distribution of every placed load and cable run, in the check's order."""
     index = result.project.circuit_index()
     placed = [r for r in result.loads if r.circuit_id is not None]
@@ -505,8 +571,11 @@ def _check_rows(result: Estimate, params: RiskParameters) -> _Rows:
     """The check's placed loads and cable runs as arrays, grouped by circuit index."""
     index = result.project.circuit_index()
     placed = [r for r in result.loads if r.circuit_id is not None]
-    group = np.fromiter((index[r.circuit_id.lower()] for r in placed), dtype=np.int64,  # type: ignore[union-attr]
-                        count=len(placed))
+    group = np.fromiter(
+        (index[r.circuit_id.lower()] for r in placed),
+        dtype=np.int64,  # type: ignore[union-attr]
+        count=len(placed),
+    )
     return _Rows.from_arrays(group, *_describe(placed, params))
 
 
@@ -529,13 +598,16 @@ def assess(result: Estimate) -> RiskResult:
     settings = result.project.settings
     params = RiskParameters.from_settings(settings)
     rows = _check_rows(result, params)
-    levels = [(c.circuit.device.no_trip_ma, c.circuit.device.trip_ma) if c.circuit.device.protected else None
-              for c in result.circuits]
+    levels = [
+        (c.circuit.device.no_trip_ma, c.circuit.device.trip_ma) if c.circuit.device.protected else None
+        for c in result.circuits
+    ]
     protected = np.array([lv is not None for lv in levels], dtype=bool)
     random_rows = int(np.count_nonzero((rows.shape != 0) & protected[rows.group])) if len(rows.group) else 0
     samples = params.samples if params.samples is not None else auto_samples(random_rows)
     probabilities = _trip_probabilities(rows, len(result.circuits), levels, settings.sum_rule, samples, params.seed)
     for c, p in zip(result.circuits, probabilities):
         c.risk = p
-    return RiskResult(probabilities, samples, params.seed, settings.sum_rule, params,
-                      method_lines(params, samples, settings.sum_rule))
+    return RiskResult(
+        probabilities, samples, params.seed, settings.sum_rule, params, method_lines(params, samples, settings.sum_rule)
+    )

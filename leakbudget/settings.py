@@ -11,9 +11,9 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from leakbudget.devices import BUDGET_FRACTION_DEFAULT
-from leakbudget.provenance import Kind, Source
 from leakbudget.input.schema import normalise
 from leakbudget.input.units import UnitProblem, to_unit
+from leakbudget.provenance import Kind, Source
 
 # Default supplies by market, used when neither the circuit nor the Settings sheet gives one.
 US_SUPPLY = (120.0, 60.0)  # NEC nominal 120 V, 60 Hz (common practice for US dwellings)
@@ -35,12 +35,14 @@ METER_ACCURACY_DEFAULT = 0.05
 METER_ACCURACY_SOURCE = Source.from_memory("±5 % of reading, a usual leakage-clamp accuracy on milliamp ranges")
 COMPONENT_TOLERANCE_DEFAULT = 0.20
 COMPONENT_TOLERANCE_SOURCE = Source.common_practice(
-    "±20 % (tolerance letter M of IEC 60062), the usual tolerance of Y-capacitors")
+    "±20 % (tolerance letter M of IEC 60062), the usual tolerance of Y-capacitors"
+)
 UPPER_PERCENTILE_DEFAULT = 0.95
 UPPER_PERCENTILE_SOURCE = Source(Kind.DEFAULT, "modelling choice: the catalogue upper value as the 95th percentile")
 SWITCH_ON_FACTOR_DEFAULT = 3.0
 SWITCH_ON_FACTOR_SOURCE = Source.from_memory(
-    "damp heating element at switch-on leaks 3 × its dry value (guidance says only 'several times')")
+    "damp heating element at switch-on leaks 3 × its dry value (guidance says only 'several times')"
+)
 SEED_DEFAULT = 1
 SEED_SOURCE = Source(Kind.DEFAULT, "default seed 1")
 SAMPLES_SOURCE = Source(Kind.DEFAULT, "auto: 10,000 samples, fewer (at least 1,000) for very large workbooks")
@@ -106,6 +108,7 @@ def _choice(*allowed: str) -> Callable[[Any], str]:
         if text not in allowed:
             raise UnitProblem(f"'{value}' is not one of {', '.join(allowed)}")
         return text
+
     return parse
 
 
@@ -115,6 +118,7 @@ def _positive(unit: str) -> Callable[[Any], float]:
         if result <= 0:
             raise UnitProblem(f"'{value}' must be greater than zero")
         return result
+
     return parse
 
 
@@ -146,52 +150,134 @@ class SettingSpec:
 
 
 SETTING_SPECS: tuple[SettingSpec, ...] = (
-    SettingSpec("Voltage", _positive("V"), None, Source(Kind.DEFAULT, BY_DEVICE),
-                "Supply line-to-neutral voltage for circuits that give none (default by device: 120 V for UL "
-                "devices, 230 V for RCDs)."),
-    SettingSpec("Frequency", _positive("Hz"), None, Source(Kind.DEFAULT, BY_DEVICE),
-                "Supply frequency for circuits that give none (default 60 Hz for UL devices, 50 Hz for RCDs)."),
-    SettingSpec("Budget fraction", _fraction, BUDGET_FRACTION_DEFAULT,
-                Source.published("BS 7671:2018 reg. 531.3.2"),
-                "Share of the trip level standing leakage may use (default 0.30)."),
-    SettingSpec("Basis", _choice("typical", "upper"), "typical", Source(Kind.DEFAULT, "default"),
-                "Which catalogue value to use: typical or upper."),
-    SettingSpec("Sum", _choice("arithmetic", "phasor"), "arithmetic",
-                Source(Kind.DEFAULT, "default (the conservative figure)"),
-                "Which per-circuit sum gates the budget: arithmetic (conservative) or phasor."),
-    SettingSpec("Length unit", _length_unit, "m", Source(Kind.DEFAULT, "default"),
-                "Unit of bare numbers in the Cable length column (m or ft)."),
-    SettingSpec("Default cable", _text, "generic", Source(Kind.DEFAULT, "default"),
-                "Cable catalogue key for circuits whose Cable cell is blank."),
-    SettingSpec("Load factor", _fraction, LOAD_FACTOR_DEFAULT,
-                Source.common_practice("80 % of rating for continuous load"),
-                "Share of a circuit's rating the split planner may load it to (default 0.8)."),
-    SettingSpec("Max trip likelihood", _fraction, None, Source(Kind.DEFAULT, "no limit"),
-                "Highest switch-on trip likelihood `leakbudget split` may leave on a protected circuit, e.g. 1 % "
-                "(blank: no limit; --max-trip-likelihood overrides it)."),
-    SettingSpec("Code", _choice(*CODE_KEYS), None, Source(Kind.DEFAULT, "default by supply frequency"),
-                f"Wiring code `leakbudget review` checks against: {', '.join(CODE_KEYS)} (default nec-2023 for a "
-                "60 Hz plan, iec-60364 for a 50 Hz plan)."),
-    SettingSpec("Meter accuracy", _fraction, METER_ACCURACY_DEFAULT, METER_ACCURACY_SOURCE,
-                "± accuracy of your leakage clamp as a share of the reading (default 5 %)."),
-    SettingSpec("Component tolerance", _fraction, COMPONENT_TOLERANCE_DEFAULT, COMPONENT_TOLERANCE_SOURCE,
-                "± tolerance of Y capacitance, insulation resistance and cable figures (default 20 %)."),
-    SettingSpec("Upper percentile", parse_percentile, UPPER_PERCENTILE_DEFAULT,
-                UPPER_PERCENTILE_SOURCE,
-                "Percentile the catalogue upper value stands for in the trip likelihood (default 95 %)."),
-    SettingSpec("Switch-on factor", parse_factor, SWITCH_ON_FACTOR_DEFAULT, SWITCH_ON_FACTOR_SOURCE,
-                "Leakage of a heating element at switch-on after idle, as a multiple of its dry value (default 3)."),
-    SettingSpec("Samples", parse_samples, None, SAMPLES_SOURCE,
-                "Monte Carlo samples for the trip likelihood: auto (default) or a whole number."),
-    SettingSpec("Seed", parse_seed, SEED_DEFAULT, SEED_SOURCE,
-                "Seed of the random numbers; the same workbook and seed give the same likelihoods."),
+    SettingSpec(
+        "Voltage",
+        _positive("V"),
+        None,
+        Source(Kind.DEFAULT, BY_DEVICE),
+        "Supply line-to-neutral voltage for circuits that give none (default by device: 120 V for UL "
+        "devices, 230 V for RCDs).",
+    ),
+    SettingSpec(
+        "Frequency",
+        _positive("Hz"),
+        None,
+        Source(Kind.DEFAULT, BY_DEVICE),
+        "Supply frequency for circuits that give none (default 60 Hz for UL devices, 50 Hz for RCDs).",
+    ),
+    SettingSpec(
+        "Budget fraction",
+        _fraction,
+        BUDGET_FRACTION_DEFAULT,
+        Source.published("BS 7671:2018 reg. 531.3.2"),
+        "Share of the trip level standing leakage may use (default 0.30).",
+    ),
+    SettingSpec(
+        "Basis",
+        _choice("typical", "upper"),
+        "typical",
+        Source(Kind.DEFAULT, "default"),
+        "Which catalogue value to use: typical or upper.",
+    ),
+    SettingSpec(
+        "Sum",
+        _choice("arithmetic", "phasor"),
+        "arithmetic",
+        Source(Kind.DEFAULT, "default (the conservative figure)"),
+        "Which per-circuit sum gates the budget: arithmetic (conservative) or phasor.",
+    ),
+    SettingSpec(
+        "Length unit",
+        _length_unit,
+        "m",
+        Source(Kind.DEFAULT, "default"),
+        "Unit of bare numbers in the Cable length column (m or ft).",
+    ),
+    SettingSpec(
+        "Default cable",
+        _text,
+        "generic",
+        Source(Kind.DEFAULT, "default"),
+        "Cable catalogue key for circuits whose Cable cell is blank.",
+    ),
+    SettingSpec(
+        "Load factor",
+        _fraction,
+        LOAD_FACTOR_DEFAULT,
+        Source.common_practice("80 % of rating for continuous load"),
+        "Share of a circuit's rating the split planner may load it to (default 0.8).",
+    ),
+    SettingSpec(
+        "Max trip likelihood",
+        _fraction,
+        None,
+        Source(Kind.DEFAULT, "no limit"),
+        "Highest switch-on trip likelihood `leakbudget split` may leave on a protected circuit, e.g. 1 % "
+        "(blank: no limit; --max-trip-likelihood overrides it).",
+    ),
+    SettingSpec(
+        "Code",
+        _choice(*CODE_KEYS),
+        None,
+        Source(Kind.DEFAULT, "default by supply frequency"),
+        f"Wiring code `leakbudget review` checks against: {', '.join(CODE_KEYS)} (default nec-2023 for a "
+        "60 Hz plan, iec-60364 for a 50 Hz plan).",
+    ),
+    SettingSpec(
+        "Meter accuracy",
+        _fraction,
+        METER_ACCURACY_DEFAULT,
+        METER_ACCURACY_SOURCE,
+        "± accuracy of your leakage clamp as a share of the reading (default 5 %).",
+    ),
+    SettingSpec(
+        "Component tolerance",
+        _fraction,
+        COMPONENT_TOLERANCE_DEFAULT,
+        COMPONENT_TOLERANCE_SOURCE,
+        "± tolerance of Y capacitance, insulation resistance and cable figures (default 20 %).",
+    ),
+    SettingSpec(
+        "Upper percentile",
+        parse_percentile,
+        UPPER_PERCENTILE_DEFAULT,
+        UPPER_PERCENTILE_SOURCE,
+        "Percentile the catalogue upper value stands for in the trip likelihood (default 95 %).",
+    ),
+    SettingSpec(
+        "Switch-on factor",
+        parse_factor,
+        SWITCH_ON_FACTOR_DEFAULT,
+        SWITCH_ON_FACTOR_SOURCE,
+        "Leakage of a heating element at switch-on after idle, as a multiple of its dry value (default 3).",
+    ),
+    SettingSpec(
+        "Samples",
+        parse_samples,
+        None,
+        SAMPLES_SOURCE,
+        "Monte Carlo samples for the trip likelihood: auto (default) or a whole number.",
+    ),
+    SettingSpec(
+        "Seed",
+        parse_seed,
+        SEED_DEFAULT,
+        SEED_SOURCE,
+        "Seed of the random numbers; the same workbook and seed give the same likelihoods.",
+    ),
     # Job details, shown at the head of `leakbudget report`; free text, case kept.
-    SettingSpec("Job", _free_text, None, Source(Kind.DEFAULT, "not given"),
-                "What the job is, e.g. 'Kitchen and laundry remodel'; heads the report."),
+    SettingSpec(
+        "Job",
+        _free_text,
+        None,
+        Source(Kind.DEFAULT, "not given"),
+        "What the job is, e.g. 'Kitchen and laundry remodel'; heads the report.",
+    ),
     SettingSpec("Site", _free_text, None, Source(Kind.DEFAULT, "not given"), "Address or location of the job."),
     SettingSpec("Client", _free_text, None, Source(Kind.DEFAULT, "not given"), "Who the report is for."),
-    SettingSpec("Prepared by", _free_text, None, Source(Kind.DEFAULT, "not given"),
-                "Who prepared the plan and the report."),
+    SettingSpec(
+        "Prepared by", _free_text, None, Source(Kind.DEFAULT, "not given"), "Who prepared the plan and the report."
+    ),
 )
 JOB_SETTINGS = ("Job", "Site", "Client", "Prepared by")
 SPECS_BY_NAME = {normalise(s.name): s for s in SETTING_SPECS}

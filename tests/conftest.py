@@ -9,8 +9,17 @@ from typing import Any
 import pytest
 
 CIRCUITS_HEADER = ["Circuit", "Device", "Voltage", "Frequency", "System", "Rating", "Cable length", "Rooms"]
-LOADS_HEADER = ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Y capacitance", "Insulation resistance",
-                "Leg", "Room"]
+LOADS_HEADER = [
+    "Load",
+    "Circuit",
+    "Appliance",
+    "Quantity",
+    "Leakage",
+    "Y capacitance",
+    "Insulation resistance",
+    "Leg",
+    "Room",
+]
 
 
 def write_workbook(path: Path, sheets: dict[str, list[list[Any]]]) -> Path:
@@ -56,4 +65,5 @@ def basic_sheets() -> dict[str, list[list[Any]]]:
 def make_workbook(tmp_path: Path):
     def make(sheets: dict[str, list[list[Any]]] | None = None, name: str = "plan.xlsx") -> Path:
         return write_workbook(tmp_path / name, sheets if sheets is not None else basic_sheets())
+
     return make

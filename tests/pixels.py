@@ -11,6 +11,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from leakbudget.reporting import charts
+
+
 def decode(png: bytes) -> np.ndarray:
     """RGB pixels of a PNG as an (height, width, 3) integer array, 0-255."""
     from matplotlib.image import imread
@@ -21,7 +23,7 @@ def decode(png: bytes) -> np.ndarray:
 
 def mask(image: np.ndarray, colour: str, tolerance: int = 14) -> np.ndarray:
     """Pixels within ``tolerance`` (per channel, 0-255) of a ``#rrggbb`` colour."""
-    rgb = np.array([int(colour[i:i + 2], 16) for i in (1, 3, 5)])
+    rgb = np.array([int(colour[i : i + 2], 16) for i in (1, 3, 5)])
     return np.all(np.abs(image - rgb) <= tolerance, axis=-1)
 
 
@@ -49,7 +51,7 @@ def stacked_bar(image: np.ndarray) -> Bar:
     segment = np.zeros(image.shape[:2], dtype=bool)
     for colour in charts.SEGMENT_COLOURS:
         segment |= mask(image, colour, tolerance=3)
-    segment[axis_row(image):] = False
+    segment[axis_row(image) :] = False
     row = int(segment.sum(axis=1).argmax())
     columns = np.flatnonzero(segment[row])
     return Bar(row, int(columns.min()), int(columns.max()))

@@ -30,8 +30,8 @@ from datetime import date, datetime
 from pathlib import Path
 from typing import Any
 
-from leakbudget.xlsx.guard import MAX_SHEET_CELLS
 from leakbudget.input.schema import CIRCUITS, LOADS
+from leakbudget.xlsx.guard import MAX_SHEET_CELLS
 from tests.conftest import basic_sheets, write_workbook
 
 DATA = Path(__file__).parent / "data"
@@ -45,11 +45,51 @@ LEGS = {"single": ["L1"], "split": ["L1", "L2", "L1-L2"], "three": ["L1", "L2", 
 
 # Values a careless or hostile cell may hold.
 ODD_VALUES: list[Any] = [
-    None, "", "   ", True, False, datetime(2024, 3, 1, 12, 30), date(1999, 12, 31), -1, 0, 1e308, -0.0, 4700,
-    "5 kg", "0,75", "1.000,5", "nan", "inf", "-inf", "1e400", "3 A", "0.75 MA", "0.75 ma", "12000",
-    "=1+2", "+A1", "-2+3", "@SUM(A1:A2)", "=HYPERLINK(\"http://example.invalid\")", "<r>x</r>", "_x0000_",
-    " K1 ", "k1", "GFCI-A ", " rcd-30", "L2", "L1-L2-L3", "Küche 1", "Ku\u0308che 1", "\u200bK1", "🔌", "x" * 300,
-    "/etc/passwd", "../../secret.xlsx", "file:///tmp/leakbudget-never-opened", "\\\\server\\share\\x.xlsx",
+    None,
+    "",
+    "   ",
+    True,
+    False,
+    datetime(2024, 3, 1, 12, 30),
+    date(1999, 12, 31),
+    -1,
+    0,
+    1e308,
+    -0.0,
+    4700,
+    "5 kg",
+    "0,75",
+    "1.000,5",
+    "nan",
+    "inf",
+    "-inf",
+    "1e400",
+    "3 A",
+    "0.75 MA",
+    "0.75 ma",
+    "12000",
+    "=1+2",
+    "+A1",
+    "-2+3",
+    "@SUM(A1:A2)",
+    '=HYPERLINK("http://example.invalid")',
+    "<r>x</r>",
+    "_x0000_",
+    " K1 ",
+    "k1",
+    "GFCI-A ",
+    " rcd-30",
+    "L2",
+    "L1-L2-L3",
+    "Küche 1",
+    "Ku\u0308che 1",
+    "\u200bK1",
+    "🔌",
+    "x" * 300,
+    "/etc/passwd",
+    "../../secret.xlsx",
+    "file:///tmp/leakbudget-never-opened",
+    "\\\\server\\share\\x.xlsx",
 ]
 
 
@@ -71,10 +111,12 @@ def workbook(folder: Path, sheets: Sheets | None = None, name: str = "plan.xlsx"
 
 def edited(sheets_edit: Callable[[Sheets], None], name: str = "plan.xlsx") -> Callable[[Path], Path]:
     """A builder: the basic workbook with ``sheets_edit`` applied to its rows before writing."""
+
     def build(folder: Path) -> Path:
         sheets = copy.deepcopy(basic_sheets())
         sheets_edit(sheets)
         return workbook(folder, sheets, name)
+
     return build
 
 
@@ -83,12 +125,14 @@ def file_with(data: bytes | Callable[[], bytes], name: str = "plan.xlsx") -> Cal
         path = folder / name
         path.write_bytes(data() if callable(data) else data)
         return path
+
     return build
 
 
 def copied(fixture: str, name: str) -> Callable[[Path], Path]:
     def build(folder: Path) -> Path:
         return Path(shutil.copyfile(DATA / fixture, folder / name))
+
     return build
 
 
@@ -102,19 +146,25 @@ def write_parts(path: Path, entries: dict[str, bytes]) -> Path:
     return path
 
 
-def with_part(edit: Callable[[bytes], bytes], part: str = "xl/worksheets/sheet2.xml",
-              sheets: Callable[[Sheets], None] | None = None) -> Callable[[Path], Path]:
+def with_part(
+    edit: Callable[[bytes], bytes],
+    part: str = "xl/worksheets/sheet2.xml",
+    sheets: Callable[[Sheets], None] | None = None,
+) -> Callable[[Path], Path]:
     """A builder: the basic workbook (Loads is sheet2.xml) with one part's bytes passed through ``edit``."""
+
     def build(folder: Path) -> Path:
         path = edited(sheets or (lambda s: None))(folder)
         entries = parts(path)
         entries[part] = edit(entries[part])
         return write_parts(path, entries)
+
     return build
 
 
 def put(sheet: str, row: int, column: int, value: Any) -> Callable[[Sheets], None]:
     """A rows edit: set one cell (0-based row and column of the sheet's rows, header included)."""
+
     def edit(sheets: Sheets) -> None:
         rows = sheets[sheet]
         while len(rows) <= row:
@@ -122,6 +172,7 @@ def put(sheet: str, row: int, column: int, value: Any) -> Callable[[Sheets], Non
         while len(rows[row]) <= column:
             rows[row].append(None)
         rows[row][column] = value
+
     return edit
 
 
@@ -131,20 +182,24 @@ def in_loads_row_2(cell_xml: bytes) -> Callable[[bytes], bytes]:
 
 
 def far_cell(ref: bytes = b"XFD1048576") -> Callable[[bytes], bytes]:
-    return lambda data: data.replace(b"</sheetData>", b'<row r="1048576"><c r="' + ref + b'"><v>1</v></c></row>'
-                                     b"</sheetData>")
+    return lambda data: data.replace(
+        b"</sheetData>", b'<row r="1048576"><c r="' + ref + b'"><v>1</v></c></row></sheetData>'
+    )
 
 
 def entity_bomb(root: bytes) -> Callable[[bytes], bytes]:
     """A part edit: a billion-laughs DTD in front of the part, its entity used in a text node."""
     lol = b'<!ENTITY lol0 "lol">' + b"".join(
-        b'<!ENTITY lol%d "%s">' % (i, (b"&lol%d;" % (i - 1)) * 10) for i in range(1, 10))
+        b'<!ENTITY lol%d "%s">' % (i, (b"&lol%d;" % (i - 1)) * 10) for i in range(1, 10)
+    )
 
     def edit(data: bytes) -> bytes:
         body = data.split(b"?>", 1)[1] if data.startswith(b"<?xml") else data
         body = body.replace(b"<t>Meter</t>", b"<t>&lol9;</t>", 1).replace(  # a shared string, or a cell's text
-            b"</sheetData>", b'<row r="99"><c r="A99" t="inlineStr"><is><t>&lol9;</t></is></c></row></sheetData>', 1)
+            b"</sheetData>", b'<row r="99"><c r="A99" t="inlineStr"><is><t>&lol9;</t></is></c></row></sheetData>', 1
+        )
         return b'<?xml version="1.0"?><!DOCTYPE ' + root + b" [" + lol + b"]>" + body
+
     return edit
 
 
@@ -159,8 +214,9 @@ def zip_bytes(entries: dict[str, bytes | str]) -> bytes:
 
 def ods_file() -> bytes:
     """A zip whose first entry is an OpenDocument spreadsheet's mimetype (ODF 1.2 Part 3, 3.3)."""
-    return zip_bytes({"mimetype": "application/vnd.oasis.opendocument.spreadsheet",
-                      "content.xml": "<office:document-content/>"})
+    return zip_bytes(
+        {"mimetype": "application/vnd.oasis.opendocument.spreadsheet", "content.xml": "<office:document-content/>"}
+    )
 
 
 def word_file() -> bytes:
@@ -177,6 +233,7 @@ def half_of_a_workbook() -> bytes:
 
 def declared_size(part: str, size: int) -> Callable[[Path], Path]:
     """A builder: the basic workbook whose central directory declares ``size`` bytes for ``part``."""
+
     def build(folder: Path) -> Path:
         path = workbook(folder)
         data = bytearray(path.read_bytes())
@@ -184,6 +241,7 @@ def declared_size(part: str, size: int) -> Callable[[Path], Path]:
         struct.pack_into("<I", data, header + 24, size)  # "uncompressed size"
         path.write_bytes(bytes(data))
         return path
+
     return build
 
 
@@ -210,6 +268,7 @@ def _both(*edits: Callable[[Sheets], None]) -> Callable[[Sheets], None]:
     def edit(sheets: Sheets) -> None:
         for e in edits:
             e(sheets)
+
     return edit
 
 
@@ -217,107 +276,222 @@ def _both(*edits: Callable[[Sheets], None]) -> Callable[[Sheets], None]:
 # (header, Filter on K1 with 4.7 nF, Meter on E1: 2 x 0.75 mA). Columns: see tests/conftest.py.
 BAD_INPUTS: list[BadInput] = [
     # not a workbook
-    BadInput("text-file", file_with(b"Circuit schedule for 3 Wren Lane\nK1 kitchen\n", "notes.xlsx"),
-             "notes.xlsx: this is a text file (plain text), not an .xlsx workbook"),
-    BadInput("csv-renamed", file_with(b"Circuit,Device,Voltage\nK1,gfci-a,120\n"),
-             "plan.xlsx: this is a text file (comma-separated values, CSV), not an .xlsx workbook"),
+    BadInput(
+        "text-file",
+        file_with(b"Circuit schedule for 3 Wren Lane\nK1 kitchen\n", "notes.xlsx"),
+        "notes.xlsx: this is a text file (plain text), not an .xlsx workbook",
+    ),
+    BadInput(
+        "csv-renamed",
+        file_with(b"Circuit,Device,Voltage\nK1,gfci-a,120\n"),
+        "plan.xlsx: this is a text file (comma-separated values, CSV), not an .xlsx workbook",
+    ),
     BadInput("empty-file", file_with(b""), "plan.xlsx: the file is empty (0 bytes)"),
     BadInput("truncated-zip", file_with(half_of_a_workbook), "plan.xlsx: the file is cut short or damaged"),
-    BadInput("binary-noise", file_with(bytes(range(256)) * 4), "plan.xlsx: this is not an .xlsx workbook (it does "
-                                                              "not start like a zip package)"),
-    BadInput("xls-renamed", copied("legacy.xls", "plan.xlsx"),
-             "plan.xlsx: this is an Excel 97-2003 workbook (.xls), not an .xlsx workbook"),
+    BadInput(
+        "binary-noise",
+        file_with(bytes(range(256)) * 4),
+        "plan.xlsx: this is not an .xlsx workbook (it does not start like a zip package)",
+    ),
+    BadInput(
+        "xls-renamed",
+        copied("legacy.xls", "plan.xlsx"),
+        "plan.xlsx: this is an Excel 97-2003 workbook (.xls), not an .xlsx workbook",
+    ),
     BadInput("xls-suffix", copied("legacy.xls", "plan.xls"), "plan.xls: leakbudget reads .xlsx workbooks, not '.xls'"),
     BadInput("ods-renamed", file_with(ods_file), "plan.xlsx: this is an OpenDocument spreadsheet (.ods)"),
-    BadInput("word-renamed", file_with(word_file), "plan.xlsx: this zip file is not an .xlsx workbook (it has no "
-                                                   "xl/workbook.xml)"),
+    BadInput(
+        "word-renamed",
+        file_with(word_file),
+        "plan.xlsx: this zip file is not an .xlsx workbook (it has no xl/workbook.xml)",
+    ),
     # password-protected or encrypted
-    BadInput("encrypted-xlsx", copied("encrypted.xlsx", "plan.xlsx"),
-             "plan.xlsx: the workbook is password-protected (encrypted)"),
-    BadInput("password-xls-renamed", copied("password.xls", "plan.xlsx"),
-             "plan.xlsx: this is an Excel 97-2003 workbook (.xls), not an .xlsx workbook"),
+    BadInput(
+        "encrypted-xlsx",
+        copied("encrypted.xlsx", "plan.xlsx"),
+        "plan.xlsx: the workbook is password-protected (encrypted)",
+    ),
+    BadInput(
+        "password-xls-renamed",
+        copied("password.xls", "plan.xlsx"),
+        "plan.xlsx: this is an Excel 97-2003 workbook (.xls), not an .xlsx workbook",
+    ),
     # hostile packages
-    BadInput("entity-bomb-sheet", with_part(entity_bomb(b"worksheet")),
-             "plan.xlsx: its part xl/worksheets/sheet2.xml declares a DTD or entities"),
-    BadInput("entity-bomb-strings", with_part(entity_bomb(b"sst"), "xl/sharedStrings.xml"),
-             "plan.xlsx: its part xl/sharedStrings.xml declares a DTD or entities"),
-    BadInput("entity-bomb-workbook", with_part(entity_bomb(b"workbook"), "xl/workbook.xml"),
-             "plan.xlsx: its part xl/workbook.xml declares a DTD or entities"),
+    BadInput(
+        "entity-bomb-sheet",
+        with_part(entity_bomb(b"worksheet")),
+        "plan.xlsx: its part xl/worksheets/sheet2.xml declares a DTD or entities",
+    ),
+    BadInput(
+        "entity-bomb-strings",
+        with_part(entity_bomb(b"sst"), "xl/sharedStrings.xml"),
+        "plan.xlsx: its part xl/sharedStrings.xml declares a DTD or entities",
+    ),
+    BadInput(
+        "entity-bomb-workbook",
+        with_part(entity_bomb(b"workbook"), "xl/workbook.xml"),
+        "plan.xlsx: its part xl/workbook.xml declares a DTD or entities",
+    ),
     BadInput("zip-ratio-bomb", padded, "padding.bin is compressed more than 200:1"),
-    BadInput("zip-declared-size-bomb", declared_size("xl/styles.xml", (1 << 30) + 1),
-             "plan.xlsx: refused to open the workbook because it unpacks to more than 1024 MiB"),
-    BadInput("far-cell", with_part(far_cell()), "plan.xlsx, sheet 'Loads': its cells reach row 1,048,576 and "
-                                                f"column XFD, more than the {MAX_SHEET_CELLS:,} cells leakbudget reads"),
-    BadInput("far-cell-char-reference", with_part(far_cell(b"X&#70;D1048576")),
-             "sheet 'Loads': its cells reach row 1,048,576 and column XFD"),
-    BadInput("damaged-sheet-xml", with_part(lambda d: d.replace(b"</sheetData>", b"</sheetDat>")),
-             "plan.xlsx: sheet 'Loads' is damaged and cannot be read"),
+    BadInput(
+        "zip-declared-size-bomb",
+        declared_size("xl/styles.xml", (1 << 30) + 1),
+        "plan.xlsx: refused to open the workbook because it unpacks to more than 1024 MiB",
+    ),
+    BadInput(
+        "far-cell",
+        with_part(far_cell()),
+        "plan.xlsx, sheet 'Loads': its cells reach row 1,048,576 and "
+        f"column XFD, more than the {MAX_SHEET_CELLS:,} cells leakbudget reads",
+    ),
+    BadInput(
+        "far-cell-char-reference",
+        with_part(far_cell(b"X&#70;D1048576")),
+        "sheet 'Loads': its cells reach row 1,048,576 and column XFD",
+    ),
+    BadInput(
+        "damaged-sheet-xml",
+        with_part(lambda d: d.replace(b"</sheetData>", b"</sheetDat>")),
+        "plan.xlsx: sheet 'Loads' is damaged and cannot be read",
+    ),
     # missing sheets and headers
     BadInput("missing-sheet", edited(lambda s: s.pop("Loads")), "plan.xlsx: the required sheet 'Loads' is missing"),
-    BadInput("two-sheets-one-name", edited(lambda s: s.__setitem__("loads ", s["Loads"])),
-             "plan.xlsx: the sheets 'Loads' and 'loads ' both read as 'Loads'"),
-    BadInput("header-too-low", edited(_header_at_row_25),
-             "plan.xlsx, sheet 'Circuits': no header row with a 'Circuit' column in the first 20 rows"),
-    BadInput("required-column-missing", edited(put("Circuits", 0, 1, "Breaker")),
-             "plan.xlsx, sheet 'Circuits', row 1: the required column 'Device' is missing"),
+    BadInput(
+        "two-sheets-one-name",
+        edited(lambda s: s.__setitem__("loads ", s["Loads"])),
+        "plan.xlsx: the sheets 'Loads' and 'loads ' both read as 'Loads'",
+    ),
+    BadInput(
+        "header-too-low",
+        edited(_header_at_row_25),
+        "plan.xlsx, sheet 'Circuits': no header row with a 'Circuit' column in the first 20 rows",
+    ),
+    BadInput(
+        "required-column-missing",
+        edited(put("Circuits", 0, 1, "Breaker")),
+        "plan.xlsx, sheet 'Circuits', row 1: the required column 'Device' is missing",
+    ),
     # formulas, merged cells
-    BadInput("formula-without-result", with_part(in_loads_row_2(b'<c r="D2"><f>B7*2</f><v /></c>')),
-             "plan.xlsx, sheet 'Loads', row 2, column 'Quantity', cell D2: the formula =B7*2 has no saved result"),
-    BadInput("formula-error-value", with_part(in_loads_row_2(b'<c r="D2" t="e"><f>1/0</f><v>#DIV/0!</v></c>')),
-             "plan.xlsx, sheet 'Loads', row 2, column 'Quantity', cell D2: the cell shows the error #DIV/0!"),
-    BadInput("merged-number", with_part(
-        lambda d: d.replace(b"</sheetData>", b'</sheetData><mergeCells count="1"><mergeCell ref="D2:D3"/>'
-                                             b"</mergeCells>").replace(b'<c r="D3"><v>2</v></c>', b"")),
-        "plan.xlsx, sheet 'Loads', row 2, column 'Quantity', cell D2: the cells D2:D3 are merged"),
+    BadInput(
+        "formula-without-result",
+        with_part(in_loads_row_2(b'<c r="D2"><f>B7*2</f><v /></c>')),
+        "plan.xlsx, sheet 'Loads', row 2, column 'Quantity', cell D2: the formula =B7*2 has no saved result",
+    ),
+    BadInput(
+        "formula-error-value",
+        with_part(in_loads_row_2(b'<c r="D2" t="e"><f>1/0</f><v>#DIV/0!</v></c>')),
+        "plan.xlsx, sheet 'Loads', row 2, column 'Quantity', cell D2: the cell shows the error #DIV/0!",
+    ),
+    BadInput(
+        "merged-number",
+        with_part(
+            lambda d: d.replace(
+                b"</sheetData>", b'</sheetData><mergeCells count="1"><mergeCell ref="D2:D3"/></mergeCells>'
+            ).replace(b'<c r="D3"><v>2</v></c>', b"")
+        ),
+        "plan.xlsx, sheet 'Loads', row 2, column 'Quantity', cell D2: the cells D2:D3 are merged",
+    ),
     # wrong kinds of value
-    BadInput("boolean-as-number", edited(put("Loads", 2, 4, True)),
-             "cell E3: TRUE is a yes/no value, not a number"),
-    BadInput("date-as-number", edited(put("Circuits", 1, 2, datetime(2024, 1, 20))),
-             "cell C2: '2024-01-20' is a date or time, not a quantity"),
-    BadInput("decimal-comma", edited(put("Loads", 2, 4, "0,75")),
-             "cell E3: '0,75' has a decimal comma or a misplaced thousands separator"),
-    BadInput("nan-cell", with_part(in_loads_row_2(b'<c r="D2"><v>NaN</v></c>')),
-             "cell D2: the cell holds NaN, which is not a number"),
+    BadInput("boolean-as-number", edited(put("Loads", 2, 4, True)), "cell E3: TRUE is a yes/no value, not a number"),
+    BadInput(
+        "date-as-number",
+        edited(put("Circuits", 1, 2, datetime(2024, 1, 20))),
+        "cell C2: '2024-01-20' is a date or time, not a quantity",
+    ),
+    BadInput(
+        "decimal-comma",
+        edited(put("Loads", 2, 4, "0,75")),
+        "cell E3: '0,75' has a decimal comma or a misplaced thousands separator",
+    ),
+    BadInput(
+        "nan-cell",
+        with_part(in_loads_row_2(b'<c r="D2"><v>NaN</v></c>')),
+        "cell D2: the cell holds NaN, which is not a number",
+    ),
     BadInput("infinite-text", edited(put("Loads", 1, 5, "1e400 nF")), "cell F2: '1e400 nF' is not a finite number"),
     BadInput("zero-quantity", edited(put("Loads", 2, 3, 0)), "cell D3: '0' must be greater than zero"),
     BadInput("negative-capacitance", edited(put("Loads", 1, 5, -4.7)), "cell F2: '-4.7' must not be negative"),
-    BadInput("wrong-dimension-voltage", edited(put("Circuits", 1, 2, "120 A")),
-             "cell C2: '120 A' is in A, which is not a voltage"),
-    BadInput("lower-case-unit", edited(put("Loads", 2, 4, "0.75 ma")),
-             "cell E3: '0.75 ma' is in ma, which is not a current; units are case-sensitive: write mA"),
+    BadInput(
+        "wrong-dimension-voltage",
+        edited(put("Circuits", 1, 2, "120 A")),
+        "cell C2: '120 A' is in A, which is not a voltage",
+    ),
+    BadInput(
+        "lower-case-unit",
+        edited(put("Loads", 2, 4, "0.75 ma")),
+        "cell E3: '0.75 ma' is in ma, which is not a current; units are case-sensitive: write mA",
+    ),
     # absurd magnitudes
-    BadInput("leakage-in-amps", edited(put("Loads", 2, 4, "3 A")),
-             "cell E3: '3 A' is 3000 mA, not plausible for a standing leakage per unit"),
-    BadInput("voltage-in-kV-typed-as-V", edited(put("Circuits", 1, 2, 0.23)),
-             "cell C2: '0.23' is 0.23 V, not plausible for a low-voltage supply (50 to 1000 V"),
-    BadInput("frequency-typo", edited(put("Circuits", 2, 3, 500)),
-             "cell D3: '500' is 500 Hz, not plausible for a power supply"),
-    BadInput("cable-length-in-mm", edited(put("Circuits", 1, 6, 12000)),
-             "cell G2: '12000' is 12000 m, not plausible for a final circuit's cable run"),
-    BadInput("y-capacitance-in-pF-typed-as-nF", edited(put("Loads", 1, 5, 4700)),
-             "cell F2: '4700' per unit would leak 213 mA at 120 V 60 Hz, not plausible"),
-    BadInput("insulation-fault", edited(put("Loads", 2, 6, "1 kohm")),
-             "cell G3: '1 kohm' per unit would leak 230 mA at 230 V 50 Hz"),
-    BadInput("setting-voltage-absurd", edited(lambda s: s.__setitem__("Settings", [["Setting", "Value"],
-                                                                                    ["Voltage", "2.3 kV"]])),
-             "sheet 'Settings', row 2, column 'Value', cell B2: setting 'Voltage': '2.3 kV' is 2300 V"),
-    BadInput("catalogue-row-in-amps", edited(lambda s: s.__setitem__("Appliances", [
-        ["Key", "Typical leakage"], ["site-heater", "2 A"]])),
-             "sheet 'Appliances', row 2, column 'Typical leakage', cell B2: '2 A' is 2000 mA"),
-    BadInput("cable-row-in-nF", edited(lambda s: s.__setitem__("Cables", [
-        ["Key", "Capacitance"], ["site-cable", "100 nF/m"]])),
-             "sheet 'Cables', row 2, column 'Capacitance', cell B2: '100 nF/m' is 100000 pF/m"),
+    BadInput(
+        "leakage-in-amps",
+        edited(put("Loads", 2, 4, "3 A")),
+        "cell E3: '3 A' is 3000 mA, not plausible for a standing leakage per unit",
+    ),
+    BadInput(
+        "voltage-in-kV-typed-as-V",
+        edited(put("Circuits", 1, 2, 0.23)),
+        "cell C2: '0.23' is 0.23 V, not plausible for a low-voltage supply (50 to 1000 V",
+    ),
+    BadInput(
+        "frequency-typo",
+        edited(put("Circuits", 2, 3, 500)),
+        "cell D3: '500' is 500 Hz, not plausible for a power supply",
+    ),
+    BadInput(
+        "cable-length-in-mm",
+        edited(put("Circuits", 1, 6, 12000)),
+        "cell G2: '12000' is 12000 m, not plausible for a final circuit's cable run",
+    ),
+    BadInput(
+        "y-capacitance-in-pF-typed-as-nF",
+        edited(put("Loads", 1, 5, 4700)),
+        "cell F2: '4700' per unit would leak 213 mA at 120 V 60 Hz, not plausible",
+    ),
+    BadInput(
+        "insulation-fault",
+        edited(put("Loads", 2, 6, "1 kohm")),
+        "cell G3: '1 kohm' per unit would leak 230 mA at 230 V 50 Hz",
+    ),
+    BadInput(
+        "setting-voltage-absurd",
+        edited(lambda s: s.__setitem__("Settings", [["Setting", "Value"], ["Voltage", "2.3 kV"]])),
+        "sheet 'Settings', row 2, column 'Value', cell B2: setting 'Voltage': '2.3 kV' is 2300 V",
+    ),
+    BadInput(
+        "catalogue-row-in-amps",
+        edited(lambda s: s.__setitem__("Appliances", [["Key", "Typical leakage"], ["site-heater", "2 A"]])),
+        "sheet 'Appliances', row 2, column 'Typical leakage', cell B2: '2 A' is 2000 mA",
+    ),
+    BadInput(
+        "cable-row-in-nF",
+        edited(lambda s: s.__setitem__("Cables", [["Key", "Capacitance"], ["site-cable", "100 nF/m"]])),
+        "sheet 'Cables', row 2, column 'Capacitance', cell B2: '100 nF/m' is 100000 pF/m",
+    ),
     # duplicate ids and keys
-    BadInput("duplicate-circuit-odd-case-and-space", edited(put("Circuits", 2, 0, " k1 ")),
-             "cell A3: the circuit id 'k1' is used twice (also row 2)"),
-    BadInput("duplicate-cable-key", edited(lambda s: s.__setitem__("Cables", [
-        ["Key", "Capacitance"], ["site-cable", 120], ["Site-Cable ", 130]])),
-             "sheet 'Cables', row 3, column 'Key', cell A3: the key 'site-cable' is used twice (also row 2)"),
-    BadInput("duplicate-appliance-key", edited(lambda s: s.__setitem__("Appliances", [
-        ["Key", "Typical leakage"], ["site-heater", 0.5], ["SITE-HEATER", 0.6]])),
-             "sheet 'Appliances', row 3, column 'Key', cell A3: the key 'site-heater' is used twice"),
-    BadInput("duplicate-column", edited(put("Loads", 0, 9, "leakage")),
-             "sheet 'Loads', row 1, cell J1: the column 'leakage' appears twice (also column E)"),
+    BadInput(
+        "duplicate-circuit-odd-case-and-space",
+        edited(put("Circuits", 2, 0, " k1 ")),
+        "cell A3: the circuit id 'k1' is used twice (also row 2)",
+    ),
+    BadInput(
+        "duplicate-cable-key",
+        edited(lambda s: s.__setitem__("Cables", [["Key", "Capacitance"], ["site-cable", 120], ["Site-Cable ", 130]])),
+        "sheet 'Cables', row 3, column 'Key', cell A3: the key 'site-cable' is used twice (also row 2)",
+    ),
+    BadInput(
+        "duplicate-appliance-key",
+        edited(
+            lambda s: s.__setitem__(
+                "Appliances", [["Key", "Typical leakage"], ["site-heater", 0.5], ["SITE-HEATER", 0.6]]
+            )
+        ),
+        "sheet 'Appliances', row 3, column 'Key', cell A3: the key 'site-heater' is used twice",
+    ),
+    BadInput(
+        "duplicate-column",
+        edited(put("Loads", 0, 9, "leakage")),
+        "sheet 'Loads', row 1, cell J1: the column 'leakage' appears twice (also column E)",
+    ),
 ]
 
 
@@ -364,19 +538,32 @@ def contract_sheets(rng: random.Random) -> Sheets:
     }
     sheets: Sheets = {
         "Circuits": _table(rng, CIRCUITS.columns, circuit_values, list(range(n_circuits))),
-        "Loads": _table(rng, LOADS.columns, load_values, [rng.randrange(n_circuits) for _ in range(rng.randint(1, 12))],
-                        keep=("Leakage",)),
+        "Loads": _table(
+            rng,
+            LOADS.columns,
+            load_values,
+            [rng.randrange(n_circuits) for _ in range(rng.randint(1, 12))],
+            keep=("Leakage",),
+        ),
     }
     if rng.random() < 0.4:
-        sheets["Settings"] = [["Setting", "Value"], ["Budget fraction", rng.choice(["30 %", 0.25])],
-                              ["Length unit", rng.choice(["m", "ft"])]]
+        sheets["Settings"] = [
+            ["Setting", "Value"],
+            ["Budget fraction", rng.choice(["30 %", 0.25])],
+            ["Length unit", rng.choice(["m", "ft"])],
+        ]
     if rng.random() < 0.4:
         sheets[rng.choice(["Notes", "Übersicht", "Sheet 3"])] = [["Anything", 1, "=SUM(B1)"], ["more", 2.5, None]]
     return sheets
 
 
-def _table(rng: random.Random, columns: tuple, values: dict[str, Callable[[int], Any]], keys: list[int],
-           keep: tuple[str, ...] = ()) -> list[list[Any]]:
+def _table(
+    rng: random.Random,
+    columns: tuple,
+    values: dict[str, Callable[[int], Any]],
+    keys: list[int],
+    keep: tuple[str, ...] = (),
+) -> list[list[Any]]:
     chosen = [c.name for c in columns if c.required or c.name in keep or rng.random() < 0.6]
     rng.shuffle(chosen)
     header: list[Any] = []
@@ -441,7 +628,9 @@ def damage_sheets(sheets: Sheets, rng: random.Random) -> None:
 
 
 CELL_DAMAGE: dict[str, Callable[[Sheets, random.Random], None]] = {
-    "cell": damage_cell, "rows": damage_rows, "sheets": damage_sheets,
+    "cell": damage_cell,
+    "rows": damage_rows,
+    "sheets": damage_sheets,
 }
 
 
@@ -486,21 +675,33 @@ def damage_package(data: bytes, rng: random.Random) -> bytes:
         _edit_a_sheet(entries, rng, lambda d: re.sub(rb"<v>[^<]*</v>", cell, d, count=1))
     elif choice == 8:
         value = rng.choice([b"#DIV/0!", b"#N/A", b"#REF!"])
-        _edit_a_sheet(entries, rng, lambda d: re.sub(rb'(<c r="[A-Z]+[0-9]+")( s="[0-9]+")?( t="[a-zA-Z]+")?>'
-                                                     rb"<v>[^<]*</v>", rb'\1\2 t="e"><v>' + value + b"</v>", d,
-                                                     count=1))
+        _edit_a_sheet(
+            entries,
+            rng,
+            lambda d: re.sub(
+                rb'(<c r="[A-Z]+[0-9]+")( s="[0-9]+")?( t="[a-zA-Z]+")?>'
+                rb"<v>[^<]*</v>",
+                rb'\1\2 t="e"><v>' + value + b"</v>",
+                d,
+                count=1,
+            ),
+        )
     elif choice == 9:
         value = rng.choice([b"NaN", b"INF", b"-inf", b"1e999", b"0x10", b""])
         _edit_a_sheet(entries, rng, lambda d: d.replace(b"<v>1</v>", b"<v>" + value + b"</v>", 1))
     else:
         ref = rng.choice([b"A2:A3", b"B2:B4", b"D2:D3", b"E2:F3", b"A1:B1", b"C1:C9"])
-        _edit_a_sheet(entries, rng, lambda d: d.replace(
-            b"</sheetData>", b'</sheetData><mergeCells count="1"><mergeCell ref="' + ref + b'"/></mergeCells>', 1))
+        _edit_a_sheet(
+            entries,
+            rng,
+            lambda d: d.replace(
+                b"</sheetData>", b'</sheetData><mergeCells count="1"><mergeCell ref="' + ref + b'"/></mergeCells>', 1
+            ),
+        )
     return zip_bytes(entries)
 
 
-def damaged_workbook(folder: Path, seed: int, cell_damage: int, package_damage: int,
-                     name: str = "plan.xlsx") -> Path:
+def damaged_workbook(folder: Path, seed: int, cell_damage: int, package_damage: int, name: str = "plan.xlsx") -> Path:
     """A contract workbook made from ``seed`` with that many cell-level and package-level damages."""
     rng = random.Random(seed)
     sheets = contract_sheets(rng)
@@ -537,8 +738,14 @@ finally:
 
 def run_child(*args: str, timeout: float = 120) -> tuple[int, str, str, int]:
     """(exit code, stdout, stderr without the memory line, peak memory [kB]) of ``leakbudget ARGS``."""
-    done = subprocess.run([sys.executable, "-c", CHILD, *args], capture_output=True, text=True, timeout=timeout,
-                          cwd=ROOT, env={**os.environ, "PYTHONPATH": str(ROOT)})
+    done = subprocess.run(
+        [sys.executable, "-c", CHILD, *args],
+        capture_output=True,
+        text=True,
+        timeout=timeout,
+        cwd=ROOT,
+        env={**os.environ, "PYTHONPATH": str(ROOT)},
+    )
     memory = int(re.search(r"maxrss_kb=(\d+)", done.stderr).group(1))
     return done.returncode, done.stdout, re.sub(r"\nmaxrss_kb=\d+\n", "", done.stderr), memory
 
@@ -548,13 +755,14 @@ def million_formatted_rows(folder: Path) -> Path:
     writes for ``write_blank`` with a format (``<c r="A4" s="1"/>``); spliced here, XlsxWriter itself takes 14 s."""
     path = workbook(folder, name="formatted.xlsx")
     entries = parts(path)
-    rows = b"".join(b'<row r="%d"><c r="A%d" s="1"/><c r="B%d" s="1"/><c r="C%d" s="1"/></row>' % (i, i, i, i)
-                    for i in range(4, 1_000_004))
-    entries["xl/worksheets/sheet2.xml"] = entries["xl/worksheets/sheet2.xml"].replace(b"</sheetData>",
-                                                                                      rows + b"</sheetData>")
+    rows = b"".join(
+        b'<row r="%d"><c r="A%d" s="1"/><c r="B%d" s="1"/><c r="C%d" s="1"/></row>' % (i, i, i, i)
+        for i in range(4, 1_000_004)
+    )
+    entries["xl/worksheets/sheet2.xml"] = entries["xl/worksheets/sheet2.xml"].replace(
+        b"</sheetData>", rows + b"</sheetData>"
+    )
     return write_parts(path, entries)
-
-
 
 
 @dataclass
@@ -594,7 +802,8 @@ def judge(path: Path, out: Path | None = None, expected: str | None = None) -> V
     if result.exit_code not in (0, 1, 2):
         problems.append(f"exit code {result.exit_code}")
     if (out is not None or result.exit_code == 2) and (
-            path.read_bytes() != before or os.stat(path).st_mtime_ns != mtime):
+        path.read_bytes() != before or os.stat(path).st_mtime_ns != mtime
+    ):
         problems.append("the input file changed")
     if result.exit_code == 2:
         errors = [line for line in result.output.splitlines() if line.startswith("Error: ")]

@@ -22,7 +22,7 @@ README = Path(__file__).resolve().parents[1] / "README.md"
 def readme_session() -> str:
     """The ```pycon block of the README's "Python API" section."""
     text = README.read_text(encoding="utf-8")
-    section = text[text.index("## Python API"):]
+    section = text[text.index("## Python API") :]
     match = re.search(r"```pycon\n(.*?)```", section, re.S)
     assert match, "the Python API section has no pycon session"
     return match.group(1)
@@ -40,8 +40,10 @@ def test_the_readme_python_session_runs_with_its_shown_output(tmp_path, monkeypa
 def test_front_door_names_and_a_cheap_import():
     assert set(leakbudget.__all__) >= {"check", "split", "review", "report", "read_project"}
     # Importing the package loads neither pandas, scipy nor matplotlib, nor the CLI's typer and rich.
-    code = ("import sys, leakbudget; leakbudget.check; "
-            "print([m for m in ('pandas', 'scipy', 'matplotlib', 'typer', 'rich') if m in sys.modules])")
+    code = (
+        "import sys, leakbudget; leakbudget.check; "
+        "print([m for m in ('pandas', 'scipy', 'matplotlib', 'typer', 'rich') if m in sys.modules])"
+    )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"
 
@@ -67,9 +69,11 @@ def test_documents_and_frames_equal_what_the_command_prints(tmp_path, monkeypatc
     doc = job.document()
     printed.pop("time_s", None), doc.pop("time_s", None)
     assert doc == printed
-    frames = {"check": {"circuits": "circuits_frame", "loads": "loads_frame"},
-              "split": {"assignments": "assignments_frame", "circuits": "circuits_frame"},
-              "review": {"findings": "findings_frame"}}[command]
+    frames = {
+        "check": {"circuits": "circuits_frame", "loads": "loads_frame"},
+        "split": {"assignments": "assignments_frame", "circuits": "circuits_frame"},
+        "review": {"findings": "findings_frame"},
+    }[command]
     for key, method in frames.items():
         df = getattr(job, method)()
         assert list(df.columns) == list(printed[key][0])  # the document's keys, in its order

@@ -13,14 +13,26 @@ from leakbudget.reporting.charts import CircuitBar, Segment
 from tests.pixels import axis_row, background_share, decode, line_column, mask, stacked_bar
 
 
-def _bar(circuit: str, loads: tuple[float, ...], budget_ma: float | None = 1.8, no_trip_ma: float | None = 4.0,
-         status: str = "ok", phasor_ma: float | None = None) -> CircuitBar:
+def _bar(
+    circuit: str,
+    loads: tuple[float, ...],
+    budget_ma: float | None = 1.8,
+    no_trip_ma: float | None = 4.0,
+    status: str = "ok",
+    phasor_ma: float | None = None,
+) -> CircuitBar:
     total = sum(loads)
     return CircuitBar(
-        circuit=circuit, device_label="GFCI Class A (personnel)" if budget_ma else "No ground-fault protection",
-        status=status, segments=tuple(Segment(f"load {i + 1}", v) for i, v in enumerate(loads)),
-        leakage_ma=total, phasor_ma=total if phasor_ma is None else phasor_ma, gate_ma=total, gate_is_phasor=False,
-        budget_ma=budget_ma, no_trip_ma=no_trip_ma,
+        circuit=circuit,
+        device_label="GFCI Class A (personnel)" if budget_ma else "No ground-fault protection",
+        status=status,
+        segments=tuple(Segment(f"load {i + 1}", v) for i, v in enumerate(loads)),
+        leakage_ma=total,
+        phasor_ma=total if phasor_ma is None else phasor_ma,
+        gate_ma=total,
+        gate_is_phasor=False,
+        budget_ma=budget_ma,
+        no_trip_ma=no_trip_ma,
     )
 
 
@@ -34,7 +46,7 @@ def test_chart_size_follows_the_legend_rows():
     # the legend fills its three columns top to bottom: the 3rd load's swatch ends the first column, in the last
     # row, drawn whole and clear of the bottom edge
     swatch = mask(three, charts.SEGMENT_COLOURS[2], 3)
-    swatch[:axis_row(three) + 1] = False  # below the axis: the legend, not the bar
+    swatch[: axis_row(three) + 1] = False  # below the axis: the legend, not the bar
     rows = swatch.any(axis=1).nonzero()[0]
     assert len(rows) >= 3 and three.shape[0] - 25 < rows.max() < three.shape[0] - 5
 
@@ -47,8 +59,9 @@ def test_over_budget_bar_crosses_the_budget_line_at_the_right_place():
     assert budget_px > 30 and no_trip_px > 50  # both lines drawn across the bar band
     assert bar.left < budget_col < bar.right < no_trip_col
     # just right of the dashed line the bar's own colour continues on the bar's row
-    assert any(mask(image[bar.row:bar.row + 1, budget_col + 3:budget_col + 6], c, 3).any()
-               for c in charts.SEGMENT_COLOURS)
+    assert any(
+        mask(image[bar.row : bar.row + 1, budget_col + 3 : budget_col + 6], c, 3).any() for c in charts.SEGMENT_COLOURS
+    )
     length, offset = bar.right + 1 - bar.left, budget_col + 1 - bar.left
     assert length / offset == pytest.approx(2.4 / 1.8, rel=0.02)
     assert (no_trip_col + 1 - bar.left) / offset == pytest.approx(4.0 / 1.8, rel=0.02)
@@ -64,8 +77,9 @@ def test_bar_within_budget_stops_short_of_the_line():
 
 def test_trip_risk_bar_reaches_past_the_no_trip_line_of_a_30_ma_rcd():
     # IEC 61008-1: no operation below 0.5 IΔn = 15 mA; budget 0.30 × 30 mA = 9 mA (BS 7671:2018 reg. 531.3.2).
-    image = decode(charts.circuit_chart_png(_bar("E4", (10.0, 6.0), budget_ma=9.0, no_trip_ma=15.0,
-                                                 status="trip-risk")))
+    image = decode(
+        charts.circuit_chart_png(_bar("E4", (10.0, 6.0), budget_ma=9.0, no_trip_ma=15.0, status="trip-risk"))
+    )
     no_trip_col, _ = line_column(image, charts.NO_TRIP_COLOUR)
     budget_col, _ = line_column(image, charts.BUDGET_COLOUR)
     bar = stacked_bar(image)
@@ -74,8 +88,9 @@ def test_trip_risk_bar_reaches_past_the_no_trip_line_of_a_30_ma_rcd():
 
 
 def test_unprotected_chart_has_no_level_lines():
-    image = decode(charts.circuit_chart_png(_bar("O1", (1.25, 0.63), budget_ma=None, no_trip_ma=None,
-                                                 status="unprotected")))
+    image = decode(
+        charts.circuit_chart_png(_bar("O1", (1.25, 0.63), budget_ma=None, no_trip_ma=None, status="unprotected"))
+    )
     assert line_column(image, charts.BUDGET_COLOUR)[1] == 0
     assert line_column(image, charts.NO_TRIP_COLOUR)[1] == 0
     bar = stacked_bar(image)
@@ -85,7 +100,7 @@ def test_unprotected_chart_has_no_level_lines():
 def test_segments_are_drawn_largest_first_in_proportion():
     image = decode(charts.circuit_chart_png(_bar("K5", (0.2, 0.6), status="ok")))
     bar = stacked_bar(image)
-    row = image[bar.row:bar.row + 1, bar.left:bar.right + 1]
+    row = image[bar.row : bar.row + 1, bar.left : bar.right + 1]
     first = mask(row, charts.SEGMENT_COLOURS[0], 3).sum()
     second = mask(row, charts.SEGMENT_COLOURS[1], 3).sum()
     assert first / second == pytest.approx(0.6 / 0.2, rel=0.06)
@@ -102,8 +117,12 @@ def test_names_with_dollar_signs_are_not_read_as_maths():
 
 
 def test_overview_puts_over_budget_bars_past_the_100_percent_line():
-    bars = [_bar("A", (0.9,)), _bar("B", (2.7,), status="over-budget"),
-            _bar("C", (0.0,)), _bar("D", (1.0,), budget_ma=None, no_trip_ma=None, status="unprotected")]
+    bars = [
+        _bar("A", (0.9,)),
+        _bar("B", (2.7,), status="over-budget"),
+        _bar("C", (0.0,)),
+        _bar("D", (1.0,), budget_ma=None, no_trip_ma=None, status="unprotected"),
+    ]
     image = decode(charts.overview_chart_png(bars))
     assert image.shape[:2] == (round((0.9 + 0.3 * 3) * charts.DPI), 760)  # unprotected D has no row
     line_col, _ = line_column(image, charts.BUDGET_COLOUR)

@@ -67,7 +67,8 @@ def test_bad_input_exit_2_with_one_line(make_workbook):
     result = runner.invoke(app, ["check", str(path)])
     assert result.exit_code == 2
     assert result.output.strip().startswith(
-        "Error: plan.xlsx, sheet 'Circuits', row 2, column 'Device', cell B2: 'gfci-z' is not a known device key")
+        "Error: plan.xlsx, sheet 'Circuits', row 2, column 'Device', cell B2: 'gfci-z' is not a known device key"
+    )
     assert "Traceback" not in result.output
     assert path.read_bytes() == before
 

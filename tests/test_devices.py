@@ -29,8 +29,11 @@ def test_iec_61008_no_trip_is_half_of_rated_residual_current(ma):  # IEC 61008-1
     assert "IEC 61008-1" in str(d.no_trip_source)
 
 
-@pytest.mark.parametrize(("i_ma", "t_s"), [(6, 5.59), (20, 1.00), (264, 0.025)],
-                         ids=["UL943-6mA-5.59s", "UL943-20mA-1.00s", "UL943-264mA-0.025s"])
+@pytest.mark.parametrize(
+    ("i_ma", "t_s"),
+    [(6, 5.59), (20, 1.00), (264, 0.025)],
+    ids=["UL943-6mA-5.59s", "UL943-20mA-1.00s", "UL943-264mA-0.025s"],
+)
 def test_ul943_inverse_time_curve(i_ma, t_s):  # UL 943 Class A: T = (20/I)^1.43 s
     assert ul943_trip_time_s(i_ma) == pytest.approx(t_s, rel=0.01)
 

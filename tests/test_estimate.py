@@ -7,9 +7,9 @@ import math
 import pytest
 
 from leakbudget.catalogue import built_in
+from leakbudget.checking import check
 from leakbudget.devices import Status
 from leakbudget.estimate import CATALOGUE, COMPUTED, MEASURED
-from leakbudget.checking import check
 from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
 
@@ -26,11 +26,15 @@ def run(make_workbook, circuits, loads, settings=None):
 
 
 def test_measured_then_computed_then_catalogue(make_workbook):
-    r = run(make_workbook,
-            [["K1", "gfci-a", 120, 60, "single", 20, None, "Kitchen"]],
-            [["Measured", "K1", "kettle", 3, "0.1 mA", "4.7 nF", None, None, "Kitchen"],
-             ["Computed", "K1", "kettle", 1, None, "4.7 nF", "10 Mohm", None, "Kitchen"],
-             ["From catalogue", "K1", "kettle", 1, None, None, None, None, "Kitchen"]])
+    r = run(
+        make_workbook,
+        [["K1", "gfci-a", 120, 60, "single", 20, None, "Kitchen"]],
+        [
+            ["Measured", "K1", "kettle", 3, "0.1 mA", "4.7 nF", None, None, "Kitchen"],
+            ["Computed", "K1", "kettle", 1, None, "4.7 nF", "10 Mohm", None, "Kitchen"],
+            ["From catalogue", "K1", "kettle", 1, None, None, None, None, "Kitchen"],
+        ],
+    )
     measured, computed, catalogue = r.loads
     assert measured.basis == MEASURED and measured.leakage_ma == pytest.approx(0.3)
     assert computed.basis == COMPUTED
@@ -44,31 +48,47 @@ def test_measured_then_computed_then_catalogue(make_workbook):
 
 
 def test_upper_basis_uses_the_upper_value(make_workbook):
-    r = run(make_workbook, [["E1", "rcd-30", 230, 50, "single", 32, None, "Office"]],
-            [["PC", "E1", "desktop-pc", 2, None, None, None, None, "Office"]], settings=[["Basis", "upper"]])
+    r = run(
+        make_workbook,
+        [["E1", "rcd-30", 230, 50, "single", 32, None, "Office"]],
+        [["PC", "E1", "desktop-pc", 2, None, None, None, None, "Office"]],
+        settings=[["Basis", "upper"]],
+    )
     assert r.loads[0].leakage_ma == pytest.approx(2 * 3.5)  # IEC 62368-1 3.5 mA limit per unit
     assert "IEC 62368-1" in r.loads[0].source
 
 
 def test_cable_run_matches_the_installation_guide_figure(make_workbook):
     # Electrical Installation Guide, RCD sensitivity chapter: about 1.5 mA per 100 m of line at 230 V 50 Hz.
-    r = run(make_workbook, [["E1", "rcd-30", 230, 50, "single", 32, 100, "Office"]],
-            [["Lamp", "E1", None, 1, "0 mA", None, None, None, "Office"]])
+    r = run(
+        make_workbook,
+        [["E1", "rcd-30", 230, 50, "single", 32, 100, "Office"]],
+        [["Lamp", "E1", None, 1, "0 mA", None, None, None, "Office"]],
+    )
     cable = [x for x in r.loads if x.load is None][0]
     assert cable.leakage_ma == pytest.approx(1.5, rel=1e-3)
     assert r.circuits[0].cable_ma == pytest.approx(1.5, rel=1e-3)
 
 
 def test_cable_length_in_feet_setting(make_workbook):
-    r = run(make_workbook, [["E1", "rcd-30", 230, 50, "single", 32, 328.084, "Office"]],
-            [["Lamp", "E1", None, 1, "0 mA", None, None, None, "Office"]], settings=[["Length unit", "ft"]])
+    r = run(
+        make_workbook,
+        [["E1", "rcd-30", 230, 50, "single", 32, 328.084, "Office"]],
+        [["Lamp", "E1", None, 1, "0 mA", None, None, None, "Office"]],
+        settings=[["Length unit", "ft"]],
+    )
     assert r.circuits[0].cable_ma == pytest.approx(1.5, rel=1e-3)  # 328.084 ft = 100 m
 
 
 def test_split_phase_legs_cancel_in_the_phasor_sum_only(make_workbook):
-    r = run(make_workbook, [["R1", "gfci-a", 120, 60, "split", 40, None, "Kitchen"]],
-            [["A", "R1", None, 1, None, "4.7 nF", None, "L1", "Kitchen"],
-             ["B", "R1", None, 1, None, "4.7 nF", None, "L2", "Kitchen"]])
+    r = run(
+        make_workbook,
+        [["R1", "gfci-a", 120, 60, "split", 40, None, "Kitchen"]],
+        [
+            ["A", "R1", None, 1, None, "4.7 nF", None, "L1", "Kitchen"],
+            ["B", "R1", None, 1, None, "4.7 nF", None, "L2", "Kitchen"],
+        ],
+    )
     c = r.circuits[0]
     assert c.leakage_ma == pytest.approx(2 * two_pi_f_c_v_ma(4.7, 120, 60))
     assert c.phasor_ma == pytest.approx(0.0, abs=1e-9)
@@ -87,15 +107,21 @@ def test_status_against_bs7671_budget_and_phasor_gate(make_workbook):
 
 
 def test_trip_risk_at_the_no_trip_level(make_workbook):
-    r = run(make_workbook, [["K1", "gfci-a", 120, 60, "single", 20, None, "Kitchen"]],
-            [["Heater", "K1", None, 1, "4 mA", None, None, None, "Kitchen"]])
+    r = run(
+        make_workbook,
+        [["K1", "gfci-a", 120, 60, "single", 20, None, "Kitchen"]],
+        [["Heater", "K1", None, 1, "4 mA", None, None, None, "Kitchen"]],
+    )
     assert r.circuits[0].status is Status.TRIP_RISK  # UL 943: must not trip below 4 mA; at 4 mA it may
     assert not r.all_ok
 
 
 def test_unplaced_loads_are_estimated_but_not_summed(make_workbook):
-    r = run(make_workbook, [["K1", "gfci-a", 120, 60, "single", 20, None, "Kitchen"]],
-            [["Loose", None, None, 1, "1 mA", None, None, None, "Kitchen"]])
+    r = run(
+        make_workbook,
+        [["K1", "gfci-a", 120, 60, "single", 20, None, "Kitchen"]],
+        [["Loose", None, None, 1, "1 mA", None, None, None, "Kitchen"]],
+    )
     assert r.circuits[0].leakage_ma == 0.0 and len(r.unplaced) == 1
 
 

@@ -18,9 +18,16 @@ from leakbudget.planner.packing.milp import lp_bound, solve_exact
 from leakbudget.planner.packing.problem import Packing
 
 
-def packing(leak: list[float], amps: list[float] | None = None, spares: list[float] = (), new_spare: float = 1.8,
-            amp_spares: list[float] | None = None, new_amps: float = math.inf, start: list[int] | None = None,
-            budget: float = 1.8) -> Packing:
+def packing(
+    leak: list[float],
+    amps: list[float] | None = None,
+    spares: list[float] = (),
+    new_spare: float = 1.8,
+    amp_spares: list[float] | None = None,
+    new_amps: float = math.inf,
+    start: list[int] | None = None,
+    budget: float = 1.8,
+) -> Packing:
     """One room: ``len(spares)`` existing circuits and one kind of new circuit; every item may go anywhere."""
     n, e = len(leak), len(spares)
     amps = amps if amps is not None else [0.0] * n
@@ -72,6 +79,7 @@ def brute_force(p: Packing) -> tuple[int, int, float]:
 
 # -- bounds ----------------------------------------------------------------------------------------------------
 
+
 def test_l2_example_by_hand():
     # Martello & Toth, Discrete Applied Mathematics 28 (1990) 59-70, bound L2, computed by hand for C = 10 and
     # sizes 7,7,7,4,4,4: alpha = 4 gives J1 = {7,7,7}, J2 = {}, J3 = {4,4,4}: 3 + ceil(12/10) = 5. L1 = ceil(33/10)
@@ -102,6 +110,7 @@ def test_bounds_never_exceed_the_optimum(sizes, spares):
 
 
 # -- exact and heuristic plans ---------------------------------------------------------------------------------
+
 
 def test_first_fit_decreasing_needs_one_more_circuit_than_the_planner():
     # One existing circuit with 1.8 mA spare and loads 0.85, 0.7, 0.7, 0.5, 0.32, 0.32 mA (sum 3.39 mA).
@@ -163,8 +172,14 @@ def test_two_capacities_first_fit_needs_three_circuits_where_two_suffice():
     # Leakage and current together (new circuits of 8 mA and 12.8 A). Exhaustive search: two circuits, e.g.
     # {1.5 mA 3 A, 0.5 mA 5.5 A, 3 mA 0.5 A, 3 mA 3 A} = 8 mA, 12 A and {1 mA 7 A, 1.5 mA 5.5 A} = 2.5 mA,
     # 12.5 A. First-fit decreasing needs three; the heuristic (spreading the current-heavy loads) finds two.
-    p = packing([1.5, 0.5, 3.0, 3.0, 1.0, 1.5], [3.0, 5.5, 0.5, 3.0, 7.0, 5.5], spares=[], new_spare=8.0,
-                new_amps=12.8, budget=8.0)
+    p = packing(
+        [1.5, 0.5, 3.0, 3.0, 1.0, 1.5],
+        [3.0, 5.5, 0.5, 3.0, 7.0, 5.5],
+        spares=[],
+        new_spare=8.0,
+        new_amps=12.8,
+        budget=8.0,
+    )
     assert brute_force(p)[0] == 2
     assert first_fit_decreasing(p).new_count == 3
     assert improve(p, time.monotonic() + 1).new_count == 2

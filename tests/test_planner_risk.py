@@ -22,9 +22,11 @@ runner = CliRunner()
 # Two dishwashers (catalogue: heating element, typical 0.8 mA at 120 V) on one UL 943 Class A GFCI (no-trip 4 mA,
 # trip 6 mA): 1.6 mA is within the 1.8 mA budget, but at switch-on (× 3, the Switch-on factor default) the pair
 # draws about 4.8 mA, inside the trip band: a high likelihood that only moving one of them lowers.
-DISHWASHERS = [["Dishwasher A", "K-1", "dishwasher", None, 5, "Kitchen", None],
-               ["Dishwasher B", "K-1", "dishwasher", None, 5, "Kitchen", None],
-               ["Fridge", "K-2", "refrigerator", None, 2, "Kitchen", None]]
+DISHWASHERS = [
+    ["Dishwasher A", "K-1", "dishwasher", None, 5, "Kitchen", None],
+    ["Dishwasher B", "K-1", "dishwasher", None, 5, "Kitchen", None],
+    ["Fridge", "K-2", "refrigerator", None, 2, "Kitchen", None],
+]
 
 
 def workbook(make_workbook: Any, settings: list[list[Any]] | None = None, fixed: bool = False) -> Any:
@@ -41,8 +43,9 @@ def independent_switch_on(plan: Any) -> dict[str, float]:
     out = {}
     for j, c in enumerate(after.project.circuits):
         mine = [d for g, d in zip(groups, dists) if g == j]
-        p = trip_probability(mine, c.device, sum_rule=after.risk.sum_rule, samples=after.risk.samples,
-                             seed=after.risk.seed)
+        p = trip_probability(
+            mine, c.device, sum_rule=after.risk.sum_rule, samples=after.risk.samples, seed=after.risk.seed
+        )
         out[c.circuit_id] = p.switch_on
     return out
 
@@ -80,9 +83,11 @@ def test_cap_from_setting_and_rich_line(make_workbook: Any) -> None:
     result = runner.invoke(app, ["split", str(path), "--no-write"])
     assert result.exit_code == 0, result.output
     text = " ".join(result.output.split())  # rich wraps at 80 columns
-    assert ("Trip likelihood: switch-on likelihood capped at 10 % (Settings sheet, row 2); 2 of 2 protected "
-            "circuit(s) within it after 2 plan(s) (the check's Monte Carlo, seed 1); budgets tightened: K-1 "
-            "1.440 mA.") in text
+    assert (
+        "Trip likelihood: switch-on likelihood capped at 10 % (Settings sheet, row 2); 2 of 2 protected "
+        "circuit(s) within it after 2 plan(s) (the check's Monte Carlo, seed 1); budgets tightened: K-1 "
+        "1.440 mA."
+    ) in text
     assert "(for the budgets the trip-likelihood cap tightened, not for the cap itself)" in text
     loose = runner.invoke(app, ["split", str(path), "--no-write", "--json", "--max-trip-likelihood", "100 %"])
     doc = json.loads(loose.stdout)  # the option overrides the setting
@@ -99,13 +104,15 @@ def test_no_cap_leaves_plan_unchanged(make_workbook: Any) -> None:
 
 
 def test_bad_setting_names_its_cell(make_workbook: Any) -> None:
-    with pytest.raises(WorkbookError, match=r"sheet 'Settings', row 2, column 'Value', cell B2: setting "
-                                            r"'Max trip likelihood'"):
+    with pytest.raises(
+        WorkbookError,
+        match=r"sheet 'Settings', row 2, column 'Value', cell B2: setting "
+        r"'Max trip likelihood'",
+    ):
         read_project(workbook(make_workbook, [["Max trip likelihood", "150 %"]]))
 
 
 def test_bad_option_exit_2(make_workbook: Any) -> None:
-    result = runner.invoke(app, ["split", str(workbook(make_workbook)), "--no-write", "--max-trip-likelihood",
-                                 "lots"])
+    result = runner.invoke(app, ["split", str(workbook(make_workbook)), "--no-write", "--max-trip-likelihood", "lots"])
     assert result.exit_code == 2
     assert "--max-trip-likelihood" in result.output

@@ -18,8 +18,8 @@ import pytest
 from typer.testing import CliRunner
 
 from benchmarks.workbooks import make_workbook
-from leakbudget.cli.app import app
 from leakbudget.api import bulk_work, check
+from leakbudget.cli.app import app
 from leakbudget.progress import tracked
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -66,8 +66,9 @@ def run_on_terminal(args: list[str]) -> tuple[int, str]:
     """Run leakbudget with stdout and stderr on a pseudo-terminal; return its exit code and all it wrote."""
     controller, terminal = pty.openpty()
     env = {**os.environ, "PYTHONPATH": str(ROOT), "COLUMNS": "120", "TERM": "xterm"}
-    process = subprocess.Popen([sys.executable, "-m", "leakbudget", *args], stdin=terminal, stdout=terminal,
-                               stderr=terminal, env=env)
+    process = subprocess.Popen(
+        [sys.executable, "-m", "leakbudget", *args], stdin=terminal, stdout=terminal, stderr=terminal, env=env
+    )
     os.close(terminal)
     chunks = []
     while True:
@@ -96,7 +97,7 @@ def test_json_on_a_terminal_has_no_bar(tmp_path: Path):
     code, shown = run_on_terminal(["check", str(path), "--json", "--no-write"])
     assert code in (0, 1)
     assert not any(stage in shown for stage in STAGES) and "━" not in shown
-    assert json.loads(shown[:shown.rindex("}") + 1])["loads"][0]["load"] == "Load 1"
+    assert json.loads(shown[: shown.rindex("}") + 1])["loads"][0]["load"] == "Load 1"
 
 
 def test_piped_output_has_no_bar(tmp_path: Path):
@@ -115,7 +116,7 @@ def test_a_big_project_shows_the_circuits_nearest_their_budget(tmp_path: Path):
     path = make_workbook(tmp_path / "campus.xlsx", 1_000)  # 200 circuits
     result = CliRunner().invoke(app, ["check", str(path), "--no-write"], env={"COLUMNS": "200"})
     doc = json.loads(CliRunner().invoke(app, ["check", str(path), "--no-write", "--json"]).stdout)
-    table = result.stdout[:result.stdout.index("Showing")]
+    table = result.stdout[: result.stdout.index("Showing")]
     shown = [line.split()[0] for line in table.splitlines() if line.strip().startswith("C0")]
     assert len(shown) == TERMINAL_TABLE_ROWS
     over = [c["circuit"] for c in doc["circuits"] if c["status"] in ("over-budget", "trip-risk")]

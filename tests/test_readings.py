@@ -14,11 +14,11 @@ import pytest
 from typer.testing import CliRunner
 
 from leakbudget import risk
+from leakbudget.checking import check
 from leakbudget.cli.app import app
 from leakbudget.devices import Status
 from leakbudget.errors import WorkbookError
 from leakbudget.estimate import CATALOGUE, COMPUTED, MEASURED
-from leakbudget.checking import check
 from leakbudget.readings import CONSISTENT, FAR_ABOVE, FAR_BELOW, calibration_factor, reading_verdict
 from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
@@ -42,13 +42,17 @@ def sheets(loads, readings=None, circuits=None, settings=None):
 METER = ["Meter", "K1", None, 1, "1 mA", None, None, None, "Kitchen", None]  # measured: U(0.95, 1.05) mA
 
 
-@pytest.mark.parametrize(("reading", "conditions", "flag"), [
-    ("1.2 mA", "all on", FAR_ABOVE),   # 1.2 × 0.95 = 1.14 > 97.5th percentile 1.045
-    ("1.0 mA", "all on", CONSISTENT),
-    ("0.8 mA", "all on", FAR_BELOW),   # 0.8 × 1.05 = 0.84 < 2.5th percentile 0.955
-    ("0.5 mA", "idle", CONSISTENT),    # low while idle proves nothing: not flagged
-    ("1.2 mA", "idle", FAR_ABOVE),     # high while idle is still a fault sign
-], ids=["far-above", "consistent", "far-below", "idle-low-not-flagged", "idle-high"])
+@pytest.mark.parametrize(
+    ("reading", "conditions", "flag"),
+    [
+        ("1.2 mA", "all on", FAR_ABOVE),  # 1.2 × 0.95 = 1.14 > 97.5th percentile 1.045
+        ("1.0 mA", "all on", CONSISTENT),
+        ("0.8 mA", "all on", FAR_BELOW),  # 0.8 × 1.05 = 0.84 < 2.5th percentile 0.955
+        ("0.5 mA", "idle", CONSISTENT),  # low while idle proves nothing: not flagged
+        ("1.2 mA", "idle", FAR_ABOVE),  # high while idle is still a fault sign
+    ],
+    ids=["far-above", "consistent", "far-below", "idle-low-not-flagged", "idle-high"],
+)
 def test_each_flag_against_the_uniform_quantiles(make_workbook, reading, conditions, flag):
     result = check(read_project(make_workbook(sheets([METER], [["K1", reading, conditions, "2026-10-14"]]))))
     (rr,) = result.readings
@@ -83,13 +87,17 @@ def test_classify_thresholds_include_the_meter_accuracy():
     assert "too high for this site" in reading_verdict(0.1, "all on", 0.9, 1.2, 0.05)[1]
 
 
-@pytest.mark.parametrize(("fixed", "catalogue", "reading", "expected"), [
-    (0.5j, 0.5j, 0.8, 0.6),      # collinear: 0.5 + 0.5k = 0.8
-    (0.3, 0.4j, 0.5, 1.0),       # right angle: 3-4-5 triangle
-    (0.3, 0.4j, 0.3, 0.0),       # the fixed part alone matches
-    (0.3, 0.4j, 0.2, None),      # below the fixed part at right angles: no k ≥ 0
-    (0.3, 0j, 0.5, None),        # nothing to calibrate
-], ids=["collinear", "three-four-five", "zero", "unreachable", "no-catalogue"])
+@pytest.mark.parametrize(
+    ("fixed", "catalogue", "reading", "expected"),
+    [
+        (0.5j, 0.5j, 0.8, 0.6),  # collinear: 0.5 + 0.5k = 0.8
+        (0.3, 0.4j, 0.5, 1.0),  # right angle: 3-4-5 triangle
+        (0.3, 0.4j, 0.3, 0.0),  # the fixed part alone matches
+        (0.3, 0.4j, 0.2, None),  # below the fixed part at right angles: no k ≥ 0
+        (0.3, 0j, 0.5, None),  # nothing to calibrate
+    ],
+    ids=["collinear", "three-four-five", "zero", "unreachable", "no-catalogue"],
+)
 def test_calibration_factor(fixed, catalogue, reading, expected):
     k = calibration_factor(fixed, catalogue, reading)
     assert k == (pytest.approx(expected) if expected is not None else None)
@@ -97,8 +105,10 @@ def test_calibration_factor(fixed, catalogue, reading, expected):
 
 def test_calibration_shows_both_and_the_calibrated_sum_matches_the_reading(make_workbook):
     # 0.5 mA measured + catalogue refrigerator 0.5 mA typical (both capacitive on L1); reading 0.8 mA → k = 0.6.
-    loads = [["Meter", "K1", None, 1, "0.5 mA", None, None, None, "Kitchen", None],
-             ["Fridge", "K1", "refrigerator", 1, None, None, None, None, "Kitchen", None]]
+    loads = [
+        ["Meter", "K1", None, 1, "0.5 mA", None, None, None, "Kitchen", None],
+        ["Fridge", "K1", "refrigerator", 1, None, None, None, None, "Kitchen", None],
+    ]
     result = check(read_project(make_workbook(sheets(loads, [["K1", "0.8 mA", "all on", None, "yes"]]))))
     (rr,) = result.readings
     cal = rr.calibration
@@ -112,8 +122,10 @@ def test_calibration_shows_both_and_the_calibrated_sum_matches_the_reading(make_
 
 
 def test_calibration_that_cannot_reach_the_reading_says_why(make_workbook):
-    loads = [["Heater", "K1", None, 1, None, None, "1 Mohm", None, "Kitchen", None],  # 0.12 mA resistive
-             ["Fridge", "K1", "refrigerator", 1, None, None, None, None, "Kitchen", None]]
+    loads = [
+        ["Heater", "K1", None, 1, None, None, "1 Mohm", None, "Kitchen", None],  # 0.12 mA resistive
+        ["Fridge", "K1", "refrigerator", 1, None, None, None, None, "Kitchen", None],
+    ]
     result = check(read_project(make_workbook(sheets(loads, [["K1", "0.05 mA", "all on", None, "yes"]]))))
     (rr,) = result.readings
     assert rr.calibration is None and rr.calibration_note.startswith("not calibrated: no scaling")
@@ -121,13 +133,17 @@ def test_calibration_that_cannot_reach_the_reading_says_why(make_workbook):
 
 
 def _identical_unit_book(extra_loads=()):
-    circuits = [["K1", "gfci-a", 120, 60, "single", 20, None, "Kitchen"],
-                ["E1", "rcd-30", 230, 50, "single", 32, None, "Office"]]
-    loads = [["Kitchen fridge", "K1", "refrigerator", 1, "0.41 mA", None, None, None, "Kitchen", "FR-240"],
-             ["Office fridge", "E1", "refrigerator", 2, None, None, None, None, "Office", "fr-240"],
-             ["Other model", "E1", "refrigerator", 1, None, None, None, None, "Office", "FR-300"],
-             ["Own figure", "E1", "refrigerator", 1, None, "4.7 nF", None, None, "Office", "FR-240"],
-             *extra_loads]
+    circuits = [
+        ["K1", "gfci-a", 120, 60, "single", 20, None, "Kitchen"],
+        ["E1", "rcd-30", 230, 50, "single", 32, None, "Office"],
+    ]
+    loads = [
+        ["Kitchen fridge", "K1", "refrigerator", 1, "0.41 mA", None, None, None, "Kitchen", "FR-240"],
+        ["Office fridge", "E1", "refrigerator", 2, None, None, None, None, "Office", "fr-240"],
+        ["Other model", "E1", "refrigerator", 1, None, None, None, None, "Office", "FR-300"],
+        ["Own figure", "E1", "refrigerator", 1, None, "4.7 nF", None, None, "Office", "FR-240"],
+        *extra_loads,
+    ]
     return sheets(loads, circuits=circuits)
 
 
@@ -155,12 +171,19 @@ def test_several_measured_units_give_their_mean(make_workbook):
     assert "mean of the readings on 'Kitchen fridge' (Loads row 2), 'Garage fridge' (Loads row 6)" in office.source
 
 
-@pytest.mark.parametrize(("reading", "message"), [
-    (["K9", 1, None, None, None], "row 2, column 'Circuit', cell A2: 'K9' is not a circuit in the Circuits sheet"),
-    (["K1", None, None, None, None], "row 2, column 'Reading', cell B2: the reading is blank"),
-    (["K1", 1, "sometimes", None, None], "row 2, column 'Conditions', cell C2: 'sometimes' is not 'all on' or 'idle'"),
-    (["K1", 1, "idle", None, "yes"], "row 2, column 'Calibrate', cell E2: only an 'all on' reading can calibrate"),
-], ids=["unknown-circuit", "blank-reading", "bad-conditions", "calibrate-idle"])
+@pytest.mark.parametrize(
+    ("reading", "message"),
+    [
+        (["K9", 1, None, None, None], "row 2, column 'Circuit', cell A2: 'K9' is not a circuit in the Circuits sheet"),
+        (["K1", None, None, None, None], "row 2, column 'Reading', cell B2: the reading is blank"),
+        (
+            ["K1", 1, "sometimes", None, None],
+            "row 2, column 'Conditions', cell C2: 'sometimes' is not 'all on' or 'idle'",
+        ),
+        (["K1", 1, "idle", None, "yes"], "row 2, column 'Calibrate', cell E2: only an 'all on' reading can calibrate"),
+    ],
+    ids=["unknown-circuit", "blank-reading", "bad-conditions", "calibrate-idle"],
+)
 def test_bad_readings_name_the_cell(make_workbook, reading, message):
     with pytest.raises(WorkbookError) as info:
         read_project(make_workbook(sheets([METER], [reading])))
@@ -169,20 +192,28 @@ def test_bad_readings_name_the_cell(make_workbook, reading, message):
 
 
 def test_one_calibrating_reading_per_circuit(make_workbook):
-    with pytest.raises(WorkbookError, match=r"row 3, column 'Calibrate', cell E3: circuit 'K1' is already "
-                                            r"calibrated by row 2"):
+    with pytest.raises(
+        WorkbookError,
+        match=r"row 3, column 'Calibrate', cell E3: circuit 'K1' is already "
+        r"calibrated by row 2",
+    ):
         read_project(make_workbook(sheets([METER], [["K1", 1, None, None, "yes"], ["K1", 1.1, None, None, "yes"]])))
 
 
 def test_cli_shows_the_flags_and_json_carries_both_figures(make_workbook):
-    path = make_workbook(sheets(
-        [METER, ["Fridge", "K1", "refrigerator", 1, None, None, None, None, "Kitchen", None]],
-        [["K1", "2.5 mA", "all on", "2026-10-14", None], ["K1", "1.2 mA", "all on", "2026-10-15", "yes"]]))
+    path = make_workbook(
+        sheets(
+            [METER, ["Fridge", "K1", "refrigerator", 1, None, None, None, None, "Kitchen", None]],
+            [["K1", "2.5 mA", "all on", "2026-10-14", None], ["K1", "1.2 mA", "all on", "2026-10-15", "yes"]],
+        )
+    )
     runner = CliRunner()
     shown = runner.invoke(app, ["check", str(path), "--no-write"], env={"COLUMNS": "200"})
     assert shown.exit_code == 0, shown.output
-    assert ("K1 (Readings row 2): far above the estimate: a load is probably faulty (leaking far above its kind) "
-            "or a load is missing from the Loads sheet; find it before relying on the estimate.") in shown.output
+    assert (
+        "K1 (Readings row 2): far above the estimate: a load is probably faulty (leaking far above its kind) "
+        "or a load is missing from the Loads sheet; find it before relying on the estimate."
+    ) in shown.output
     assert "Thresholds: far above when reading × (1 − meter accuracy) exceeds the 97.5th percentile" in shown.output
     doc = json.loads(runner.invoke(app, ["check", str(path), "--no-write", "--json"]).stdout)
     first, second = doc["readings"]
@@ -191,7 +222,11 @@ def test_cli_shows_the_flags_and_json_carries_both_figures(make_workbook):
     assert second["calibrated_phasor_ma"] == pytest.approx(1.2)
     assert second["estimate_phasor_ma"] == pytest.approx(1.5)
     circuit = doc["circuits"][0]
-    for key in ("trip_probability", "trip_probability_se", "trip_probability_switch_on",
-                "trip_probability_switch_on_se"):
+    for key in (
+        "trip_probability",
+        "trip_probability_se",
+        "trip_probability_switch_on",
+        "trip_probability_switch_on_se",
+    ):
         assert isinstance(circuit[key], float), key
     assert doc["risk"]["samples"] == 10_000 and doc["risk"]["seed"] == 1

@@ -20,11 +20,11 @@ from html.parser import HTMLParser
 
 import pytest
 
-from leakbudget.reporting import charts
-from leakbudget.cli.app import main
-from leakbudget.checking import check
 from leakbudget.api import example_path, report
+from leakbudget.checking import check
+from leakbudget.cli.app import main
 from leakbudget.planner.plan import SplitOptions
+from leakbudget.reporting import charts
 from leakbudget.reporting.content import build_report
 from leakbudget.reporting.document import iter_tables
 from leakbudget.reporting.html import render_html
@@ -81,8 +81,12 @@ class ReportReader(HTMLParser):
         elif tag == "figure":
             self._figure = a.get("data-figure")
         elif tag == "img" and self._figure is not None:
-            self.figures[self._figure] = {"png": base64.b64decode(a["src"].split(",", 1)[1]), "alt": a["alt"],
-                                          "width": int(a["width"]), "height": int(a["height"])}
+            self.figures[self._figure] = {
+                "png": base64.b64decode(a["src"].split(",", 1)[1]),
+                "alt": a["alt"],
+                "width": int(a["width"]),
+                "height": int(a["height"]),
+            }
 
     def handle_endtag(self, tag):
         if tag == "table":
@@ -129,15 +133,21 @@ def demo_run(tmp_path_factory):
     review_run = run(["review", str(workbook), "--no-write", "--json"])
     mp.undo()
     return {
-        "workbook": workbook, "unchanged": workbook.read_bytes() == before, "report": report_run,
-        "check": json.loads(check_run[1]), "review": json.loads(review_run[1]),
-        "split": json.loads(split_run[1]), "html_path": html_path,
-        "pdf_path": pdf_path, "html": read_html(html_path.read_text(encoding="utf-8")),
+        "workbook": workbook,
+        "unchanged": workbook.read_bytes() == before,
+        "report": report_run,
+        "check": json.loads(check_run[1]),
+        "review": json.loads(review_run[1]),
+        "split": json.loads(split_run[1]),
+        "html_path": html_path,
+        "pdf_path": pdf_path,
+        "html": read_html(html_path.read_text(encoding="utf-8")),
         "raw_html": html_path.read_text(encoding="utf-8"),
     }
 
 
 # ---- the command ------------------------------------------------------------------------------------------------
+
 
 def test_report_command_writes_both_files_and_leaves_the_workbook_alone(demo_run):
     code, out, err = demo_run["report"]
@@ -147,32 +157,43 @@ def test_report_command_writes_both_files_and_leaves_the_workbook_alone(demo_run
     counts = review_doc["counts"]
     assert over == 3 and not any(c["status"] == "trip-risk" for c in check_doc["circuits"])  # the demo's story
     assert code == 0
-    assert " ".join(out.split()) == " ".join([  # rich wraps long lines at the terminal width
-        f"Report written to {html_path} ({html_path.stat().st_size // 1024} KB).",
-        f"Report written to {pdf_path} ({pdf_path.stat().st_size // 1024} KB).",
-        f"{len(check_doc['circuits'])} circuit(s), {over} over budget. {over} circuit(s) over budget but below "
-        "the no-trip level: the plan needs changes before installation. The split plan in this report brings "
-        "every protected circuit within its budget and current limit.",
-        f"Reviewed against {review_doc['code_label']}: {counts['error']} error(s), {counts['warning']} warning(s), "
-        f"{counts['info']} info.",
-        f"Split plan: {demo_run['split']['summary']}",
-    ])
+    assert " ".join(out.split()) == " ".join(
+        [  # rich wraps long lines at the terminal width
+            f"Report written to {html_path} ({html_path.stat().st_size // 1024} KB).",
+            f"Report written to {pdf_path} ({pdf_path.stat().st_size // 1024} KB).",
+            f"{len(check_doc['circuits'])} circuit(s), {over} over budget. {over} circuit(s) over budget but below "
+            "the no-trip level: the plan needs changes before installation. The split plan in this report brings "
+            "every protected circuit within its budget and current limit.",
+            f"Reviewed against {review_doc['code_label']}: {counts['error']} error(s), {counts['warning']} warning(s), "
+            f"{counts['info']} info.",
+            f"Split plan: {demo_run['split']['summary']}",
+        ]
+    )
     assert err.startswith("Caution: leakbudget is a planning aid")
     assert demo_run["unchanged"]
     assert pdf_path.read_bytes().startswith(b"%PDF-")
 
 
-@pytest.mark.parametrize("args, message", [
-    (["--html"], None),
-    ([], "alder-quay-remodel.xlsx: say where to write the report; give --html REPORT.html and/or --pdf "
-         "REPORT.pdf."),
-    (["--html", "{folder}/report.txt"], "{folder}/report.txt: the HTML report needs a name ending in .html or "
-                                        ".htm; give e.g. --html report.html."),
-    (["--pdf", "{folder}/missing/report.pdf"], "{folder}/missing/report.pdf: the folder {folder}/missing does "
-                                               "not exist; create it or choose another folder."),
-])
-def test_bad_output_names_exit_2_with_one_sentence_and_write_nothing(args, message, tmp_path, capsys,
-                                                                     monkeypatch):
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (["--html"], None),
+        (
+            [],
+            "alder-quay-remodel.xlsx: say where to write the report; give --html REPORT.html and/or --pdf REPORT.pdf.",
+        ),
+        (
+            ["--html", "{folder}/report.txt"],
+            "{folder}/report.txt: the HTML report needs a name ending in .html or .htm; give e.g. --html report.html.",
+        ),
+        (
+            ["--pdf", "{folder}/missing/report.pdf"],
+            "{folder}/missing/report.pdf: the folder {folder}/missing does "
+            "not exist; create it or choose another folder.",
+        ),
+    ],
+)
+def test_bad_output_names_exit_2_with_one_sentence_and_write_nothing(args, message, tmp_path, capsys, monkeypatch):
     workbook = tmp_path / "alder-quay-remodel.xlsx"
     shutil.copyfile(example_path(), workbook)
     if args == ["--html"]:  # the workbook itself as the output: refused even with an .html name
@@ -189,6 +210,7 @@ def test_bad_output_names_exit_2_with_one_sentence_and_write_nothing(args, messa
 
 
 # ---- content ----------------------------------------------------------------------------------------------------
+
 
 def test_html_is_self_contained(demo_run):
     html = demo_run["html"]
@@ -209,14 +231,13 @@ def test_report_has_every_circuit_with_its_chart_and_load_table(demo_run):
         names = [row[0]["text"] for row in html.tables[f"loads-{cid}"][1:]]
         assert names == [d["load"] for d in doc["loads"] if d["circuit"] == cid]
     assert [row[0]["text"] for row in html.tables["loads-unplaced"][1:]] == [
-        d["load"] for d in doc["loads"] if d["kind"] == "load" and d["circuit"] is None]
-    for section in ("job", "cautions", "supply", "circuits", "likelihood", "readings", "split", "findings",
-                    "method"):
+        d["load"] for d in doc["loads"] if d["kind"] == "load" and d["circuit"] is None
+    ]
+    for section in ("job", "cautions", "supply", "circuits", "likelihood", "readings", "split", "findings", "method"):
         assert section in html.sections
 
 
-CIRCUIT_KEYS = ("load_count", "cable_leakage_ma", "leakage_ma", "phasor_ma", "budget_ma", "no_trip_ma",
-                "headroom_used")
+CIRCUIT_KEYS = ("load_count", "cable_leakage_ma", "leakage_ma", "phasor_ma", "budget_ma", "no_trip_ma", "headroom_used")
 
 
 def _numbers(row: list[dict]) -> dict[str, dict]:
@@ -284,8 +305,10 @@ def test_every_load_shows_its_source_and_provenance_mark(demo_run):
     raw = demo_run["raw_html"]
     # the measured microwave reading and a catalogue value from memory, each with its mark
     assert 'measured<small class="src">measured (your Leakage value)</small>' in raw
-    assert ('catalogue<span class="badge k-typical-from-memory">typical, from memory</span><small class="src">'
-            "catalogue &#x27;dishwasher&#x27; typical 0.8 mA: typical, from memory</small>") in raw
+    assert (
+        'catalogue<span class="badge k-typical-from-memory">typical, from memory</span><small class="src">'
+        "catalogue &#x27;dishwasher&#x27; typical 0.8 mA: typical, from memory</small>"
+    ) in raw
     # the budget rule's source and the device levels' sources (UL 943, BS 7671:2018 reg. 531.3.2)
     assert "UL 943 Class A (no trip below 4 mA)" in raw
     assert "30 % of trip level, by analogy with BS 7671:2018 reg. 531.3.2 (common practice)" in raw
@@ -313,8 +336,7 @@ def test_embedded_charts_show_the_check_numbers(demo_run):
 
 
 def test_pdf_has_every_circuit_and_its_text_stays_on_the_page(demo_run):
-    job = report(demo_run["workbook"], html=demo_run["html_path"].with_name("again.html"),
-                          split=SplitOptions())
+    job = report(demo_run["workbook"], html=demo_run["html_path"].with_name("again.html"), split=SplitOptions())
     pages = pdf_pages(job.report)  # the same report the command laid out, as figures
     texts = []
     for page in pages:
@@ -335,24 +357,32 @@ def test_findings_equal_review_json(demo_run):
     rows = html.tables["findings"][1:]
     assert len(rows) == len(doc["findings"]) > 0
     for f, row in zip(doc["findings"], rows, strict=True):  # both most severe first, then in circuit order
-        assert [cell["text"] for cell in row] == [f["severity"], f["circuit"] or "-", f["load"] or "-",
-                                                  f["message"], f["source"]]
+        assert [cell["text"] for cell in row] == [
+            f["severity"],
+            f["circuit"] or "-",
+            f["load"] or "-",
+            f["message"],
+            f["source"],
+        ]
     assert f"Reviewed against {doc['code_label']} ({doc['code_source']})." in demo_run["raw_html"]
 
 
 def test_code_option_reaches_the_review(make_workbook, tmp_path, capsys, monkeypatch):
     out = tmp_path / "r.html"
-    code, stdout, _ = run_cli(["report", str(make_workbook()), "--html", str(out), "--code", "bs-7671"], capsys,
-                              monkeypatch)
+    code, stdout, _ = run_cli(
+        ["report", str(make_workbook()), "--html", str(out), "--code", "bs-7671"], capsys, monkeypatch
+    )
     assert code == 0
     assert "Reviewed against BS 7671" in stdout
     assert "Reviewed against BS 7671" in out.read_text(encoding="utf-8")
-    code, _, err = run_cli(["report", str(make_workbook()), "--html", str(out), "--code", "nec-1999"], capsys,
-                           monkeypatch)
+    code, _, err = run_cli(
+        ["report", str(make_workbook()), "--html", str(out), "--code", "nec-1999"], capsys, monkeypatch
+    )
     assert code == 2 and err.startswith("Error: 'nec-1999' is not a code leakbudget reviews against")
 
 
 # ---- the small workbook: physics against published figures -------------------------------------------------------
+
 
 def test_small_workbook_report_against_published_figures(make_workbook, tmp_path):
     job = report(make_workbook(), html=tmp_path / "r.html", generated=dt.date(2026, 1, 5))
@@ -373,9 +403,13 @@ def test_small_workbook_report_against_published_figures(make_workbook, tmp_path
 
 def test_job_settings_head_the_report(tmp_path):
     sheets = basic_sheets()
-    sheets["Settings"] = [["Setting", "Value"], ["Job", "Bakery fit-out, ground floor"],
-                          ["Site", "4 Tallow Lane, Eskbridge"], ["Client", "Fennick Bakes"],
-                          ["Prepared by", "J. Arkwright"]]
+    sheets["Settings"] = [
+        ["Setting", "Value"],
+        ["Job", "Bakery fit-out, ground floor"],
+        ["Site", "4 Tallow Lane, Eskbridge"],
+        ["Client", "Fennick Bakes"],
+        ["Prepared by", "J. Arkwright"],
+    ]
     workbook = write_workbook(tmp_path / "bakery.xlsx", sheets)
     report = build_report(check(read_project(workbook)), generated=dt.date(2026, 3, 1))
     text = render_html(report)
@@ -407,6 +441,7 @@ def test_workbook_text_is_escaped(tmp_path):
 
 # ---- sections filled from the review and the split planner ------------------------------------------------------
 
+
 @dataclass
 class Finding:
     severity: str
@@ -421,8 +456,14 @@ def test_findings_are_listed_most_severe_first(make_workbook):
     result = check(read_project(make_workbook()))
     findings = [
         Finding("info", "room-unclassified", "common practice", "K1", None, "Room 'Snug' could not be classified."),
-        Finding("error", "location-protection", "NEC 2023 210.8(A)(1)", "K1", None, "Bathroom receptacle needs "
-                "GFCI protection."),
+        Finding(
+            "error",
+            "location-protection",
+            "NEC 2023 210.8(A)(1)",
+            "K1",
+            None,
+            "Bathroom receptacle needs GFCI protection.",
+        ),
         Finding("warning", "waveform", "IEC 62423", "E1", "Meter", "Smooth-DC leakage on a Type A RCD."),
     ]
     report = build_report(result, findings=findings)
@@ -431,14 +472,17 @@ def test_findings_are_listed_most_severe_first(make_workbook):
     assert table.rows[0][3].note == "rule: location-protection" and table.rows[0][4].text == "NEC 2023 210.8(A)(1)"
     section = next(s for s in report.sections if s.anchor == "findings")
     assert section.blocks[0].text.startswith("3 finding(s): 1 error, 1 warning, 1 info. ")
-    assert report.verdict.text == ("Every protected circuit is within its budget. The review found 1 error(s): "
-                                   "see 'Review findings'.")
+    assert report.verdict.text == (
+        "Every protected circuit is within its budget. The review found 1 error(s): see 'Review findings'."
+    )
 
 
 def test_findings_section_says_when_the_review_was_not_run_or_found_nothing(make_workbook):
     result = check(read_project(make_workbook()))
-    for findings, text in ((None, "The compliance review was not run for this report."),
-                           ([], "The review found nothing to report for the rules it checks.")):
+    for findings, text in (
+        (None, "The compliance review was not run for this report."),
+        ([], "The review found nothing to report for the rules it checks."),
+    ):
         section = next(s for s in build_report(result, findings=findings).sections if s.anchor == "findings")
         assert section.blocks[0].text == text
 
@@ -448,20 +492,25 @@ def test_split_plan_section_equals_split_json(tmp_path, capsys, monkeypatch):
     # and below the 15 mA no-trip level (IEC 61008-1, 0.5 IΔn); one of them needs a circuit of its own
     sheets = {
         "Circuits": [CIRCUITS_HEADER, ["E1", "rcd-30", 230, 50, "single", 32, None, "Office"]],
-        "Loads": [LOADS_HEADER, ["Server A", "E1", None, 1, "6 mA", None, None, None, "Office"],
-                  ["Server B", "E1", None, 1, "6 mA", None, None, None, "Office"]],
+        "Loads": [
+            LOADS_HEADER,
+            ["Server A", "E1", None, 1, "6 mA", None, None, None, "Office"],
+            ["Server B", "E1", None, 1, "6 mA", None, None, None, "Office"],
+        ],
     }
     workbook = write_workbook(tmp_path / "servers.xlsx", sheets)
     code, out, _ = run_cli(["split", str(workbook), "--no-write", "--json"], capsys, monkeypatch)
     plan = json.loads(out)
     assert code == 0 and plan["new_circuits"] == 1
-    code, out, _ = run_cli(["report", str(workbook), "--html", str(tmp_path / "r.html"), "--split"], capsys,
-                           monkeypatch)
+    code, out, _ = run_cli(
+        ["report", str(workbook), "--html", str(tmp_path / "r.html"), "--split"], capsys, monkeypatch
+    )
     assert code == 0 and f"Split plan: {plan['summary']}" in " ".join(out.split())
     html = read_html((tmp_path / "r.html").read_text(encoding="utf-8"))
     moved = [a for a in plan["assignments"] if a["moved"] or a["placed"]]
     assert [[c["text"] for c in row] for row in html.tables["split-moves"][1:]] == [
-        [a["load"], a["from"], a["to"], f"{a['leakage_ma']:.3f}"] for a in moved]
+        [a["load"], a["from"], a["to"], f"{a['leakage_ma']:.3f}"] for a in moved
+    ]
     assert [row[0]["text"] for row in html.tables["split-new"][1:]] == ["NEW-1"]
     after = html.tables["split-circuits"][1:]
     for c, row in zip(plan["circuits"], after, strict=True):
@@ -471,8 +520,9 @@ def test_split_plan_section_equals_split_json(tmp_path, capsys, monkeypatch):
         assert float(cells["current_a"]["value"]) == c["current_a"]
     assert "split-overview" in html.figures
     report = build_report(check(read_project(workbook)), plan=plan)
-    assert report.verdict.text.endswith("The split plan in this report brings every protected circuit within its "
-                                        "budget and current limit.")
+    assert report.verdict.text.endswith(
+        "The split plan in this report brings every protected circuit within its budget and current limit."
+    )
     section = next(s for s in report.sections if s.anchor == "split")
     assert section.blocks[0].text == plan["summary"]
 

@@ -13,12 +13,14 @@ import zipfile
 import defusedxml.ElementTree as ET
 from typer.testing import CliRunner
 
-from leakbudget.reporting import charts
-from leakbudget.cli.app import app
 from leakbudget.api import example_path
+from leakbudget.cli.app import app
+from leakbudget.reporting import charts
 
-NS = {"c": "http://schemas.openxmlformats.org/drawingml/2006/chart",
-      "a": "http://schemas.openxmlformats.org/drawingml/2006/main"}
+NS = {
+    "c": "http://schemas.openxmlformats.org/drawingml/2006/chart",
+    "a": "http://schemas.openxmlformats.org/drawingml/2006/main",
+}
 runner = CliRunner()
 
 
@@ -33,7 +35,7 @@ def _column(ref: str) -> tuple[str, int, int]:
     cells = ref.split("!")[1].replace("$", "")
     first, _, last = cells.partition(":")
     letters = "".join(ch for ch in first if ch.isalpha())
-    return letters, int(first[len(letters):]), int((last or first)[len(letters):])
+    return letters, int(first[len(letters) :]), int((last or first)[len(letters) :])
 
 
 def test_circuit_results_chart_plots_every_circuit_and_nothing_else(tmp_path):
@@ -60,11 +62,14 @@ def test_circuit_results_chart_plots_every_circuit_and_nothing_else(tmp_path):
         assert (cat_first, cat_last) == (val_first, val_last) == (2, 1 + len(doc["circuits"]))
         index = ord(val_col) - ord("A")
         names.append(header[index])
-        plotted = [row[index] for row in data[:len(doc["circuits"])]]
-        key = {"Leakage, arithmetic (mA)": "leakage_ma", "Budget (mA)": "budget_ma",
-               "No-trip level (mA)": "no_trip_ma"}[header[index]]
+        plotted = [row[index] for row in data[: len(doc["circuits"])]]
+        key = {
+            "Leakage, arithmetic (mA)": "leakage_ma",
+            "Budget (mA)": "budget_ma",
+            "No-trip level (mA)": "no_trip_ma",
+        }[header[index]]
         assert plotted == [c[key] if c[key] is not None else "" for c in doc["circuits"]]
         colours.append("#" + ser.find("c:spPr/a:solidFill/a:srgbClr", NS).get("val").lower())
-    assert [row[0] for row in data[:len(doc["circuits"])]] == [c["circuit"] for c in doc["circuits"]]
+    assert [row[0] for row in data[: len(doc["circuits"])]] == [c["circuit"] for c in doc["circuits"]]
     assert names == ["Leakage, arithmetic (mA)", "Budget (mA)", "No-trip level (mA)"]
     assert colours == [charts.SEGMENT_COLOURS[0], charts.BUDGET_COLOUR, charts.NO_TRIP_COLOUR]

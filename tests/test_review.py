@@ -14,32 +14,65 @@ import pytest
 from typer.testing import CliRunner
 
 from leakbudget.cli.app import app
+from leakbudget.compliance.rules import (
+    GFCI_RUN_LIMIT_M,
+    RULES,
+    Finding,
+    ReviewError,
+    Severity,
+    review,
+    rule_description,
+)
 from leakbudget.errors import WorkbookError
 from leakbudget.locations import classify_room
 from leakbudget.provenance import Kind
 from leakbudget.settings import SWITCH_ON_FACTOR_DEFAULT as SWITCH_ON_FACTOR
-from leakbudget.compliance.rules import (
-    GFCI_RUN_LIMIT_M, RULES, Finding, ReviewError, Severity, review, rule_description,
-)
 from leakbudget.workbook.read import read_project
 
 runner = CliRunner()
 
-CIRCUITS = ["Circuit", "Device", "RCD type", "Voltage", "Frequency", "System", "Rating", "Cable length", "Rooms",
-            "Shared neutral"]
+CIRCUITS = [
+    "Circuit",
+    "Device",
+    "RCD type",
+    "Voltage",
+    "Frequency",
+    "System",
+    "Rating",
+    "Cable length",
+    "Rooms",
+    "Shared neutral",
+]
 LOADS = ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Power", "Room", "Waveform"]
 
 
-def circuit(cid: str, device: str, rooms: str | None = None, *, rcd_type: str | None = None, us: bool = True,
-            system: str = "single", rating: float = 20, length: float | str | None = None,
-            shared: str | None = None) -> list[Any]:
+def circuit(
+    cid: str,
+    device: str,
+    rooms: str | None = None,
+    *,
+    rcd_type: str | None = None,
+    us: bool = True,
+    system: str = "single",
+    rating: float = 20,
+    length: float | str | None = None,
+    shared: str | None = None,
+) -> list[Any]:
     v, f = (120, 60) if us else (230, 50)
     return [cid, device, rcd_type, v, f, system, rating, length, rooms, shared]
 
 
-def load(name: str, cid: str | None, appliance: str | None = None, leakage: str | None = None, *,
-         power: float | str | None = None, room: str | None = None, waveform: str | None = None,
-         quantity: int = 1) -> list[Any]:
+def load(
+    name: str,
+    cid: str | None,
+    appliance: str | None = None,
+    leakage: str | None = None,
+    *,
+    power: float | str | None = None,
+    room: str | None = None,
+    waveform: str | None = None,
+    quantity: int = 1,
+) -> list[Any]:
     return [name, cid, appliance, quantity, leakage, power, room, waveform]
 
 
@@ -47,14 +80,19 @@ def load(name: str, cid: str | None, appliance: str | None = None, leakage: str 
 def plan(make_workbook):
     count = iter(range(1000))
 
-    def build(circuits: list[list[Any]], loads: list[list[Any]], settings: list[list[Any]] | None = None,
-              locations: list[list[Any]] | None = None):
+    def build(
+        circuits: list[list[Any]],
+        loads: list[list[Any]],
+        settings: list[list[Any]] | None = None,
+        locations: list[list[Any]] | None = None,
+    ):
         sheets: dict[str, list[list[Any]]] = {"Circuits": [CIRCUITS, *circuits], "Loads": [LOADS, *loads]}
         if settings:
             sheets["Settings"] = [["Setting", "Value"], *settings]
         if locations:
             sheets["Locations"] = [["Room name", "Location kind"], *locations]
         return read_project(make_workbook(sheets, f"plan{next(count)}.xlsx"))
+
     return build
 
 
@@ -74,8 +112,9 @@ def test_code_defaults_by_supply_frequency(plan):
 
 
 def test_code_setting_and_option(plan):
-    p = plan([circuit("K1", "rcd-30", "Kitchen", us=False)], [load("Kettle", "K1", "kettle")],
-             settings=[["Code", "BS-7671"]])
+    p = plan(
+        [circuit("K1", "rcd-30", "Kitchen", us=False)], [load("Kettle", "K1", "kettle")], settings=[["Code", "BS-7671"]]
+    )
     rv = review(p)
     assert rv.code.key == "bs-7671" and rv.code_source.kind is Kind.USER
     assert review(p, "nec-2020").code.key == "nec-2020"  # the option wins over the setting
@@ -86,31 +125,40 @@ def test_code_setting_and_option(plan):
 # --------------------------------------------------------------------------------------------- room table
 
 
-@pytest.mark.parametrize("room, kinds", [
-    ("Main bath", ("bathroom",)),
-    ("Guest Bathrooms", ("bathroom",)),  # plural
-    ("Garage bath", ("garage", "bathroom")),  # two kinds named
-    ("Wet bar", ("sink-area",)),  # the longer match wins over 'wet'
-    ("Bedroom balcony", ("outdoor",)),  # dry is dropped beside another kind
-    ("Powder room", ("half-bath",)),
-    ("Crawl-space", ("crawl-space",)),
-    ("Snug", ()),
-])
+@pytest.mark.parametrize(
+    "room, kinds",
+    [
+        ("Main bath", ("bathroom",)),
+        ("Guest Bathrooms", ("bathroom",)),  # plural
+        ("Garage bath", ("garage", "bathroom")),  # two kinds named
+        ("Wet bar", ("sink-area",)),  # the longer match wins over 'wet'
+        ("Bedroom balcony", ("outdoor",)),  # dry is dropped beside another kind
+        ("Powder room", ("half-bath",)),
+        ("Crawl-space", ("crawl-space",)),
+        ("Snug", ()),
+    ],
+)
 def test_room_names_classify_through_the_built_in_table(room, kinds):
     assert classify_room(room).kinds == kinds
 
 
 def test_users_locations_rows_come_first(plan):
-    p = plan([circuit("U1", "none", "Utility, Snug")], [load("Iron", "U1", "iron")],
-             locations=[["utility", "damp"], ["Snug", "dry"]])
+    p = plan(
+        [circuit("U1", "none", "Utility, Snug")],
+        [load("Iron", "U1", "iron")],
+        locations=[["utility", "damp"], ["Snug", "dry"]],
+    )
     assert classify_room("Utility", p.location_rows).kinds == ("damp",)  # built-in says laundry
     assert classify_room("Snug", p.location_rows).kinds == ("dry",)
     assert "your sheet 'Locations' row 2" in classify_room("Utility", p.location_rows).matches[0].origin
 
 
 def test_locations_sheet_with_unknown_kind_names_the_cell(plan):
-    with pytest.raises(WorkbookError, match=r"sheet 'Locations', row 2, column 'Location kind', cell B2: 'spa' is "
-                                            r"not one of bathroom"):
+    with pytest.raises(
+        WorkbookError,
+        match=r"sheet 'Locations', row 2, column 'Location kind', cell B2: 'spa' is "
+        r"not one of bathroom",
+    ):
         plan([circuit("U1", "none", "Snug")], [load("Iron", "U1", "iron")], locations=[["Snug", "spa"]])
 
 
@@ -123,7 +171,8 @@ def test_location_nec_2023_210_8_A_bathroom_receptacle_without_gfci_is_an_error(
     assert (f.severity, f.circuit, str(f.source)) == (Severity.ERROR, "B1", "NEC 2023 210.8(A)")
     assert f.message == (
         "B1 serves Main bath (bathroom): NEC 2023 210.8(A) requires GFCI protection for personnel (Class A) for "
-        "receptacles there; B1 has no ground-fault protection: fit a Class A GFCI (gfci-a).")
+        "receptacles there; B1 has no ground-fault protection: fit a Class A GFCI (gfci-a)."
+    )
 
 
 def test_location_nec_2023_210_8_A_satisfied_by_a_class_a_gfci(plan):
@@ -187,11 +236,14 @@ def test_room_unclassified_is_reported_and_a_locations_row_cures_it(plan):
 
 
 def test_appliance_outlet_nec_2023_210_8_D_microwave_and_dishwasher(plan):
-    p = plan([circuit("D1", "none", "Dining room")],
-             [load("Microwave", "D1", "microwave"), load("Dishwasher", "D1", "dishwasher"),
-              load("Lamp", "D1", "monitor")])
+    p = plan(
+        [circuit("D1", "none", "Dining room")],
+        [load("Microwave", "D1", "microwave"), load("Dishwasher", "D1", "dishwasher"), load("Lamp", "D1", "monitor")],
+    )
     assert [(f.load, str(f.source)) for f in found(p, "appliance-outlet", "nec-2023")] == [
-        ("Microwave", "NEC 2023 210.8(D)"), ("Dishwasher", "NEC 2023 210.8(D)")]
+        ("Microwave", "NEC 2023 210.8(D)"),
+        ("Dishwasher", "NEC 2023 210.8(D)"),
+    ]
     # NEC 2020 210.8(D) covers dishwasher outlets only (from memory).
     assert [f.load for f in found(p, "appliance-outlet", "nec-2020")] == ["Dishwasher"]
     assert found(p, "appliance-outlet", "bs-7671") == []
@@ -206,12 +258,18 @@ def test_appliance_outlet_satisfied_by_gfci(plan):
 
 
 def test_ev_charging_nec_625_54_covers_receptacles(plan):
-    p = plan([circuit("E1", "none", "Driveway"), circuit("E2", "none", "Driveway", rating=50)],
-             [load("Cord set", "E1", "ev-charger-level-1"), load("Wall unit", "E2", "ev-charger-level-2")])
+    p = plan(
+        [circuit("E1", "none", "Driveway"), circuit("E2", "none", "Driveway", rating=50)],
+        [load("Cord set", "E1", "ev-charger-level-1"), load("Wall unit", "E2", "ev-charger-level-2")],
+    )
     hits = found(p, "ev-charging")
     assert [(h.load, str(h.source)) for h in hits] == [("Cord set", "NEC 2023 625.54")]  # the fixed unit: none
-    assert found(plan([circuit("E1", "gfci-a", "Driveway")], [load("Cord set", "E1", "ev-charger-level-1")]),
-                 "ev-charging") == []
+    assert (
+        found(
+            plan([circuit("E1", "gfci-a", "Driveway")], [load("Cord set", "E1", "ev-charger-level-1")]), "ev-charging"
+        )
+        == []
+    )
 
 
 def test_ev_charging_iec_722_needs_an_rcd(plan):
@@ -219,8 +277,14 @@ def test_ev_charging_iec_722_needs_an_rcd(plan):
     loads = [load("Wallbox", "E1", "ev-charger-wallbox-230v")]
     (hit,) = found(plan([circuit("E1", "none", "Garage", us=False, rating=40)], loads), "ev-charging", "iec-60364")
     assert "722.531.2.101" in str(hit.source) and hit.severity is Severity.ERROR
-    assert found(plan([circuit("E1", "rcd-30", "Garage", us=False, rcd_type="B", rating=40)], loads),
-                 "ev-charging", "iec-60364") == []
+    assert (
+        found(
+            plan([circuit("E1", "rcd-30", "Garage", us=False, rcd_type="B", rating=40)], loads),
+            "ev-charging",
+            "iec-60364",
+        )
+        == []
+    )
 
 
 # --------------------------------------------------------------------------------------------- socket-outlets
@@ -232,8 +296,9 @@ def test_socket_outlets_bs_7671_411_3_3(plan):
     (hit,) = found(plan([circuit("C1", "none", "Kitchen", us=False)], kettle), "socket-outlets", "bs-7671")
     assert (hit.severity, str(hit.source)) == (Severity.ERROR, "BS 7671:2018 reg. 411.3.3 and 415.1.1")
     assert found(plan([circuit("C1", "rcd-30", "Kitchen", us=False)], kettle), "socket-outlets", "bs-7671") == []
-    assert found(plan([circuit("C1", "none", "Kitchen", us=False, rating=40)], kettle), "socket-outlets",
-                 "bs-7671") == []  # above 32 A
+    assert (
+        found(plan([circuit("C1", "none", "Kitchen", us=False, rating=40)], kettle), "socket-outlets", "bs-7671") == []
+    )  # above 32 A
     heater = [load("Water heater", "C1", "storage-water-heater")]  # fixed-wired: no socket-outlet
     assert found(plan([circuit("C1", "none", "Kitchen", us=False)], heater), "socket-outlets", "bs-7671") == []
 
@@ -247,20 +312,25 @@ def test_socket_outlets_unknown_connection_is_a_warning(plan):
 # --------------------------------------------------------------------------------------------- waveform
 
 
-@pytest.mark.parametrize("rcd_type, waveform, severity", [
-    # IEC 60755 / IEC 62423: AC sees sine only; A adds pulsating DC; F adds inverter frequencies; B adds smooth DC.
-    ("AC", "pulsating-dc", Severity.ERROR),
-    ("A", "pulsating-dc", None),
-    ("AC", "high-frequency", Severity.ERROR),
-    ("A", "high-frequency", Severity.WARNING),
-    ("F", "high-frequency", None),
-    ("F", "smooth-dc", Severity.WARNING),
-    ("B", "smooth-dc", None),
-    ("AC", "sine", None),
-])
+@pytest.mark.parametrize(
+    "rcd_type, waveform, severity",
+    [
+        # IEC 60755 / IEC 62423: AC sees sine only; A adds pulsating DC; F adds inverter frequencies; B adds smooth DC.
+        ("AC", "pulsating-dc", Severity.ERROR),
+        ("A", "pulsating-dc", None),
+        ("AC", "high-frequency", Severity.ERROR),
+        ("A", "high-frequency", Severity.WARNING),
+        ("F", "high-frequency", None),
+        ("F", "smooth-dc", Severity.WARNING),
+        ("B", "smooth-dc", None),
+        ("AC", "sine", None),
+    ],
+)
 def test_waveform_against_rcd_type_iec_62423(plan, rcd_type, waveform, severity):
-    p = plan([circuit("C1", "rcd-30", "Office", us=False, rcd_type=rcd_type)],
-             [load("Drive", "C1", None, "1 mA", waveform=waveform)])
+    p = plan(
+        [circuit("C1", "rcd-30", "Office", us=False, rcd_type=rcd_type)],
+        [load("Drive", "C1", None, "1 mA", waveform=waveform)],
+    )
     hits = found(p, "waveform")
     assert [h.severity for h in hits] == ([severity] if severity else [])
     if hits:
@@ -268,8 +338,10 @@ def test_waveform_against_rcd_type_iec_62423(plan, rcd_type, waveform, severity)
 
 
 def test_waveform_smooth_dc_cites_iec_62955_dc_detection(plan):
-    p = plan([circuit("E1", "rcd-30", "Garage", us=False, rcd_type="A", rating=40)],
-             [load("Wallbox", "E1", "ev-charger-wallbox-230v")])
+    p = plan(
+        [circuit("E1", "rcd-30", "Garage", us=False, rcd_type="A", rating=40)],
+        [load("Wallbox", "E1", "ev-charger-wallbox-230v")],
+    )
     (hit,) = found(p, "waveform")
     assert "IEC 62955" in str(hit.source) and "IEC 62955 6 mA DC-detecting device" in hit.message
     assert "catalogue 'ev-charger-wallbox-230v'" in hit.message
@@ -300,25 +372,33 @@ def test_waveform_column_rejects_unknown_values(plan):
 
 def test_fault_sign_ul_101_refrigerator_above_0_75_ma(plan):
     # UL 101: stationary cord-connected appliance at most 0.75 mA.
-    hits = found(plan([circuit("K1", "gfci-a", "Kitchen")], [load("Fridge", "K1", "refrigerator", "1.2 mA")]),
-                 "fault-sign")
+    hits = found(
+        plan([circuit("K1", "gfci-a", "Kitchen")], [load("Fridge", "K1", "refrigerator", "1.2 mA")]), "fault-sign"
+    )
     assert [(h.severity, str(h.source)) for h in hits] == [
-        (Severity.ERROR, "UL 101 (0.75 mA, stationary cord-connected)")]
+        (Severity.ERROR, "UL 101 (0.75 mA, stationary cord-connected)")
+    ]
     assert "probably faulty" in hits[0].message and "not a budget problem" in hits[0].message
-    assert found(plan([circuit("K1", "gfci-a", "Kitchen")], [load("Fridge", "K1", "refrigerator", "0.7 mA")]),
-                 "fault-sign") == []
+    assert (
+        found(
+            plan([circuit("K1", "gfci-a", "Kitchen")], [load("Fridge", "K1", "refrigerator", "0.7 mA")]), "fault-sign"
+        )
+        == []
+    )
 
 
-@pytest.mark.parametrize("power, measured, faulty", [
-    # IEC 60335-1 cl. 13.2, class I stationary heating: 0.75 mA/kW, at least 0.75 mA, at most 5 mA.
-    ("3 kW", "2.5 mA", True),  # limit 0.75 × 3 = 2.25 mA
-    ("5 kW", "2.5 mA", False),  # limit 3.75 mA
-    ("8 kW", "5.5 mA", True),  # 6 mA capped at 5 mA
-    ("0.5 kW", "0.8 mA", True),  # 0.375 mA raised to the 0.75 mA floor
-])
+@pytest.mark.parametrize(
+    "power, measured, faulty",
+    [
+        # IEC 60335-1 cl. 13.2, class I stationary heating: 0.75 mA/kW, at least 0.75 mA, at most 5 mA.
+        ("3 kW", "2.5 mA", True),  # limit 0.75 × 3 = 2.25 mA
+        ("5 kW", "2.5 mA", False),  # limit 3.75 mA
+        ("8 kW", "5.5 mA", True),  # 6 mA capped at 5 mA
+        ("0.5 kW", "0.8 mA", True),  # 0.375 mA raised to the 0.75 mA floor
+    ],
+)
 def test_fault_sign_iec_60335_1_heating_limit_scales_with_power(plan, power, measured, faulty):
-    p = plan([circuit("K1", "rcd-30", "Kitchen", us=False)],
-             [load("Oven", "K1", "wall-oven", measured, power=power)])
+    p = plan([circuit("K1", "rcd-30", "Kitchen", us=False)], [load("Oven", "K1", "wall-oven", measured, power=power)])
     hits = found(p, "fault-sign")
     assert bool(hits) is faulty
     if hits:
@@ -354,12 +434,15 @@ def test_high_leakage_uses_the_upper_basis_when_chosen(plan):
 # --------------------------------------------------------------------------------------------- shared neutral
 
 
-@pytest.mark.parametrize("device, system, shared, expected", [
-    ("gfci-a", "single", "yes", 1),  # single-pole device on a shared neutral: trips (common practice)
-    ("gfci-a", "split", "yes", 0),  # two-pole device carries both lines and the neutral
-    ("gfci-a", "single", None, 0),
-    ("none", "single", "yes", 0),
-])
+@pytest.mark.parametrize(
+    "device, system, shared, expected",
+    [
+        ("gfci-a", "single", "yes", 1),  # single-pole device on a shared neutral: trips (common practice)
+        ("gfci-a", "split", "yes", 0),  # two-pole device carries both lines and the neutral
+        ("gfci-a", "single", None, 0),
+        ("none", "single", "yes", 0),
+    ],
+)
 def test_shared_neutral_on_a_single_pole_device(plan, device, system, shared, expected):
     p = plan([circuit("K1", device, "Kitchen", system=system, shared=shared)], [load("Fridge", "K1", "refrigerator")])
     hits = found(p, "shared-neutral")
@@ -377,7 +460,7 @@ def test_shared_neutral_column_takes_yes_or_no(plan):
 
 
 def test_long_run_gfci_250_ft_common_practice(plan):
-    assert GFCI_RUN_LIMIT_M == pytest.approx(250 * 0.3048)  # 250 ft in metres (international foot)
+    assert pytest.approx(250 * 0.3048) == GFCI_RUN_LIMIT_M  # 250 ft in metres (international foot)
     loads = [load("Pump", "P1", "pond-pump")]
     (hit,) = found(plan([circuit("P1", "gfci-a", "Patio", length="300 ft")], loads), "long-run")
     assert hit.severity is Severity.WARNING and hit.source.kind is Kind.COMMON_PRACTICE
@@ -412,13 +495,16 @@ def test_switch_on_not_repeated_when_the_circuit_is_already_over_budget(plan):
 # --------------------------------------------------------------------------------------------- budget
 
 
-@pytest.mark.parametrize("measured, code, severity", [
-    # BS 7671:2018 reg. 531.3.2: budget 30 % of IΔn = 9 mA on a 30 mA RCD; IEC 61008-1 no-trip 0.5 IΔn = 15 mA.
-    ("8 mA", "bs-7671", None),
-    ("10 mA", "bs-7671", Severity.ERROR),  # a regulation of the chosen code
-    ("10 mA", "iec-60364", Severity.WARNING),
-    ("16 mA", "iec-60364", Severity.ERROR),  # at the no-trip level: nuisance trips
-])
+@pytest.mark.parametrize(
+    "measured, code, severity",
+    [
+        # BS 7671:2018 reg. 531.3.2: budget 30 % of IΔn = 9 mA on a 30 mA RCD; IEC 61008-1 no-trip 0.5 IΔn = 15 mA.
+        ("8 mA", "bs-7671", None),
+        ("10 mA", "bs-7671", Severity.ERROR),  # a regulation of the chosen code
+        ("10 mA", "iec-60364", Severity.WARNING),
+        ("16 mA", "iec-60364", Severity.ERROR),  # at the no-trip level: nuisance trips
+    ],
+)
 def test_budget_findings_follow_the_check(plan, measured, code, severity):
     p = plan([circuit("C1", "rcd-30", "Office", us=False, rating=40)], [load("Rack", "C1", None, measured)])
     hits = found(p, "budget", code)
@@ -433,15 +519,26 @@ def test_budget_findings_follow_the_check(plan, measured, code, severity):
 def everything(plan):
     """One US plan that triggers every NEC rule, one IEC plan for the rest."""
     us = plan(
-        [circuit("B1", "none", "Main bath, Snug"), circuit("K1", "gfci-a", "Kitchen", shared="yes", length="300 ft"),
-         circuit("W1", "gfci-a", "Laundry"), circuit("G1", "gfci-a", "Garage"),
-         circuit("D1", "none", "Dining room")],
-        [load("Hair dryer", "B1", "hair-dryer"), load("Fridge", "K1", "refrigerator", "1.2 mA"),
-         load("Heater", "W1", "storage-water-heater", "1.5 mA"), load("Welder", "G1", "inverter-welder", "4.5 mA"),
-         load("Microwave", "D1", "microwave"), load("Cord set", "D1", "ev-charger-level-1")],
+        [
+            circuit("B1", "none", "Main bath, Snug"),
+            circuit("K1", "gfci-a", "Kitchen", shared="yes", length="300 ft"),
+            circuit("W1", "gfci-a", "Laundry"),
+            circuit("G1", "gfci-a", "Garage"),
+            circuit("D1", "none", "Dining room"),
+        ],
+        [
+            load("Hair dryer", "B1", "hair-dryer"),
+            load("Fridge", "K1", "refrigerator", "1.2 mA"),
+            load("Heater", "W1", "storage-water-heater", "1.5 mA"),
+            load("Welder", "G1", "inverter-welder", "4.5 mA"),
+            load("Microwave", "D1", "microwave"),
+            load("Cord set", "D1", "ev-charger-level-1"),
+        ],
     )
-    iec = plan([circuit("C1", "rcd-30", "Office", us=False, rcd_type="AC"), circuit("C2", "none", "Office", us=False)],
-               [load("Drive", "C1", None, "1 mA", waveform="high-frequency"), load("Kettle", "C2", "kettle")])
+    iec = plan(
+        [circuit("C1", "rcd-30", "Office", us=False, rcd_type="AC"), circuit("C2", "none", "Office", us=False)],
+        [load("Drive", "C1", None, "1 mA", waveform="high-frequency"), load("Kettle", "C2", "kettle")],
+    )
     return review(us, "nec-2023").findings, review(iec, "bs-7671").findings
 
 
@@ -452,8 +549,11 @@ def test_every_rule_is_exercised_and_described(plan):
     assert all(rule_description(r) for r in RULES)
 
 
-FORBIDDEN = re.compile(r"\b(remove|removing|omit|bypass|disable|up-?rat\w*|raise|larger|higher|less sensitive|"
-                       r"100 mA|300 mA|500 mA)\b", re.IGNORECASE)
+FORBIDDEN = re.compile(
+    r"\b(remove|removing|omit|bypass|disable|up-?rat\w*|raise|larger|higher|less sensitive|"
+    r"100 mA|300 mA|500 mA)\b",
+    re.IGNORECASE,
+)
 
 
 def test_no_finding_advises_removing_or_up_rating_protection(plan):
@@ -488,28 +588,46 @@ def test_review_accepts_a_check_result(plan):
 
 
 def test_cli_review_json_and_exit_codes(make_workbook):
-    ok = make_workbook({"Circuits": [CIRCUITS, circuit("B1", "gfci-a", "Main bath")],
-                        "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")]}, "ok.xlsx")
+    ok = make_workbook(
+        {
+            "Circuits": [CIRCUITS, circuit("B1", "gfci-a", "Main bath")],
+            "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")],
+        },
+        "ok.xlsx",
+    )
     result = runner.invoke(app, ["review", str(ok), "--json", "--no-write"])
     assert result.exit_code == 0, result.output
     doc = json.loads(result.stdout)
     assert doc["code"] == "nec-2023" and doc["counts"]["error"] == 0
-    bad = make_workbook({"Circuits": [CIRCUITS, circuit("B1", "none", "Main bath")],
-                         "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")]}, "bad.xlsx")
+    bad = make_workbook(
+        {
+            "Circuits": [CIRCUITS, circuit("B1", "none", "Main bath")],
+            "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")],
+        },
+        "bad.xlsx",
+    )
     result = runner.invoke(app, ["review", str(bad), "--json", "--no-write", "--code", "nec-2020"])
     assert result.exit_code == 1
     doc = json.loads(result.stdout)
     assert doc["findings"][0] == {
-        "severity": "error", "rule": "location", "source": "NEC 2020 210.8(A)", "source_kind": "published",
-        "circuit": "B1", "load": None,
+        "severity": "error",
+        "rule": "location",
+        "source": "NEC 2020 210.8(A)",
+        "source_kind": "published",
+        "circuit": "B1",
+        "load": None,
         "message": "B1 serves Main bath (bathroom): NEC 2020 210.8(A) requires GFCI protection for personnel "
-                   "(Class A) for receptacles there; B1 has no ground-fault protection: fit a Class A GFCI (gfci-a).",
+        "(Class A) for receptacles there; B1 has no ground-fault protection: fit a Class A GFCI (gfci-a).",
     }
 
 
 def test_cli_review_text_and_bad_code(make_workbook):
-    path = make_workbook({"Circuits": [CIRCUITS, circuit("B1", "none", "Main bath")],
-                          "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")]})
+    path = make_workbook(
+        {
+            "Circuits": [CIRCUITS, circuit("B1", "none", "Main bath")],
+            "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")],
+        }
+    )
     result = runner.invoke(app, ["review", str(path), "--no-write"])
     assert result.exit_code == 1
     assert "error location · B1" in result.stdout
@@ -529,7 +647,7 @@ def test_findings_sheet_rows(plan):
     assert rows[0][:4] == ["error", "location", "B1", None]
     assert rows[0][5:] == ["NEC 2023 210.8(A)", "published"]
     assert all(len(r) == len(FINDING_COLUMNS) for r in rows)
-    footer = [r[0] for r in rows[len(rv.findings) + 1:]]
+    footer = [r[0] for r in rows[len(rv.findings) + 1 :]]
     assert footer[0] == "Reviewed against NEC 2023 (NFPA 70), dwelling units: chosen for this run (--code)."
     assert footer[1] == f"1 error(s), 0 warning(s), {rv.count(Severity.INFO)} info."
     assert footer[-1].startswith("Caution: ")
@@ -538,8 +656,12 @@ def test_findings_sheet_rows(plan):
 def test_cli_review_writes_the_findings_sheet(make_workbook, tmp_path):
     import python_calamine
 
-    path = make_workbook({"Circuits": [CIRCUITS, circuit("B1", "none", "Main bath")],
-                          "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")]})
+    path = make_workbook(
+        {
+            "Circuits": [CIRCUITS, circuit("B1", "none", "Main bath")],
+            "Loads": [LOADS, load("Hair dryer", "B1", "hair-dryer")],
+        }
+    )
     out = tmp_path / "reviewed.xlsx"
     result = runner.invoke(app, ["review", str(path), "--out", str(out)])
     assert result.exit_code == 1

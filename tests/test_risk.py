@@ -17,10 +17,11 @@ import numpy as np
 import pytest
 
 from leakbudget import risk
+from leakbudget.checking import check
 from leakbudget.devices import DEVICES
 from leakbudget.errors import WorkbookError
-from leakbudget.checking import check
-from leakbudget.risk import FIXED, LOGNORMAL, UNIFORM, LeakageDistribution as D
+from leakbudget.risk import FIXED, LOGNORMAL, UNIFORM
+from leakbudget.risk import LeakageDistribution as D
 from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
 
@@ -34,12 +35,14 @@ def uniform_cdf(s: float, a: float, b: float) -> float:
 
 def two_uniforms(s1: float, s2: float, a: float, b: float) -> float:
     """P(S ≥ T), S ~ U(s1, s2), T ~ U(a, b): mean of the uniform CDF over [s1, s2] via its antiderivative G."""
+
     def g(s: float) -> float:
         if s <= a:
             return 0.0
         if s <= b:
             return (s - a) ** 2 / (2 * (b - a))
         return (b - a) / 2 + (s - b)
+
     return (g(s2) - g(s1)) / (s2 - s1)
 
 
@@ -49,21 +52,33 @@ def lognormal_closed_form(median: float, sigma: float, a: float, b: float) -> fl
 
     def call(k: float) -> float:
         d2 = math.log(median / k) / sigma
-        return median * math.exp(sigma ** 2 / 2) * norm.cdf(d2 + sigma) - k * norm.cdf(d2)
+        return median * math.exp(sigma**2 / 2) * norm.cdf(d2 + sigma) - k * norm.cdf(d2)
+
     return (call(a) - call(b)) / (b - a)
 
 
-@pytest.mark.parametrize(("s", "device", "expected"), [
-    (3.0, GFCI, 0.0), (4.5, GFCI, 0.25), (5.0, GFCI, 0.5), (7.0, GFCI, 1.0), (20.0, RCD30, 1 / 3),
-], ids=["below-no-trip", "quarter", "half", "above-trip", "rcd-30-third"])
+@pytest.mark.parametrize(
+    ("s", "device", "expected"),
+    [
+        (3.0, GFCI, 0.0),
+        (4.5, GFCI, 0.25),
+        (5.0, GFCI, 0.5),
+        (7.0, GFCI, 1.0),
+        (20.0, RCD30, 1 / 3),
+    ],
+    ids=["below-no-trip", "quarter", "half", "above-trip", "rcd-30-third"],
+)
 def test_closed_form_single_fixed_load_is_the_uniform_cdf(s, device, expected):
     p = risk.trip_probability([D(FIXED, s)], device)
     assert p.dry == pytest.approx(expected, abs=1e-12)
     assert p.samples == 0 and p.dry_se == 0.0  # nothing random: exact, not sampled
 
 
-@pytest.mark.parametrize(("centre", "half_width"), [(4.5, 0.2), (5.0, 0.3), (3.9, 0.1), (6.2, 0.15)],
-                         ids=["overlap", "wide", "straddles-no-trip", "straddles-trip"])
+@pytest.mark.parametrize(
+    ("centre", "half_width"),
+    [(4.5, 0.2), (5.0, 0.3), (3.9, 0.1), (6.2, 0.15)],
+    ids=["overlap", "wide", "straddles-no-trip", "straddles-trip"],
+)
 def test_closed_form_two_uniforms(centre, half_width):
     s1, s2 = centre * (1 - half_width), centre * (1 + half_width)
     expected = two_uniforms(s1, s2, 4.0, 6.0)
@@ -93,8 +108,11 @@ def capped_lognormal_closed_form(median: float, sigma: float, cap_ma: float, a: 
     return body + tail
 
 
-@pytest.mark.parametrize(("median", "upper", "cap"), [(2.0, 3.5, 5.0), (1.0, 5.0, 5.0), (3.0, 6.52, 6.52)],
-                         ids=["cap-inside-band", "cap-at-upper-wide", "cap-above-trip"])
+@pytest.mark.parametrize(
+    ("median", "upper", "cap"),
+    [(2.0, 3.5, 5.0), (1.0, 5.0, 5.0), (3.0, 6.52, 6.52)],
+    ids=["cap-inside-band", "cap-at-upper-wide", "cap-above-trip"],
+)
 def test_capped_lognormal_against_scipy_quad(median, upper, cap):
     # A catalogue draw never exceeds its upper value: min(S, cap), checked against numerical integration (scipy).
     sigma = risk.lognormal_sigma(median, upper, 0.95)
@@ -103,8 +121,9 @@ def test_capped_lognormal_against_scipy_quad(median, upper, cap):
     assert p.dry == pytest.approx(expected, abs=4 * p.dry_se + 1e-6)
 
 
-@pytest.mark.parametrize(("median", "upper"), [(2.0, 3.5), (3.0, 6.52), (1.0, 5.0)],
-                         ids=["pc-like", "heat-pump-like", "wide"])
+@pytest.mark.parametrize(
+    ("median", "upper"), [(2.0, 3.5), (3.0, 6.52), (1.0, 5.0)], ids=["pc-like", "heat-pump-like", "wide"]
+)
 def test_closed_form_lognormal_partial_expectation(median, upper):
     sigma = risk.lognormal_sigma(median, upper, 0.95)
     expected = lognormal_closed_form(median, sigma, 4.0, 6.0)
@@ -185,19 +204,27 @@ def test_many_circuits_at_once_equal_one_at_a_time_and_blocks_do_not_matter():
     for g in range(40):
         for _ in range(int(rng.integers(0, 6))):
             kind = (FIXED, UNIFORM, LOGNORMAL)[int(rng.integers(0, 3))]
-            loads.append(D(kind, float(rng.uniform(0.2, 2.5)), float(rng.uniform(0.05, 0.9)),
-                           complex(np.exp(1j * rng.choice([0.0, np.pi, 2.0944])))
-                           , float(rng.choice([1.0, 3.0]))))
+            loads.append(
+                D(
+                    kind,
+                    float(rng.uniform(0.2, 2.5)),
+                    float(rng.uniform(0.05, 0.9)),
+                    complex(np.exp(1j * rng.choice([0.0, np.pi, 2.0944]))),
+                    float(rng.choice([1.0, 3.0])),
+                )
+            )
             groups.append(g)
     # Rows need not come grouped: the circuits' rows interleaved (reverse circuit order, same order within one).
     order = sorted(range(len(loads)), key=lambda i: -groups[i])
     levels = [(4.0, 6.0) if g % 5 else (15.0, 30.0) for g in range(40)]
     levels[3] = None  # an unprotected circuit
     for rule in ("arithmetic", "phasor"):
-        together = risk.group_trip_probabilities([groups[i] for i in order], [loads[i] for i in order], 40,
-                                                 levels, sum_rule=rule, samples=500, seed=2)
-        tiny_blocks = risk.group_trip_probabilities(groups, loads, 40, levels, sum_rule=rule, samples=500, seed=2,
-                                                    block_elements=700)
+        together = risk.group_trip_probabilities(
+            [groups[i] for i in order], [loads[i] for i in order], 40, levels, sum_rule=rule, samples=500, seed=2
+        )
+        tiny_blocks = risk.group_trip_probabilities(
+            groups, loads, 40, levels, sum_rule=rule, samples=500, seed=2, block_elements=700
+        )
         for g in range(40):
             mine = [d for d, gg in zip(loads, groups) if gg == g]
             if levels[g] is None:
@@ -219,18 +246,22 @@ def test_auto_sample_count():
 
 def _project(make_workbook, settings=None):
     sheets = {
-        "Circuits": [CIRCUITS_HEADER,
-                     ["K1", "gfci-a", 120, 60, "single", 20, 30, "Kitchen"],
-                     ["K2", "gfci-a", 120, 60, "split", 30, None, "Kitchen"],
-                     ["O1", "none", 120, 60, "single", 15, None, "Office"]],
-        "Loads": [LOADS_HEADER,
-                  ["Kettle", "K1", "kettle", 1, None, None, None, None, "Kitchen"],
-                  ["Fridge", "K1", "refrigerator", 1, None, None, None, None, "Kitchen"],
-                  ["Filter", "K1", None, 1, None, "4.7 nF", None, None, "Kitchen"],
-                  ["Meter", "K1", None, 2, "0.4 mA", None, None, None, "Kitchen"],
-                  ["Range", "K2", "range-electric", 1, None, None, None, "L1-L2", "Kitchen"],
-                  ["Hood", "K2", "range-hood", 1, None, None, None, "L2", "Kitchen"],
-                  ["PC", "O1", "desktop-pc", 1, None, None, None, None, "Office"]],
+        "Circuits": [
+            CIRCUITS_HEADER,
+            ["K1", "gfci-a", 120, 60, "single", 20, 30, "Kitchen"],
+            ["K2", "gfci-a", 120, 60, "split", 30, None, "Kitchen"],
+            ["O1", "none", 120, 60, "single", 15, None, "Office"],
+        ],
+        "Loads": [
+            LOADS_HEADER,
+            ["Kettle", "K1", "kettle", 1, None, None, None, None, "Kitchen"],
+            ["Fridge", "K1", "refrigerator", 1, None, None, None, None, "Kitchen"],
+            ["Filter", "K1", None, 1, None, "4.7 nF", None, None, "Kitchen"],
+            ["Meter", "K1", None, 2, "0.4 mA", None, None, None, "Kitchen"],
+            ["Range", "K2", "range-electric", 1, None, None, None, "L1-L2", "Kitchen"],
+            ["Hood", "K2", "range-hood", 1, None, None, None, "L2", "Kitchen"],
+            ["PC", "O1", "desktop-pc", 1, None, None, None, None, "Office"],
+        ],
     }
     if settings:
         sheets["Settings"] = [["Setting", "Value"], *settings]
@@ -249,11 +280,15 @@ def test_check_reports_what_the_planner_function_reproduces(make_workbook):
         if not c.circuit.device.protected:
             assert c.risk is None
             continue
-        again = risk.trip_probability(mine, c.circuit.device, sum_rule="arithmetic", samples=result.risk.samples,
-                                      seed=result.risk.seed)
+        again = risk.trip_probability(
+            mine, c.circuit.device, sum_rule="arithmetic", samples=result.risk.samples, seed=result.risk.seed
+        )
         assert (again.dry, again.switch_on, again.dry_se, again.samples) == (
-            pytest.approx(c.risk.dry, rel=1e-5, abs=1e-9), pytest.approx(c.risk.switch_on, rel=1e-5, abs=1e-9),
-            pytest.approx(c.risk.dry_se, rel=1e-5, abs=1e-9), c.risk.samples)
+            pytest.approx(c.risk.dry, rel=1e-5, abs=1e-9),
+            pytest.approx(c.risk.switch_on, rel=1e-5, abs=1e-9),
+            pytest.approx(c.risk.dry_se, rel=1e-5, abs=1e-9),
+            c.risk.samples,
+        )
 
 
 def test_distributions_follow_the_basis_of_each_load(make_workbook):
@@ -269,8 +304,11 @@ def test_distributions_follow_the_basis_of_each_load(make_workbook):
     assert by_name["Filter"].shape == UNIFORM and by_name["Filter"].spread == 0.20  # ±20 % component tolerance
     assert by_name["Range"].coefficient == pytest.approx(0.0)  # symmetric L1-L2 load: nothing in the phasor sum
     upper = check(_project(make_workbook, [["Basis", "upper"]]))
-    upper_kettle = next(risk.distribution(r, risk.RiskParameters.from_settings(upper.project.settings))
-                        for r in upper.loads if r.name == "Kettle")
+    upper_kettle = next(
+        risk.distribution(r, risk.RiskParameters.from_settings(upper.project.settings))
+        for r in upper.loads
+        if r.name == "Kettle"
+    )
     assert upper_kettle.centre_ma == pytest.approx(0.2 * 120 / 230)  # the median stays typical whatever the Basis
 
 
@@ -289,12 +327,16 @@ def test_settings_change_the_model_and_the_reported_method(make_workbook):
     assert "95th percentile" in base.risk.method[1] and "× 3" in base.risk.method[1]
 
 
-@pytest.mark.parametrize(("name", "value", "message"), [
-    ("Samples", 50, "'50' is not auto or a whole number from 100 to 1,000,000"),
-    ("Seed", -1, "'-1' is not a whole number of 0 or more"),
-    ("Switch-on factor", 0.5, "'0.5' is below 1"),
-    ("Upper percentile", "40 %", "'40 %' is not a percentile between 50 % and 100 %"),
-], ids=["samples", "seed", "factor", "percentile"])
+@pytest.mark.parametrize(
+    ("name", "value", "message"),
+    [
+        ("Samples", 50, "'50' is not auto or a whole number from 100 to 1,000,000"),
+        ("Seed", -1, "'-1' is not a whole number of 0 or more"),
+        ("Switch-on factor", 0.5, "'0.5' is below 1"),
+        ("Upper percentile", "40 %", "'40 %' is not a percentile between 50 % and 100 %"),
+    ],
+    ids=["samples", "seed", "factor", "percentile"],
+)
 def test_bad_risk_settings_name_the_cell(make_workbook, name, value, message):
     with pytest.raises(WorkbookError) as info:
         _project(make_workbook, [[name, value]])

@@ -29,15 +29,24 @@ from hypothesis import strategies as st
 from python_calamine import CalamineWorkbook, PasswordError
 from typer.testing import CliRunner
 
-from leakbudget.xlsx import guard as package_guard
 from leakbudget.cli.app import app
 from leakbudget.errors import WorkbookError
-from leakbudget.xlsx.guard import MAX_SHEET_CELLS, GuardedPackage, _fast_scan, _parsed_scan
 from leakbudget.workbook.read import read_project
+from leakbudget.xlsx import guard as package_guard
+from leakbudget.xlsx.guard import MAX_SHEET_CELLS, GuardedPackage, _fast_scan, _parsed_scan
 from tests.conftest import basic_sheets, write_workbook
 from tests.robustness_cases import (
-    BAD_INPUTS, DATA, damaged_workbook, entity_bomb, far_cell, judge, lock_file_cases, million_formatted_rows,
-    parts, run_child, with_part,
+    BAD_INPUTS,
+    DATA,
+    damaged_workbook,
+    entity_bomb,
+    far_cell,
+    judge,
+    lock_file_cases,
+    million_formatted_rows,
+    parts,
+    run_child,
+    with_part,
 )
 
 runner = CliRunner()
@@ -66,12 +75,16 @@ def test_the_xls_fixtures_are_what_they_claim() -> None:
     assert kind.stdout.strip() == "CDFV2 Encrypted"
 
 
-@pytest.mark.parametrize(("head", "kind"), [
-    ("\ufeffCircuit;Device\r\nK1;gfci-a\r\n".encode("utf-8"), "comma-separated values, CSV"),
-    ("Circuit\tDevice\nK1\tgfci-a\n".encode("utf-16"), "tab-separated values"),
-    (b'<?xml version="1.0"?><Workbook xmlns="urn:schemas-microsoft-com:office:spreadsheet"/>', "XML or HTML"),
-    (b"<html><table><tr><td>K1</td></tr></table></html>", "XML or HTML"),
-], ids=["csv-with-bom", "utf16-tsv", "spreadsheet-2003-xml", "html-table"])
+@pytest.mark.parametrize(
+    ("head", "kind"),
+    [
+        ("\ufeffCircuit;Device\r\nK1;gfci-a\r\n".encode("utf-8"), "comma-separated values, CSV"),
+        ("Circuit\tDevice\nK1\tgfci-a\n".encode("utf-16"), "tab-separated values"),
+        (b'<?xml version="1.0"?><Workbook xmlns="urn:schemas-microsoft-com:office:spreadsheet"/>', "XML or HTML"),
+        (b"<html><table><tr><td>K1</td></tr></table></html>", "XML or HTML"),
+    ],
+    ids=["csv-with-bom", "utf16-tsv", "spreadsheet-2003-xml", "html-table"],
+)
 def test_text_files_are_named_for_what_they_are(tmp_path: Path, head: bytes, kind: str) -> None:
     path = tmp_path / "plan.xlsx"
     path.write_bytes(head)
@@ -111,7 +124,8 @@ def test_the_cell_limit_counts_the_grid_from_a1(tmp_path: Path, monkeypatch) -> 
     """calamine's grid (to_python) runs from A1 to the last row and column holding a value; 25 rows x 9 columns
     of the Loads sheet below are 225 cells: allowed at a limit of 225, refused at 224."""
     path = with_part(lambda d: d.replace(b"</sheetData>", b'<row r="25"><c r="I25"><v>7</v></c></row></sheetData>'))(
-        tmp_path)
+        tmp_path
+    )
     grid = CalamineWorkbook.from_path(str(path)).get_sheet_by_name("Loads").to_python(skip_empty_area=False)
     assert (len(grid), len(grid[0])) == (25, 9)
     guard = GuardedPackage(path)
@@ -119,7 +133,9 @@ def test_the_cell_limit_counts_the_grid_from_a1(tmp_path: Path, monkeypatch) -> 
         monkeypatch.setattr(package_guard, "MAX_SHEET_CELLS", 225)
         assert guard.scan_sheet("Loads").cells == 225
         monkeypatch.setattr(package_guard, "MAX_SHEET_CELLS", 224)
-        with pytest.raises(WorkbookError, match="sheet 'Loads': its cells reach row 25 and column I, more than the 224"):
+        with pytest.raises(
+            WorkbookError, match="sheet 'Loads': its cells reach row 25 and column I, more than the 224"
+        ):
             guard.scan_sheet("Loads")
     finally:
         guard.close()
@@ -150,14 +166,19 @@ def test_a_value_hidden_beyond_the_declared_size_is_never_read(tmp_path: Path) -
 def test_part_size_limit(tmp_path: Path, monkeypatch) -> None:  # noqa: ANN001
     path = with_part(lambda d: d)(tmp_path)
     monkeypatch.setattr(package_guard, "MAX_SHEET_PART_BYTES", 500)
-    with pytest.raises(WorkbookError, match=r"plan.xlsx: refused to read the workbook because its part "
-                                            r"xl/worksheets/sheet1.xml unpacks to [\d,]+ bytes \(limit 500 bytes\)"):
+    with pytest.raises(
+        WorkbookError,
+        match=r"plan.xlsx: refused to read the workbook because its part "
+        r"xl/worksheets/sheet1.xml unpacks to [\d,]+ bytes \(limit 500 bytes\)",
+    ):
         read_project(path)
 
 
 def _sheet_xml(cells: list[bytes]) -> bytes:
-    return (b'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<worksheet xmlns="http://schemas.openxml'
-            b'formats.org/spreadsheetml/2006/main"><sheetData>' + b"".join(cells) + b"</sheetData></worksheet>")
+    return (
+        b'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<worksheet xmlns="http://schemas.openxml'
+        b'formats.org/spreadsheetml/2006/main"><sheetData>' + b"".join(cells) + b"</sheetData></worksheet>"
+    )
 
 
 # A cell in one of the forms writers use, or a hostile variant: (xml, position as calamine reads it or None).
@@ -179,8 +200,11 @@ CELL_FORMS = [
 
 
 @settings(max_examples=40, deadline=None)
-@given(st.lists(st.tuples(st.integers(0, 40), st.integers(0, 30), st.integers(0, len(CELL_FORMS) - 1)),
-                min_size=1, max_size=25))
+@given(
+    st.lists(
+        st.tuples(st.integers(0, 40), st.integers(0, 30), st.integers(0, len(CELL_FORMS) - 1)), min_size=1, max_size=25
+    )
+)
 def test_fast_and_parsed_scans_agree_and_cover_calamines_grid(cells: list[tuple[int, int, int]]) -> None:
     """The guard's fast byte scan either declines (None) or finds the same formula and error cells as the parsed
     scan, and the rectangle either scan counts is never smaller than the grid python-calamine builds from the
@@ -196,8 +220,10 @@ def test_fast_and_parsed_scans_agree_and_cover_calamines_grid(cells: list[tuple[
         rows.setdefault(r, []).append(CELL_FORMS[form](r, c, ref))
     xml = _sheet_xml([b'<row r="%d">' % (r + 1) + b"".join(cs) + b"</row>" for r, cs in sorted(rows.items())])
     buffer = io.BytesIO()
-    with zipfile.ZipFile(io.BytesIO(_one_sheet_package())) as base, \
-            zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as out:
+    with (
+        zipfile.ZipFile(io.BytesIO(_one_sheet_package())) as base,
+        zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as out,
+    ):
         for info in base.infolist():
             out.writestr(info.filename, xml if info.filename == "xl/worksheets/sheet1.xml" else base.read(info))
     archive = zipfile.ZipFile(io.BytesIO(buffer.getvalue()))
@@ -206,8 +232,11 @@ def test_fast_and_parsed_scans_agree_and_cover_calamines_grid(cells: list[tuple[
     fast = _fast_scan(archive, info, MAX_SHEET_CELLS)
     assert fast is None or fast.notes == parsed.notes
     try:
-        grid = CalamineWorkbook.from_filelike(io.BytesIO(buffer.getvalue())).get_sheet_by_name("S").to_python(
-            skip_empty_area=False)
+        grid = (
+            CalamineWorkbook.from_filelike(io.BytesIO(buffer.getvalue()))
+            .get_sheet_by_name("S")
+            .to_python(skip_empty_area=False)
+        )
     except Exception:  # calamine refuses some hostile forms outright; nothing to cover then
         return
     width = max((len(row) for row in grid), default=0)
@@ -248,8 +277,10 @@ def test_header_below_a_title_with_blank_columns_between(tmp_path: Path) -> None
     spread = lambda row: [None, *row[:2], None, None, *row[2:]]  # noqa: E731
     sheets["Loads"] = [["Loads, 3 Wren Lane (invented)"], [], [], spread(header), *[spread(r) for r in rows]]
     project = read_project(_book(tmp_path, sheets))
-    assert [(load.name, load.row, load.leakage_ma) for load in project.loads] == [("Filter", 5, None),
-                                                                                 ("Meter", 6, 0.75)]
+    assert [(load.name, load.row, load.leakage_ma) for load in project.loads] == [
+        ("Filter", 5, None),
+        ("Meter", 6, 0.75),
+    ]
 
 
 def test_numbers_stored_as_text_and_odd_keys_are_read(tmp_path: Path) -> None:
@@ -264,7 +295,9 @@ def test_numbers_stored_as_text_and_odd_keys_are_read(tmp_path: Path) -> None:
     assert (k1.circuit_id, k1.device.key, k1.voltage_v, k1.system) == ("k1", "gfci-a", 120.0, "single")
     assert k1.cable_length_m == pytest.approx(304.8)  # 1000 ft, 0.3048 m/ft exactly (international foot)
     assert [(ld.circuit_id, ld.appliance_key, ld.leakage_ma) for ld in project.loads] == [
-        ("k1", None, None), ("E1", "kettle", pytest.approx(0.75))]
+        ("k1", None, None),
+        ("E1", "kettle", pytest.approx(0.75)),
+    ]
 
 
 def test_non_ascii_names_and_unicode_forms_match(tmp_path: Path) -> None:
@@ -300,7 +333,10 @@ def test_merged_names_read_as_seen_and_merged_titles_change_nothing(tmp_path: Pa
     book.close()
     project = read_project(path)
     assert [(ld.name, ld.circuit_id, ld.room) for ld in project.loads] == [
-        ("Fridge", "K1", "Küche"), ("Freezer", "K1", "Küche"), ("Kettle", "K1", "Küche")]
+        ("Fridge", "K1", "Küche"),
+        ("Freezer", "K1", "Küche"),
+        ("Kettle", "K1", "Küche"),
+    ]
 
 
 def test_cached_formula_results_are_read_and_helper_formulas_ignored(tmp_path: Path) -> None:
@@ -343,7 +379,8 @@ def test_cached_formula_results_are_read_and_helper_formulas_ignored(tmp_path: P
     assert str(info.value) == (
         "uncached.xlsx, sheet 'Loads', row 2, column 'Leakage', cell C2: the formula =0.2*2 has no saved result "
         "(leakbudget reads saved results and calculates nothing); open the workbook in a spreadsheet program, let "
-        "it calculate and save it.")
+        "it calculate and save it."
+    )
 
 
 # ------------------------------------------------------------------------------------------- lock files
@@ -383,8 +420,13 @@ def test_no_path_from_a_cell_is_ever_opened_or_written(tmp_path: Path) -> None:
     bait = tmp_path / "leakbudget-bait"
     bait.mkdir()
     (bait / "catalogue.csv").write_text("Key,Typical leakage\nheater,0.1\n")
-    names = [str(bait / "catalogue.csv"), "../leakbudget-bait/plan.xlsx", f"file://{bait}/x.xlsx",
-             "\\\\server\\leakbudget-bait\\x.xlsx", str(bait / "out.xlsx")]
+    names = [
+        str(bait / "catalogue.csv"),
+        "../leakbudget-bait/plan.xlsx",
+        f"file://{bait}/x.xlsx",
+        "\\\\server\\leakbudget-bait\\x.xlsx",
+        str(bait / "out.xlsx"),
+    ]
     sheets = basic_sheets()
     sheets["Circuits"][0].append("Note")
     for i, row in enumerate(sheets["Circuits"][1:]):
@@ -432,7 +474,8 @@ def test_formula_like_names_reach_the_result_sheet_as_text(tmp_path: Path) -> No
 @settings(max_examples=100, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(seed=st.integers(0, 2**32 - 1), cell_damage=st.integers(0, 3), package_damage=st.integers(0, 2))
 def test_random_damage_exit_0_1_2_no_traceback_input_unchanged_cells_kept(
-        tmp_path: Path, seed: int, cell_damage: int, package_damage: int) -> None:
+    tmp_path: Path, seed: int, cell_damage: int, package_damage: int
+) -> None:
     """A workbook made from the contract, damaged at random (odd cells, rows, sheets; truncated, flipped or
     dropped parts, DTDs, far cells, formulas without results, error values, merges): `check --out` exits 0, 1
     or 2, prints no traceback, leaves the input's bytes as they were, and on 0 or 1 every sheet of the input

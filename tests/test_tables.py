@@ -8,8 +8,8 @@ from __future__ import annotations
 
 import pytest
 
-from leakbudget.input import units
 from leakbudget.errors import WorkbookError
+from leakbudget.input import units
 from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
 
@@ -29,12 +29,18 @@ def load(quantity=1, leakage="0.5 mA"):  # noqa: ANN001, ANN201
     ("loads", "message"),
     [
         # the Quantity column is read whole at row 2, with row 3's bad cell, yet row 2's Leakage is reported
-        ([load(leakage="lots"), load(quantity="two")],
-         "plan.xlsx, sheet 'Loads', row 2, column 'Leakage', cell E2: 'lots' is not a number with a unit"),
-        ([load(quantity="two"), load(leakage="lots")],
-         "plan.xlsx, sheet 'Loads', row 2, column 'Quantity', cell D2: 'two' is not a number with a unit"),
-        ([load(), load(leakage=-1), load(leakage="lots")],
-         "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '-1' must not be negative"),
+        (
+            [load(leakage="lots"), load(quantity="two")],
+            "plan.xlsx, sheet 'Loads', row 2, column 'Leakage', cell E2: 'lots' is not a number with a unit",
+        ),
+        (
+            [load(quantity="two"), load(leakage="lots")],
+            "plan.xlsx, sheet 'Loads', row 2, column 'Quantity', cell D2: 'two' is not a number with a unit",
+        ),
+        (
+            [load(), load(leakage=-1), load(leakage="lots")],
+            "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '-1' must not be negative",
+        ),
     ],
     ids=["later-row-other-column", "earlier-row-first", "sign-checked-on-access"],
 )
@@ -45,11 +51,15 @@ def test_the_first_problem_in_row_order_is_reported(make_workbook, loads, messag
 
 
 def test_blank_cells_are_none_whatever_they_hold(make_workbook):
-    loads = [["Printer", "E1", None, 1, "0.5 mA", None, None, "   ", "  "],
-             ["Scanner", "E1", None, None, " ", "2.2 nF", None, "", None]]
+    loads = [
+        ["Printer", "E1", None, 1, "0.5 mA", None, None, "   ", "  "],
+        ["Scanner", "E1", None, None, " ", "2.2 nF", None, "", None],
+    ]
     project = read_project(make_workbook(sheets_with_loads(loads)))
     assert [(x.room, x.leg_text, x.quantity, x.leakage_ma) for x in project.loads] == [
-        (None, "L1", 1, pytest.approx(0.5)), (None, "L1", 1, None)]
+        (None, "L1", 1, pytest.approx(0.5)),
+        (None, "L1", 1, None),
+    ]
 
 
 def test_pint_parses_each_distinct_text_once(make_workbook, monkeypatch):

@@ -10,10 +10,20 @@ from leakbudget.input.units import UnitProblem, to_unit
 @pytest.mark.parametrize(
     ("text", "unit", "expected"),
     [
-        ("0.75 mA", "mA", 0.75), ("750 uA", "mA", 0.75), ("750 µA", "mA", 0.75), ("750 μA", "mA", 0.75),
-        ("4.7 nF", "nF", 4.7), ("4700 pF", "nF", 4.7), ("30 ft", "m", 9.144), ("2.2 kW", "W", 2200.0),
-        ("2 MΩ", "Mohm", 2.0), ("2 megohm", "Mohm", 2.0), (0.5, "mA", 0.5), ("0.5", "mA", 0.5),
-        ("1,500", "W", 1500.0), ("30 %", "dimensionless", 0.30),
+        ("0.75 mA", "mA", 0.75),
+        ("750 uA", "mA", 0.75),
+        ("750 µA", "mA", 0.75),
+        ("750 μA", "mA", 0.75),
+        ("4.7 nF", "nF", 4.7),
+        ("4700 pF", "nF", 4.7),
+        ("30 ft", "m", 9.144),
+        ("2.2 kW", "W", 2200.0),
+        ("2 MΩ", "Mohm", 2.0),
+        ("2 megohm", "Mohm", 2.0),
+        (0.5, "mA", 0.5),
+        ("0.5", "mA", 0.5),
+        ("1,500", "W", 1500.0),
+        ("30 %", "dimensionless", 0.30),
     ],
 )
 def test_accepted_spellings(text, unit, expected):
@@ -62,8 +72,10 @@ def test_common_spellings_do_not_import_pint():
     import subprocess
     import sys
 
-    code = ("import sys; from leakbudget.input.units import to_unit; "
-            "values = [to_unit('250 uA', 'mA'), to_unit('4.7nF', 'nF'), to_unit('30 ft', 'm'), to_unit(50, 'ft', 'm')]; "
-            "print('pint' in sys.modules, values)")
+    code = (
+        "import sys; from leakbudget.input.units import to_unit; "
+        "values = [to_unit('250 uA', 'mA'), to_unit('4.7nF', 'nF'), to_unit('30 ft', 'm'), to_unit(50, 'ft', 'm')]; "
+        "print('pint' in sys.modules, values)"
+    )
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert done.stdout.startswith("False ["), done.stdout

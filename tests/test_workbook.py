@@ -35,31 +35,67 @@ def _broken(mutate):
 
 CASES = [
     ("missing-sheet", lambda s: s.pop("Loads"), "plan.xlsx: the required sheet 'Loads' is missing"),
-    ("missing-column", lambda s: s["Circuits"][0].__setitem__(1, "Breaker"),
-     "plan.xlsx, sheet 'Circuits', row 1: the required column 'Device' is missing"),
-    ("unknown-device", lambda s: s["Circuits"][1].__setitem__(1, "gfci-z"),
-     "plan.xlsx, sheet 'Circuits', row 2, column 'Device', cell B2: 'gfci-z' is not a known device key"),
-    ("unknown-appliance", lambda s: s["Loads"][1].__setitem__(2, "flux-capacitor"),
-     "plan.xlsx, sheet 'Loads', row 2, column 'Appliance', cell C2: 'flux-capacitor' is not in the appliance catalogue"),
-    ("negative", lambda s: s["Loads"][2].__setitem__(4, -0.5),
-     "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '-0.5' must not be negative"),
-    ("unparseable", lambda s: s["Loads"][2].__setitem__(4, "lots"),
-     "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: 'lots' is not a number with a unit"),
-    ("wrong-dimension", lambda s: s["Loads"][2].__setitem__(4, "5 kg"),
-     "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '5 kg' is in kg, which is not a current"),
-    ("duplicate-circuit", lambda s: s["Circuits"][2].__setitem__(0, "k1"),
-     "plan.xlsx, sheet 'Circuits', row 3, column 'Circuit', cell A3: the circuit id 'k1' is used twice (also row 2)"),
-    ("unknown-circuit", lambda s: s["Loads"][1].__setitem__(1, "K9"),
-     "plan.xlsx, sheet 'Loads', row 2, column 'Circuit', cell B2: 'K9' is not a circuit in the Circuits sheet"),
-    ("no-leakage-figure", lambda s: s["Loads"][1].__setitem__(5, None),
-     "plan.xlsx, sheet 'Loads', row 2, column 'Appliance', cell C2: the load has no leakage figure"),
-    ("bad-leg", lambda s: s["Loads"][1].__setitem__(7, "L2"),
-     "plan.xlsx, sheet 'Loads', row 2, column 'Leg', cell H2: leg 'L2' does not exist on a single circuit"),
-    ("implausible", lambda s: s["Loads"][2].__setitem__(4, "3 A"),
-     "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '3 A' is 3000 mA, not plausible for a standing "
-     "leakage per unit"),
-    ("zero-voltage", lambda s: s["Circuits"][1].__setitem__(2, 0),
-     "plan.xlsx, sheet 'Circuits', row 2, column 'Voltage', cell C2: '0' must be greater than zero"),
+    (
+        "missing-column",
+        lambda s: s["Circuits"][0].__setitem__(1, "Breaker"),
+        "plan.xlsx, sheet 'Circuits', row 1: the required column 'Device' is missing",
+    ),
+    (
+        "unknown-device",
+        lambda s: s["Circuits"][1].__setitem__(1, "gfci-z"),
+        "plan.xlsx, sheet 'Circuits', row 2, column 'Device', cell B2: 'gfci-z' is not a known device key",
+    ),
+    (
+        "unknown-appliance",
+        lambda s: s["Loads"][1].__setitem__(2, "flux-capacitor"),
+        "plan.xlsx, sheet 'Loads', row 2, column 'Appliance', cell C2: 'flux-capacitor' is not in the appliance catalogue",
+    ),
+    (
+        "negative",
+        lambda s: s["Loads"][2].__setitem__(4, -0.5),
+        "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '-0.5' must not be negative",
+    ),
+    (
+        "unparseable",
+        lambda s: s["Loads"][2].__setitem__(4, "lots"),
+        "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: 'lots' is not a number with a unit",
+    ),
+    (
+        "wrong-dimension",
+        lambda s: s["Loads"][2].__setitem__(4, "5 kg"),
+        "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '5 kg' is in kg, which is not a current",
+    ),
+    (
+        "duplicate-circuit",
+        lambda s: s["Circuits"][2].__setitem__(0, "k1"),
+        "plan.xlsx, sheet 'Circuits', row 3, column 'Circuit', cell A3: the circuit id 'k1' is used twice (also row 2)",
+    ),
+    (
+        "unknown-circuit",
+        lambda s: s["Loads"][1].__setitem__(1, "K9"),
+        "plan.xlsx, sheet 'Loads', row 2, column 'Circuit', cell B2: 'K9' is not a circuit in the Circuits sheet",
+    ),
+    (
+        "no-leakage-figure",
+        lambda s: s["Loads"][1].__setitem__(5, None),
+        "plan.xlsx, sheet 'Loads', row 2, column 'Appliance', cell C2: the load has no leakage figure",
+    ),
+    (
+        "bad-leg",
+        lambda s: s["Loads"][1].__setitem__(7, "L2"),
+        "plan.xlsx, sheet 'Loads', row 2, column 'Leg', cell H2: leg 'L2' does not exist on a single circuit",
+    ),
+    (
+        "implausible",
+        lambda s: s["Loads"][2].__setitem__(4, "3 A"),
+        "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '3 A' is 3000 mA, not plausible for a standing "
+        "leakage per unit",
+    ),
+    (
+        "zero-voltage",
+        lambda s: s["Circuits"][1].__setitem__(2, 0),
+        "plan.xlsx, sheet 'Circuits', row 2, column 'Voltage', cell C2: '0' must be greater than zero",
+    ),
 ]
 
 
@@ -95,8 +131,13 @@ def test_header_below_a_title_block(make_workbook):
 
 def test_settings_are_read_with_their_source(make_workbook):
     sheets = basic_sheets()
-    sheets["Settings"] = [["Setting", "Value"], ["Budget fraction", "25 %"], ["Basis", "upper"],
-                          ["Length unit", "ft"], ["Something else", 3]]
+    sheets["Settings"] = [
+        ["Setting", "Value"],
+        ["Budget fraction", "25 %"],
+        ["Basis", "upper"],
+        ["Length unit", "ft"],
+        ["Something else", 3],
+    ]
     p = read_project(make_workbook(sheets))
     assert p.settings.budget_fraction == pytest.approx(0.25)
     assert p.settings.basis == "upper"
@@ -107,7 +148,9 @@ def test_settings_are_read_with_their_source(make_workbook):
 def test_bad_setting_names_the_cell(make_workbook):
     sheets = basic_sheets()
     sheets["Settings"] = [["Setting", "Value"], ["Budget fraction", 30]]
-    with pytest.raises(WorkbookError, match=r"sheet 'Settings', row 2, column 'Value', cell B2: setting 'Budget fraction'"):
+    with pytest.raises(
+        WorkbookError, match=r"sheet 'Settings', row 2, column 'Value', cell B2: setting 'Budget fraction'"
+    ):
         read_project(make_workbook(sheets))
 
 
@@ -121,9 +164,18 @@ def test_default_supply_is_reported(make_workbook):
 
 def test_user_appliance_rows_override_and_are_reported(make_workbook):
     sheets = basic_sheets()
-    sheets["Appliances"] = [["Key", "Description", "Typical leakage", "Upper leakage", "Reference voltage",
-                             "Reference frequency", "Typical source"],
-                            ["kettle", "Our kettle", 0.1, 0.2, 120, 60, "measured on site 2026-11-03"]]
+    sheets["Appliances"] = [
+        [
+            "Key",
+            "Description",
+            "Typical leakage",
+            "Upper leakage",
+            "Reference voltage",
+            "Reference frequency",
+            "Typical source",
+        ],
+        ["kettle", "Our kettle", 0.1, 0.2, 120, 60, "measured on site 2026-11-03"],
+    ]
     sheets["Loads"].append(["Kettle", "K1", "kettle", 1, None, None, None, None, "Kitchen"])
     p = read_project(make_workbook(sheets))
     assert p.catalogue.appliances["kettle"].typical_ma == 0.1

@@ -30,8 +30,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from python_calamine import CalamineWorkbook
 
-from leakbudget.xlsx import package as xlsx_package
 from leakbudget.errors import WriteBackError
+from leakbudget.xlsx import package as xlsx_package
 from leakbudget.xlsx.package import (
     MAX_COMPRESSION_RATIO,
     MAX_UNCOMPRESSED_BYTES,
@@ -92,15 +92,16 @@ def assert_only_additions(old: bytes, new: bytes) -> None:
     for op, a0, a1, b0, b1 in matcher.get_opcodes():
         if op == "insert" or op == "equal":
             continue
-        assert op == "replace" and old[a0:a1].isdigit() and new[b0:b1].isdigit(), (op, old[a0 - 40:a1 + 40])
+        assert op == "replace" and old[a0:a1].isdigit() and new[b0:b1].isdigit(), (op, old[a0 - 40 : a1 + 40])
 
 
 def real_program_csv(path: Path, sheet: str) -> list[list[str]]:
     """Gnumeric's ssconvert exports every sheet of ``path``; return the rows of ``sheet`` (blank rows dropped)."""
     outdir = path.parent / f"{path.stem}-csv"
     outdir.mkdir(exist_ok=True)
-    subprocess.run(["ssconvert", "-S", str(path), str(outdir / "out.%s.csv")], check=True, capture_output=True,
-                   timeout=60)
+    subprocess.run(
+        ["ssconvert", "-S", str(path), str(outdir / "out.%s.csv")], check=True, capture_output=True, timeout=60
+    )
     with open(outdir / f"out.{sheet}.csv", newline="", encoding="utf-8") as handle:
         rows = [row for row in csv.reader(handle) if any(row)]
     width = max(len(row) - next((i for i, c in enumerate(reversed(row)) if c), len(row)) for row in rows)
@@ -195,8 +196,16 @@ def test_cell_style_indices_lead_to_the_intended_formats(workbook: Path) -> None
     assert sheet.find(f"{MAIN}sheetViews/{MAIN}sheetView").get("tabSelected") is None  # no tab grouping
 
 
-INJECTION = ["=1+2", "+A1", "-2+3", "@SUM(A1:A2)", '=HYPERLINK("http://example.invalid","x")', "<r>x</r>",
-             "<r></t></is></c></row></r>", "=cmd|' /C calc'!A0"]
+INJECTION = [
+    "=1+2",
+    "+A1",
+    "-2+3",
+    "@SUM(A1:A2)",
+    '=HYPERLINK("http://example.invalid","x")',
+    "<r>x</r>",
+    "<r></t></is></c></row></r>",
+    "=cmd|' /C calc'!A0",
+]
 
 
 def test_formula_injection_text_stays_text(tmp_path: Path) -> None:
@@ -209,14 +218,19 @@ def test_formula_injection_text_stays_text(tmp_path: Path) -> None:
 
 
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
-@given(texts=st.lists(st.text(max_size=40), min_size=1, max_size=12),
-       numbers=st.lists(st.floats(allow_nan=True, allow_infinity=True), min_size=1, max_size=12))
+@given(
+    texts=st.lists(st.text(max_size=40), min_size=1, max_size=12),
+    numbers=st.lists(st.floats(allow_nan=True, allow_infinity=True), min_size=1, max_size=12),
+)
 def test_any_text_and_float_round_trips(tmp_path: Path, texts: list[str], numbers: list[float]) -> None:
     path = tmp_path / "prop.xlsx"
     shutil.copyfile(DATA / "gnumeric.xlsx", path)
     out = tmp_path / "prop-out.xlsx"
-    write_sheets(path, [SheetData("P", ["text"], [[t] for t in texts]),
-                        SheetData("Q", ["number"], [[x] for x in numbers])], out=out)
+    write_sheets(
+        path,
+        [SheetData("P", ["text"], [[t] for t in texts]), SheetData("Q", ["number"], [[x] for x in numbers])],
+        out=out,
+    )
     got = cells(out)
     # XML 1.0 §2.2 excludes the noncharacters U+FFFE and U+FFFF: they are written as U+FFFD
     expected_texts = [t.replace("\ufffe", "\ufffd").replace("\uffff", "\ufffd") for t in texts]
@@ -252,7 +266,8 @@ def test_real_program_opens_the_file_and_finds_both_charts(tmp_path: Path) -> No
         for graph in sheet.iter(f"{GNUMERIC}SheetObjectGraph"):
             ranges.setdefault(name, set()).update(e.text for e in graph.iter() if e.tag.endswith("dimension"))
     assert {"'Circuit results'!$A$2:$A$4", "'Circuit results'!$B$2:$B$4", "'Circuit results'!$C$2:$C$4"} <= (
-        ranges["Circuit results"])
+        ranges["Circuit results"]
+    )
     assert "Circuits!$E$3:$E$7" in ranges["Circuits"]  # the user's chart is still there
 
 
@@ -436,8 +451,10 @@ def replace_part(path: Path, part: str, data: bytes) -> None:
 def test_entity_expansion_bomb_is_refused_fast(tmp_path: Path) -> None:
     path = copy_fixture(tmp_path, "libreoffice")
     lol = ['<!ENTITY lol0 "lol">'] + [f'<!ENTITY lol{i} "{("&lol" + str(i - 1) + ";") * 10}">' for i in range(1, 10)]
-    bomb = ('<?xml version="1.0"?><!DOCTYPE workbook [' + "".join(lol) + ']><workbook '
-            'xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheets>&lol9;</sheets></workbook>')
+    bomb = (
+        '<?xml version="1.0"?><!DOCTYPE workbook [' + "".join(lol) + "]><workbook "
+        'xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheets>&lol9;</sheets></workbook>'
+    )
     replace_part(path, "xl/workbook.xml", bomb.encode())
     before = path.read_bytes()
     start = time.perf_counter()
@@ -498,10 +515,14 @@ def test_killed_or_interrupted_write_leaves_the_original(tmp_path: Path) -> None
         folder.mkdir()
         shutil.copyfile(DATA / "libreoffice.xlsx", folder / "panel.xlsx")
         folders.append(folder)
-        children.append(subprocess.Popen(
-            [sys.executable, "-c", CHILD, str(folder / "panel.xlsx"), "500000"],
-            stdout=subprocess.PIPE, stderr=subprocess.PIPE, cwd=Path(__file__).parent.parent,
-        ))
+        children.append(
+            subprocess.Popen(
+                [sys.executable, "-c", CHILD, str(folder / "panel.xlsx"), "500000"],
+                stdout=subprocess.PIPE,
+                stderr=subprocess.PIPE,
+                cwd=Path(__file__).parent.parent,
+            )
+        )
     for child in children:
         assert child.stdout.readline() == b"writing\n"
     started = time.monotonic()
@@ -528,27 +549,40 @@ def test_chart_plots_its_data_rows_in_the_colours_given(tmp_path: Path) -> None:
     """Notes under the table are not plotted; series fills follow ChartSpec.colours
     (ECMA-376 Part 1 §21.2.2: c:ser/c:spPr/a:solidFill/a:srgbClr)."""
     rows = [*CIRCUIT_ROWS, [None, None, None, None], ["Written by a test; replaced on every run.", None, None, None]]
-    sheet = SheetData("Circuit results", ["circuit", "leakage_ma", "budget_ma", "note"], rows,
-                      chart=ChartSpec("Leakage", 0, (1, 2), data_rows=3, colours=("#2f6f8f", "#e0a100")))
+    sheet = SheetData(
+        "Circuit results",
+        ["circuit", "leakage_ma", "budget_ma", "note"],
+        rows,
+        chart=ChartSpec("Leakage", 0, (1, 2), data_rows=3, colours=("#2f6f8f", "#e0a100")),
+    )
     path = write_sheets(copy_fixture(tmp_path, "libreoffice"), [sheet]).path
     chart = DET.fromstring(entries(path)["xl/charts/leakbudget_chart1.xml"])
-    ns = {"c": "http://schemas.openxmlformats.org/drawingml/2006/chart",
-          "a": "http://schemas.openxmlformats.org/drawingml/2006/main"}
-    refs = [f.text for f in chart.iter("{%s}f" % ns["c"])]
-    assert refs == ["'Circuit results'!$B$1", "'Circuit results'!$A$2:$A$4", "'Circuit results'!$B$2:$B$4",
-                    "'Circuit results'!$C$1", "'Circuit results'!$A$2:$A$4", "'Circuit results'!$C$2:$C$4"]
+    ns = {
+        "c": "http://schemas.openxmlformats.org/drawingml/2006/chart",
+        "a": "http://schemas.openxmlformats.org/drawingml/2006/main",
+    }
+    refs = [f.text for f in chart.iter(f"{{{ns['c']}}}f")]
+    assert refs == [
+        "'Circuit results'!$B$1",
+        "'Circuit results'!$A$2:$A$4",
+        "'Circuit results'!$B$2:$B$4",
+        "'Circuit results'!$C$1",
+        "'Circuit results'!$A$2:$A$4",
+        "'Circuit results'!$C$2:$C$4",
+    ]
     fills = [c.get("val") for c in chart.iterfind(".//c:ser/c:spPr/a:solidFill/a:srgbClr", ns)]
     assert fills == ["2F6F8F", "E0A100"]
 
 
-@pytest.mark.parametrize("value", ["Circuit results", 'a "quoted" & <tagged> \'name\'', "tab\there\nnew\rline", "Küche ✓"])
+@pytest.mark.parametrize(
+    "value", ["Circuit results", "a \"quoted\" & <tagged> 'name'", "tab\there\nnew\rline", "Küche ✓"]
+)
 def test_quoteattr_matches_the_standard_library(value):
     # Reference: xml.sax.saxutils.quoteattr (the standard library's attribute quoting).
+    import xml.etree.ElementTree as ET
     from xml.sax.saxutils import quoteattr as reference
 
     from leakbudget.xlsx.xml_text import quoteattr
-
-    import xml.etree.ElementTree as ET
 
     ours = quoteattr(value)
     assert ET.fromstring(f"<a v={ours}/>").get("v") == ET.fromstring(f"<a v={reference(value)}/>").get("v") == value

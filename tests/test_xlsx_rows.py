@@ -23,16 +23,53 @@ from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER, ROWS_PER_CHUNK, escape_text, 
 from tests.test_xlsx_package import DATA, MAIN, cells, entries, real_program_csv
 
 AWKWARD_TEXT = [
-    "=1+2", "+A1", "-2+3", "@SUM(A1:A2)", "=cmd|' /C calc'!A0",  # formula-like: must stay text
-    "\x01start", "bell\x07", "tab\there", "line\nfeed", "carriage\rreturn", "\x1f",  # control characters
-    "_x0041_", "_x005F_", "a_x0041_b_X00e9_", "_x41_",  # literal escapes (ECMA-376 ST_Xstring)
-    "<r>x</r>", "<r></t></is></c></row></r>", "a & b < c > d \" e ' f",  # markup
-    "😀 non-BMP 𝄞", "Ω µ μ é ñ 中文", " leading space", "trailing space ", "  ", "\u00a0nbsp",
-    "x" * 40_000, "😀" * 20_000,  # beyond Excel's 32,767 UTF-16 units: cut there, never inside a character
+    "=1+2",
+    "+A1",
+    "-2+3",
+    "@SUM(A1:A2)",
+    "=cmd|' /C calc'!A0",  # formula-like: must stay text
+    "\x01start",
+    "bell\x07",
+    "tab\there",
+    "line\nfeed",
+    "carriage\rreturn",
+    "\x1f",  # control characters
+    "_x0041_",
+    "_x005F_",
+    "a_x0041_b_X00e9_",
+    "_x41_",  # literal escapes (ECMA-376 ST_Xstring)
+    "<r>x</r>",
+    "<r></t></is></c></row></r>",
+    "a & b < c > d \" e ' f",  # markup
+    "😀 non-BMP 𝄞",
+    "Ω µ μ é ñ 中文",
+    " leading space",
+    "trailing space ",
+    "  ",
+    "\u00a0nbsp",
+    "x" * 40_000,
+    "😀" * 20_000,  # beyond Excel's 32,767 UTF-16 units: cut there, never inside a character
     "",
 ]
-AWKWARD_NUMBERS = [0, 1, -1, 7, 2**53 + 1, 0.1, 1 / 3, -0.0, 1e-300, 5e-324, 1.5e300, 123456789.123456789,
-                   float("inf"), float("-inf"), 1.7976931348623157e308, True, False]
+AWKWARD_NUMBERS = [
+    0,
+    1,
+    -1,
+    7,
+    2**53 + 1,
+    0.1,
+    1 / 3,
+    -0.0,
+    1e-300,
+    5e-324,
+    1.5e300,
+    123456789.123456789,
+    float("inf"),
+    float("-inf"),
+    1.7976931348623157e308,
+    True,
+    False,
+]
 
 
 def reference_workbook(path: Path, name: str, header: list[str], rows: list[list]) -> Path:
@@ -101,11 +138,10 @@ def test_awkward_text_and_numbers_read_back_as_xlsxwriter_writes_them(tmp_path: 
     # and against the data itself: text exactly, cut at Excel's limit of 32,767 UTF-16 units (a non-BMP
     # character counts two: 16,383 of them fit); numbers exactly (repr round-trips)
     expected = ["x" * 32_767 if t == "x" * 40_000 else "😀" * 16_383 if t == "😀" * 20_000 else t for t in AWKWARD_TEXT]
-    assert [row[0] for row in got[1:len(AWKWARD_TEXT) + 1]] == expected
+    assert [row[0] for row in got[1 : len(AWKWARD_TEXT) + 1]] == expected
     first = len(AWKWARD_TEXT) + 1
-    assert [row[1] for row in got[first:first + len(AWKWARD_NUMBERS)]] == [
-        n if isinstance(n, bool) else repr(float(n)) if abs(n) > EXCEL_MAX_NUMBER else float(n)
-        for n in AWKWARD_NUMBERS
+    assert [row[1] for row in got[first : first + len(AWKWARD_NUMBERS)]] == [
+        n if isinstance(n, bool) else repr(float(n)) if abs(n) > EXCEL_MAX_NUMBER else float(n) for n in AWKWARD_NUMBERS
     ]
     assert dimension(sheet_part(fast)) == dimension(entries(reference)["xl/worksheets/sheet1.xml"])
     part = sheet_part(fast)
@@ -122,14 +158,23 @@ def test_a_real_program_reads_the_same_text_from_both(tmp_path: Path) -> None:
 
 
 @settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
-@given(rows=st.lists(st.lists(st.one_of(st.none(), st.text(max_size=30), st.booleans(),
-                                        st.integers(-10**15, 10**15), st.floats()), max_size=6), max_size=8))
+@given(
+    rows=st.lists(
+        st.lists(
+            st.one_of(st.none(), st.text(max_size=30), st.booleans(), st.integers(-(10**15), 10**15), st.floats()),
+            max_size=6,
+        ),
+        max_size=8,
+    )
+)
 def test_any_rows_read_back_as_xlsxwriter_writes_them(tmp_path: Path, rows: list[list]) -> None:
     folder = tmp_path / f"case{abs(hash(repr(rows)))}"
     folder.mkdir(exist_ok=True)
     header = ["a", "b", "c"]
-    rows = [[v.replace("\ufffe", "\ufffd").replace("\uffff", "\ufffd") if isinstance(v, str) else v for v in row]
-            for row in rows]  # XML 1.0 §2.2: U+FFFE/U+FFFF cannot be written; both writers' forms differ there
+    rows = [
+        [v.replace("\ufffe", "\ufffd").replace("\uffff", "\ufffd") if isinstance(v, str) else v for v in row]
+        for row in rows
+    ]  # XML 1.0 §2.2: U+FFFE/U+FFFF cannot be written; both writers' forms differ there
     fast = fast_workbook(folder, "P", header, rows)
     reference = reference_workbook(folder / "reference.xlsx", "P", header, rows)
     assert_same_cells(cells(fast)["P"], cells(reference)["P"])
@@ -140,8 +185,9 @@ def test_every_row_keeps_its_columns_format(tmp_path: Path) -> None:
     """ECMA-376 Part 1 §18.8: each cell's s → cellXfs/xf → numFmtId → numFmt/@formatCode, on every row."""
     n = 2 * ROWS_PER_CHUNK + 7  # more than one piece of output
     rows = [[f"C{i}", i / 7, i, None if i % 3 else "note"] for i in range(n)]
-    path = fast_workbook(tmp_path, "Many", ["circuit", "leakage_ma", "count", "note"], rows,
-                         number_formats={1: "0.000", 2: "0"})
+    path = fast_workbook(
+        tmp_path, "Many", ["circuit", "leakage_ma", "count", "note"], rows, number_formats={1: "0.000", 2: "0"}
+    )
     styles = DET.fromstring(entries(path)["xl/styles.xml"])
     xfs = styles.find(f"{MAIN}cellXfs").findall(f"{MAIN}xf")
     codes = {int(f.get("numFmtId")): f.get("formatCode") for f in styles.iter(f"{MAIN}numFmt")}
@@ -187,6 +233,7 @@ def test_progress_hears_every_row_once_in_order() -> None:
 def test_a_sheet_streamed_with_zip64_sizes_reads_back(tmp_path: Path, monkeypatch) -> None:
     """Sheets of more than ZIP64_ROWS rows get ZIP64 sizes (APPNOTE.TXT 4.5.3); both readers must accept them."""
     from leakbudget.xlsx import package as xlsx_package
+
     monkeypatch.setattr(xlsx_package, "ZIP64_ROWS", 0)
     rows = [["K1", 0.85], ["K2", 1.4]]
     path = fast_workbook(tmp_path, "Big", ["circuit", "leakage_ma"], rows)

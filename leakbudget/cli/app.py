@@ -3,16 +3,23 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import TYPE_CHECKING, Annotated, Any, Optional
+from typing import TYPE_CHECKING, Annotated, Any
 
 import typer
-from typer.core import TyperGroup
 from rich import box
 from rich.table import Table
+from typer.core import TyperGroup
 
 from leakbudget.about import __version__
 from leakbudget.cli.render import (
-    caution, err_console, out_console, print_json, progress_bar, render_check, render_review, render_split,
+    caution,
+    err_console,
+    out_console,
+    print_json,
+    progress_bar,
+    render_check,
+    render_review,
+    render_split,
 )
 from leakbudget.errors import LeakbudgetError
 from leakbudget.locations import LOCATION_KINDS
@@ -53,7 +60,7 @@ app = typer.Typer(
 
 PathArg = Annotated[Path, typer.Argument(help="The workbook (.xlsx).", show_default=False, metavar="PATH")]
 OutOpt = Annotated[
-    Optional[Path],
+    Path | None,
     typer.Option("--out", "-o", help="Write the results into this new file and leave PATH untouched."),
 ]
 JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON document to stdout instead of tables.")]
@@ -90,9 +97,14 @@ REVIEW_HELP = (
 )
 
 
-CodeOpt = Annotated[Optional[str], typer.Option(
-    "--code", help="Code to review against: nec-2020, nec-2023, iec-60364 or bs-7671. Default: the Code "
-                   "setting, else nec-2023 for a 60 Hz plan and iec-60364 for a 50 Hz plan.")]
+CodeOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--code",
+        help="Code to review against: nec-2020, nec-2023, iec-60364 or bs-7671. Default: the Code "
+        "setting, else nec-2023 for a 60 Hz plan and iec-60364 for a 50 Hz plan.",
+    ),
+]
 
 
 @app.command(help=REVIEW_HELP)
@@ -128,25 +140,38 @@ SPLIT_HELP = (
 )
 
 
-TimeLimitOpt = Annotated[float, typer.Option("--time-limit", help="Seconds to spend at most on proving and "
-                                                                  "improving the plan.", min=0.1)]
-NewDeviceOpt = Annotated[Optional[str], typer.Option(
-    "--new-device", help="Device key for new circuits (default: that of the circuits serving the room).")]
-NewRatingOpt = Annotated[Optional[float], typer.Option(
-    "--new-rating", help="Rating of new circuits in A (default: that of the circuits serving the room).")]
-MaxLikelihoodOpt = Annotated[Optional[str], typer.Option(
-    "--max-trip-likelihood", metavar="P", help="Highest switch-on trip likelihood a protected circuit may keep, "
-    "e.g. '1 %' or 0.01 (default: the Max trip likelihood setting; none).")]
+TimeLimitOpt = Annotated[
+    float, typer.Option("--time-limit", help="Seconds to spend at most on proving and improving the plan.", min=0.1)
+]
+NewDeviceOpt = Annotated[
+    str | None,
+    typer.Option("--new-device", help="Device key for new circuits (default: that of the circuits serving the room)."),
+]
+NewRatingOpt = Annotated[
+    float | None,
+    typer.Option("--new-rating", help="Rating of new circuits in A (default: that of the circuits serving the room)."),
+]
+MaxLikelihoodOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--max-trip-likelihood",
+        metavar="P",
+        help="Highest switch-on trip likelihood a protected circuit may keep, "
+        "e.g. '1 %' or 0.01 (default: the Max trip likelihood setting; none).",
+    ),
+]
 
 
-def _split_options(time_limit: float, new_device: str | None, new_rating: float | None,
-                   max_likelihood: str | None) -> Any:
+def _split_options(
+    time_limit: float, new_device: str | None, new_rating: float | None, max_likelihood: str | None
+) -> Any:
     from leakbudget.planner.plan import SplitOptions
     from leakbudget.planner.split import likelihood_cap_option
 
     cap = likelihood_cap_option(max_likelihood) if max_likelihood is not None else None
-    return SplitOptions(time_limit_s=time_limit, new_device=new_device, new_rating_a=new_rating,
-                        max_trip_likelihood=cap)
+    return SplitOptions(
+        time_limit_s=time_limit, new_device=new_device, new_rating_a=new_rating, max_trip_likelihood=cap
+    )
 
 
 @app.command(help=SPLIT_HELP)
@@ -175,12 +200,17 @@ def split(
 @app.command()
 def report(
     path: PathArg,
-    html: Annotated[Optional[Path], typer.Option("--html", help="Write the report as one self-contained HTML "
-                                                 "file (charts embedded, no external links).")] = None,
-    pdf: Annotated[Optional[Path], typer.Option("--pdf", help="Write the report as a PDF (A4 pages).")] = None,
+    html: Annotated[
+        Path | None,
+        typer.Option(
+            "--html", help="Write the report as one self-contained HTML file (charts embedded, no external links)."
+        ),
+    ] = None,
+    pdf: Annotated[Path | None, typer.Option("--pdf", help="Write the report as a PDF (A4 pages).")] = None,
     code: CodeOpt = None,
-    split: Annotated[bool, typer.Option("--split", help="Also plan a split (as `leakbudget split`) and put the "
-                                                        "plan in the report.")] = False,
+    split: Annotated[
+        bool, typer.Option("--split", help="Also plan a split (as `leakbudget split`) and put the plan in the report.")
+    ] = False,
     time_limit: TimeLimitOpt = 20.0,
     new_device: NewDeviceOpt = None,
     new_rating: NewRatingOpt = None,
@@ -201,12 +231,15 @@ def report(
     counts = job.report.status_counts
     over = counts.get("over-budget", 0) + counts.get("trip-risk", 0)
     for written in job.written:
-        out_console.print(f"Report written to {written} ({written.stat().st_size // 1024 or 1} KB).",
-                          highlight=False)
-    out_console.print(f"{len(rv.check.circuits)} circuit(s), {over} over budget. {job.report.verdict.text}",
-                      highlight=False)
-    out_console.print(f"Reviewed against {rv.code.label}: {rv.count(Severity.ERROR)} error(s), "
-                      f"{rv.count(Severity.WARNING)} warning(s), {rv.count(Severity.INFO)} info.", highlight=False)
+        out_console.print(f"Report written to {written} ({written.stat().st_size // 1024 or 1} KB).", highlight=False)
+    out_console.print(
+        f"{len(rv.check.circuits)} circuit(s), {over} over budget. {job.report.verdict.text}", highlight=False
+    )
+    out_console.print(
+        f"Reviewed against {rv.code.label}: {rv.count(Severity.ERROR)} error(s), "
+        f"{rv.count(Severity.WARNING)} warning(s), {rv.count(Severity.INFO)} info.",
+        highlight=False,
+    )
     if job.plan is not None:
         from leakbudget.output.split import summary
 
@@ -230,21 +263,22 @@ def demo(
 
 @app.command()
 def template(
-    path: Annotated[Path, typer.Argument(help="The new workbook to create (.xlsx).", show_default=False,
-                                         metavar="PATH")],
+    path: Annotated[
+        Path, typer.Argument(help="The new workbook to create (.xlsx).", show_default=False, metavar="PATH")
+    ],
 ) -> None:
     """Create a blank workbook with the sheets, headers, instructions and drop-down lists."""
     from leakbudget.workbook.template import write_template
 
     write_template(path)
-    out_console.print(f"Created {path}. Fill in Circuits and Loads, then run: leakbudget check {path}",
-                      highlight=False)
+    out_console.print(f"Created {path}. Fill in Circuits and Loads, then run: leakbudget check {path}", highlight=False)
 
 
 @app.command()
 def appliances(
-    word: Annotated[Optional[str], typer.Argument(help="Show only rows whose key, description or category "
-                                                       "contain this word.")] = None,
+    word: Annotated[
+        str | None, typer.Argument(help="Show only rows whose key, description or category contain this word.")
+    ] = None,
     as_json: JsonOpt = False,
 ) -> None:
     """List or search the built-in appliance catalogue, with the source of every value."""
@@ -252,17 +286,32 @@ def appliances(
 
     rows = built_in().search(word)
     if as_json:
-        print_json([
-            {"key": a.key, "description": a.description, "category": a.category, "class": a.insulation_class,
-             "connection": a.connection, "nature": a.nature, "waveform": a.waveform, "heating": a.heating,
-             "typical_ma": a.typical_ma, "upper_ma": a.upper_ma, "reference_voltage_v": a.reference_voltage_v,
-             "reference_frequency_hz": a.reference_frequency_hz, "typical_power_w": a.typical_power_w,
-             "typical_source": str(a.typical_source), "upper_source": str(a.upper_source)}
-            for a in rows
-        ])
+        print_json(
+            [
+                {
+                    "key": a.key,
+                    "description": a.description,
+                    "category": a.category,
+                    "class": a.insulation_class,
+                    "connection": a.connection,
+                    "nature": a.nature,
+                    "waveform": a.waveform,
+                    "heating": a.heating,
+                    "typical_ma": a.typical_ma,
+                    "upper_ma": a.upper_ma,
+                    "reference_voltage_v": a.reference_voltage_v,
+                    "reference_frequency_hz": a.reference_frequency_hz,
+                    "typical_power_w": a.typical_power_w,
+                    "typical_source": str(a.typical_source),
+                    "upper_source": str(a.upper_source),
+                }
+                for a in rows
+            ]
+        )
         return
-    table = Table(title=f"Appliance catalogue ({len(rows)} rows)", title_justify="left", show_lines=True,
-                  box=box.SIMPLE_HEAD)
+    table = Table(
+        title=f"Appliance catalogue ({len(rows)} rows)", title_justify="left", show_lines=True, box=box.SIMPLE_HEAD
+    )
     table.add_column("Key", no_wrap=True)
     table.add_column("Typical / upper mA", no_wrap=True)
     table.add_column("What, and where the figures come from", overflow="fold")
@@ -284,8 +333,17 @@ def cables(as_json: JsonOpt = False) -> None:
 
     rows = list(built_in().cables.values())
     if as_json:
-        print_json([{"key": c.key, "description": c.description, "capacitance_pf_per_m": c.capacitance_pf_per_m,
-                      "source": str(c.source)} for c in rows])
+        print_json(
+            [
+                {
+                    "key": c.key,
+                    "description": c.description,
+                    "capacitance_pf_per_m": c.capacitance_pf_per_m,
+                    "source": str(c.source),
+                }
+                for c in rows
+            ]
+        )
         return
     table = Table(title="Cable catalogue", title_justify="left", show_lines=True, box=box.SIMPLE_HEAD)
     table.add_column("Key", no_wrap=True)
@@ -303,18 +361,38 @@ def devices(as_json: JsonOpt = False) -> None:
 
     rows = [d for d in DEVICES.values() if d.protected]
     if as_json:
-        print_json([{"key": d.key, "label": d.label, "trip_ma": d.trip_ma, "no_trip_ma": d.no_trip_ma,
-                      "trip_source": str(d.trip_source), "no_trip_source": str(d.no_trip_source)} for d in rows]
-                    + [{"key": "none", "label": DEVICES["none"].label, "trip_ma": None, "no_trip_ma": None,
-                        "trip_source": None, "no_trip_source": None}])
+        print_json(
+            [
+                {
+                    "key": d.key,
+                    "label": d.label,
+                    "trip_ma": d.trip_ma,
+                    "no_trip_ma": d.no_trip_ma,
+                    "trip_source": str(d.trip_source),
+                    "no_trip_source": str(d.no_trip_source),
+                }
+                for d in rows
+            ]
+            + [
+                {
+                    "key": "none",
+                    "label": DEVICES["none"].label,
+                    "trip_ma": None,
+                    "no_trip_ma": None,
+                    "trip_source": None,
+                    "no_trip_source": None,
+                }
+            ]
+        )
         return
     table = Table(title="Protective devices", title_justify="left", show_lines=True, box=box.SIMPLE_HEAD)
     table.add_column("Key", no_wrap=True)
     table.add_column("Trip / no-trip mA", no_wrap=True)
     table.add_column("Device, and where the levels come from", overflow="fold")
     for d in rows:
-        table.add_row(d.key, f"{d.trip_ma:g} / {d.no_trip_ma:g}",
-                      f"{d.label}\ntrip: {d.trip_source}\nno-trip: {d.no_trip_source}")
+        table.add_row(
+            d.key, f"{d.trip_ma:g} / {d.no_trip_ma:g}", f"{d.label}\ntrip: {d.trip_source}\nno-trip: {d.no_trip_source}"
+        )
     table.add_row("none", "-", DEVICES["none"].label)
     out_console.print(table)
 
@@ -327,8 +405,9 @@ def version_callback(value: bool) -> None:
 
 @app.callback()
 def root(
-    version: Annotated[bool, typer.Option("--version", callback=version_callback, is_eager=True,
-                                          help="Show the version and exit.")] = False,
+    version: Annotated[
+        bool, typer.Option("--version", callback=version_callback, is_eager=True, help="Show the version and exit.")
+    ] = False,
 ) -> None:
     """Standing earth-leakage budgets for GFCI/RCD-protected circuits."""
 

@@ -67,10 +67,17 @@ def progress_bar(as_json: bool = False) -> Iterator[Progress | None]:
     if as_json or not interactive():
         yield None
         return
-    from rich.progress import BarColumn, Progress as Bars, TaskProgressColumn, TextColumn, TimeElapsedColumn
+    from rich.progress import BarColumn, TaskProgressColumn, TextColumn, TimeElapsedColumn
+    from rich.progress import Progress as Bars
 
-    bars = Bars(TextColumn("{task.description}"), BarColumn(), TaskProgressColumn(), TimeElapsedColumn(),
-                console=err_console, transient=True)
+    bars = Bars(
+        TextColumn("{task.description}"),
+        BarColumn(),
+        TaskProgressColumn(),
+        TimeElapsedColumn(),
+        console=err_console,
+        transient=True,
+    )
     tasks: dict[str, Any] = {}
 
     def report(stage: str, done: int, total: int) -> None:
@@ -97,29 +104,41 @@ def caution() -> None:
 
 def render_readings(result: Any) -> None:
     """The Readings sheet beside the estimate, and the calibrated figures where asked."""
-    from leakbudget.readings import THRESHOLDS
     from leakbudget.output.check import readings_list
+    from leakbudget.readings import THRESHOLDS
 
     rows = readings_list(result)
     if not rows:
         return
-    table = Table(title="Readings against the estimate (mA)", title_justify="left", box=box.SIMPLE_HEAD,
-                  pad_edge=False, padding=(0, 1, 0, 0))
+    table = Table(
+        title="Readings against the estimate (mA)",
+        title_justify="left",
+        box=box.SIMPLE_HEAD,
+        pad_edge=False,
+        padding=(0, 1, 0, 0),
+    )
     for header in ("Circuit", "Reading", "Conditions", "Estimate (95% range)", "Flag", "Calibrated"):
         table.add_column(header, justify="right" if header == "Reading" else "left", overflow="fold")
     for d in rows:
-        estimate = (f"{fmt(d['estimate_median_ma'], 2)} ({fmt(d['estimate_low_ma'], 2)}-"
-                    f"{fmt(d['estimate_high_ma'], 2)})")
+        estimate = f"{fmt(d['estimate_median_ma'], 2)} ({fmt(d['estimate_low_ma'], 2)}-{fmt(d['estimate_high_ma'], 2)})"
         flag_style = {"far above": "bold red", "far below": "yellow"}.get(d["flag"], "green")
         calibrated = "-"
         if d["calibration_factor"] is not None:
-            calibrated = (f"×{d['calibration_factor']:.2f}: sum {fmt(d['estimate_gate_ma'], 2)} → "
-                          f"{fmt(d['calibrated_gate_ma'], 2)}, {d['estimate_status']} → {d['calibrated_status']}, "
-                          f"P(trip) {d['estimate_trip_probability_text']} → {d['calibrated_trip_probability_text']}")
+            calibrated = (
+                f"×{d['calibration_factor']:.2f}: sum {fmt(d['estimate_gate_ma'], 2)} → "
+                f"{fmt(d['calibrated_gate_ma'], 2)}, {d['estimate_status']} → {d['calibrated_status']}, "
+                f"P(trip) {d['estimate_trip_probability_text']} → {d['calibrated_trip_probability_text']}"
+            )
         elif d["calibration"]:
             calibrated = d["calibration"]
-        table.add_row(d["circuit"], fmt(d["reading_ma"], 2), d["conditions"] + (f", {d['date']}" if d["date"] else ""),
-                      estimate, f"[{flag_style}]{d['flag']}[/]", calibrated)
+        table.add_row(
+            d["circuit"],
+            fmt(d["reading_ma"], 2),
+            d["conditions"] + (f", {d['date']}" if d["date"] else ""),
+            estimate,
+            f"[{flag_style}]{d['flag']}[/]",
+            calibrated,
+        )
     out_console.print(table)
     for d in rows:
         if d["flag"] != "consistent":
@@ -158,13 +177,22 @@ def render_check(job: Any) -> None:
     project = result.project
     gate = "phasor" if project.settings.sum_rule == "phasor" else "arithmetic"
     wide = out_console.width >= 110
-    table = Table(title=f"Standing leakage per circuit (mA): {project.path.name}", title_justify="left",
-                  box=box.SIMPLE_HEAD, pad_edge=False, padding=(0, 1, 0, 0))
+    table = Table(
+        title=f"Standing leakage per circuit (mA): {project.path.name}",
+        title_justify="left",
+        box=box.SIMPLE_HEAD,
+        pad_edge=False,
+        padding=(0, 1, 0, 0),
+    )
     table.add_column("Circuit", overflow="fold", min_width=6)
     levels = ("Budget", "No-trip") if wide else ("Budget/ no-trip",)
     for header in ("Device", "Sum", "Phasor", *levels, "Used", "Status", "P(trip)", "Switch-on"):
-        table.add_column(header, justify="left" if header in ("Device", "Status") else "right",
-                         no_wrap=header != "Budget/ no-trip", min_width=9 if header == "Budget/ no-trip" else None)
+        table.add_column(
+            header,
+            justify="left" if header in ("Device", "Status") else "right",
+            no_wrap=header != "Budget/ no-trip",
+            min_width=9 if header == "Budget/ no-trip" else None,
+        )
     if wide:
         table.add_column("Largest contributor", overflow="fold")
     shown = _circuits_to_show(result.circuits)
@@ -173,32 +201,45 @@ def render_check(job: Any) -> None:
         used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"
         budget, no_trip = fmt(d["budget_ma"], 2), fmt(d["no_trip_ma"], 2)
         cells = [
-            d["circuit"], d["device"], fmt(d["leakage_ma"], 2), fmt(d["phasor_ma"], 2),
+            d["circuit"],
+            d["device"],
+            fmt(d["leakage_ma"], 2),
+            fmt(d["phasor_ma"], 2),
             *((budget, no_trip) if wide else (f"{budget}/{no_trip}" if d["budget_ma"] is not None else "-",)),
-            used, f"[{STATUS_STYLE[d['status']]}]{d['status']}[/]",
+            used,
+            f"[{STATUS_STYLE[d['status']]}]{d['status']}[/]",
             _short_probability(d["trip_probability_text"], d["trip_probability"], wide),
             _short_probability(d["trip_probability_switch_on_text"], d["trip_probability_switch_on"], wide),
         ]
         if wide:
-            cells.append(f"{d['largest_contributor']} ({fmt(d['largest_contributor_ma'], 2)})"
-                         if d["largest_contributor"] else "-")
+            cells.append(
+                f"{d['largest_contributor']} ({fmt(d['largest_contributor_ma'], 2)})"
+                if d["largest_contributor"]
+                else "-"
+            )
         table.add_row(*cells)
     out_console.print(table)
     if len(shown) < len(result.circuits):
-        out_console.print(f"Showing {len(shown)} of {len(result.circuits):,} circuits: those using most of their budget; "
-                          "every circuit is in the 'Circuit results' sheet (and in --json).", highlight=False)
+        out_console.print(
+            f"Showing {len(shown)} of {len(result.circuits):,} circuits: those using most of their budget; "
+            "every circuit is in the 'Circuit results' sheet (and in --json).",
+            highlight=False,
+        )
     s = project.settings
     out_console.print(
         f"Budget = {s.budget_fraction:g} × trip level ({s.sources['Budget fraction']}); gated by the {gate} sum; "
-        f"catalogue basis: {s.basis}.", highlight=False,
+        f"catalogue basis: {s.basis}.",
+        highlight=False,
     )
     if result.risk is not None:
         for line in result.risk.method:
             out_console.print(f"Trip likelihood: {line}", highlight=False)
     for r in result.loads:
         if r.measured_on:
-            out_console.print(f"Identical unit: '{r.name}' takes the Leakage measured on {r.measured_on}: same "
-                              "appliance and model.", highlight=False)
+            out_console.print(
+                f"Identical unit: '{r.name}' takes the Leakage measured on {r.measured_on}: same appliance and model.",
+                highlight=False,
+            )
     render_readings(result)
     for line in project.defaults_used:
         out_console.print(f"Default used: {line}", highlight=False)
@@ -208,11 +249,16 @@ def render_check(job: Any) -> None:
         out_console.print(f"{len(result.unplaced)} load(s) have no circuit yet; `leakbudget split` can place them.")
     bad = [c for c in result.circuits if c.status.value in ("over-budget", "trip-risk")]
     for c in bad[:TERMINAL_TABLE_ROWS]:
-        out_console.print(f"{c.circuit.circuit_id} is {c.status.value}: largest contributor {c.largest} "
-                          f"({c.largest_ma:.2f} mA).", highlight=False)
+        out_console.print(
+            f"{c.circuit.circuit_id} is {c.status.value}: largest contributor {c.largest} ({c.largest_ma:.2f} mA).",
+            highlight=False,
+        )
     if len(bad) > TERMINAL_TABLE_ROWS:
-        out_console.print(f"… and {len(bad) - TERMINAL_TABLE_ROWS:,} more circuits over budget, each with its largest "
-                          "contributor in the 'Circuit results' sheet.", highlight=False)
+        out_console.print(
+            f"… and {len(bad) - TERMINAL_TABLE_ROWS:,} more circuits over budget, each with its largest "
+            "contributor in the 'Circuit results' sheet.",
+            highlight=False,
+        )
     if not result.circuits:
         out_console.print("The Circuits sheet has no circuits yet: add one row per circuit.")
     elif bad:
@@ -224,8 +270,10 @@ def render_check(job: Any) -> None:
     else:
         out_console.print("Every protected circuit is within its budget.")
     if job.written is not None:
-        out_console.print(f"Results written to {job.written.path} (sheets: "
-                          f"{', '.join(job.written.replaced + job.written.added)}).", highlight=False)
+        out_console.print(
+            f"Results written to {job.written.path} (sheets: {', '.join(job.written.replaced + job.written.added)}).",
+            highlight=False,
+        )
         if job.written.backup is not None:
             out_console.print(f"Previous version kept as {job.written.backup}.", highlight=False)
     caution()
@@ -243,16 +291,22 @@ def render_review(job: Any) -> None:
     out_console.print(f"Code: {rv.code_source}.", highlight=False)
     for f in rv.findings:
         where = " / ".join(x for x in (f.circuit, f.load) if x)
-        out_console.print(f"\n[{SEVERITY_STYLE[f.severity.value]}]{f.severity.value}[/] {f.rule}"
-                          f"{' · ' + where if where else ''}", highlight=False)
+        out_console.print(
+            f"\n[{SEVERITY_STYLE[f.severity.value]}]{f.severity.value}[/] {f.rule}{' · ' + where if where else ''}",
+            highlight=False,
+        )
         out_console.print(Padding(f"{f.message}\n[dim]Source: {f.source}[/dim]", (0, 0, 0, 2)), highlight=False)
     out_console.print()
     counts = {s: rv.count(s) for s in Severity}
-    out_console.print(f"{counts[Severity.ERROR]} error(s), {counts[Severity.WARNING]} warning(s), "
-                      f"{counts[Severity.INFO]} info.", highlight=False)
+    out_console.print(
+        f"{counts[Severity.ERROR]} error(s), {counts[Severity.WARNING]} warning(s), {counts[Severity.INFO]} info.",
+        highlight=False,
+    )
     if rv.check.unplaced:
-        out_console.print(f"{len(rv.check.unplaced)} load(s) have no circuit yet; their circuit rules apply once "
-                          "they are placed.", highlight=False)
+        out_console.print(
+            f"{len(rv.check.unplaced)} load(s) have no circuit yet; their circuit rules apply once they are placed.",
+            highlight=False,
+        )
     for line in project.warnings:
         err_console.print(f"[yellow]Warning:[/] {line}", highlight=False)
     report_written(job.written, f"Findings written to {{path}} (sheet '{REVIEW_FINDINGS}').")
@@ -267,17 +321,18 @@ def render_split(job: Any) -> None:
     out_console.print(f"Split plan for {project.path.name}: {summary(plan)}", highlight=False)
     changed = [a for a in plan.assignments if a.moved or a.placed]
     if changed:
-        moves = Table(title="Moves", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False,
-                      padding=(0, 1, 0, 0))
+        moves = Table(title="Moves", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False, padding=(0, 1, 0, 0))
         moves.add_column("Load", overflow="fold")
         for header in ("From", "To", "mA", "A"):
             moves.add_column(header, justify="right" if header in ("mA", "A") else "left", no_wrap=True)
         for a in changed:
-            moves.add_row(a.load.name, a.from_id or "(unplaced)", a.to_id or "-", fmt(a.leakage_ma, 2),
-                          fmt(a.current_a, 1))
+            moves.add_row(
+                a.load.name, a.from_id or "(unplaced)", a.to_id or "-", fmt(a.leakage_ma, 2), fmt(a.current_a, 1)
+            )
         out_console.print(moves)
-    table = Table(title="Circuits before → after", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False,
-                  padding=(0, 1, 0, 0))
+    table = Table(
+        title="Circuits before → after", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False, padding=(0, 1, 0, 0)
+    )
     table.add_column("Circuit", overflow="fold", min_width=6)
     for header in ("Loads", "Sum mA", "Used", "Current A", "Status"):
         table.add_column(header, justify="left" if header == "Status" else "right", no_wrap=header != "Status")
@@ -301,12 +356,18 @@ def render_split(job: Any) -> None:
     out_console.print(table)
     for n in plan.new_circuits:
         rating = f"{n.circuit.rating_a:g} A" if n.circuit.rating_a else "no rating"
-        out_console.print(f"{n.circuit.circuit_id} serves {', '.join(n.circuit.rooms) or 'any room'}: "
-                          f"{n.circuit.device.key}, {rating}, {n.template}.", highlight=False)
+        out_console.print(
+            f"{n.circuit.circuit_id} serves {', '.join(n.circuit.rooms) or 'any room'}: "
+            f"{n.circuit.device.key}, {rating}, {n.template}.",
+            highlight=False,
+        )
     gate = "phasor" if project.settings.sum_rule == "phasor" else "arithmetic"
-    out_console.print(f"Limits: budget = {project.settings.budget_fraction:g} × trip level on the arithmetic sum "
-                      f"(check gates on the {gate} sum); current ≤ {plan.load_factor:g} × rating, from "
-                      f"{project.settings.sources['Load factor']}.", highlight=False)
+    out_console.print(
+        f"Limits: budget = {project.settings.budget_fraction:g} × trip level on the arithmetic sum "
+        f"(check gates on the {gate} sum); current ≤ {plan.load_factor:g} × rating, from "
+        f"{project.settings.sources['Load factor']}.",
+        highlight=False,
+    )
     if plan.likelihood_cap is not None:
         out_console.print(f"Trip likelihood: {likelihood_line(plan)}", highlight=False)
     for b in plan.blockers:
@@ -316,8 +377,13 @@ def render_split(job: Any) -> None:
     for line in project.warnings:
         err_console.print(f"[yellow]Warning:[/] {line}", highlight=False)
     if plan.blockers:
-        out_console.print(f"[bold]No plan meets every limit.[/] The plan above fixes everything else; the "
-                          f"{len(plan.blockers)} problem(s) named need your decision.")
-    report_written(job.written, f"Plan written to {{path}} (sheet '{SPLIT_PLAN}'); the Loads sheet is unchanged: "
-                                 "move the loads there yourself, then check again.")
+        out_console.print(
+            f"[bold]No plan meets every limit.[/] The plan above fixes everything else; the "
+            f"{len(plan.blockers)} problem(s) named need your decision."
+        )
+    report_written(
+        job.written,
+        f"Plan written to {{path}} (sheet '{SPLIT_PLAN}'); the Loads sheet is unchanged: "
+        "move the loads there yourself, then check again.",
+    )
     caution()

@@ -68,8 +68,10 @@ class Code:
         """What to fit to meet :attr:`requirement`, with the device key."""
         if self.family == "nec":
             return "fit a Class A GFCI (gfci-a)"
-        return (f"fit an RCD to IEC 61008-1 / IEC 61009-1 of IΔn {ADDITIONAL_PROTECTION_MAX_MA:g} mA or less "
-                f"(rcd-30 or rcd-10)")
+        return (
+            f"fit an RCD to IEC 61008-1 / IEC 61009-1 of IΔn {ADDITIONAL_PROTECTION_MAX_MA:g} mA or less "
+            f"(rcd-30 or rcd-10)"
+        )
 
     def satisfied_by(self, device: Device) -> bool:
         """Whether ``device`` is the kind of protection this code's location and outlet rules require."""
@@ -81,14 +83,31 @@ class Code:
 def _nec(year: int, kitchen: Scope, appliance_outlets: dict[str, str], appliance_source: Source) -> Code:
     where = Source.published(f"NEC {year} 210.8(A)")
     wet = LocationRule(Scope.RECEPTACLES, where)
-    locations = {kind: wet for kind in (
-        "bathroom", "half-bath", "garage", "accessory-building", "outdoor", "crawl-space", "basement",
-        "sink-area", "boathouse", "laundry", "damp",
-    )}
+    locations = dict.fromkeys(
+        (
+            "bathroom",
+            "half-bath",
+            "garage",
+            "accessory-building",
+            "outdoor",
+            "crawl-space",
+            "basement",
+            "sink-area",
+            "boathouse",
+            "laundry",
+            "damp",
+        ),
+        wet,
+    )
     locations["kitchen"] = LocationRule(kitchen, where)
     return Code(
-        key=f"nec-{year}", label=f"NEC {year} (NFPA 70), dwelling units", family="nec", location_source=where,
-        locations=locations, appliance_outlets=appliance_outlets, appliance_source=appliance_source,
+        key=f"nec-{year}",
+        label=f"NEC {year} (NFPA 70), dwelling units",
+        family="nec",
+        location_source=where,
+        locations=locations,
+        appliance_outlets=appliance_outlets,
+        appliance_source=appliance_source,
         ev_source=Source.published(f"NEC {year} 625.54"),
     )
 
@@ -98,10 +117,14 @@ def _iec(key: str, label: str, *, bath: str, ev: str, sockets: Source, **extra: 
     or shower, and EV charging points (the bath and EV clauses are cited from memory)."""
     bath_rule = Source.from_memory(f"{bath} (all circuits of a room with a bath or shower), from memory")
     return Code(
-        key=key, label=label, family="iec", location_source=bath_rule,
+        key=key,
+        label=label,
+        family="iec",
+        location_source=bath_rule,
         locations={"bathroom": LocationRule(Scope.ALL_CIRCUITS, bath_rule)},
         ev_source=Source.from_memory(f"{ev} (each charging point on an RCD), from memory"),
-        socket_source=sockets, **extra,
+        socket_source=sockets,
+        **extra,
     )
 
 
@@ -119,18 +142,28 @@ NEC_2023_APPLIANCES = {
 }
 
 CODES: dict[str, Code] = {
-    "nec-2020": _nec(2020, Scope.COUNTERTOP, {"dishwasher": "dishwashers"},
-                     Source.from_memory("NEC 2020 210.8(D) (dishwasher outlets in dwelling units), from memory")),
+    "nec-2020": _nec(
+        2020,
+        Scope.COUNTERTOP,
+        {"dishwasher": "dishwashers"},
+        Source.from_memory("NEC 2020 210.8(D) (dishwasher outlets in dwelling units), from memory"),
+    ),
     "nec-2023": _nec(2023, Scope.RECEPTACLES, NEC_2023_APPLIANCES, Source.published("NEC 2023 210.8(D)")),
     "iec-60364": _iec(
-        "iec-60364", "IEC 60364 (low-voltage installations)", bath="IEC 60364-7-701 701.411.3.3",
+        "iec-60364",
+        "IEC 60364 (low-voltage installations)",
+        bath="IEC 60364-7-701 701.411.3.3",
         ev="IEC 60364-7-722 722.531.2.101",
         sockets=Source.from_memory(
-            "IEC 60364-4-41 411.3.3 and 415.1.1 (socket-outlets up to 32 A; the 32 A limit from memory)"),
+            "IEC 60364-4-41 411.3.3 and 415.1.1 (socket-outlets up to 32 A; the 32 A limit from memory)"
+        ),
     ),
     "bs-7671": _iec(
-        "bs-7671", "BS 7671:2018 (IET Wiring Regulations)", bath="BS 7671:2018 reg. 701.411.3.3",
-        ev="BS 7671:2018 reg. 722.531.2.101", sockets=Source.published("BS 7671:2018 reg. 411.3.3 and 415.1.1"),
+        "bs-7671",
+        "BS 7671:2018 (IET Wiring Regulations)",
+        bath="BS 7671:2018 reg. 701.411.3.3",
+        ev="BS 7671:2018 reg. 722.531.2.101",
+        sockets=Source.published("BS 7671:2018 reg. 411.3.3 and 415.1.1"),
         waveform_source=Source.published("BS 7671:2018 reg. 531.3.3; IEC 62423 (RCD types AC, A, F, B)"),
         budget_is_regulation=True,
     ),

@@ -17,13 +17,20 @@ from dataclasses import dataclass
 from enum import Enum
 from typing import Any
 
+from leakbudget.checking import CheckResult, check
 from leakbudget.compliance.codes import (
-    CODE_KEYS, CODES, DEFAULT_CODE_BY_FREQUENCY_HZ, SOCKET_OUTLET_MAX_A, Code, LocationRule, Scope, is_ev_charger,
+    CODE_KEYS,
+    CODES,
+    DEFAULT_CODE_BY_FREQUENCY_HZ,
+    SOCKET_OUTLET_MAX_A,
+    Code,
+    LocationRule,
+    Scope,
+    is_ev_charger,
 )
 from leakbudget.devices import Family, Status
 from leakbudget.errors import LeakbudgetError
-from leakbudget.estimate import CircuitResult, LoadResult, MEASURED
-from leakbudget.checking import CheckResult, check
+from leakbudget.estimate import MEASURED, CircuitResult, LoadResult
 from leakbudget.locations import Classification, classify_room
 from leakbudget.model import Circuit, Project
 from leakbudget.provenance import Kind, Source
@@ -37,8 +44,12 @@ from leakbudget.settings import US_SUPPLY
 def _switch_on(settings) -> tuple[float, Source]:  # type: ignore[no-untyped-def]
     factor = float(settings["Switch-on factor"])
     origin = settings.sources["Switch-on factor"]
-    return factor, Source(origin.kind, f"switch-on leakage of a cold heating element about {factor:g} × its dry "
-                                       f"value ({origin}); moist elements: BS 7671:2001 guidance")
+    return factor, Source(
+        origin.kind,
+        f"switch-on leakage of a cold heating element about {factor:g} × its dry "
+        f"value ({origin}); moist elements: BS 7671:2001 guidance",
+    )
+
 
 # IEC 60950-1 5.1.7 / IEC 62368-1: plug-connected equipment (ordinary plug) may have at most 3.5 mA protective
 # conductor current; above it, permanent connection or an industrial plug and a high-leakage label (IEC 61140
@@ -95,9 +106,15 @@ class Finding:
     message: str
 
     def to_dict(self) -> dict[str, Any]:
-        return {"severity": self.severity.value, "rule": self.rule, "source": str(self.source),
-                "source_kind": self.source.kind.value, "circuit": self.circuit, "load": self.load,
-                "message": self.message}
+        return {
+            "severity": self.severity.value,
+            "rule": self.rule,
+            "source": str(self.source),
+            "source_kind": self.source.kind.value,
+            "circuit": self.circuit,
+            "load": self.load,
+            "message": self.message,
+        }
 
 
 @dataclass
@@ -248,9 +265,15 @@ def rule_location(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
         rooms = ", ".join(dict.fromkeys(f"{room} ({kind})" for room, kind, _ in hits))
         covers = "every circuit serving it" if scope is Scope.ALL_CIRCUITS else f"{scope.value} there"
         note = "" if scope is Scope.ALL_CIRCUITS else EVIDENCE_NOTE[evidence]
-        yield Finding(severity, "location", rule.source, v.cid, None,
-                      f"{v.cid} serves {rooms}: {_clause(rule.source)} requires {code.requirement} for {covers}; "
-                      f"{_missing(v)}: {code.remedy}.{note}")
+        yield Finding(
+            severity,
+            "location",
+            rule.source,
+            v.cid,
+            None,
+            f"{v.cid} serves {rooms}: {_clause(rule.source)} requires {code.requirement} for {covers}; "
+            f"{_missing(v)}: {code.remedy}.{note}",
+        )
 
 
 def rule_room_unclassified(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
@@ -261,7 +284,10 @@ def rule_room_unclassified(views: list[_Circuit], code: Code, result: CheckResul
                 continue
             protected = code.satisfied_by(v.circuit.device)
             yield Finding(
-                Severity.INFO if protected else Severity.WARNING, "room-unclassified", code.location_source, v.cid,
+                Severity.INFO if protected else Severity.WARNING,
+                "room-unclassified",
+                code.location_source,
+                v.cid,
                 None,
                 f"Room '{c.room}' on {v.cid} is not in the room table, so the location rules were not checked for "
                 f"it{'' if protected else ' (' + _missing(v) + ')'}; add it to a Locations sheet (Room name, "
@@ -279,10 +305,16 @@ def rule_appliance_outlet(views: list[_Circuit], code: Code, result: CheckResult
         for r in v.loads:
             key = r.appliance.key if r.appliance is not None else None
             if key in code.appliance_outlets:
-                yield Finding(Severity.ERROR, "appliance-outlet", code.appliance_source, v.cid, r.name,
-                              f"{r.name} ({key}) is on {v.cid}: {_clause(code.appliance_source)} requires GFCI "
-                              f"protection for outlets supplying {code.appliance_outlets[key]}; {_missing(v)}: "
-                              f"{code.remedy}.")
+                yield Finding(
+                    Severity.ERROR,
+                    "appliance-outlet",
+                    code.appliance_source,
+                    v.cid,
+                    r.name,
+                    f"{r.name} ({key}) is on {v.cid}: {_clause(code.appliance_source)} requires GFCI "
+                    f"protection for outlets supplying {code.appliance_outlets[key]}; {_missing(v)}: "
+                    f"{code.remedy}.",
+                )
 
 
 def rule_ev_charging(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
@@ -298,9 +330,15 @@ def rule_ev_charging(views: list[_Circuit], code: Code, result: CheckResult) -> 
                 continue
             if code.family == "nec" and a.connection != "plug":
                 continue  # 625.54 covers receptacles; fixed equipment carries its own personnel protection
-            yield Finding(Severity.ERROR, "ev-charging", code.ev_source, v.cid, r.name,
-                          f"{r.name} ({a.key}) is EV charging equipment on {v.cid}: {_clause(code.ev_source)} "
-                          f"requires {code.requirement}; {_missing(v)}: {code.remedy}.")
+            yield Finding(
+                Severity.ERROR,
+                "ev-charging",
+                code.ev_source,
+                v.cid,
+                r.name,
+                f"{r.name} ({a.key}) is EV charging equipment on {v.cid}: {_clause(code.ev_source)} "
+                f"requires {code.requirement}; {_missing(v)}: {code.remedy}.",
+            )
 
 
 def rule_socket_outlets(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
@@ -313,12 +351,20 @@ def rule_socket_outlets(views: list[_Circuit], code: Code, result: CheckResult) 
         if code.satisfied_by(v.circuit.device) or evidence == "fixed" or (rating and rating > SOCKET_OUTLET_MAX_A):
             continue
         plugs = [r.name for r in v.loads if r.appliance is not None and r.appliance.connection == "plug"]
-        what = (f"plug-connected loads ({', '.join(plugs[:4])}{', …' if len(plugs) > 4 else ''})" if plugs
-                else "loads whose connection is not known")
-        yield Finding(Severity.ERROR if plugs else Severity.WARNING, "socket-outlets", code.socket_source, v.cid,
-                      None,
-                      f"{v.cid} feeds {what} through socket-outlets up to {SOCKET_OUTLET_MAX_A:g} A: "
-                      f"{_clause(code.socket_source)} requires {code.requirement}; {_missing(v)}: {code.remedy}.")
+        what = (
+            f"plug-connected loads ({', '.join(plugs[:4])}{', …' if len(plugs) > 4 else ''})"
+            if plugs
+            else "loads whose connection is not known"
+        )
+        yield Finding(
+            Severity.ERROR if plugs else Severity.WARNING,
+            "socket-outlets",
+            code.socket_source,
+            v.cid,
+            None,
+            f"{v.cid} feeds {what} through socket-outlets up to {SOCKET_OUTLET_MAX_A:g} A: "
+            f"{_clause(code.socket_source)} requires {code.requirement}; {_missing(v)}: {code.remedy}.",
+        )
 
 
 def effective_waveform(r: LoadResult) -> tuple[str, str]:
@@ -348,20 +394,33 @@ def rule_waveform(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
                 continue
             source = SMOOTH_DC_SOURCE if wave == "smooth-dc" else code.waveform_source
             if rcd_type is None:
-                yield Finding(Severity.INFO, "waveform", source, v.cid, r.name,
-                              f"The leakage of {r.name} is {wave} ({origin}) and the device type (AC, A, F or B) of "
-                              f"{v.cid} is not given; {_types_seeing(wave)} sees it: check the device's datasheet "
-                              f"and give its type in the RCD type column.")
+                yield Finding(
+                    Severity.INFO,
+                    "waveform",
+                    source,
+                    v.cid,
+                    r.name,
+                    f"The leakage of {r.name} is {wave} ({origin}) and the device type (AC, A, F or B) of "
+                    f"{v.cid} is not given; {_types_seeing(wave)} sees it: check the device's datasheet "
+                    f"and give its type in the RCD type column.",
+                )
                 continue
             cure = f"fit a {_types_seeing(wave)} device of the same IΔn"
             if wave == "smooth-dc":
-                cure += (", or a Type A with an IEC 62955 6 mA DC-detecting device (many EV chargers have one "
-                         "built in: check the datasheet); a Type A still trips with up to 6 mA smooth DC, a Type F "
-                         "up to 10 mA")
-            yield Finding(Severity.ERROR if rcd_type == "AC" else Severity.WARNING, "waveform", source, v.cid,
-                          r.name,
-                          f"The leakage of {r.name} is {wave} ({origin}) and {v.cid} has a Type {rcd_type} device, "
-                          f"which cannot reliably see it and can be blinded by it: {cure}.")
+                cure += (
+                    ", or a Type A with an IEC 62955 6 mA DC-detecting device (many EV chargers have one "
+                    "built in: check the datasheet); a Type A still trips with up to 6 mA smooth DC, a Type F "
+                    "up to 10 mA"
+                )
+            yield Finding(
+                Severity.ERROR if rcd_type == "AC" else Severity.WARNING,
+                "waveform",
+                source,
+                v.cid,
+                r.name,
+                f"The leakage of {r.name} is {wave} ({origin}) and {v.cid} has a Type {rcd_type} device, "
+                f"which cannot reliably see it and can be blinded by it: {cure}.",
+            )
 
 
 def published_limit(r: LoadResult) -> tuple[float, Source] | None:
@@ -373,10 +432,13 @@ def published_limit(r: LoadResult) -> tuple[float, Source] | None:
         return None
     power_w = r.load.power_w if r.load is not None else None
     if IEC_60335_HEATING_ROW in a.upper_source.text and power_w:
-        limit = min(max(IEC_60335_HEATING_MA_PER_KW * power_w / 1000.0, IEC_60335_HEATING_MIN_MA),
-                    IEC_60335_HEATING_MAX_MA)
-        return limit, Source.published(f"IEC 60335-1 cl. 13.2 (class I stationary heating, 0.75 mA/kW at "
-                                       f"{power_w / 1000.0:g} kW, at least 0.75 mA, at most 5 mA)")
+        limit = min(
+            max(IEC_60335_HEATING_MA_PER_KW * power_w / 1000.0, IEC_60335_HEATING_MIN_MA), IEC_60335_HEATING_MAX_MA
+        )
+        return limit, Source.published(
+            f"IEC 60335-1 cl. 13.2 (class I stationary heating, 0.75 mA/kW at "
+            f"{power_w / 1000.0:g} kW, at least 0.75 mA, at most 5 mA)"
+        )
     return a.upper_ma, a.upper_source
 
 
@@ -388,16 +450,28 @@ def rule_fault_sign(views: list[_Circuit], code: Code, result: CheckResult) -> I
         measured = r.load.leakage_ma or 0.0
         limit = published_limit(r)
         if limit is not None and measured > limit[0]:
-            yield Finding(Severity.ERROR, "fault-sign", limit[1], r.circuit_id, r.name,
-                          f"{r.name} measured {_ma(measured)} per unit, above the {_ma(limit[0])} limit for "
-                          f"'{r.appliance.key}': the appliance is probably faulty (damp or damaged insulation, "
-                          f"failed filter); have it repaired or replaced and measure again. This is a fault, not a "
-                          f"budget problem.")
+            yield Finding(
+                Severity.ERROR,
+                "fault-sign",
+                limit[1],
+                r.circuit_id,
+                r.name,
+                f"{r.name} measured {_ma(measured)} per unit, above the {_ma(limit[0])} limit for "
+                f"'{r.appliance.key}': the appliance is probably faulty (damp or damaged insulation, "
+                f"failed filter); have it repaired or replaced and measure again. This is a fault, not a "
+                f"budget problem.",
+            )
         elif limit is None and measured > r.appliance.upper_ma:
-            yield Finding(Severity.INFO, "fault-sign", r.appliance.upper_source, r.circuit_id, r.name,
-                          f"{r.name} measured {_ma(measured)} per unit, above the catalogue's upper figure "
-                          f"{_ma(r.appliance.upper_ma)} for '{r.appliance.key}' (not a published limit): measure "
-                          f"again, and have the appliance checked if the reading holds.")
+            yield Finding(
+                Severity.INFO,
+                "fault-sign",
+                r.appliance.upper_source,
+                r.circuit_id,
+                r.name,
+                f"{r.name} measured {_ma(measured)} per unit, above the catalogue's upper figure "
+                f"{_ma(r.appliance.upper_ma)} for '{r.appliance.key}' (not a published limit): measure "
+                f"again, and have the appliance checked if the reading holds.",
+            )
 
 
 def rule_high_leakage(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
@@ -406,10 +480,16 @@ def rule_high_leakage(views: list[_Circuit], code: Code, result: CheckResult) ->
         plug = r.appliance is not None and r.appliance.connection == "plug"
         if r.load is None or not plug or r.per_unit_ma <= HIGH_LEAKAGE_PLUG_MA:
             continue
-        yield Finding(Severity.WARNING, "high-leakage", HIGH_LEAKAGE_SOURCE, r.circuit_id, r.name,
-                      f"{r.name} leaks {_ma(r.per_unit_ma)} per unit ({r.basis}) on a plug: above "
-                      f"{HIGH_LEAKAGE_PLUG_MA:g} mA equipment must be permanently connected or use an industrial plug, "
-                      f"and carry a high-leakage label; measure it, and connect it that way or have it repaired.")
+        yield Finding(
+            Severity.WARNING,
+            "high-leakage",
+            HIGH_LEAKAGE_SOURCE,
+            r.circuit_id,
+            r.name,
+            f"{r.name} leaks {_ma(r.per_unit_ma)} per unit ({r.basis}) on a plug: above "
+            f"{HIGH_LEAKAGE_PLUG_MA:g} mA equipment must be permanently connected or use an industrial plug, "
+            f"and carry a high-leakage label; measure it, and connect it that way or have it repaired.",
+        )
 
 
 def rule_shared_neutral(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
@@ -418,11 +498,17 @@ def rule_shared_neutral(views: list[_Circuit], code: Code, result: CheckResult) 
         c = v.circuit
         if not (c.shared_neutral and c.device.protected and c.system == "single"):
             continue
-        yield Finding(Severity.ERROR, "shared-neutral", SHARED_NEUTRAL_SOURCE, v.cid, None,
-                      f"{v.cid} shares its neutral with another circuit, but its {c.device.label} ({c.device.key}) "
-                      f"is single-pole: the other circuit's return current passes through its sensing coil and it "
-                      f"will trip; give {v.cid} its own neutral, or protect both circuits of the shared neutral with "
-                      f"one two-pole device of the same kind.")
+        yield Finding(
+            Severity.ERROR,
+            "shared-neutral",
+            SHARED_NEUTRAL_SOURCE,
+            v.cid,
+            None,
+            f"{v.cid} shares its neutral with another circuit, but its {c.device.label} ({c.device.key}) "
+            f"is single-pole: the other circuit's return current passes through its sensing coil and it "
+            f"will trip; give {v.cid} its own neutral, or protect both circuits of the shared neutral with "
+            f"one two-pole device of the same kind.",
+        )
 
 
 def rule_long_run(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
@@ -431,11 +517,17 @@ def rule_long_run(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
         c = v.circuit
         if c.device.family is not Family.GFCI or not c.cable_length_m or c.cable_length_m <= GFCI_RUN_LIMIT_M:
             continue
-        yield Finding(Severity.WARNING, "long-run", GFCI_RUN_SOURCE, v.cid, None,
-                      f"{v.cid}'s load-side cable run is {c.cable_length_m:.0f} m ({c.cable_length_m / M_PER_FT:.0f} "
-                      f"ft), longer than the usual 75 m / 250 ft for a 5 mA GFCI: the cable's own capacitance adds "
-                      f"{_ma(v.result.cable_ma)} of standing leakage here and surges may trip it; place the GFCI "
-                      f"nearer the loads (a GFCI receptacle or a GFCI at a sub-panel) or split the run.")
+        yield Finding(
+            Severity.WARNING,
+            "long-run",
+            GFCI_RUN_SOURCE,
+            v.cid,
+            None,
+            f"{v.cid}'s load-side cable run is {c.cable_length_m:.0f} m ({c.cable_length_m / M_PER_FT:.0f} "
+            f"ft), longer than the usual 75 m / 250 ft for a 5 mA GFCI: the cable's own capacitance adds "
+            f"{_ma(v.result.cable_ma)} of standing leakage here and surges may trip it; place the GFCI "
+            f"nearer the loads (a GFCI receptacle or a GFCI at a sub-panel) or split the run.",
+        )
 
 
 def rule_switch_on(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
@@ -455,16 +547,23 @@ def rule_switch_on(views: list[_Circuit], code: Code, result: CheckResult) -> It
             if r.appliance is None or not r.appliance.heating:
                 continue
             extra = factor - 1.0
-            wet_total = (abs(total_phasor[v.cid] + r.phasor_ma * extra) if phasor
-                         else v.result.gate_ma + r.leakage_ma * extra)
+            wet_total = (
+                abs(total_phasor[v.cid] + r.phasor_ma * extra) if phasor else v.result.gate_ma + r.leakage_ma * extra
+            )
             if wet_total < dev.no_trip_ma:
                 continue
-            yield Finding(Severity.WARNING, "switch-on", source, v.cid, r.name,
-                          f"{r.name} is a heating element: its {_ma(r.leakage_ma)} dry leakage may be about "
-                          f"{_ma(r.leakage_ma * factor)} at switch-on after standing cold, taking {v.cid} "
-                          f"from {_ma(v.result.gate_ma)} to {_ma(wet_total)}, at or above its no-trip level "
-                          f"{_ma(dev.no_trip_ma)}; measure it at switch-on, and move it to a circuit with more "
-                          f"headroom (`leakbudget split`) or have the element's seals repaired if it trips.")
+            yield Finding(
+                Severity.WARNING,
+                "switch-on",
+                source,
+                v.cid,
+                r.name,
+                f"{r.name} is a heating element: its {_ma(r.leakage_ma)} dry leakage may be about "
+                f"{_ma(r.leakage_ma * factor)} at switch-on after standing cold, taking {v.cid} "
+                f"from {_ma(v.result.gate_ma)} to {_ma(wet_total)}, at or above its no-trip level "
+                f"{_ma(dev.no_trip_ma)}; measure it at switch-on, and move it to a circuit with more "
+                f"headroom (`leakbudget split`) or have the element's seals repaired if it trips.",
+            )
 
 
 def rule_budget(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
@@ -473,19 +572,32 @@ def rule_budget(views: list[_Circuit], code: Code, result: CheckResult) -> Itera
         c = v.result
         dev = c.circuit.device
         largest = f"; the largest contributor is {c.largest} ({_ma(c.largest_ma)})" if c.largest else ""
-        advice = ("split the circuit (`leakbudget split`), measure the largest contributors, and repair appliances "
-                  "that leak far above their typical value")
+        advice = (
+            "split the circuit (`leakbudget split`), measure the largest contributors, and repair appliances "
+            "that leak far above their typical value"
+        )
         if c.status is Status.TRIP_RISK:
-            yield Finding(Severity.ERROR, "budget", dev.no_trip_source, v.cid, None,
-                          f"{v.cid}'s standing leakage {_ma(c.gate_ma)} reaches the no-trip level "
-                          f"{_ma(dev.no_trip_ma)} of its {dev.label}, so nuisance trips are likely{largest}: "
-                          f"{advice}.")
+            yield Finding(
+                Severity.ERROR,
+                "budget",
+                dev.no_trip_source,
+                v.cid,
+                None,
+                f"{v.cid}'s standing leakage {_ma(c.gate_ma)} reaches the no-trip level "
+                f"{_ma(dev.no_trip_ma)} of its {dev.label}, so nuisance trips are likely{largest}: "
+                f"{advice}.",
+            )
         elif c.status is Status.OVER_BUDGET:
             regulation = code.budget_is_regulation and dev.family is Family.RCD
-            yield Finding(Severity.ERROR if regulation else Severity.WARNING, "budget", c.budget_source, v.cid,
-                          None,
-                          f"{v.cid}'s standing leakage {_ma(c.gate_ma)} is over its budget {_ma(c.budget_ma)} (below "
-                          f"the no-trip level {_ma(dev.no_trip_ma)}){largest}: {advice}.")
+            yield Finding(
+                Severity.ERROR if regulation else Severity.WARNING,
+                "budget",
+                c.budget_source,
+                v.cid,
+                None,
+                f"{v.cid}'s standing leakage {_ma(c.gate_ma)} is over its budget {_ma(c.budget_ma)} (below "
+                f"the no-trip level {_ma(dev.no_trip_ma)}){largest}: {advice}.",
+            )
 
 
 RULES: dict[str, RuleFunc] = {
@@ -502,8 +614,6 @@ RULES: dict[str, RuleFunc] = {
     "switch-on": rule_switch_on,
     "budget": rule_budget,
 }
-
-
 
 
 def rule_description(rule: str) -> str:

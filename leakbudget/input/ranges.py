@@ -32,27 +32,47 @@ class Plausible:
 
 # Extra-low voltage is at most 50 V a.c. and low voltage at most 1000 V a.c.: BS 7671:2018 Part 2, definitions.
 VOLTAGE_V = Plausible(
-    "a low-voltage supply", 50.0, 1000.0, "V", "BS 7671:2018 Part 2, definitions of extra-low and low voltage",
+    "a low-voltage supply",
+    50.0,
+    1000.0,
+    "V",
+    "BS 7671:2018 Part 2, definitions of extra-low and low voltage",
     "type the line-to-neutral voltage in V, e.g. 120 or 230 (leave extra-low-voltage circuits out)",
 )
 # Mains is 50 or 60 Hz (IEC 60038); railway 16.7 Hz and aircraft ground power 400 Hz bound it (common practice).
 FREQUENCY_HZ = Plausible(
-    "a power supply", 16.0, 400.0, "Hz", "common practice: 16.7 Hz traction to 400 Hz aircraft supplies",
+    "a power supply",
+    16.0,
+    400.0,
+    "Hz",
+    "common practice: 16.7 Hz traction to 400 Hz aircraft supplies",
     "type the supply frequency in Hz, e.g. 50 or 60",
 )
 # A final circuit's run is tens of metres; voltage drop limits rule out a kilometre (common practice).
 CABLE_LENGTH_M = Plausible(
-    "a final circuit's cable run", 0.0, 1000.0, "m", "common practice",
+    "a final circuit's cable run",
+    0.0,
+    1000.0,
+    "m",
+    "common practice",
     "check the unit: bare numbers are taken in the 'Length unit' setting (m or ft); type e.g. '35 m' or '120 ft'",
 )
 # Ten times the design figure of 1.5 mA per 100 m at 230 V 50 Hz, about 207 pF/m (Electrical Installation
 # Guide, RCD sensitivity chapter); building cables are 50-150 pF/m (common practice).
 CABLE_CAPACITANCE_PF_PER_M = Plausible(
-    "a cable's capacitance to earth", 0.0, 2000.0, "pF/m", "common practice, ten times the 207 pF/m design figure",
+    "a cable's capacitance to earth",
+    0.0,
+    2000.0,
+    "pF/m",
+    "common practice, ten times the 207 pF/m design figure",
     "type the capacitance of one line conductor to earth per metre in pF/m, e.g. 100",
 )
 STANDING_LEAKAGE_MA = Plausible(
-    "a standing leakage per unit", 0.0, MAX_PLAUSIBLE_LEAKAGE_MA, "mA", "common practice",
+    "a standing leakage per unit",
+    0.0,
+    MAX_PLAUSIBLE_LEAKAGE_MA,
+    "mA",
+    "common practice",
     "check the unit (type '0.75 mA' or '750 uA'); if it was measured, the appliance is faulty: have it repaired "
     "before planning around it",
 )

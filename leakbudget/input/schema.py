@@ -7,8 +7,8 @@ case-insensitively, ignoring surrounding spaces and the difference between a spa
 from __future__ import annotations
 
 import re
-from functools import lru_cache
 from dataclasses import dataclass
+from functools import lru_cache
 
 
 @lru_cache(maxsize=4096)
@@ -55,8 +55,12 @@ CIRCUITS = Sheet(
         Column("Cable length", "m", False, "Load-side cable run; bare numbers in the 'Length unit' setting."),
         Column("Cable", None, False, "Cable catalogue key (see `leakbudget cables`); blank takes the default."),
         Column("Rooms", None, False, "Rooms the circuit serves, comma-separated."),
-        Column("Shared neutral", None, False, "yes if this circuit shares its neutral with another circuit "
-                                              "(a multiwire branch circuit); blank = no."),
+        Column(
+            "Shared neutral",
+            None,
+            False,
+            "yes if this circuit shares its neutral with another circuit (a multiwire branch circuit); blank = no.",
+        ),
         Column("Note", None, False, "Free text, copied to the results."),
     ),
 )
@@ -78,11 +82,20 @@ LOADS = Sheet(
         Column("Leg", None, False, "L1, L2, L3, or L1-L2 etc. for line-to-line loads (default L1)."),
         Column("Room", None, False, "Room the load is in."),
         Column("Fixed", None, False, "yes if the load must stay on its circuit."),
-        Column("Waveform", None, False, "Leakage waveform: sine, pulsating-dc, high-frequency or smooth-dc; "
-                                        "overrides the catalogue's."),
+        Column(
+            "Waveform",
+            None,
+            False,
+            "Leakage waveform: sine, pulsating-dc, high-frequency or smooth-dc; overrides the catalogue's.",
+        ),
         Column("Note", None, False, "Free text, copied to the results."),
-        Column("Model", None, False, "Model reference; a Leakage measured on one unit stands for the units with "
-                                     "the same Appliance and Model that have no figure of their own."),
+        Column(
+            "Model",
+            None,
+            False,
+            "Model reference; a Leakage measured on one unit stands for the units with "
+            "the same Appliance and Model that have no figure of their own.",
+        ),
     ),
 )
 

@@ -17,8 +17,8 @@ import io
 import unicodedata
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
-from importlib import resources
 from datetime import date, datetime, time, timedelta
+from importlib import resources
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -58,8 +58,10 @@ class MergedValue:
 
     def refused(self) -> Unreadable:
         shown = int(self.value) if isinstance(self.value, float) and self.value.is_integer() else self.value
-        return Unreadable(f"the cells {self.ref} are merged, so '{shown}' could be meant for each row or for all "
-                          "of them together", "unmerge the cells and type the value in each row it applies to")
+        return Unreadable(
+            f"the cells {self.ref} are merged, so '{shown}' could be meant for each row or for all of them together",
+            "unmerge the cells and type the value in each row it applies to",
+        )
 
 
 # Merged cells, as python-calamine reports them: ((first row, first column), (last row, last column)), 0-based.
@@ -98,8 +100,13 @@ def _put(grid: list[list[Any]], i: int, j: int, value: Any) -> None:
     row[j] = value
 
 
-def _spread_merged(grid: list[list[Any]], merged: Sequence[MergedRange], header_index: int,
-                   contract: Mapping[int, Column], kept: set[int]) -> None:
+def _spread_merged(
+    grid: list[list[Any]],
+    merged: Sequence[MergedRange],
+    header_index: int,
+    contract: Mapping[int, Column],
+    kept: set[int],
+) -> None:
     """Put a merged range's value on every table row it covers, in the contract's columns, as a MergedValue.
 
     Only ranges that start below the header and span several rows count; a merge within one row, or one that
@@ -130,13 +137,20 @@ class RawTable:
     # Whole columns, computed on first access and indexed by row number: column as asked -> cell values, …
     _values: dict[str, list[Any]] = field(default_factory=dict, repr=False)
     _texts: dict[str, list[str | Unreadable | None]] = field(default_factory=dict, repr=False)
-    _numbers: dict[tuple[str, str, str | None], list[float | Unreadable | None]] = field(default_factory=dict,
-                                                                                           repr=False)
+    _numbers: dict[tuple[str, str, str | None], list[float | Unreadable | None]] = field(
+        default_factory=dict, repr=False
+    )
 
     @classmethod
-    def from_grid(cls, path: Path, sheet_name: str, grid: list[list[Any]], spec: Sheet,
-                  merged: Sequence[MergedRange] = (), unreadable: Mapping[tuple[int, int], Unreadable] | None = None
-                  ) -> "RawTable":
+    def from_grid(
+        cls,
+        path: Path,
+        sheet_name: str,
+        grid: list[list[Any]],
+        spec: Sheet,
+        merged: Sequence[MergedRange] = (),
+        unreadable: Mapping[tuple[int, int], Unreadable] | None = None,
+    ) -> RawTable:
         """Find the header row (the first of the top rows that names the sheet's first required column) and
         keep the non-blank rows below it. Raises WorkbookError when no header is found or a required column is
         missing.
@@ -152,7 +166,8 @@ class RawTable:
         if header_index is None:
             raise WorkbookError(
                 f"no header row with a '{spec.columns[0].name}' column in the first {HEADER_SEARCH_ROWS} rows",
-                path=path, sheet=sheet_name,
+                path=path,
+                sheet=sheet_name,
                 hint=f"put the column names ({', '.join(c.name for c in spec.columns if c.required)}, …) in one row",
             )
         columns: dict[str, int] = {}
@@ -163,7 +178,10 @@ class RawTable:
                 if name in columns:
                     raise WorkbookError(
                         f"the column '{value.strip()}' appears twice (also column {column_letter(columns[name])})",
-                        path=path, sheet=sheet_name, row=header_index + 1, cell=f"{column_letter(j)}{header_index + 1}",
+                        path=path,
+                        sheet=sheet_name,
+                        row=header_index + 1,
+                        cell=f"{column_letter(j)}{header_index + 1}",
                         hint="rename or delete one of them",
                     )
                 columns[name] = j
@@ -171,8 +189,11 @@ class RawTable:
         for col in spec.columns:
             if col.required and normalise(col.name) not in columns:
                 raise WorkbookError(
-                    f"the required column '{col.name}' is missing", path=path, sheet=sheet_name,
-                    row=header_index + 1, hint=f"add a '{col.name}' column to the header row ({col.help})",
+                    f"the required column '{col.name}' is missing",
+                    path=path,
+                    sheet=sheet_name,
+                    row=header_index + 1,
+                    hint=f"add a '{col.name}' column to the header row ({col.help})",
                 )
         contract = {j: spec.column(name) for name, j in columns.items() if _in_spec(spec, name)}
         for (i, j), cell in (unreadable or {}).items():
@@ -211,8 +232,7 @@ class RawTable:
                 values[number] = _plain(cells[j])
         return values
 
-    def error(self, row: Row | int, column: str | None, message: str, hint: str | None = None
-              ) -> WorkbookError:
+    def error(self, row: Row | int, column: str | None, message: str, hint: str | None = None) -> WorkbookError:
         number = row if isinstance(row, int) else row[0]
         cell = None
         name = None
@@ -236,9 +256,17 @@ class RawTable:
             raise self.error(row, column, text.message, hint=text.hint)
         return text
 
-    def number(self, row: Row, column: str, default_unit: str, target_unit: str | None = None,
-               *, positive: bool = False, non_negative: bool = True, plausible: Plausible | None = None
-               ) -> float | None:
+    def number(
+        self,
+        row: Row,
+        column: str,
+        default_unit: str,
+        target_unit: str | None = None,
+        *,
+        positive: bool = False,
+        non_negative: bool = True,
+        plausible: Plausible | None = None,
+    ) -> float | None:
         """The cell as a float in ``target_unit`` (bare numbers in ``default_unit``), or None when blank.
 
         With ``plausible`` (a range in ``target_unit``), a value outside it is refused with the range's hint."""
@@ -256,12 +284,17 @@ class RawTable:
         if non_negative and result < 0:
             raise self.error(row, column, f"'{self.text(row, column)}' must not be negative")
         if plausible is not None and (problem := plausible.problem(result)) is not None:
-            raise self.error(row, column, f"'{self.text(row, column)}' is {result:g} {plausible.unit}, {problem}",
-                             hint=plausible.hint)
+            raise self.error(
+                row,
+                column,
+                f"'{self.text(row, column)}' is {result:g} {plausible.unit}, {problem}",
+                hint=plausible.hint,
+            )
         return result
 
-    def _column_numbers(self, column: str, default_unit: str, target_unit: str | None
-                        ) -> list[float | Unreadable | None]:
+    def _column_numbers(
+        self, column: str, default_unit: str, target_unit: str | None
+    ) -> list[float | Unreadable | None]:
         """Every row's cell of ``column`` converted (each distinct text or number once), problems kept as such."""
         values = self._values.get(column)
         if values is None:
@@ -298,8 +331,7 @@ class RawTable:
             return False
         raise self.error(row, column, f"'{text}' is not yes or no", hint="type yes or no")
 
-    def choice(self, row: Row, column: str, allowed: tuple[str, ...], default: str | None = None
-               ) -> str | None:
+    def choice(self, row: Row, column: str, allowed: tuple[str, ...], default: str | None = None) -> str | None:
         """The cell as one of ``allowed`` (case-insensitive), or ``default`` when blank."""
         text = self.text(row, column)
         if text is None:
@@ -308,8 +340,9 @@ class RawTable:
         for a in allowed:
             if low == a.lower():
                 return a
-        raise self.error(row, column, f"'{text}' is not one of {', '.join(allowed)}",
-                         hint=f"use one of {', '.join(allowed)}")
+        raise self.error(
+            row, column, f"'{text}' is not one of {', '.join(allowed)}", hint=f"use one of {', '.join(allowed)}"
+        )
 
 
 def _plain(value: Any) -> Any:
@@ -346,8 +379,10 @@ def _as_text(value: Any) -> str | Unreadable | None:
 def _quantity(value: Any, default_unit: str, target_unit: str | None) -> float | Unreadable:
     """One non-blank cell as a float in ``target_unit``, or the problem with it."""
     if isinstance(value, _DATES):
-        return Unreadable(f"'{value}' is a date or time, not a quantity",
-                          f"format the cell as a number and type the value in {default_unit}")
+        return Unreadable(
+            f"'{value}' is a date or time, not a quantity",
+            f"format the cell as a number and type the value in {default_unit}",
+        )
     try:
         return to_unit(value, default_unit, target_unit)
     except UnitProblem as exc:

@@ -18,10 +18,38 @@ _NUMBER_WITH_UNIT = re.compile(r"([+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)
 
 # The unit spellings people type most in these columns (and the columns' own units), with both micro signs.
 COMMON_SPELLINGS = (
-    "A", "mA", "uA", "µA", "μA",
-    "F", "uF", "µF", "μF", "nF", "pF", "pF/m", "nF/km", "pF/ft",
-    "ohm", "Ω", "kohm", "kΩ", "Mohm", "MΩ", "megohm", "Gohm", "GΩ",
-    "W", "kW", "V", "kV", "Hz", "m", "mm", "km", "ft",
+    "A",
+    "mA",
+    "uA",
+    "µA",
+    "μA",
+    "F",
+    "uF",
+    "µF",
+    "μF",
+    "nF",
+    "pF",
+    "pF/m",
+    "nF/km",
+    "pF/ft",
+    "ohm",
+    "Ω",
+    "kohm",
+    "kΩ",
+    "Mohm",
+    "MΩ",
+    "megohm",
+    "Gohm",
+    "GΩ",
+    "W",
+    "kW",
+    "V",
+    "kV",
+    "Hz",
+    "m",
+    "mm",
+    "km",
+    "ft",
 )
 
 
@@ -72,8 +100,10 @@ def _factor_for_text(text: str, default_unit: str, target_unit: str) -> float:
     """Parse one text once: return its magnitude in ``target_unit`` (cached per distinct text)."""
     cleaned = _ungrouped(text.strip())
     if "," in cleaned:  # pint would read "0,75" as 0 and "1.000,5" as 1.0005
-        raise UnitProblem(f"'{text}' has a decimal comma or a misplaced thousands separator; write the decimal "
-                          "point as '.' (0.75), with no other separators")
+        raise UnitProblem(
+            f"'{text}' has a decimal comma or a misplaced thousands separator; write the decimal "
+            "point as '.' (0.75), with no other separators"
+        )
     if cleaned and set(cleaned) <= _SIMPLE_NUMBER_CHARS:
         try:
             return _convert(float(cleaned), default_unit, target_unit)
@@ -115,7 +145,7 @@ _GROUPED = re.compile(r"[+-]?[1-9][0-9]{0,2}(?:,[0-9]{3})+(?:\.[0-9]*)?(?![0-9,]
 def _ungrouped(text: str) -> str:
     """``text`` with the thousands separators of a leading number removed ('1,000 ft' -> '1000 ft')."""
     match = _GROUPED.match(text)
-    return match.group(0).replace(",", "") + text[match.end():] if match else text
+    return match.group(0).replace(",", "") + text[match.end() :] if match else text
 
 
 @lru_cache(maxsize=256)
@@ -138,8 +168,15 @@ def _convert(magnitude: float, default_unit: str, target_unit: str) -> float:
 @lru_cache(maxsize=64)
 def _dimension_name(unit: str) -> str:
     names = {
-        "mA": "current", "A": "current", "nF": "capacitance", "Mohm": "resistance", "W": "power",
-        "V": "voltage", "Hz": "frequency", "m": "length", "pF/m": "capacitance per length",
+        "mA": "current",
+        "A": "current",
+        "nF": "capacitance",
+        "Mohm": "resistance",
+        "W": "power",
+        "V": "voltage",
+        "Hz": "frequency",
+        "m": "length",
+        "pF/m": "capacitance per length",
     }
     return names.get(unit, f"quantity convertible to {unit}")
 
@@ -169,8 +206,10 @@ def _write_factor_module() -> None:
     """Write :mod:`leakbudget.input.unit_factors` from :func:`unit_factor_table`."""
     from pathlib import Path
 
-    lines = [f"    {spelling!r}: ({dimension!r}, {factor!r}),"
-             for spelling, (dimension, factor) in unit_factor_table().items()]
+    lines = [
+        f"    {spelling!r}: ({dimension!r}, {factor!r}),"
+        for spelling, (dimension, factor) in unit_factor_table().items()
+    ]
     Path(__file__).with_name("unit_factors.py").write_text(
         '"""The factor of each common unit spelling to SI base units, with its dimensionality, as pint computes them.\n'
         "\n"

@@ -11,13 +11,13 @@ import math
 from typing import Any
 
 from leakbudget.about import CAUTION, __version__
-from leakbudget.output.palette import BUDGET_COLOUR, NO_TRIP_COLOUR, SEGMENT_COLOURS
-from leakbudget.estimate import CircuitResult, LoadResult
 from leakbudget.checking import CheckResult
+from leakbudget.estimate import CircuitResult, LoadResult
+from leakbudget.input.schema import CIRCUIT_RESULTS, LOAD_RESULTS, READING_RESULTS
+from leakbudget.output.palette import BUDGET_COLOUR, NO_TRIP_COLOUR, SEGMENT_COLOURS
 from leakbudget.readings import COVERAGE, THRESHOLDS, ReadingResult
 from leakbudget.risk import TripProbability, likelihood_text
 from leakbudget.xlsx.package import ChartSpec, SheetData
-from leakbudget.input.schema import CIRCUIT_RESULTS, LOAD_RESULTS, READING_RESULTS
 
 PROBABILITY_DIGITS = 6
 
@@ -250,8 +250,13 @@ READING_COLUMNS: tuple[tuple[str, str, str | None], ...] = (
 )
 
 
-def _sheet(name: str, columns: tuple[tuple[str, str, str | None], ...], records: list[dict[str, Any]],
-           footer: list[str], chart: ChartSpec | None = None) -> SheetData:
+def _sheet(
+    name: str,
+    columns: tuple[tuple[str, str, str | None], ...],
+    records: list[dict[str, Any]],
+    footer: list[str],
+    chart: ChartSpec | None = None,
+) -> SheetData:
     rows: list[list[Any]] = [[rec.get(key) for _, key, _ in columns] for rec in records]
     if footer:
         rows.append([None] * len(columns))
@@ -261,8 +266,10 @@ def _sheet(name: str, columns: tuple[tuple[str, str, str | None], ...], records:
         header=[h for h, _, _ in columns],
         rows=rows,
         number_formats={i: fmt for i, (_, _, fmt) in enumerate(columns) if fmt},
-        column_widths={i: (60.0 if "source" in h.lower() or h == "Note" else max(10.0, len(h) + 2.0))
-                       for i, (h, _, _) in enumerate(columns)},
+        column_widths={
+            i: (60.0 if "source" in h.lower() or h == "Note" else max(10.0, len(h) + 2.0))
+            for i, (h, _, _) in enumerate(columns)
+        },
         chart=chart,
     )
 
@@ -270,27 +277,37 @@ def _sheet(name: str, columns: tuple[tuple[str, str, str | None], ...], records:
 def result_sheets(result: CheckResult) -> list[SheetData]:
     """The ``Circuit results`` and ``Load results`` sheets for write-back."""
     doc = to_json(result)
-    footer = [f"Written by leakbudget {__version__}; this sheet is replaced on every run.",
-              *(f"Default used: {d}" for d in doc["defaults_used"]),
-              *(f"Warning: {w}" for w in doc["warnings"]),
-              *(f"Trip likelihood: {line}" for line in (doc["risk"] or {}).get("method", [])),
-              f"Caution: {CAUTION}"]
+    footer = [
+        f"Written by leakbudget {__version__}; this sheet is replaced on every run.",
+        *(f"Default used: {d}" for d in doc["defaults_used"]),
+        *(f"Warning: {w}" for w in doc["warnings"]),
+        *(f"Trip likelihood: {line}" for line in (doc["risk"] or {}).get("method", [])),
+        f"Caution: {CAUTION}",
+    ]
     headers = [h for h, _, _ in CIRCUIT_COLUMNS]
-    chart = ChartSpec(
-        title="Standing leakage against budget and no-trip level",
-        category_column=0,
-        value_columns=(headers.index("Leakage, arithmetic (mA)"), headers.index("Budget (mA)"),
-                       headers.index("No-trip level (mA)")),
-        y_axis_title="mA",
-        anchor=f"B{len(doc['circuits']) + len(footer) + 4}",
-        data_rows=len(doc["circuits"]),
-        colours=(SEGMENT_COLOURS[0], BUDGET_COLOUR, NO_TRIP_COLOUR),  # the report's colours for the same things
-    ) if doc["circuits"] else None
+    chart = (
+        ChartSpec(
+            title="Standing leakage against budget and no-trip level",
+            category_column=0,
+            value_columns=(
+                headers.index("Leakage, arithmetic (mA)"),
+                headers.index("Budget (mA)"),
+                headers.index("No-trip level (mA)"),
+            ),
+            y_axis_title="mA",
+            anchor=f"B{len(doc['circuits']) + len(footer) + 4}",
+            data_rows=len(doc["circuits"]),
+            colours=(SEGMENT_COLOURS[0], BUDGET_COLOUR, NO_TRIP_COLOUR),  # the report's colours for the same things
+        )
+        if doc["circuits"]
+        else None
+    )
     sheets = [
         _sheet(CIRCUIT_RESULTS, CIRCUIT_COLUMNS, doc["circuits"], footer, chart),
         _sheet(LOAD_RESULTS, LOAD_COLUMNS, doc["loads"], footer[:1]),
     ]
     if doc["readings"]:
-        sheets.append(_sheet(READING_RESULTS, READING_COLUMNS, doc["readings"],
-                             [footer[0], f"Thresholds: {THRESHOLDS}"]))
+        sheets.append(
+            _sheet(READING_RESULTS, READING_COLUMNS, doc["readings"], [footer[0], f"Thresholds: {THRESHOLDS}"])
+        )
     return sheets

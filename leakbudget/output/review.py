@@ -5,8 +5,8 @@ from __future__ import annotations
 from typing import Any
 
 from leakbudget.about import CAUTION, __version__
-from leakbudget.input.schema import REVIEW_FINDINGS
 from leakbudget.compliance.rules import Review, Severity
+from leakbudget.input.schema import REVIEW_FINDINGS
 from leakbudget.xlsx.package import SheetData
 
 FINDING_COLUMNS = ("Severity", "Rule", "Circuit", "Load", "Finding", "Source", "Source kind")

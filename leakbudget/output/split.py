@@ -10,9 +10,9 @@ import math
 from typing import Any
 
 from leakbudget.about import CAUTION, __version__
-from leakbudget.planner.plan import SplitPlan
-from leakbudget.output.check import _num, circuit_dict
 from leakbudget.input.schema import SPLIT_PLAN
+from leakbudget.output.check import _num, circuit_dict
+from leakbudget.planner.plan import SplitPlan
 from leakbudget.xlsx.package import SheetData
 
 
@@ -56,35 +56,42 @@ def circuits_list(plan: SplitPlan) -> list[dict[str, Any]]:
         cid = c.circuit.circuit_id
         d = circuit_dict(c)
         b = before.get(cid)
-        d.update({
-            "new": cid in new,
-            "template": new[cid].template if cid in new else None,
-            "before_load_count": b.load_count if b else None,
-            "before_leakage_ma": _num(b.leakage_ma) if b else None,
-            "before_gate_ma": _num(b.gate_ma) if b else None,
-            "before_headroom_used": _num(b.headroom_used) if b else None,
-            "before_status": b.status.value if b else None,
-            "current_a": _num(plan.current_after_a.get(cid)),
-            "before_current_a": _num(plan.current_before_a.get(cid)) if b else None,
-            "current_limit_a": _capacity(plan.capacity_a.get(cid)),
-            "tightened_budget_ma": _num(plan.tightened_budget_ma.get(cid)),
-            "within_likelihood_cap": (None if plan.likelihood_cap is None or c.risk is None
-                                      else c.risk.switch_on <= plan.likelihood_cap),
-        })
+        d.update(
+            {
+                "new": cid in new,
+                "template": new[cid].template if cid in new else None,
+                "before_load_count": b.load_count if b else None,
+                "before_leakage_ma": _num(b.leakage_ma) if b else None,
+                "before_gate_ma": _num(b.gate_ma) if b else None,
+                "before_headroom_used": _num(b.headroom_used) if b else None,
+                "before_status": b.status.value if b else None,
+                "current_a": _num(plan.current_after_a.get(cid)),
+                "before_current_a": _num(plan.current_before_a.get(cid)) if b else None,
+                "current_limit_a": _capacity(plan.capacity_a.get(cid)),
+                "tightened_budget_ma": _num(plan.tightened_budget_ma.get(cid)),
+                "within_likelihood_cap": (
+                    None if plan.likelihood_cap is None or c.risk is None else c.risk.switch_on <= plan.likelihood_cap
+                ),
+            }
+        )
         out.append(d)
     return out
 
 
 def summary(plan: SplitPlan) -> str:
     """One sentence on what the plan does and how good it is proven to be."""
-    what = (f"{plan.new_count} new circuit(s), {plan.moves} load(s) moved, {plan.placed} placed")
+    what = f"{plan.new_count} new circuit(s), {plan.moves} load(s) moved, {plan.placed} placed"
     if plan.optimal:
-        proof = (f"proven optimal: no plan needs fewer new circuits (lower bound {plan.lower_bound_new_circuits}) "
-                 f"or, with as many, fewer moves")
+        proof = (
+            f"proven optimal: no plan needs fewer new circuits (lower bound {plan.lower_bound_new_circuits}) "
+            f"or, with as many, fewer moves"
+        )
         proof += "; headroom on the tightest circuit proven best too" if plan.headroom_optimal else ""
     else:
-        proof = (f"not proven optimal within the time limit: at least {plan.lower_bound_new_circuits} new "
-                 f"circuit(s) are needed (gap {plan.gap}), at least {plan.moves_lower_bound} move(s)")
+        proof = (
+            f"not proven optimal within the time limit: at least {plan.lower_bound_new_circuits} new "
+            f"circuit(s) are needed (gap {plan.gap}), at least {plan.moves_lower_bound} move(s)"
+        )
     if plan.tightened_budget_ma:
         proof += " (for the budgets the trip-likelihood cap tightened, not for the cap itself)"
     return f"{what}; {proof}."
@@ -96,10 +103,12 @@ def likelihood_line(plan: SplitPlan) -> str:
     tightened = ", ".join(f"{cid} {ma:.3f} mA" for cid, ma in plan.tightened_budget_ma.items())
     met = sum(1 for c in plan.after.circuits if c.risk is not None and c.risk.switch_on <= plan.likelihood_cap)
     total = sum(1 for c in plan.after.circuits if c.risk is not None)
-    return (f"switch-on likelihood capped at {100 * plan.likelihood_cap:g} % ({plan.likelihood_cap_source}); "
-            f"{met} of {total} protected circuit(s) within it after {plan.likelihood_iterations} plan(s) "
-            f"(the check's Monte Carlo, seed {plan.after.risk.seed if plan.after.risk else '-'}); "
-            + (f"budgets tightened: {tightened}." if tightened else "no budget needed tightening."))
+    return (
+        f"switch-on likelihood capped at {100 * plan.likelihood_cap:g} % ({plan.likelihood_cap_source}); "
+        f"{met} of {total} protected circuit(s) within it after {plan.likelihood_iterations} plan(s) "
+        f"(the check's Monte Carlo, seed {plan.after.risk.seed if plan.after.risk else '-'}); "
+        + (f"budgets tightened: {tightened}." if tightened else "no budget needed tightening.")
+    )
 
 
 def to_json(plan: SplitPlan) -> dict[str, Any]:
@@ -132,9 +141,17 @@ def to_json(plan: SplitPlan) -> dict[str, Any]:
         "time_s": round(plan.elapsed_s, 3),
         "blocked": [{"circuit": b.circuit_id, "loads": list(b.loads), "message": b.message} for b in plan.blockers],
         "new_circuit_details": [
-            {"circuit": n.circuit.circuit_id, "template": n.template, "device": n.circuit.device.key,
-             "rating_a": n.circuit.rating_a, "voltage_v": n.circuit.voltage_v, "system": n.circuit.system,
-             "rooms": list(n.circuit.rooms)} for n in plan.new_circuits],
+            {
+                "circuit": n.circuit.circuit_id,
+                "template": n.template,
+                "device": n.circuit.device.key,
+                "rating_a": n.circuit.rating_a,
+                "voltage_v": n.circuit.voltage_v,
+                "system": n.circuit.system,
+                "rooms": list(n.circuit.rooms),
+            }
+            for n in plan.new_circuits
+        ],
         "assignments": [assignment_dict(a) for a in plan.assignments],
         "circuits": circuits_list(plan),
         "notes": plan.notes,
@@ -144,10 +161,19 @@ def to_json(plan: SplitPlan) -> dict[str, Any]:
 
 
 # One table for the loads, then one for the circuits in the same columns: column 7 is always mA, 8 always A.
-LOAD_HEADER = ("Load", "Row", "Room", "Fixed", "From", "To", "Change", "Leakage (mA)", "Current (A)",
-               "Current source")
-CIRCUIT_HEADER = ("Circuit", "Device", "Rooms", "New", "Loads before → after", "Status before → after",
-                  "Budget used before → after", "Leakage after (mA)", "Current after (A)", "Limits")
+LOAD_HEADER = ("Load", "Row", "Room", "Fixed", "From", "To", "Change", "Leakage (mA)", "Current (A)", "Current source")
+CIRCUIT_HEADER = (
+    "Circuit",
+    "Device",
+    "Rooms",
+    "New",
+    "Loads before → after",
+    "Status before → after",
+    "Budget used before → after",
+    "Leakage after (mA)",
+    "Current after (A)",
+    "Limits",
+)
 
 
 def _arrow(before: Any, after: Any) -> str:
@@ -163,8 +189,20 @@ def split_sheet(plan: SplitPlan) -> SheetData:
     doc = to_json(plan)
     rows: list[list[Any]] = []
     for a in doc["assignments"]:
-        rows.append([a["load"], a["row"], a["room"], "yes" if a["fixed"] else None, a["from"], a["to"],
-                     a["change"], a["leakage_ma"], a["current_a"], a["current_source"]])
+        rows.append(
+            [
+                a["load"],
+                a["row"],
+                a["room"],
+                "yes" if a["fixed"] else None,
+                a["from"],
+                a["to"],
+                a["change"],
+                a["leakage_ma"],
+                a["current_a"],
+                a["current_source"],
+            ]
+        )
     rows.append([None] * len(LOAD_HEADER))
     rows.append(list(CIRCUIT_HEADER))
     for c in doc["circuits"]:
@@ -173,18 +211,30 @@ def split_sheet(plan: SplitPlan) -> SheetData:
             limits += f"; {c['current_limit_a']:.1f} A ({plan.load_factor:g} × rating)"
         if c["template"]:
             limits += f"; new, {c['template']}"
-        rows.append([c["circuit"], c["device"], ", ".join(c["rooms"]), "new" if c["new"] else None,
-                     _arrow(c["before_load_count"], c["load_count"]), _arrow(c["before_status"], c["status"]),
-                     _arrow(_percent(c["before_headroom_used"]), _percent(c["headroom_used"])),
-                     c["leakage_ma"], c["current_a"], limits])
-    footer = [f"Written by leakbudget {__version__}; this sheet is replaced on every run of `leakbudget split`.",
-              f"Plan: {doc['summary']}",
-              *([f"Trip likelihood: {likelihood_line(plan)}"] if plan.likelihood_cap is not None else []),
-              "Nothing else in the workbook was changed: move the loads in the Loads sheet yourself, then check again.",
-              *(f"No plan can meet every limit: {b['message']}." for b in doc["blocked"]),
-              *(f"Note: {n}" for n in doc["notes"]),
-              *(f"Warning: {w}" for w in doc["warnings"]),
-              f"Caution: {CAUTION}"]
+        rows.append(
+            [
+                c["circuit"],
+                c["device"],
+                ", ".join(c["rooms"]),
+                "new" if c["new"] else None,
+                _arrow(c["before_load_count"], c["load_count"]),
+                _arrow(c["before_status"], c["status"]),
+                _arrow(_percent(c["before_headroom_used"]), _percent(c["headroom_used"])),
+                c["leakage_ma"],
+                c["current_a"],
+                limits,
+            ]
+        )
+    footer = [
+        f"Written by leakbudget {__version__}; this sheet is replaced on every run of `leakbudget split`.",
+        f"Plan: {doc['summary']}",
+        *([f"Trip likelihood: {likelihood_line(plan)}"] if plan.likelihood_cap is not None else []),
+        "Nothing else in the workbook was changed: move the loads in the Loads sheet yourself, then check again.",
+        *(f"No plan can meet every limit: {b['message']}." for b in doc["blocked"]),
+        *(f"Note: {n}" for n in doc["notes"]),
+        *(f"Warning: {w}" for w in doc["warnings"]),
+        f"Caution: {CAUTION}",
+    ]
     rows.append([None] * len(LOAD_HEADER))
     rows.extend([[line] + [None] * (len(LOAD_HEADER) - 1) for line in footer])
     return SheetData(

@@ -22,7 +22,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from leakbudget.catalogue import Appliance
-from leakbudget.devices import budget_ma, device as find_device
+from leakbudget.devices import budget_ma
+from leakbudget.devices import device as find_device
 from leakbudget.estimate import COMPUTED, LoadResult, cable_result, per_unit_phasors
 from leakbudget.leakage import rescale, split_by_nature
 from leakbudget.model import Circuit, Load, Project
@@ -79,7 +80,7 @@ class Setup:
     blockers: list[Blocker]
     frozen: set[int]  # circuit indices left as they are
     left_alone: set[int]  # rows of loads reported as impossible to place or move (they stay)
-    figures: "Figures"
+    figures: Figures
     notes: list[str] = field(default_factory=list)
 
 
@@ -135,8 +136,15 @@ def _signature(c: Circuit) -> tuple[object, ...]:
     return c.device.key, c.system, c.rating_a, c.voltage_v, c.frequency_hz, c.rcd_type
 
 
-def new_kind(project: Project, room: str | None, room_text: str | None, new_device: str | None,
-             new_rating_a: float | None, factor: float, serving: list[Circuit]) -> NewKind | None:
+def new_kind(
+    project: Project,
+    room: str | None,
+    room_text: str | None,
+    new_device: str | None,
+    new_rating_a: float | None,
+    factor: float,
+    serving: list[Circuit],
+) -> NewKind | None:
     """The new-circuit kind for a room: the most common kind among the protected circuits serving it (of those,
     the longest cable run), with --new-device / --new-rating applied; None when nothing says what to build."""
     if serving:
@@ -157,10 +165,21 @@ def new_kind(project: Project, room: str | None, room_text: str | None, new_devi
         else:
             v, f = US_SUPPLY if dev.market == "us" else IEC_SUPPLY
             src = Source.common_practice(f"{v:g} V {f:g} Hz default supply for {dev.label}")
-        proto = Circuit(circuit_id="", device=dev, rcd_type=None, voltage_v=v, frequency_hz=f, supply_source=src,
-                        system="single", rating_a=None, cable_length_m=None,
-                        cable_key=str(project.settings["Default cable"]), rooms=(room_text,) if room_text else (),
-                        note=None, row=0)
+        proto = Circuit(
+            circuit_id="",
+            device=dev,
+            rcd_type=None,
+            voltage_v=v,
+            frequency_hz=f,
+            supply_source=src,
+            system="single",
+            rating_a=None,
+            cable_length_m=None,
+            cable_key=str(project.settings["Default cable"]),
+            rooms=(room_text,) if room_text else (),
+            note=None,
+            row=0,
+        )
         text = f"device {new_device} (--new-device; no protected circuit serves the room), no cable run counted"
     else:
         return None
@@ -181,8 +200,13 @@ def kind_limit_key(room: str | None) -> tuple[str, str | None]:
     return "kind", room
 
 
-def build(project: Project, estimates: list[LoadResult], new_device: str | None, new_rating_a: float | None,
-          limits_ma: Mapping[tuple[str, str | None], float] | None = None) -> Setup:
+def build(
+    project: Project,
+    estimates: list[LoadResult],
+    new_device: str | None,
+    new_rating_a: float | None,
+    limits_ma: Mapping[tuple[str, str | None], float] | None = None,
+) -> Setup:
     """Everything the solver needs (see the module docstring); ``estimates`` are the check's load results.
 
     ``limits_ma`` lowers budgets below the budget rule's [mA]: per existing circuit (:func:`circuit_limit_key`)
@@ -194,14 +218,18 @@ def build(project: Project, estimates: list[LoadResult], new_device: str | None,
     circuits = project.circuits
     loads = project.loads
     index = project.circuit_index()
-    budgets = [min(budget_ma(c.device, settings.budget_fraction), limits_ma.get(circuit_limit_key(c.circuit_id),
-                                                                               math.inf))
-               if c.device.protected else math.nan for c in circuits]
+    budgets = [
+        min(budget_ma(c.device, settings.budget_fraction), limits_ma.get(circuit_limit_key(c.circuit_id), math.inf))
+        if c.device.protected
+        else math.nan
+        for c in circuits
+    ]
     capacity = [current_capacity_a(c, factor) for c in circuits]
     cable = [cable_ma(c, project) for c in circuits]
     on = [index[ld.circuit_id.lower()] if ld.circuit_id else -1 for ld in loads]
-    stays = [ld.circuit_id is not None and (ld.fixed or not circuits[on[i]].device.protected)
-             for i, ld in enumerate(loads)]
+    stays = [
+        ld.circuit_id is not None and (ld.fixed or not circuits[on[i]].device.protected) for i, ld in enumerate(loads)
+    ]
     protected = [j for j, c in enumerate(circuits) if c.device.protected]
     all_protected = Eligibility(circuits, protected)
     kinds: dict[str | None, NewKind | None] = {}
@@ -214,15 +242,25 @@ def build(project: Project, estimates: list[LoadResult], new_device: str | None,
             if on[i] >= 0 and (stays[i] or on[i] in frozen):
                 base_leak[on[i]] += figures.leak_ma(i, ld, circuits[on[i]])
                 base_amps[on[i]] += figures.amps_a(ld, circuits[on[i]])
-        newly = [j for j in protected if j not in frozen
-                 and (base_leak[j] > budgets[j] or base_amps[j] > capacity[j] + CURRENT_TOLERANCE_A)]
+        newly = [
+            j
+            for j in protected
+            if j not in frozen and (base_leak[j] > budgets[j] or base_amps[j] > capacity[j] + CURRENT_TOLERANCE_A)
+        ]
         frozen.update(newly)
         movable = [i for i in range(len(loads)) if not stays[i] and (on[i] < 0 or on[i] not in frozen)]
         for i in movable:
             key = room_key(loads[i].room)
             if key not in kinds:
-                kinds[key] = new_kind(project, key, loads[i].room, new_device, new_rating_a, factor,
-                                      [circuits[j] for j in all_protected.serving(key)])
+                kinds[key] = new_kind(
+                    project,
+                    key,
+                    loads[i].room,
+                    new_device,
+                    new_rating_a,
+                    factor,
+                    [circuits[j] for j in all_protected.serving(key)],
+                )
                 limit = limits_ma.get(kind_limit_key(key))
                 if kinds[key] is not None and limit is not None:
                     kinds[key] = dataclasses.replace(kinds[key], budget_ma=min(kinds[key].budget_ma, limit))
@@ -232,8 +270,19 @@ def build(project: Project, estimates: list[LoadResult], new_device: str | None,
         for j in usable:
             spare_leak[j] = max(budgets[j] - base_leak[j] - MARGIN_MA, 0.0)
             spare_amps[j] = max(capacity[j] - base_amps[j] + CURRENT_ALLOWANCE_A, 0.0)
-        groups = _groups(movable, loads, on, Eligibility(circuits, usable), kinds, circuits, figures, spare_leak,
-                         spare_amps, budgets, base_leak)
+        groups = _groups(
+            movable,
+            loads,
+            on,
+            Eligibility(circuits, usable),
+            kinds,
+            circuits,
+            figures,
+            spare_leak,
+            spare_amps,
+            budgets,
+            base_leak,
+        )
         stuck = [(g, r) for g in groups for r in np.flatnonzero(~g.packing.fits_alone().any(axis=1)).tolist()]
         if not stuck and not newly:
             break
@@ -241,18 +290,31 @@ def build(project: Project, estimates: list[LoadResult], new_device: str | None,
             i = g.items[r]
             stays[i] = True
             stuck_messages.append(_stuck_blocker(loads[i], g, r, circuits))
-    blockers = [_frozen_blocker(j, circuits[j], loads, on, stays, budgets[j], capacity[j], cable[j], figures, factor)
-                for j in sorted(frozen)]
-    left_alone = {ld.row for i, ld in enumerate(loads) if (stays[i] and not ld.fixed and
-                                                           (on[i] < 0 or circuits[on[i]].device.protected))
-                  or on[i] in frozen}
+    blockers = [
+        _frozen_blocker(j, circuits[j], loads, on, stays, budgets[j], capacity[j], cable[j], figures, factor)
+        for j in sorted(frozen)
+    ]
+    left_alone = {
+        ld.row
+        for i, ld in enumerate(loads)
+        if (stays[i] and not ld.fixed and (on[i] < 0 or circuits[on[i]].device.protected)) or on[i] in frozen
+    }
     return Setup(groups, blockers + stuck_messages, frozen, left_alone, figures)
 
 
-def _groups(movable: list[int], loads: list[Load], on: list[int], eligibility: Eligibility,
-            kinds: dict[str | None, NewKind | None], circuits: list[Circuit], figures: Figures,
-            spare_leak: np.ndarray, spare_amps: np.ndarray, budgets: list[float], base_leak: np.ndarray
-            ) -> list[RoomGroup]:
+def _groups(
+    movable: list[int],
+    loads: list[Load],
+    on: list[int],
+    eligibility: Eligibility,
+    kinds: dict[str | None, NewKind | None],
+    circuits: list[Circuit],
+    figures: Figures,
+    spare_leak: np.ndarray,
+    spare_amps: np.ndarray,
+    budgets: list[float],
+    base_leak: np.ndarray,
+) -> list[RoomGroup]:
     """Split the movable loads into connected room groups and build each group's packing."""
     parent: dict[object, object] = {}
 
@@ -267,10 +329,10 @@ def _groups(movable: list[int], loads: list[Load], on: list[int], eligibility: E
     patterns: dict[tuple[tuple[int, ...], tuple[int, ...]], list[int]] = {}
     for i in movable:
         bins = eligibility.circuits_for(loads[i], on[i])
-        new = [k for k in eligibility.kinds_for(loads[i], kinds)]
+        new = list(eligibility.kinds_for(loads[i], kinds))
         elig[i] = (bins, new)
         patterns.setdefault((tuple(bins), tuple(id(k) for k in new)), []).append(i)
-    for (bins, new_ids), items in patterns.items():
+    for bins, new_ids in patterns:
         anchor = ("pattern", bins, new_ids)
         find(anchor)
         for node in [("circuit", j) for j in bins] + [("kind", k) for k in new_ids]:
@@ -287,16 +349,40 @@ def _groups(movable: list[int], loads: list[Load], on: list[int], eligibility: E
         group_kinds: list[NewKind] = []
         for i in items:
             group_kinds += [k for k in elig[i][1] if all(k is not o for o in group_kinds)]
-        groups.append(_packing_group(items, group_bins, group_kinds, elig, loads, on, circuits, figures,
-                                     spare_leak, spare_amps, budgets, base_leak))
+        groups.append(
+            _packing_group(
+                items,
+                group_bins,
+                group_kinds,
+                elig,
+                loads,
+                on,
+                circuits,
+                figures,
+                spare_leak,
+                spare_amps,
+                budgets,
+                base_leak,
+            )
+        )
     groups.sort(key=lambda g: min(loads[i].row for i in g.items))
     return groups
 
 
-def _packing_group(items: list[int], bins: list[int], kinds: list[NewKind],
-                   elig: dict[int, tuple[list[int], list[NewKind]]], loads: list[Load], on: list[int],
-                   circuits: list[Circuit], figures: Figures, spare_leak: np.ndarray, spare_amps: np.ndarray,
-                   budgets: list[float], base_leak: np.ndarray) -> RoomGroup:
+def _packing_group(
+    items: list[int],
+    bins: list[int],
+    kinds: list[NewKind],
+    elig: dict[int, tuple[list[int], list[NewKind]]],
+    loads: list[Load],
+    on: list[int],
+    circuits: list[Circuit],
+    figures: Figures,
+    spare_leak: np.ndarray,
+    spare_amps: np.ndarray,
+    budgets: list[float],
+    base_leak: np.ndarray,
+) -> RoomGroup:
     n, e = len(items), len(bins)
     targets = [circuits[j] for j in bins] + [k.prototype for k in kinds]
     col_of = {j: c for c, j in enumerate(bins)}
@@ -304,24 +390,27 @@ def _packing_group(items: list[int], bins: list[int], kinds: list[NewKind],
     # leakage depends on the supply (V, f), current on (V, system): compute per distinct key, then spread
     supply_keys: dict[tuple[float, float], int] = {}
     volt_keys: dict[tuple[float, str], int] = {}
-    supply_of = np.array([supply_keys.setdefault((t.voltage_v, t.frequency_hz), len(supply_keys)) for t in targets],
-                         dtype=np.int64)
-    volt_of = np.array([volt_keys.setdefault((t.voltage_v, t.system), len(volt_keys)) for t in targets],
-                       dtype=np.int64)
+    supply_of = np.array(
+        [supply_keys.setdefault((t.voltage_v, t.frequency_hz), len(supply_keys)) for t in targets], dtype=np.int64
+    )
+    volt_of = np.array([volt_keys.setdefault((t.voltage_v, t.system), len(volt_keys)) for t in targets], dtype=np.int64)
     at = np.asarray(bins, dtype=np.int64)
     sample_supply = {k: targets[int(np.flatnonzero(supply_of == k)[0])] for k in supply_keys.values()}
     sample_volt = {k: targets[int(np.flatnonzero(volt_of == k)[0])] for k in volt_keys.values()}
-    leak_by = np.array([[figures.leak_ma(i, loads[i], sample_supply[k]) for k in range(len(supply_keys))]
-                        for i in items]).reshape(n, len(supply_keys))
-    amps_by = np.array([[figures.amps_a(loads[i], sample_volt[k]) for k in range(len(volt_keys))]
-                        for i in items]).reshape(n, len(volt_keys))
+    leak_by = np.array(
+        [[figures.leak_ma(i, loads[i], sample_supply[k]) for k in range(len(supply_keys))] for i in items]
+    ).reshape(n, len(supply_keys))
+    amps_by = np.array(
+        [[figures.amps_a(loads[i], sample_volt[k]) for k in range(len(volt_keys))] for i in items]
+    ).reshape(n, len(volt_keys))
     allowed = np.zeros((n, e + len(kinds)), dtype=bool)
     for r, i in enumerate(items):
         allowed[r, [col_of[j] for j in elig[i][0]] + [kind_col[id(k)] for k in elig[i][1]]] = True
     packing = Packing(
-        leak_ma=leak_by[:, supply_of], amps_a=amps_by[:, volt_of], allowed=allowed,
-        spare_leak_ma=np.concatenate([spare_leak[at], [max(k.budget_ma - k.cable_ma - MARGIN_MA, 0.0)
-                                                          for k in kinds]]),
+        leak_ma=leak_by[:, supply_of],
+        amps_a=amps_by[:, volt_of],
+        allowed=allowed,
+        spare_leak_ma=np.concatenate([spare_leak[at], [max(k.budget_ma - k.cable_ma - MARGIN_MA, 0.0) for k in kinds]]),
         spare_amps_a=np.concatenate([spare_amps[at], [k.capacity_a + CURRENT_ALLOWANCE_A for k in kinds]]),
         budget_ma=np.array([budgets[j] for j in bins] + [k.budget_ma for k in kinds]),
         base_ma=np.concatenate([base_leak[at], [k.cable_ma for k in kinds]]),
@@ -347,17 +436,33 @@ def _stuck_blocker(load: Load, g: RoomGroup, r: int, circuits: list[Circuit]) ->
     else:
         where = "; ".join(options[:6]) + (f" and {len(options) - 6} more" if len(options) > 6 else "")
         too_leaky = bool(np.all(p.leak_ma[r, cols] > p.spare_leak_ma[cols]))
-        advice = ("split it into smaller groups, or measure it (the estimate may be pessimistic) and have it "
-                  "repaired if it leaks far above its typical value" if too_leaky else
-                  "split it into smaller groups or give it a dedicated circuit sized for its current (the "
-                  "overcurrent rating, never the GFCI/RCD trip level)")
-    return Blocker(circuits[g.bins[p.start[r]]].circuit_id if p.start[r] >= 0 else None, (load.name,),
-                   f"'{load.name}' (row {load.row}, {leak:.3f} mA, {amps:.2f} A) fits on no circuit that may take "
-                   f"it: {where}; {advice}")
+        advice = (
+            "split it into smaller groups, or measure it (the estimate may be pessimistic) and have it "
+            "repaired if it leaks far above its typical value"
+            if too_leaky
+            else "split it into smaller groups or give it a dedicated circuit sized for its current (the "
+            "overcurrent rating, never the GFCI/RCD trip level)"
+        )
+    return Blocker(
+        circuits[g.bins[p.start[r]]].circuit_id if p.start[r] >= 0 else None,
+        (load.name,),
+        f"'{load.name}' (row {load.row}, {leak:.3f} mA, {amps:.2f} A) fits on no circuit that may take "
+        f"it: {where}; {advice}",
+    )
 
 
-def _frozen_blocker(j: int, circuit: Circuit, loads: list[Load], on: list[int], stays: list[bool],
-                    budget: float, capacity: float, cable: float, figures: Figures, factor: float) -> Blocker:
+def _frozen_blocker(
+    j: int,
+    circuit: Circuit,
+    loads: list[Load],
+    on: list[int],
+    stays: list[bool],
+    budget: float,
+    capacity: float,
+    cable: float,
+    figures: Figures,
+    factor: float,
+) -> Blocker:
     staying = [i for i in range(len(loads)) if on[i] == j and stays[i]]
     leak_ma = cable + sum(figures.leak_ma(i, loads[i], circuit) for i in staying)
     amps_a = sum(figures.amps_a(loads[i], circuit) for i in staying)
@@ -366,13 +471,20 @@ def _frozen_blocker(j: int, circuit: Circuit, loads: list[Load], on: list[int], 
         parts.append(f"cable run {cable:.3f} mA")
     reasons = []
     if leak_ma > budget:
-        reasons.append(f"the loads that must stay and its cable need {leak_ma:.3f} mA ({', '.join(parts)}), above "
-                       f"its budget of {budget:.3f} mA")
+        reasons.append(
+            f"the loads that must stay and its cable need {leak_ma:.3f} mA ({', '.join(parts)}), above "
+            f"its budget of {budget:.3f} mA"
+        )
     if amps_a > capacity + CURRENT_TOLERANCE_A:
         amp_parts = ", ".join(f"'{loads[i].name}' {figures.amps_a(loads[i], circuit):.1f} A" for i in staying)
-        reasons.append(f"the loads that must stay draw {amps_a:.1f} A ({amp_parts}), above {factor:g} × "
-                       f"{circuit.rating_a:g} A = {capacity:.1f} A")
-    return Blocker(circuit.circuit_id, tuple(loads[i].name for i in staying),
-                   f"{circuit.circuit_id}: {' and '.join(reasons)}; no plan can fix it while they stay there "
-                   f"(un-fix or split one of them, or measure them: the estimate may be pessimistic); it is left "
-                   f"as it is")
+        reasons.append(
+            f"the loads that must stay draw {amps_a:.1f} A ({amp_parts}), above {factor:g} × "
+            f"{circuit.rating_a:g} A = {capacity:.1f} A"
+        )
+    return Blocker(
+        circuit.circuit_id,
+        tuple(loads[i].name for i in staying),
+        f"{circuit.circuit_id}: {' and '.join(reasons)}; no plan can fix it while they stay there "
+        f"(un-fix or split one of them, or measure them: the estimate may be pessimistic); it is left "
+        f"as it is",
+    )

@@ -23,10 +23,10 @@ for the likelihood cap itself: a plan with fewer changes might meet the cap with
 from __future__ import annotations
 
 from leakbudget.estimate import CircuitResult
-from leakbudget.planner.plan import SplitOptions, SplitPlan, plan_once
+from leakbudget.model import Project
 from leakbudget.planner.build import Blocker, cable_ma, circuit_limit_key, kind_limit_key
 from leakbudget.planner.packing.problem import MARGIN_MA
-from leakbudget.model import Project
+from leakbudget.planner.plan import SplitOptions, SplitPlan, plan_once
 from leakbudget.progress import Progress
 from leakbudget.risk import likelihood_text
 from leakbudget.settings import Settings
@@ -65,21 +65,32 @@ def plan_within_cap(project: Project, options: SplitOptions, progress: Progress 
         if tighter == limits:
             break
         if plans >= MAX_PLANS:
-            why.update({c.circuit.circuit_id: f"{MAX_PLANS} plans with ever tighter budgets did not bring it under"
-                        for c in over if c.circuit.circuit_id not in why})
+            why.update(
+                {
+                    c.circuit.circuit_id: f"{MAX_PLANS} plans with ever tighter budgets did not bring it under"
+                    for c in over
+                    if c.circuit.circuit_id not in why
+                }
+            )
             break
         candidate = plan_once(project, options, progress, tighter)
         plans += 1
         if len(candidate.blockers) > len(plan.blockers):
-            why.update({c.circuit.circuit_id: "a tighter budget leaves loads with no circuit that may take them"
-                        for c in over if c.circuit.circuit_id not in why})
+            why.update(
+                {
+                    c.circuit.circuit_id: "a tighter budget leaves loads with no circuit that may take them"
+                    for c in over
+                    if c.circuit.circuit_id not in why
+                }
+            )
             break
         plan, limits = candidate, tighter
     plan.likelihood_cap, plan.likelihood_cap_source, plan.likelihood_iterations = cap, source, plans
     plan.tightened_budget_ma = _tightened(plan, limits)
     plan.blockers.extend(
         _blocker(plan, c, cap, source, why.get(c.circuit.circuit_id, "its budget could not be tightened further"))
-        for c in over_cap(plan, cap))
+        for c in over_cap(plan, cap)
+    )
     return plan
 
 
@@ -93,8 +104,9 @@ def _sums(plan: SplitPlan, circuit_id: str) -> tuple[float, float]:
     return cable_ma(circuit, plan.after.project) + total, movable
 
 
-def _tighten(plan: SplitPlan, over: list[CircuitResult], limits: dict[LimitKey, float]
-             ) -> tuple[dict[LimitKey, float], dict[str, str]]:
+def _tighten(
+    plan: SplitPlan, over: list[CircuitResult], limits: dict[LimitKey, float]
+) -> tuple[dict[LimitKey, float], dict[str, str]]:
     """Lower budgets for the circuits above the cap that can go lower, and why the others cannot (by id)."""
     new = {n.circuit.circuit_id: n for n in plan.new_circuits}
     blocked = {b.circuit_id for b in plan.blockers}
@@ -117,8 +129,10 @@ def _tightened(plan: SplitPlan, limits: dict[LimitKey, float]) -> dict[str, floa
     out = {}
     for c in plan.after.circuits:
         cid = c.circuit.circuit_id
-        key = next((kind_limit_key(n.room_key) for n in plan.new_circuits if n.circuit.circuit_id == cid),
-                   circuit_limit_key(cid))
+        key = next(
+            (kind_limit_key(n.room_key) for n in plan.new_circuits if n.circuit.circuit_id == cid),
+            circuit_limit_key(cid),
+        )
         if key in limits and c.budget_ma is not None and limits[key] < c.budget_ma:
             out[cid] = limits[key]
     return out
@@ -127,6 +141,10 @@ def _tightened(plan: SplitPlan, limits: dict[LimitKey, float]) -> dict[str, floa
 def _blocker(plan: SplitPlan, c: CircuitResult, cap: float, source: str, reason: str) -> Blocker:
     cid = c.circuit.circuit_id
     loads = tuple(a.load.name for a in plan.assignments if a.to_id == cid)
-    return Blocker(cid, loads, f"{cid}: its switch-on trip likelihood {likelihood_text(c.risk, switch_on=True)} is "
-                               f"above the cap of {100 * cap:g} % ({source}) and {reason}; measure its loads (the "
-                               f"estimate may be pessimistic) or give it a dedicated circuit")
+    return Blocker(
+        cid,
+        loads,
+        f"{cid}: its switch-on trip likelihood {likelihood_text(c.risk, switch_on=True)} is "
+        f"above the cap of {100 * cap:g} % ({source}) and {reason}; measure its loads (the "
+        f"estimate may be pessimistic) or give it a dedicated circuit",
+    )

@@ -12,12 +12,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from leakbudget.devices import DEVICES, device as find_device
-from leakbudget.errors import LeakbudgetError
 from leakbudget.checking import CheckResult, check
+from leakbudget.devices import DEVICES
+from leakbudget.devices import device as find_device
+from leakbudget.errors import LeakbudgetError
 from leakbudget.model import Circuit, Load, Project
-from leakbudget.planner.packing.bounds import packing_bound
 from leakbudget.planner.build import Blocker, Figures, RoomGroup, build
+from leakbudget.planner.packing.bounds import packing_bound
 from leakbudget.planner.packing.heuristic import Unplaceable, improve
 from leakbudget.planner.packing.problem import Packing
 from leakbudget.planner.rules import current_capacity_a, load_current_a, verify_plan
@@ -34,7 +35,6 @@ STAGE_FIRST = "Planning room groups"
 STAGE_EXACT = "Proving the best plan"
 STAGE_HEADROOM = "Widening headroom"
 STAGE_CHECK = "Checking the plan"
-
 
 
 class PlannerError(LeakbudgetError):
@@ -124,8 +124,10 @@ def check_options(options: SplitOptions) -> None:
     if options.new_device is not None:
         key = options.new_device.strip().lower()
         if key not in DEVICES or not find_device(key).protected:
-            raise PlannerError(f"--new-device '{options.new_device}' is not a protective device key; use one of "
-                               f"{', '.join(k for k in DEVICES if k != 'none')} (see `leakbudget devices`).")
+            raise PlannerError(
+                f"--new-device '{options.new_device}' is not a protective device key; use one of "
+                f"{', '.join(k for k in DEVICES if k != 'none')} (see `leakbudget devices`)."
+            )
     if options.new_rating_a is not None and not options.new_rating_a > 0:
         raise PlannerError(f"--new-rating {options.new_rating_a:g} A must be greater than zero.")
     if not options.time_limit_s > 0:
@@ -135,16 +137,25 @@ def check_options(options: SplitOptions) -> None:
         raise PlannerError(f"--max-trip-likelihood {cap:g} must be a fraction between 0 and 1 (type 0.01 or 1 %).")
 
 
-def plan_once(project: Project, options: SplitOptions, progress: Progress | None = None,
-              limits_ma: dict[tuple[str, str | None], float] | None = None) -> SplitPlan:
+def plan_once(
+    project: Project,
+    options: SplitOptions,
+    progress: Progress | None = None,
+    limits_ma: dict[tuple[str, str | None], float] | None = None,
+) -> SplitPlan:
     """One plan on the budget rule's budgets, lowered where ``limits_ma`` says (see
     :func:`leakbudget.planner.build.build`); the trip-likelihood cap is not looked at."""
     started = time.monotonic()
     before = check(project)
     # keep time for the check of the planned project and its verification at the end (about two checks)
     deadline = started + options.time_limit_s - 2 * (time.monotonic() - started)
-    setup = build(project, before.loads, options.new_device.strip().lower() if options.new_device else None,
-                  options.new_rating_a, limits_ma)
+    setup = build(
+        project,
+        before.loads,
+        options.new_device.strip().lower() if options.new_device else None,
+        options.new_rating_a,
+        limits_ma,
+    )
     loads, circuits = project.loads, project.circuits
     groups = setup.groups
     _solve_groups(groups, deadline, options, progress)
@@ -156,9 +167,14 @@ def plan_once(project: Project, options: SplitOptions, progress: Progress | None
             names = [f"'{loads[i].name}'" for i in g.items]
             shown = ", ".join(names[:6]) + (f" and {len(names) - 6} more" if len(names) > 6 else "")
             where = ", ".join(circuits[j].circuit_id for j in g.bins) or "any circuit"
-            blockers.append(Blocker(None, tuple(loads[i].name for i in g.items),
-                                    f"the loads {shown} cannot all be placed on {where}, and no new circuit that "
-                                    f"may take them can take the rest"))
+            blockers.append(
+                Blocker(
+                    None,
+                    tuple(loads[i].name for i in g.items),
+                    f"the loads {shown} cannot all be placed on {where}, and no new circuit that "
+                    f"may take them can take the rest",
+                )
+            )
             left_alone |= {loads[i].row for i in g.items}
             blocked_ids |= {circuits[j].circuit_id for j in g.bins}
     if progress is not None:
@@ -174,12 +190,20 @@ def plan_once(project: Project, options: SplitOptions, progress: Progress | None
     factor = float(project.settings["Load factor"])
     unplaced_movable = sum(int((g.packing.start < 0).sum()) for g in groups if g.solution is not None)
     return SplitPlan(
-        before=before, after=after, assignments=assignments, new_circuits=new_circuits, blockers=blockers,
+        before=before,
+        after=after,
+        assignments=assignments,
+        new_circuits=new_circuits,
+        blockers=blockers,
         lower_bound_new_circuits=sum(g.bound for g in groups if g.solution is not None),
         moves_lower_bound=sum(g.moves_bound for g in groups if g.solution is not None) - unplaced_movable,
-        optimal=all(g.proven for g in groups), headroom_optimal=all(g.headroom_proven for g in groups),
-        groups=len(groups), exact_groups=sum(g.exact for g in groups), elapsed_s=time.monotonic() - started,
-        load_factor=factor, current_before_a=_currents(project, setup.figures),
+        optimal=all(g.proven for g in groups),
+        headroom_optimal=all(g.headroom_proven for g in groups),
+        groups=len(groups),
+        exact_groups=sum(g.exact for g in groups),
+        elapsed_s=time.monotonic() - started,
+        load_factor=factor,
+        current_before_a=_currents(project, setup.figures),
         current_after_a=_currents(planned, setup.figures),
         capacity_a={c.circuit_id: current_capacity_a(c, factor) for c in planned.circuits},
         notes=_notes(project, assignments, planned),
@@ -189,15 +213,14 @@ def plan_once(project: Project, options: SplitOptions, progress: Progress | None
 def _currents(project: Project, figures: Figures) -> dict[str, float]:
     """Σ load current per circuit id [A] (the planner's current rule)."""
     circuits = {c.circuit_id: c for c in project.circuits}
-    out = {cid: 0.0 for cid in circuits}
+    out = dict.fromkeys(circuits, 0.0)
     for load in project.loads:
         if load.circuit_id is not None:
             out[load.circuit_id] += figures.amps_a(load, circuits[load.circuit_id])
     return out
 
 
-def _solve_groups(groups: list[RoomGroup], deadline: float, options: SplitOptions,
-                  progress: Progress | None) -> None:
+def _solve_groups(groups: list[RoomGroup], deadline: float, options: SplitOptions, progress: Progress | None) -> None:
     """Three passes over the room groups, so the time goes to what matters most first: (1) a heuristic plan and
     bounds for every group; (2) the exact MILP (new circuits, then moves) for the small groups the bounds do not
     prove; (3) the headroom stage for the small groups proven on (1) and (2)."""
@@ -293,8 +316,9 @@ def _floor_use(p: Packing) -> float:
     return float((p.base_ma[:e] / p.budget_ma[:e]).max()) if e else 0.0
 
 
-def _apply(project: Project, groups: list[RoomGroup], loads: list[Load], circuits: list[Circuit]
-           ) -> tuple[Project, list[NewCircuit]]:
+def _apply(
+    project: Project, groups: list[RoomGroup], loads: list[Load], circuits: list[Circuit]
+) -> tuple[Project, list[NewCircuit]]:
     """The planned project: loads on their new circuits, the new circuits appended (named NEW-1, …)."""
     taken = {c.circuit_id.lower() for c in circuits}
     counter = 0
@@ -318,16 +342,24 @@ def _apply(project: Project, groups: list[RoomGroup], loads: list[Load], circuit
                 if room and room.strip().lower() not in {x.lower() for x in rooms}:
                     rooms.append(room.strip())
             circuit = dataclasses.replace(
-                kind.prototype, circuit_id=names[-1], rooms=tuple(rooms) or kind.prototype.rooms,
-                note=f"new circuit proposed by leakbudget split ({kind.template})", row=0)
+                kind.prototype,
+                circuit_id=names[-1],
+                rooms=tuple(rooms) or kind.prototype.rooms,
+                note=f"new circuit proposed by leakbudget split ({kind.template})",
+                row=0,
+            )
             new_circuits.append(NewCircuit(circuit, kind.template, kind.key))
         for r, b in enumerate(sol.bin_of.tolist()):
             i = g.items[r]
             target[i] = circuits[g.bins[b]].circuit_id if b < p.n_existing else names[b - p.n_existing]
     planned_loads = [dataclasses.replace(ld, circuit_id=target.get(i, ld.circuit_id)) for i, ld in enumerate(loads)]
-    planned = dataclasses.replace(project, circuits=[*circuits, *(n.circuit for n in new_circuits)],
-                                  loads=planned_loads, warnings=list(project.warnings),
-                                  defaults_used=list(project.defaults_used))
+    planned = dataclasses.replace(
+        project,
+        circuits=[*circuits, *(n.circuit for n in new_circuits)],
+        loads=planned_loads,
+        warnings=list(project.warnings),
+        defaults_used=list(project.defaults_used),
+    )
     return planned, new_circuits
 
 
@@ -348,12 +380,16 @@ def _assignments(project: Project, planned: Project, figures: Figures) -> list[A
 def _notes(project: Project, assignments: list[Assignment], planned: Project) -> list[str]:
     notes = []
     if project.settings.sum_rule == "phasor":
-        notes.append("The plan keeps the arithmetic sum within budget (conservative); the check gates on the phasor "
-                     "sum, which is never larger.")
+        notes.append(
+            "The plan keeps the arithmetic sum within budget (conservative); the check gates on the phasor "
+            "sum, which is never larger."
+        )
     zero = [a.load.name for a in assignments if a.current_source.startswith("no Current")]
     if zero:
-        notes.append(f"No current figure for {', '.join(zero[:6])}{' …' if len(zero) > 6 else ''}: counted as 0 A; "
-                     "add a Power or Current value.")
+        notes.append(
+            f"No current figure for {', '.join(zero[:6])}{' …' if len(zero) > 6 else ''}: counted as 0 A; "
+            "add a Power or Current value."
+        )
     no_rating = [c.circuit_id for c in planned.circuits if c.device.protected and not c.rating_a]
     if no_rating:
         notes.append(f"No rating for {', '.join(no_rating)}: their current is not limited.")
@@ -361,6 +397,8 @@ def _notes(project: Project, assignments: list[Assignment], planned: Project) ->
     if fixed_unplaced:
         notes.append(f"{', '.join(fixed_unplaced)} marked Fixed but on no circuit: placed like any other load.")
     if len(planned.circuits) > len(project.circuits):
-        notes.append("New circuits are assumed to have the cable run of the circuit they copy; correct the run "
-                     "before wiring and check again.")
+        notes.append(
+            "New circuits are assumed to have the cable run of the circuit they copy; correct the run "
+            "before wiring and check again."
+        )
     return notes

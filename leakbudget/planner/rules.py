@@ -21,9 +21,9 @@ from typing import Protocol, TypeVar
 
 from leakbudget.catalogue import Appliance
 from leakbudget.checking import CheckResult
+from leakbudget.devices import Status
 from leakbudget.leakage import parse_leg
 from leakbudget.model import Circuit, Load, Project
-from leakbudget.devices import Status
 
 
 class _Kind(Protocol):
@@ -51,9 +51,11 @@ def load_current_a(load: Load, appliance: Appliance | None, circuit: Circuit) ->
     if load.power_w is not None:
         return load.power_w * load.quantity / v, f"computed: your Power ÷ {v:g} V"
     if appliance is not None and appliance.typical_power_w:
-        return (appliance.typical_power_w * load.quantity / v,
-                f"computed: catalogue '{appliance.key}' typical power {appliance.typical_power_w:g} W "
-                f"(typical, from memory) ÷ {v:g} V")
+        return (
+            appliance.typical_power_w * load.quantity / v,
+            f"computed: catalogue '{appliance.key}' typical power {appliance.typical_power_w:g} W "
+            f"(typical, from memory) ÷ {v:g} V",
+        )
     return 0.0, NO_CURRENT
 
 
@@ -157,8 +159,9 @@ def verify_plan(before: Project, after: CheckResult, blocked: set[str], left_alo
     for result in after.circuits:
         cid = result.circuit.circuit_id
         if result.circuit.device.protected and cid not in blocked and result.status is not Status.OK:
-            problems.append(f"{cid} is {result.status.value} ({result.gate_ma:.4f} mA, budget "
-                            f"{result.budget_ma:.4f} mA)")
+            problems.append(
+                f"{cid} is {result.status.value} ({result.gate_ma:.4f} mA, budget {result.budget_ma:.4f} mA)"
+            )
     amps: dict[str, float] = {}
     for load in planned.loads:
         prev = old.get((load.row, load.name))
@@ -182,8 +185,10 @@ def verify_plan(before: Project, after: CheckResult, blocked: set[str], left_alo
             if prev.circuit_id in blocked or load.row in left_alone:
                 problems.append(f"'{load.name}' was moved although it was to stay")
         if not may_go_on(load, circuit):
-            problems.append(f"'{load.name}' was put on {circuit.circuit_id}, which does not serve its room, lacks "
-                            f"its leg or is unprotected")
+            problems.append(
+                f"'{load.name}' was put on {circuit.circuit_id}, which does not serve its room, lacks "
+                f"its leg or is unprotected"
+            )
     for cid, total in amps.items():
         circuit = circuits[cid]
         cap = current_capacity_a(circuit, factor)

@@ -19,8 +19,7 @@ def likelihood_cap_option(text: str) -> float:
         raise PlannerError(f"--max-trip-likelihood: {exc}.") from None
 
 
-def plan_split(project: Project, options: SplitOptions = SplitOptions(),
-               progress: Progress | None = None) -> SplitPlan:
+def plan_split(project: Project, options: SplitOptions = SplitOptions(), progress: Progress | None = None) -> SplitPlan:
     """Plan where every load goes (see :mod:`leakbudget.planner`); never returns a plan that breaks a limit.
 
     ``progress`` (optional, :mod:`leakbudget.progress`) hears of each stage: room groups planned, proved,

@@ -15,14 +15,19 @@ from dataclasses import dataclass
 from typing import Any
 
 from leakbudget.output.palette import (
-    BACKGROUND, BUDGET_COLOUR, GRID, INK, NO_TRIP_COLOUR, SEGMENT_COLOURS, STATUS_COLOURS,
+    BACKGROUND,
+    BUDGET_COLOUR,
+    GRID,
+    INK,
+    NO_TRIP_COLOUR,
+    SEGMENT_COLOURS,
+    STATUS_COLOURS,
 )
 
 DPI = 100  # pixels per inch of the PNGs; the report shows them at this size
 WIDTH_IN = 7.6  # chart width [in] → 760 px, the width of the report's column
 TITLE_IN, BAR_IN, AXIS_LABEL_IN = 0.55, 0.8, 0.42  # bands of a circuit chart, top to bottom [in]
 LEGEND_ROW_IN, BOTTOM_IN = 0.19, 0.1  # one row of the legend, and the margin under it [in]
-
 
 
 @dataclass(frozen=True, slots=True)
@@ -123,9 +128,19 @@ def _draw_circuit(fig: Any, bar: CircuitBar, height: float, legend_in: float) ->
     left = 0.0
     handles = []
     for i, seg in enumerate(segments):
-        handles.append(ax.barh(0, seg.leakage_ma, left=left, height=0.62, color=SEGMENT_COLOURS[i % len(
-            SEGMENT_COLOURS)], edgecolor=BACKGROUND, linewidth=0.8,
-            label=_plain(f"{seg.label}  {seg.leakage_ma:.3f} mA"), zorder=2))
+        handles.append(
+            ax.barh(
+                0,
+                seg.leakage_ma,
+                left=left,
+                height=0.62,
+                color=SEGMENT_COLOURS[i % len(SEGMENT_COLOURS)],
+                edgecolor=BACKGROUND,
+                linewidth=0.8,
+                label=_plain(f"{seg.label}  {seg.leakage_ma:.3f} mA"),
+                zorder=2,
+            )
+        )
         left += seg.leakage_ma
     top = max(bar.leakage_ma, bar.phasor_ma, bar.no_trip_ma or 0.0, bar.budget_ma or 0.0)
     ax.set_xlim(0, top * 1.12 if top > 0 else 1.0)
@@ -133,25 +148,61 @@ def _draw_circuit(fig: Any, bar: CircuitBar, height: float, legend_in: float) ->
     ax.set_yticks([])
     ax.set_xlabel("standing leakage (mA)", fontsize=8, color=INK, labelpad=2)
     gate_word = "gates the budget" if bar.gate_is_phasor else "for information"
-    handles.append(ax.plot([bar.phasor_ma], [0], marker="D", markersize=6, color=INK, linestyle="none",
-                           label=f"phasor sum {bar.phasor_ma:.3f} mA ({gate_word})", zorder=4)[0])
+    handles.append(
+        ax.plot(
+            [bar.phasor_ma],
+            [0],
+            marker="D",
+            markersize=6,
+            color=INK,
+            linestyle="none",
+            label=f"phasor sum {bar.phasor_ma:.3f} mA ({gate_word})",
+            zorder=4,
+        )[0]
+    )
     if bar.protected:
-        for level, colour, style, word in ((bar.budget_ma, BUDGET_COLOUR, (0, (4, 2)), "budget"),
-                                           (bar.no_trip_ma, NO_TRIP_COLOUR, "solid", "no-trip")):
+        for level, colour, style, word in (
+            (bar.budget_ma, BUDGET_COLOUR, (0, (4, 2)), "budget"),
+            (bar.no_trip_ma, NO_TRIP_COLOUR, "solid", "no-trip"),
+        ):
             ax.axvline(level, color=colour, linestyle=style, linewidth=2.2, zorder=3)
             near_right = level > 0.75 * ax.get_xlim()[1]
-            ax.text(level, 0.42, f" {word} {level:.2f} mA " , color=colour, fontsize=8, fontweight="bold",
-                    ha="right" if near_right else "left", va="bottom", zorder=5)
+            ax.text(
+                level,
+                0.42,
+                f" {word} {level:.2f} mA ",
+                color=colour,
+                fontsize=8,
+                fontweight="bold",
+                ha="right" if near_right else "left",
+                va="bottom",
+                zorder=5,
+            )
         used = f"{100 * bar.gate_ma / bar.budget_ma:.0f} % of budget" if bar.budget_ma else ""
         headline = f"{bar.circuit}: {bar.gate_ma:.3f} mA, {used}, {bar.status}"
     else:
         headline = f"{bar.circuit}: {bar.leakage_ma:.3f} mA, unprotected (no budget applies)"
-    fig.text(0.03, 1 - 0.08 / height, _plain(headline), fontsize=10.5, fontweight="bold",
-             color=STATUS_COLOURS.get(bar.status, INK), va="top")
+    fig.text(
+        0.03,
+        1 - 0.08 / height,
+        _plain(headline),
+        fontsize=10.5,
+        fontweight="bold",
+        color=STATUS_COLOURS.get(bar.status, INK),
+        va="top",
+    )
     fig.text(0.03, 1 - 0.32 / height, _plain(bar.device_label), fontsize=8.5, color=INK, va="top")
-    fig.legend(handles=handles, loc="lower left", bbox_to_anchor=(0.02, BOTTOM_IN / 2 / height),
-               ncols=LEGEND_COLUMNS, fontsize=7.5, frameon=False, handlelength=1.2, columnspacing=1.2,
-               labelcolor=INK)
+    fig.legend(
+        handles=handles,
+        loc="lower left",
+        bbox_to_anchor=(0.02, BOTTOM_IN / 2 / height),
+        ncols=LEGEND_COLUMNS,
+        fontsize=7.5,
+        frameon=False,
+        handlelength=1.2,
+        columnspacing=1.2,
+        labelcolor=INK,
+    )
 
 
 def overview_chart(bars: Sequence[CircuitBar]) -> Chart | None:
@@ -183,15 +234,30 @@ def _draw_overview(fig: Any, rows: Sequence[CircuitBar], height: float) -> None:
     y = list(range(len(rows)))
     ax.barh(y, used, height=0.6, color=colours, zorder=2)
     ax.axvline(100, color=BUDGET_COLOUR, linestyle=(0, (4, 2)), linewidth=2.2, zorder=3)
-    ax.plot(no_trip, y, marker="|", markersize=14, markeredgewidth=2.4, color=NO_TRIP_COLOUR, linestyle="none",
-            zorder=4)
+    ax.plot(
+        no_trip, y, marker="|", markersize=14, markeredgewidth=2.4, color=NO_TRIP_COLOUR, linestyle="none", zorder=4
+    )
     for yi, value in zip(y, used):
         ax.text(value, yi, f" {value:.0f} %", va="center", ha="left", fontsize=8, color=INK, zorder=5)
     ax.set_yticks(y, names, fontsize=8.5, color=INK)
     ax.set_ylim(-0.6, len(rows) - 0.4)
     ax.set_xlim(0, max(max(used), max(no_trip), 100) * 1.12)
     ax.set_xlabel("standing leakage as a share of the circuit's budget (%)", fontsize=8, color=INK, labelpad=2)
-    fig.text(0.16, 1 - 0.12 / height, "Budget used per protected circuit", fontsize=10.5, fontweight="bold",
-             color=INK, va="top")
-    fig.text(0.96, 1 - 0.12 / height, "dashed: budget (100 %)   |  red tick: no-trip level", fontsize=8,
-             color=INK, va="top", ha="right")
+    fig.text(
+        0.16,
+        1 - 0.12 / height,
+        "Budget used per protected circuit",
+        fontsize=10.5,
+        fontweight="bold",
+        color=INK,
+        va="top",
+    )
+    fig.text(
+        0.96,
+        1 - 0.12 / height,
+        "dashed: budget (100 %)   |  red tick: no-trip level",
+        fontsize=8,
+        color=INK,
+        va="top",
+        ha="right",
+    )

@@ -14,8 +14,8 @@ from collections.abc import Iterable, Mapping, Sequence
 from typing import Any, Protocol
 
 from leakbudget.about import CAUTION, __version__
-from leakbudget.estimate import COMPUTED, MEASURED, LoadResult
 from leakbudget.checking import CheckResult
+from leakbudget.estimate import COMPUTED, MEASURED, LoadResult
 from leakbudget.provenance import Kind, Source
 from leakbudget.reporting.document import Block, Cell, Facts, Figure, Paragraph, Report, Section, Table
 from leakbudget.settings import JOB_SETTINGS
@@ -48,6 +48,7 @@ OVERVIEW_ROWS = 28  # circuits per overview chart: 0.9 in + 0.3 in each stays wi
 
 # ---- inputs from the review and the split planner ---------------------------------------------------------------
 
+
 class FindingLike(Protocol):
     """What the report reads from a review finding (``leakbudget.compliance.rules``)."""
 
@@ -60,6 +61,7 @@ class FindingLike(Protocol):
 
 
 # ---- helpers ---------------------------------------------------------------------------------------------------
+
 
 def _ma(value: float | None, key: str | None = None, **kw: Any) -> Cell:
     """A current [mA] shown with three decimals (the JSON keeps four)."""
@@ -113,6 +115,7 @@ def _sourced(value: float | None, key: str, source: Source | None) -> Cell:
 
 # ---- sections --------------------------------------------------------------------------------------------------
 
+
 def _job_section(result: CheckResult, doc: Mapping[str, Any], generated: str) -> Section:
     settings = result.project.settings
     project = result.project
@@ -127,8 +130,7 @@ def _job_section(result: CheckResult, doc: Mapping[str, Any], generated: str) ->
         ("Checked with", Cell(str(doc["tool"]))),
         ("Date", Cell(generated)),
         ("Circuits", Cell(f"{len(project.circuits)} ({len(protected)} with ground-fault protection)")),
-        ("Loads", Cell(f"{len(project.loads)} ({len(placed)} on a circuit, {len(result.unplaced)} not yet "
-                       "placed)")),
+        ("Loads", Cell(f"{len(project.loads)} ({len(placed)} on a circuit, {len(result.unplaced)} not yet placed)")),
     ]
     scope = (
         "Scope: the standing (normal-service) earth leakage of every load listed in the workbook, summed per "
@@ -145,61 +147,92 @@ def _caution_section(result: CheckResult, doc: Mapping[str, Any]) -> Section:
     loads = [r for r in result.loads if r.load is not None]
     memory = [r for r in loads if load_kind(r, doc["basis"]) is Kind.FROM_MEMORY]
     if memory:
-        blocks.append(Paragraph(
-            f"{len(memory)} of {len(loads)} load values are typical catalogue values from memory, not published "
-            "or measured figures: measure the largest of them with a leakage clamp before relying on the result."
-        ))
+        blocks.append(
+            Paragraph(
+                f"{len(memory)} of {len(loads)} load values are typical catalogue values from memory, not published "
+                "or measured figures: measure the largest of them with a leakage clamp before relying on the result."
+            )
+        )
     bad = [c["circuit"] for c in doc["circuits"] if c["status"] in ("over-budget", "trip-risk")]
     if bad:
-        blocks.append(Paragraph(
-            f"Over budget: {', '.join(bad)}. Cure this by splitting loads across circuits, measuring the largest "
-            "contributors, and repairing appliances that leak far above their typical value; never by removing "
-            "or up-rating protection.", "over-budget"))
+        blocks.append(
+            Paragraph(
+                f"Over budget: {', '.join(bad)}. Cure this by splitting loads across circuits, measuring the largest "
+                "contributors, and repairing appliances that leak far above their typical value; never by removing "
+                "or up-rating protection.",
+                "over-budget",
+            )
+        )
     for d in doc.get("readings") or ():
         if d["flag"] != "consistent":
-            blocks.append(Paragraph(f"Reading on {d['circuit']} ({d['reading_ma']:g} mA, {d['conditions']}): "
-                                    f"{d['message']}.", "caution"))
+            blocks.append(
+                Paragraph(
+                    f"Reading on {d['circuit']} ({d['reading_ma']:g} mA, {d['conditions']}): {d['message']}.", "caution"
+                )
+            )
     for line in doc["defaults_used"]:
         blocks.append(Paragraph(f"Default used: {line}", "muted"))
     for line in doc["warnings"]:
         blocks.append(Paragraph(f"Warning: {line}", "caution"))
     if result.unplaced:
-        blocks.append(Paragraph(f"{len(result.unplaced)} load(s) have no circuit yet; they are listed under "
-                                "'Loads not yet placed' and count towards no circuit.", "muted"))
+        blocks.append(
+            Paragraph(
+                f"{len(result.unplaced)} load(s) have no circuit yet; they are listed under "
+                "'Loads not yet placed' and count towards no circuit.",
+                "muted",
+            )
+        )
     return Section("cautions", "Cautions", blocks)
 
 
 def _settings_section(result: CheckResult, doc: Mapping[str, Any]) -> Section:
     settings = result.project.settings
-    rows = [[Cell(name), Cell(_text(entry["value"])),
-             Cell(entry["source"], kind=settings.sources[name].kind.value)]
-            for name, entry in doc["settings"].items() if name not in JOB_SETTINGS]
+    rows = [
+        [Cell(name), Cell(_text(entry["value"])), Cell(entry["source"], kind=settings.sources[name].kind.value)]
+        for name, entry in doc["settings"].items()
+        if name not in JOB_SETTINGS
+    ]
     supplies: dict[tuple[Any, ...], list[str]] = {}
     for c in doc["circuits"]:
         supplies.setdefault((c["voltage_v"], c["frequency_hz"], c["system"], c["supply_source"]), []).append(
-            c["circuit"])
+            c["circuit"]
+        )
     kinds = {c.circuit_id: c.supply_source.kind.value for c in result.project.circuits}
-    supply_rows = [[Cell(f"{v:g} V"), Cell(f"{f:g} Hz"), Cell(system), Cell(src, kind=kinds[names[0]]),
-                    Cell(", ".join(names))] for (v, f, system, src), names in supplies.items()]
+    supply_rows = [
+        [Cell(f"{v:g} V"), Cell(f"{f:g} Hz"), Cell(system), Cell(src, kind=kinds[names[0]]), Cell(", ".join(names))]
+        for (v, f, system, src), names in supplies.items()
+    ]
     devices: dict[str, list[Cell]] = {}
     for c, obj in zip(doc["circuits"], result.circuits):
         dev = obj.circuit.device
         if dev.protected and dev.key not in devices:
             devices[dev.key] = [
-                Cell(dev.key), Cell(dev.label),
+                Cell(dev.key),
+                Cell(dev.label),
                 _sourced(c["trip_ma"], "trip_ma", dev.trip_source),
                 _sourced(c["no_trip_ma"], "no_trip_ma", dev.no_trip_source),
                 _sourced(c["budget_ma"], "budget_ma", obj.budget_source),
             ]
     blocks: list[Block] = [
         Table(("Setting", "Value", "Source"), rows, "Settings used", "settings", (1.2, 1, 2.6)),
-        Table(("Voltage", "Frequency", "System", "Source", "Circuits"), supply_rows,
-              "Supplies (line-to-neutral voltage and frequency)", "supplies", (0.8, 0.8, 0.8, 1.6, 2.6)),
+        Table(
+            ("Voltage", "Frequency", "System", "Source", "Circuits"),
+            supply_rows,
+            "Supplies (line-to-neutral voltage and frequency)",
+            "supplies",
+            (0.8, 0.8, 0.8, 1.6, 2.6),
+        ),
     ]
     if devices:
-        blocks.append(Table(("Key", "Device", "Trip level (mA)", "No-trip level (mA)", "Budget (mA)"),
-                            list(devices.values()), "Protective devices in this plan: levels and budget",
-                            "devices", (0.8, 1.4, 1.6, 1.6, 1.6)))
+        blocks.append(
+            Table(
+                ("Key", "Device", "Trip level (mA)", "No-trip level (mA)", "Budget (mA)"),
+                list(devices.values()),
+                "Protective devices in this plan: levels and budget",
+                "devices",
+                (0.8, 1.4, 1.6, 1.6, 1.6),
+            )
+        )
     return Section("supply", "Supply and settings used", blocks)
 
 
@@ -209,8 +242,7 @@ def _circuit_row(c: Mapping[str, Any], obj: Any) -> list[Cell]:
     return [
         Cell(c["circuit"], tone=c["status"]),
         Cell(c["device_label"], note=", ".join(c["rooms"]) or None),
-        Cell(f"{c['voltage_v']:g} V {c['frequency_hz']:g} Hz {c['system']}",
-             kind=obj.circuit.supply_source.kind.value),
+        Cell(f"{c['voltage_v']:g} V {c['frequency_hz']:g} Hz {c['system']}", kind=obj.circuit.supply_source.kind.value),
         Cell(str(c["load_count"]), "load_count", c["load_count"]),
         _ma(c["cable_leakage_ma"], "cable_leakage_ma"),
         _ma(c["leakage_ma"], "leakage_ma"),
@@ -222,8 +254,19 @@ def _circuit_row(c: Mapping[str, Any], obj: Any) -> list[Cell]:
     ]
 
 
-CIRCUIT_HEADERS = ("Circuit", "Device / rooms", "Supply", "Loads", "Cable (mA)", "Sum (mA)", "Phasor (mA)",
-                   "Budget (mA)", "No-trip (mA)", "Used", "Status")
+CIRCUIT_HEADERS = (
+    "Circuit",
+    "Device / rooms",
+    "Supply",
+    "Loads",
+    "Cable (mA)",
+    "Sum (mA)",
+    "Phasor (mA)",
+    "Budget (mA)",
+    "No-trip (mA)",
+    "Used",
+    "Status",
+)
 LOAD_HEADERS = ("Load", "Qty", "Per unit (mA)", "Leakage (mA)", "Phase", "Leg", "Room", "Basis and source")
 
 
@@ -250,26 +293,38 @@ def _overview_figures(bars: Sequence[Any], name: str, when: str) -> Iterable[Fig
     protected = [b for b in bars if b.protected and b.budget_ma]
     parts = range(0, len(protected), OVERVIEW_ROWS)
     for start in parts:
-        group = protected[start:start + OVERVIEW_ROWS]
+        group = protected[start : start + OVERVIEW_ROWS]
         used = ", ".join(f"{b.circuit} {100 * b.gate_ma / b.budget_ma:.0f} %" for b in group)
         part = f" ({start // OVERVIEW_ROWS + 1} of {len(parts)})" if len(parts) > 1 else ""
-        yield Figure(overview_chart(group), f"Bar chart of budget used per protected circuit{when}{part}: {used}.",
-                     f"Share of each protected circuit's budget its standing leakage uses{when}{part}. Dashed "
-                     "line: the budget (100 %); red tick: the device's no-trip level on the same scale.",
-                     name + (f"-{start // OVERVIEW_ROWS + 1}" if part else ""))
+        yield Figure(
+            overview_chart(group),
+            f"Bar chart of budget used per protected circuit{when}{part}: {used}.",
+            f"Share of each protected circuit's budget its standing leakage uses{when}{part}. Dashed "
+            "line: the budget (100 %); red tick: the device's no-trip level on the same scale.",
+            name + (f"-{start // OVERVIEW_ROWS + 1}" if part else ""),
+        )
 
 
 def _circuits_section(result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any]) -> Section:
     blocks: list[Block] = list(_overview_figures(bars, "overview", ""))
     gate = "phasor" if doc["sum_rule"] == "phasor" else "arithmetic"
-    blocks.append(Table(CIRCUIT_HEADERS, [_circuit_row(c, o) for c, o in zip(doc["circuits"], result.circuits)],
-                        f"Circuits: standing leakage against budget ({gate} sum compared; catalogue basis "
-                        f"{doc['basis']})", "circuits", (0.95, 1.3, 1.15, 0.55, 0.6, 0.6, 0.7, 1.2, 1.05, 0.6,
-                                                         1.1)))
-    blocks.append(Paragraph(
-        "Sums are computed from the loads listed under each circuit below; the sources of each device's budget, "
-        "no-trip and trip levels are in the table 'Protective devices' and of each supply in 'Supplies', "
-        "under 'Supply and settings used'.", "muted"))
+    blocks.append(
+        Table(
+            CIRCUIT_HEADERS,
+            [_circuit_row(c, o) for c, o in zip(doc["circuits"], result.circuits)],
+            f"Circuits: standing leakage against budget ({gate} sum compared; catalogue basis {doc['basis']})",
+            "circuits",
+            (0.95, 1.3, 1.15, 0.55, 0.6, 0.6, 0.7, 1.2, 1.05, 0.6, 1.1),
+        )
+    )
+    blocks.append(
+        Paragraph(
+            "Sums are computed from the loads listed under each circuit below; the sources of each device's budget, "
+            "no-trip and trip levels are in the table 'Protective devices' and of each supply in 'Supplies', "
+            "under 'Supply and settings used'.",
+            "muted",
+        )
+    )
     return Section("circuits", "Circuits", blocks)
 
 
@@ -277,19 +332,38 @@ def _likelihood_section(doc: Mapping[str, Any]) -> Section | None:
     risk = doc.get("risk")
     if not risk:
         return None
-    rows = [[Cell(c["circuit"], tone=c["status"]), Cell(c["status"], tone=c["status"]),
-             Cell(c["trip_probability_text"] or "-", "trip_probability", c["trip_probability"]),
-             Cell(c["trip_probability_switch_on_text"] or "-", "trip_probability_switch_on",
-                  c["trip_probability_switch_on"])]
-            for c in doc["circuits"]]
-    return Section("likelihood", "Likelihood of a nuisance trip", [
-        Paragraph("How likely the standing leakage reaches the point where the device trips, given the spread of "
-                  "each value and of the device's own trip point: in normal running, and just after switch-on "
-                  "when heating elements that stood idle leak more."),
-        Table(("Circuit", "Status", "Running", "At switch-on after idle"), rows, "Trip likelihood per circuit",
-              "likelihood", (1, 1, 1.2, 1.2)),
-        *(Paragraph(line, "muted") for line in risk["method"]),
-    ])
+    rows = [
+        [
+            Cell(c["circuit"], tone=c["status"]),
+            Cell(c["status"], tone=c["status"]),
+            Cell(c["trip_probability_text"] or "-", "trip_probability", c["trip_probability"]),
+            Cell(
+                c["trip_probability_switch_on_text"] or "-",
+                "trip_probability_switch_on",
+                c["trip_probability_switch_on"],
+            ),
+        ]
+        for c in doc["circuits"]
+    ]
+    return Section(
+        "likelihood",
+        "Likelihood of a nuisance trip",
+        [
+            Paragraph(
+                "How likely the standing leakage reaches the point where the device trips, given the spread of "
+                "each value and of the device's own trip point: in normal running, and just after switch-on "
+                "when heating elements that stood idle leak more."
+            ),
+            Table(
+                ("Circuit", "Status", "Running", "At switch-on after idle"),
+                rows,
+                "Trip likelihood per circuit",
+                "likelihood",
+                (1, 1, 1.2, 1.2),
+            ),
+            *(Paragraph(line, "muted") for line in risk["method"]),
+        ],
+    )
 
 
 def _readings_section(doc: Mapping[str, Any]) -> Section | None:
@@ -302,23 +376,44 @@ def _readings_section(doc: Mapping[str, Any]) -> Section | None:
     for d in readings:
         calibrated = "-"
         if d["calibration_factor"] is not None:
-            calibrated = (f"×{d['calibration_factor']:.2f}: sum {d['estimate_gate_ma']:.3f} → "
-                          f"{d['calibrated_gate_ma']:.3f} mA, {d['estimate_status']} → {d['calibrated_status']}")
-        rows.append([
-            Cell(d["circuit"], note=f"Readings row {d['row']}"),
-            _ma(d["reading_ma"], "reading_ma", kind=Kind.MEASURED.value,
-                note=", ".join(x for x in (d["conditions"], d["date"], d["note"]) if x)),
-            Cell(f"{d['estimate_median_ma']:.3f}", "estimate_median_ma", d["estimate_median_ma"],
-                 note=f"{d['estimate_low_ma']:.3f}-{d['estimate_high_ma']:.3f} ({100 * d['coverage']:.0f} %)"),
-            Cell(d["flag"], note=d["message"], tone="ok" if d["flag"] == "consistent" else "warning"),
-            Cell(calibrated, note=d["calibration"]),
-        ])
-    return Section("readings", "Readings on site", [
-        Paragraph("Leakage-clamp readings from the Readings sheet beside the estimate of the same circuit."),
-        Table(("Circuit", "Reading (mA)", "Estimate (mA)", "Against the estimate", "Calibration"), rows,
-              "Readings against the estimate (median and coverage interval)", "readings", (0.9, 1.3, 1.1, 2.2, 1.6)),
-        Paragraph(f"Thresholds: {THRESHOLDS}", "muted"),
-    ])
+            calibrated = (
+                f"×{d['calibration_factor']:.2f}: sum {d['estimate_gate_ma']:.3f} → "
+                f"{d['calibrated_gate_ma']:.3f} mA, {d['estimate_status']} → {d['calibrated_status']}"
+            )
+        rows.append(
+            [
+                Cell(d["circuit"], note=f"Readings row {d['row']}"),
+                _ma(
+                    d["reading_ma"],
+                    "reading_ma",
+                    kind=Kind.MEASURED.value,
+                    note=", ".join(x for x in (d["conditions"], d["date"], d["note"]) if x),
+                ),
+                Cell(
+                    f"{d['estimate_median_ma']:.3f}",
+                    "estimate_median_ma",
+                    d["estimate_median_ma"],
+                    note=f"{d['estimate_low_ma']:.3f}-{d['estimate_high_ma']:.3f} ({100 * d['coverage']:.0f} %)",
+                ),
+                Cell(d["flag"], note=d["message"], tone="ok" if d["flag"] == "consistent" else "warning"),
+                Cell(calibrated, note=d["calibration"]),
+            ]
+        )
+    return Section(
+        "readings",
+        "Readings on site",
+        [
+            Paragraph("Leakage-clamp readings from the Readings sheet beside the estimate of the same circuit."),
+            Table(
+                ("Circuit", "Reading (mA)", "Estimate (mA)", "Against the estimate", "Calibration"),
+                rows,
+                "Readings against the estimate (median and coverage interval)",
+                "readings",
+                (0.9, 1.3, 1.1, 2.2, 1.6),
+            ),
+            Paragraph(f"Thresholds: {THRESHOLDS}", "muted"),
+        ],
+    )
 
 
 def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any]) -> list[Section]:
@@ -329,14 +424,24 @@ def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence
     used: set[str] = set()
     for c, bar in zip(doc["circuits"], bars):
         rows = [_load_row(d, r, doc["basis"]) for d, r in pairs if d["circuit"] == c["circuit"]]
-        largest = f"; largest: {c['largest_contributor']} {c['largest_contributor_ma']:.3f} mA" \
-            if c["largest_contributor"] else ""
-        levels = (f" against budget {c['budget_ma']:.3f} mA and no-trip level {c['no_trip_ma']:.3f} mA"
-                  if c["budget_ma"] is not None else " (unprotected: no budget)")
+        largest = (
+            f"; largest: {c['largest_contributor']} {c['largest_contributor_ma']:.3f} mA"
+            if c["largest_contributor"]
+            else ""
+        )
+        levels = (
+            f" against budget {c['budget_ma']:.3f} mA and no-trip level {c['no_trip_ma']:.3f} mA"
+            if c["budget_ma"] is not None
+            else " (unprotected: no budget)"
+        )
         alt = f"Stacked bar: {c['circuit']} standing leakage {c['leakage_ma']:.3f} mA{levels}{largest}."
         blocks: list[Block] = [
-            Figure(circuit_chart(bar), alt, "Leakage by load, largest first; the diamond marks the phasor "
-                   "sum.", f"chart-{c['circuit']}"),
+            Figure(
+                circuit_chart(bar),
+                alt,
+                "Leakage by load, largest first; the diamond marks the phasor sum.",
+                f"chart-{c['circuit']}",
+            ),
             Table(LOAD_HEADERS, rows, f"Loads on {c['circuit']}", f"loads-{c['circuit']}", LOAD_WIDTHS),
         ]
         if c["note"]:
@@ -344,62 +449,128 @@ def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence
         sections.append(Section(_anchor(f"circuit-{c['circuit']}", used), f"Circuit {c['circuit']}", blocks))
     unplaced = [_load_row(d, r, doc["basis"]) for d, r in pairs if d["kind"] == "load" and d["circuit"] is None]
     if unplaced:
-        sections.append(Section("unplaced", "Loads not yet placed", [
-            Paragraph("Estimated at the supply of a circuit serving their room (else the first circuit); they "
-                      "count towards no circuit until placed.", "muted"),
-            Table(LOAD_HEADERS, unplaced, "Loads with no circuit", "loads-unplaced", LOAD_WIDTHS),
-        ]))
+        sections.append(
+            Section(
+                "unplaced",
+                "Loads not yet placed",
+                [
+                    Paragraph(
+                        "Estimated at the supply of a circuit serving their room (else the first circuit); they "
+                        "count towards no circuit until placed.",
+                        "muted",
+                    ),
+                    Table(LOAD_HEADERS, unplaced, "Loads with no circuit", "loads-unplaced", LOAD_WIDTHS),
+                ],
+            )
+        )
     return sections
 
 
 def _plan_section(plan: Mapping[str, Any] | None) -> Section:
     """The split plan, from the document ``leakbudget split --json`` prints."""
     if plan is None:
-        return Section("split", "Split plan", [Paragraph(
-            "No split plan was made for this report. `leakbudget report --split` includes one: the fewest new "
-            "circuits, then the fewest moved loads, that bring every protected circuit within its budget and "
-            "current limit (as `leakbudget split`).", "muted")])
-    changes = [a for a in plan.get("assignments", []) if a.get("moved") or a.get("placed")
-               or a.get("change") == "left unplaced"]
+        return Section(
+            "split",
+            "Split plan",
+            [
+                Paragraph(
+                    "No split plan was made for this report. `leakbudget report --split` includes one: the fewest new "
+                    "circuits, then the fewest moved loads, that bring every protected circuit within its budget and "
+                    "current limit (as `leakbudget split`).",
+                    "muted",
+                )
+            ],
+        )
+    changes = [
+        a
+        for a in plan.get("assignments", [])
+        if a.get("moved") or a.get("placed") or a.get("change") == "left unplaced"
+    ]
     blocks: list[Block] = []
     if plan.get("summary"):
         blocks.append(Paragraph(str(plan["summary"])))
-    blocks.append(Facts([
-        ("New circuits", Cell(str(plan.get("new_circuits", 0)), "new_circuits", plan.get("new_circuits"))),
-        ("Loads moved or placed", Cell(str(len(changes)))),
-        ("Lower bound on new circuits", Cell(_text(plan.get("lower_bound_new_circuits")))),
-        ("Solution", Cell("proven optimal" if plan.get("optimal") else "not proven optimal")),
-        *((("Current limit", Cell(f"rating × {plan['load_factor']:g}", note=plan.get("load_factor_source"))),)
-          if plan.get("load_factor") is not None else ()),
-    ]))
+    blocks.append(
+        Facts(
+            [
+                ("New circuits", Cell(str(plan.get("new_circuits", 0)), "new_circuits", plan.get("new_circuits"))),
+                ("Loads moved or placed", Cell(str(len(changes)))),
+                ("Lower bound on new circuits", Cell(_text(plan.get("lower_bound_new_circuits")))),
+                ("Solution", Cell("proven optimal" if plan.get("optimal") else "not proven optimal")),
+                *(
+                    (("Current limit", Cell(f"rating × {plan['load_factor']:g}", note=plan.get("load_factor_source"))),)
+                    if plan.get("load_factor") is not None
+                    else ()
+                ),
+            ]
+        )
+    )
     for blocked in plan.get("blocked", []):
         blocks.append(Paragraph(f"Cannot be planned: {blocked['message']}.", "trip-risk"))
     if changes:
-        blocks.append(Table(("Load", "From", "To", "Leakage (mA)"),
-                            [[Cell(a["load"]), Cell(_text(a["from"]) if a.get("from") else "not placed"),
-                              Cell(_text(a["to"]) if a.get("to") else "not placed"),
-                              _ma(a.get("leakage_ma"), "leakage_ma")] for a in changes],
-                            "Loads to move or place", "split-moves", (2, 1, 1, 1)))
+        blocks.append(
+            Table(
+                ("Load", "From", "To", "Leakage (mA)"),
+                [
+                    [
+                        Cell(a["load"]),
+                        Cell(_text(a["from"]) if a.get("from") else "not placed"),
+                        Cell(_text(a["to"]) if a.get("to") else "not placed"),
+                        _ma(a.get("leakage_ma"), "leakage_ma"),
+                    ]
+                    for a in changes
+                ],
+                "Loads to move or place",
+                "split-moves",
+                (2, 1, 1, 1),
+            )
+        )
     else:
         blocks.append(Paragraph("No load needs to move: every protected circuit is within budget as planned."))
     details = plan.get("new_circuit_details") or []
     if details:
-        blocks.append(Table(("New circuit", "Device", "Rating (A)", "Rooms", "Copies"),
-                            [[Cell(n["circuit"]), Cell(n["device"]), Cell(_text(n.get("rating_a"))),
-                              Cell(", ".join(n.get("rooms") or []) or "-"), Cell(_text(n.get("copies")))]
-                             for n in details], "New circuits", "split-new", (1, 1, 0.8, 1.4, 2.4)))
+        blocks.append(
+            Table(
+                ("New circuit", "Device", "Rating (A)", "Rooms", "Copies"),
+                [
+                    [
+                        Cell(n["circuit"]),
+                        Cell(n["device"]),
+                        Cell(_text(n.get("rating_a"))),
+                        Cell(", ".join(n.get("rooms") or []) or "-"),
+                        Cell(_text(n.get("copies"))),
+                    ]
+                    for n in details
+                ],
+                "New circuits",
+                "split-new",
+                (1, 1, 0.8, 1.4, 2.4),
+            )
+        )
     after = plan.get("circuits") or []
-    blocks.extend(_overview_figures(_bars(after, plan.get("sum_rule") == "phasor", {}), "split-overview",
-                                    " after the plan"))
+    blocks.extend(
+        _overview_figures(_bars(after, plan.get("sum_rule") == "phasor", {}), "split-overview", " after the plan")
+    )
     if after:
-        blocks.append(Table(("Circuit", "Sum (mA)", "Budget (mA)", "Used", "Status", "Before", "Current (A)"),
-                            [[Cell(c["circuit"], tone=c["status"]), _ma(c.get("leakage_ma"), "leakage_ma"),
-                              _ma(c.get("budget_ma"), "budget_ma"), _share(c.get("headroom_used"), "headroom_used"),
-                              Cell(c["status"], tone=c["status"]),
-                              Cell(_text(c.get("before_status")) if c.get("before_status") else "new circuit"),
-                              _current(c)]
-                             for c in after],
-                            "Circuits after the plan", "split-circuits", (1.2, 1, 1, 0.7, 1, 1, 1.1)))
+        blocks.append(
+            Table(
+                ("Circuit", "Sum (mA)", "Budget (mA)", "Used", "Status", "Before", "Current (A)"),
+                [
+                    [
+                        Cell(c["circuit"], tone=c["status"]),
+                        _ma(c.get("leakage_ma"), "leakage_ma"),
+                        _ma(c.get("budget_ma"), "budget_ma"),
+                        _share(c.get("headroom_used"), "headroom_used"),
+                        Cell(c["status"], tone=c["status"]),
+                        Cell(_text(c.get("before_status")) if c.get("before_status") else "new circuit"),
+                        _current(c),
+                    ]
+                    for c in after
+                ],
+                "Circuits after the plan",
+                "split-circuits",
+                (1.2, 1, 1, 0.7, 1, 1, 1.1),
+            )
+        )
     blocks.extend(Paragraph(note, "muted") for note in plan.get("notes", []))
     return Section("split", "Split plan", blocks)
 
@@ -407,53 +578,89 @@ def _plan_section(plan: Mapping[str, Any] | None) -> Section:
 def _current(c: Mapping[str, Any]) -> Cell:
     """A circuit's load current after a plan [A], with its limit (rating × load factor) beneath."""
     current, limit = c.get("current_a"), c.get("current_limit_a")
-    return Cell("-" if current is None else f"{current:.1f}", "current_a", current,
-                note=None if limit is None else f"limit {limit:.1f}")
+    return Cell(
+        "-" if current is None else f"{current:.1f}",
+        "current_a",
+        current,
+        note=None if limit is None else f"limit {limit:.1f}",
+    )
 
 
 def _findings_section(findings: Sequence[FindingLike] | None, basis: str | None) -> Section:
     if findings is None:
-        return Section("findings", "Review findings", [Paragraph(
-            "The compliance review was not run for this report.", "muted")])
+        return Section(
+            "findings", "Review findings", [Paragraph("The compliance review was not run for this report.", "muted")]
+        )
     head = [Paragraph(f"Reviewed against {basis}.", "muted")] if basis else []
     if not findings:
-        return Section("findings", "Review findings", [*head, Paragraph(
-            "The review found nothing to report for the rules it checks.")])
-    ordered = sorted(findings, key=lambda f: (SEVERITY_ORDER.index(_word(f.severity))
-                                              if _word(f.severity) in SEVERITY_ORDER else 9))
+        return Section(
+            "findings",
+            "Review findings",
+            [*head, Paragraph("The review found nothing to report for the rules it checks.")],
+        )
+    ordered = sorted(
+        findings, key=lambda f: SEVERITY_ORDER.index(_word(f.severity)) if _word(f.severity) in SEVERITY_ORDER else 9
+    )
     counts = {s: sum(1 for f in findings if _word(f.severity) == s) for s in SEVERITY_ORDER}
     summary = ", ".join(f"{n} {s}{'s' if n != 1 and s != 'info' else ''}" for s, n in counts.items() if n)
     rows = []
     for f in ordered:
         source = f.source
         kind = source.kind.value if isinstance(source, Source) else None
-        rows.append([Cell(_word(f.severity), tone=_word(f.severity)), Cell(_text(f.circuit)), Cell(_text(f.load)),
-                     Cell(f.message, note=f"rule: {f.rule}"), Cell(str(source), kind=kind)])
-    return Section("findings", "Review findings", [
-        *head,
-        Paragraph(f"{len(findings)} finding(s): {summary}. Each names the rule it comes from and that rule's "
-                  "source; the review never suggests removing or up-rating protection."),
-        Table(("Severity", "Circuit", "Load", "Finding (rule)", "Source"), rows, "Findings, most severe first",
-              "findings", (0.7, 0.8, 1.1, 3.2, 2)),
-    ])
+        rows.append(
+            [
+                Cell(_word(f.severity), tone=_word(f.severity)),
+                Cell(_text(f.circuit)),
+                Cell(_text(f.load)),
+                Cell(f.message, note=f"rule: {f.rule}"),
+                Cell(str(source), kind=kind),
+            ]
+        )
+    return Section(
+        "findings",
+        "Review findings",
+        [
+            *head,
+            Paragraph(
+                f"{len(findings)} finding(s): {summary}. Each names the rule it comes from and that rule's "
+                "source; the review never suggests removing or up-rating protection."
+            ),
+            Table(
+                ("Severity", "Circuit", "Load", "Finding (rule)", "Source"),
+                rows,
+                "Findings, most severe first",
+                "findings",
+                (0.7, 0.8, 1.1, 3.2, 2),
+            ),
+        ],
+    )
 
 
 def _method_section() -> Section:
-    legend = [[Cell(k.value, kind=k.value), Cell(text)] for k, text in (
-        (Kind.PUBLISHED, "a published standard or handbook, with clause"),
-        (Kind.MEASURED, "your measured or datasheet value"),
-        (Kind.COMPUTED, "computed from component values or other figures"),
-        (Kind.FROM_MEMORY, "a catalogue value no published source fixes: confirm it"),
-        (Kind.COMMON_PRACTICE, "a rule of thumb of the trade"),
-        (Kind.USER, "a value from your Settings sheet"),
-        (Kind.DEFAULT, "leakbudget's default"),
-    )]
-    return Section("method", "How the figures were made",
-                   [*(Paragraph(t) for t in METHOD_NOTES),
-                    Table(("Mark", "Meaning"), legend, "Provenance marks used in this report", "marks", (1, 3))])
+    legend = [
+        [Cell(k.value, kind=k.value), Cell(text)]
+        for k, text in (
+            (Kind.PUBLISHED, "a published standard or handbook, with clause"),
+            (Kind.MEASURED, "your measured or datasheet value"),
+            (Kind.COMPUTED, "computed from component values or other figures"),
+            (Kind.FROM_MEMORY, "a catalogue value no published source fixes: confirm it"),
+            (Kind.COMMON_PRACTICE, "a rule of thumb of the trade"),
+            (Kind.USER, "a value from your Settings sheet"),
+            (Kind.DEFAULT, "leakbudget's default"),
+        )
+    ]
+    return Section(
+        "method",
+        "How the figures were made",
+        [
+            *(Paragraph(t) for t in METHOD_NOTES),
+            Table(("Mark", "Meaning"), legend, "Provenance marks used in this report", "marks", (1, 3)),
+        ],
+    )
 
 
 # ---- assembly --------------------------------------------------------------------------------------------------
+
 
 def circuit_bars(result: CheckResult, doc: Mapping[str, Any]) -> list[Any]:
     """One :class:`leakbudget.reporting.charts.CircuitBar` per circuit, from the check-JSON numbers."""
@@ -463,48 +670,73 @@ def circuit_bars(result: CheckResult, doc: Mapping[str, Any]) -> list[Any]:
     for d in doc["loads"]:
         if d["circuit"] is not None:
             segments.setdefault(d["circuit"], []).append(
-                Segment(d["load"] if d["kind"] == "load" else "cable run", d["leakage_ma"] or 0.0))
+                Segment(d["load"] if d["kind"] == "load" else "cable run", d["leakage_ma"] or 0.0)
+            )
     return _bars(doc["circuits"], doc["sum_rule"] == "phasor", segments)
 
 
-def _bars(circuits: Sequence[Mapping[str, Any]], gate_is_phasor: bool, segments: Mapping[str, list[Any]]
-          ) -> list[Any]:
+def _bars(circuits: Sequence[Mapping[str, Any]], gate_is_phasor: bool, segments: Mapping[str, list[Any]]) -> list[Any]:
     """Chart data from circuit documents as ``check --json`` (or ``split --json``) gives them."""
     from leakbudget.reporting.charts import CircuitBar
 
-    return [CircuitBar(
-        circuit=c["circuit"], device_label=c["device_label"], status=c["status"],
-        segments=tuple(segments.get(c["circuit"], ())), leakage_ma=c["leakage_ma"] or 0.0,
-        phasor_ma=c["phasor_ma"] or 0.0, gate_ma=c["gate_ma"] or 0.0, gate_is_phasor=gate_is_phasor,
-        budget_ma=c["budget_ma"], no_trip_ma=c["no_trip_ma"],
-    ) for c in circuits]
+    return [
+        CircuitBar(
+            circuit=c["circuit"],
+            device_label=c["device_label"],
+            status=c["status"],
+            segments=tuple(segments.get(c["circuit"], ())),
+            leakage_ma=c["leakage_ma"] or 0.0,
+            phasor_ma=c["phasor_ma"] or 0.0,
+            gate_ma=c["gate_ma"] or 0.0,
+            gate_is_phasor=gate_is_phasor,
+            budget_ma=c["budget_ma"],
+            no_trip_ma=c["no_trip_ma"],
+        )
+        for c in circuits
+    ]
 
 
-def _verdict(doc: Mapping[str, Any], counts: Mapping[str, int], findings: Sequence[FindingLike] | None,
-             plan: Mapping[str, Any] | None) -> Paragraph:
+def _verdict(
+    doc: Mapping[str, Any],
+    counts: Mapping[str, int],
+    findings: Sequence[FindingLike] | None,
+    plan: Mapping[str, Any] | None,
+) -> Paragraph:
     errors = sum(1 for f in findings or () if _word(f.severity) == "error")
     review = f" The review found {errors} error(s): see 'Review findings'." if errors else ""
     if plan is not None and (counts.get("trip-risk", 0) or counts.get("over-budget", 0)):
-        review += (" The split plan in this report brings every protected circuit within its budget and current "
-                   "limit." if plan.get("feasible", True) else " No split plan within every limit exists: see "
-                   "'Split plan'.")
+        review += (
+            " The split plan in this report brings every protected circuit within its budget and current limit."
+            if plan.get("feasible", True)
+            else " No split plan within every limit exists: see 'Split plan'."
+        )
     if not doc["circuits"]:
         return Paragraph("The workbook lists no circuits yet.", "muted")
     trip, over = counts.get("trip-risk", 0), counts.get("over-budget", 0)
     if trip:
-        return Paragraph(f"{trip} circuit(s) at or above the no-trip level (nuisance trips likely) and {over} "
-                         f"more over budget: the plan needs changes before installation.{review}", "trip-risk")
+        return Paragraph(
+            f"{trip} circuit(s) at or above the no-trip level (nuisance trips likely) and {over} "
+            f"more over budget: the plan needs changes before installation.{review}",
+            "trip-risk",
+        )
     if over:
-        return Paragraph(f"{over} circuit(s) over budget but below the no-trip level: the plan needs changes "
-                         f"before installation.{review}", "over-budget")
+        return Paragraph(
+            f"{over} circuit(s) over budget but below the no-trip level: the plan needs changes "
+            f"before installation.{review}",
+            "over-budget",
+        )
     if errors:
         return Paragraph(f"Every protected circuit is within its budget.{review}", "over-budget")
     return Paragraph("Every protected circuit is within its budget.", "ok")
 
 
-def build_report(result: CheckResult, findings: Sequence[FindingLike] | None = None,
-                 plan: Mapping[str, Any] | None = None, generated: dt.date | None = None,
-                 review_basis: str | None = None) -> Report:
+def build_report(
+    result: CheckResult,
+    findings: Sequence[FindingLike] | None = None,
+    plan: Mapping[str, Any] | None = None,
+    generated: dt.date | None = None,
+    review_basis: str | None = None,
+) -> Report:
     """Assemble the report's sections from a check result, the review findings and a split-plan document.
 
     ``findings`` are :func:`leakbudget.compliance.rules.review`'s, None when the review was not run (the section says so);
@@ -533,8 +765,16 @@ def build_report(result: CheckResult, findings: Sequence[FindingLike] | None = N
         _method_section(),
     ]
     title = settings.values.get("Job") or f"Earth-leakage budget: {result.project.path.stem}"
-    subtitle = " · ".join(str(settings.values[k]) for k in ("Site", "Client") if settings.values.get(k)) or \
-        "Standing earth leakage per GFCI/RCD-protected circuit"
-    return Report(title=str(title), subtitle=subtitle, verdict=_verdict(doc, counts, findings, plan),
-                  status_counts=counts,
-                  sections=sections, generated=date, tool=f"leakbudget {__version__}")
+    subtitle = (
+        " · ".join(str(settings.values[k]) for k in ("Site", "Client") if settings.values.get(k))
+        or "Standing earth leakage per GFCI/RCD-protected circuit"
+    )
+    return Report(
+        title=str(title),
+        subtitle=subtitle,
+        verdict=_verdict(doc, counts, findings, plan),
+        status_counts=counts,
+        sections=sections,
+        generated=date,
+        tool=f"leakbudget {__version__}",
+    )

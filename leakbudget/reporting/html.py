@@ -125,16 +125,20 @@ def _table(table: Table) -> str:
     rows = "\n".join("<tr>" + "".join(_td(c) for c in row) + "</tr>" for row in table.rows)
     ident = f' id="t-{_slug(table.name)}" data-table="{_e(table.name)}"' if table.name else ""
     caption = f"<caption>{_e(table.caption)}</caption>" if table.caption else ""
-    return (f'<div class="table-wrap"><table{ident}>{caption}<thead><tr>{head}</tr></thead>'
-            f"<tbody>\n{rows}\n</tbody></table></div>")
+    return (
+        f'<div class="table-wrap"><table{ident}>{caption}<thead><tr>{head}</tr></thead>'
+        f"<tbody>\n{rows}\n</tbody></table></div>"
+    )
 
 
 def _figure(fig: Figure) -> str:
     width, height = png_size(fig.png)
     data = base64.b64encode(fig.png).decode("ascii")
     ident = f' id="f-{_slug(fig.name)}" data-figure="{_e(fig.name)}"' if fig.name else ""
-    return (f'<figure{ident}><img src="data:image/png;base64,{data}" width="{width}" height="{height}" '
-            f'alt="{_e(fig.alt)}"><figcaption>{_e(fig.caption)}</figcaption></figure>')
+    return (
+        f'<figure{ident}><img src="data:image/png;base64,{data}" width="{width}" height="{height}" '
+        f'alt="{_e(fig.alt)}"><figcaption>{_e(fig.caption)}</figcaption></figure>'
+    )
 
 
 def _paragraph(p: Paragraph) -> str:
@@ -164,8 +168,9 @@ def _section(section: Section) -> str:
 
 def render_html(report: Report) -> str:
     """The whole report as one HTML5 document (a string)."""
-    counts = "".join(f'<li class="tone-{_e(status)}">{n} {_e(status)}</li>'
-                     for status, n in sorted(report.status_counts.items()))
+    counts = "".join(
+        f'<li class="tone-{_e(status)}">{n} {_e(status)}</li>' for status, n in sorted(report.status_counts.items())
+    )
     toc = "".join(f'<li><a href="#{_e(s.anchor)}">{_e(s.title)}</a></li>' for s in report.sections)
     verdict = report.verdict
     body = "\n".join(_section(s) for s in report.sections)
@@ -184,7 +189,7 @@ def render_html(report: Report) -> str:
 <p class="eyebrow">Standing earth-leakage report</p>
 <h1>{_e(report.title)}</h1>
 <p class="sub">{_e(report.subtitle)}</p>
-<p class="verdict tone-{_e(verdict.tone or 'muted')}">{_e(verdict.text)}</p>
+<p class="verdict tone-{_e(verdict.tone or "muted")}">{_e(verdict.text)}</p>
 <ul class="counts">{counts}</ul>
 </header>
 <nav class="toc"><ol>{toc}</ol></nav>

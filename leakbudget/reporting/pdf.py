@@ -11,8 +11,8 @@ from __future__ import annotations
 
 import functools
 import io
-from dataclasses import dataclass
 from collections.abc import Callable, Sequence
+from dataclasses import dataclass
 from typing import Any
 
 from leakbudget.reporting.charts import DPI, INK, STATUS_COLOURS, WIDTH_IN
@@ -30,12 +30,18 @@ ACCENT = "#1d5c63"
 SOFT = "#5b6672"
 RULE = "#ddd7ca"
 HEADER_FILL = "#eef2f1"
-TONE_COLOURS = {**STATUS_COLOURS, "error": STATUS_COLOURS["trip-risk"], "warning": STATUS_COLOURS["over-budget"],
-                "info": "#3f5f8a", "caution": STATUS_COLOURS["over-budget"], "muted": SOFT}
+TONE_COLOURS = {
+    **STATUS_COLOURS,
+    "error": STATUS_COLOURS["trip-risk"],
+    "warning": STATUS_COLOURS["over-budget"],
+    "info": "#3f5f8a",
+    "caution": STATUS_COLOURS["over-budget"],
+    "muted": SOFT,
+}
 NEW_PAGE_SECTIONS = ("supply", "circuits", "split")  # these start a page; the sections after them flow
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def _renderer() -> Any:
     from matplotlib.backends.backend_agg import RendererAgg
 
@@ -138,15 +144,38 @@ class PageWriter:
             self.ensure(height)
 
     # -- primitives (inches from the top-left corner)
-    def _text(self, x_in: float, y_in: float, text: str, size: float, colour: str = INK,
-              weight: str = "normal", style: str = "normal") -> None:
+    def _text(
+        self,
+        x_in: float,
+        y_in: float,
+        text: str,
+        size: float,
+        colour: str = INK,
+        weight: str = "normal",
+        style: str = "normal",
+    ) -> None:
         if self.dry:
             return
-        self.fig.text(x_in / PAGE_W_IN, 1 - y_in / PAGE_H_IN, _plain(text), fontsize=size, color=colour,
-                      fontweight=weight, fontstyle=style, va="top", ha="left")
+        self.fig.text(
+            x_in / PAGE_W_IN,
+            1 - y_in / PAGE_H_IN,
+            _plain(text),
+            fontsize=size,
+            color=colour,
+            fontweight=weight,
+            fontstyle=style,
+            va="top",
+            ha="left",
+        )
 
-    def _rule(self, y_in: float, colour: str = RULE, width: float = 0.6, x0: float = MARGIN_IN,
-              x1: float = PAGE_W_IN - MARGIN_IN) -> None:
+    def _rule(
+        self,
+        y_in: float,
+        colour: str = RULE,
+        width: float = 0.6,
+        x0: float = MARGIN_IN,
+        x1: float = PAGE_W_IN - MARGIN_IN,
+    ) -> None:
         if self.dry:
             return
         from matplotlib.lines import Line2D
@@ -159,11 +188,26 @@ class PageWriter:
             return
         from matplotlib.patches import Rectangle
 
-        self.fig.add_artist(Rectangle((x_in / PAGE_W_IN, 1 - (y_in + h_in) / PAGE_H_IN), w_in / PAGE_W_IN,
-                                      h_in / PAGE_H_IN, facecolor=colour, edgecolor="none", zorder=0))
+        self.fig.add_artist(
+            Rectangle(
+                (x_in / PAGE_W_IN, 1 - (y_in + h_in) / PAGE_H_IN),
+                w_in / PAGE_W_IN,
+                h_in / PAGE_H_IN,
+                facecolor=colour,
+                edgecolor="none",
+                zorder=0,
+            )
+        )
 
-    def lines(self, lines: Sequence[str], size: float, colour: str = INK, weight: str = "normal",
-              indent_in: float = 0.0, style: str = "normal") -> None:
+    def lines(
+        self,
+        lines: Sequence[str],
+        size: float,
+        colour: str = INK,
+        weight: str = "normal",
+        indent_in: float = 0.0,
+        style: str = "normal",
+    ) -> None:
         step = size * LINE_SPACING / PT_PER_IN
         for line in lines:
             self.ensure(step)
@@ -218,8 +262,12 @@ class PageWriter:
         # sub-figures take their place from a grid's width and height ratios (not its margins): a 3 × 3 grid
         # whose middle cell is the chart's rectangle on the page
         if not self.dry:
-            grid = self.fig.add_gridspec(3, 3, width_ratios=(MARGIN_IN, width_in, PAGE_W_IN - MARGIN_IN - width_in),
-                                         height_ratios=(self.y, height_in, PAGE_H_IN - self.y - height_in))
+            grid = self.fig.add_gridspec(
+                3,
+                3,
+                width_ratios=(MARGIN_IN, width_in, PAGE_W_IN - MARGIN_IN - width_in),
+                height_ratios=(self.y, height_in, PAGE_H_IN - self.y - height_in),
+            )
             fig.chart.draw(self.fig.add_subfigure(grid[1, 1]))
         self.y += height_in + 0.05
         self.lines(caption, 7.5, SOFT)
@@ -229,8 +277,7 @@ class PageWriter:
         pad = 0.05
         widths = column_widths(table, size, pad)
         step = size * LINE_SPACING / PT_PER_IN
-        header = [PdfCell(_wrap(h, w - 2 * pad, size, True), [], ACCENT, "bold")
-                  for h, w in zip(table.headers, widths)]
+        header = [PdfCell(_wrap(h, w - 2 * pad, size, True), [], ACCENT, "bold") for h, w in zip(table.headers, widths)]
         rows = [[_pdf_cell(c, w - 2 * pad, size) for c, w in zip(row, widths)] for row in table.rows]
         header_h = max(len(c.lines) for c in header) * step + 2 * pad
 
@@ -285,8 +332,10 @@ def column_widths(table: Table, size: float, pad: float) -> list[float]:
     weights = table.widths or (1.0,) * len(table.headers)
     share = [w / sum(weights) for w in weights]
     columns = zip(table.headers, *([_cell_text(c) for c in row] for row in table.rows))
-    least = [max(text_width_in(word, size, True) for text in column for word in text.split() or [""])
-             / WRAP_SLACK + 2 * pad for column in columns]
+    least = [
+        max(text_width_in(word, size, True) for text in column for word in text.split() or [""]) / WRAP_SLACK + 2 * pad
+        for column in columns
+    ]
     spare = CONTENT_W_IN - sum(least)
     if spare < 0:
         return [CONTENT_W_IN * s for s in share]
@@ -308,8 +357,12 @@ def _pdf_cell(cell: Cell, width_in: float, size: float) -> PdfCell:
     text = cell.text
     if cell.kind and cell.kind.lower() not in cell.text.lower():
         text += f" [{cell.kind}]"
-    return PdfCell(_wrap(text, width_in, size, bold), _wrap(cell.note, width_in, size) if cell.note else [],
-                   TONE_COLOURS.get(cell.tone or "", INK), "bold" if bold else "normal")
+    return PdfCell(
+        _wrap(text, width_in, size, bold),
+        _wrap(cell.note, width_in, size) if cell.note else [],
+        TONE_COLOURS.get(cell.tone or "", INK),
+        "bold" if bold else "normal",
+    )
 
 
 def _cell_text(cell: Cell) -> str:
@@ -350,7 +403,8 @@ def render_pdf(report: Report) -> bytes:
 
     buffer = io.BytesIO()
     with matplotlib.rc_context({"pdf.fonttype": 42}):
-        with PdfPages(buffer, metadata={"Title": report.title, "Creator": report.tool,
-                                        "Subject": "Standing earth-leakage report"}) as pdf:
+        with PdfPages(
+            buffer, metadata={"Title": report.title, "Creator": report.tool, "Subject": "Standing earth-leakage report"}
+        ) as pdf:
             lay_out(report, pdf.savefig)
     return buffer.getvalue()

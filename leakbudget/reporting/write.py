@@ -10,15 +10,16 @@ from leakbudget.errors import ReportError
 from leakbudget.reporting.document import Report
 from leakbudget.xlsx.files import replace_atomically
 
-
 OUTPUT_SUFFIXES = {"html": (".html", ".htm"), "pdf": (".pdf",)}
 
 
 def _check_output(path: Path, fmt: str, workbook: Path) -> Path:
     path = Path(path)
     if path.suffix.lower() not in OUTPUT_SUFFIXES[fmt]:
-        raise ReportError(f"{path}: the {fmt.upper()} report needs a name ending in "
-                          f"{' or '.join(OUTPUT_SUFFIXES[fmt])}; give e.g. --{fmt} report{OUTPUT_SUFFIXES[fmt][0]}.")
+        raise ReportError(
+            f"{path}: the {fmt.upper()} report needs a name ending in "
+            f"{' or '.join(OUTPUT_SUFFIXES[fmt])}; give e.g. --{fmt} report{OUTPUT_SUFFIXES[fmt][0]}."
+        )
     if path.exists() and path.resolve() == workbook.resolve():
         raise ReportError(f"{path}: this is the workbook itself; give the report a new file name.")
     if not path.parent.is_dir():
@@ -29,8 +30,9 @@ def _check_output(path: Path, fmt: str, workbook: Path) -> Path:
 def check_outputs(workbook: Path, html: Path | None, pdf: Path | None) -> list[tuple[str, Path]]:
     """Validate the output names before any work: (format, path) pairs; raise ReportError naming the problem."""
     if html is None and pdf is None:
-        raise ReportError(f"{workbook.name}: say where to write the report; give --html REPORT.html and/or "
-                          "--pdf REPORT.pdf.")
+        raise ReportError(
+            f"{workbook.name}: say where to write the report; give --html REPORT.html and/or --pdf REPORT.pdf."
+        )
     return [(fmt, _check_output(p, fmt, workbook)) for fmt, p in (("html", html), ("pdf", pdf)) if p is not None]
 
 

@@ -14,28 +14,36 @@ from typing import Any
 from leakbudget import catalogue as cat
 from leakbudget.devices import DEVICES, device
 from leakbudget.errors import WorkbookError
+from leakbudget.input.ranges import (
+    CABLE_LENGTH_M,
+    FREQUENCY_HZ,
+    SETTING_RANGES,
+    STANDING_LEAKAGE_MA,
+    VOLTAGE_V,
+)
+from leakbudget.input.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, READINGS, SETTINGS, Sheet, normalise
+from leakbudget.input.table import MergedRange, RawTable, Row, Unreadable
+from leakbudget.input.units import UnitProblem
 from leakbudget.leakage import SYSTEMS, capacitive_current_ma, parse_leg, resistive_current_ma
+from leakbudget.locations import rows_from_table
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.progress import Progress
 from leakbudget.provenance import Source
-from leakbudget.locations import rows_from_table
-from leakbudget.workbook.readings import read_readings
-from leakbudget.input.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, READINGS, SETTINGS, Sheet, normalise
 from leakbudget.settings import (
-    IEC_SUPPLY, SPECS_BY_NAME, SUPPLY_SOURCES, US_SUPPLY, Settings,
+    IEC_SUPPLY,
+    SPECS_BY_NAME,
+    SUPPLY_SOURCES,
+    US_SUPPLY,
+    Settings,
 )
-from leakbudget.input.ranges import (
-    CABLE_LENGTH_M, FREQUENCY_HZ, SETTING_RANGES, STANDING_LEAKAGE_MA, VOLTAGE_V,
-)
+from leakbudget.workbook.readings import read_readings
 from leakbudget.xlsx.guard import CellNote, GuardedPackage
-from leakbudget.input.table import MergedRange, RawTable, Row, Unreadable
-from leakbudget.input.units import UnitProblem
 
 WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
 RCD_TYPES = ("AC", "A", "F", "B")
 
 
-def open_grids(path: Path) -> "SheetGrids":
+def open_grids(path: Path) -> SheetGrids:
     """The workbook's sheets by name as typed; each is checked and read only when first asked for.
 
     Before python-calamine opens the file, :class:`~leakbudget.xlsx.guard.GuardedPackage` says what the file
@@ -49,7 +57,8 @@ def open_grids(path: Path) -> "SheetGrids":
         raise WorkbookError("this is a folder, not a workbook", path=path, hint="give the path of an .xlsx file")
     if path.suffix.lower() not in WORKBOOK_SUFFIXES:
         raise WorkbookError(
-            f"leakbudget reads .xlsx workbooks, not '{path.suffix or 'no extension'}' files", path=path,
+            f"leakbudget reads .xlsx workbooks, not '{path.suffix or 'no extension'}' files",
+            path=path,
             hint="save it as an Excel 2007+ workbook (.xlsx) from your spreadsheet program",
         )
     package = GuardedPackage(path)
@@ -57,8 +66,9 @@ def open_grids(path: Path) -> "SheetGrids":
         book = python_calamine.CalamineWorkbook.from_path(str(path))
         names = list(book.sheet_names)
     except python_calamine.PasswordError:
-        raise WorkbookError("the workbook is password-protected or encrypted", path=path,
-                            hint="save an unprotected copy and check that") from None
+        raise WorkbookError(
+            "the workbook is password-protected or encrypted", path=path, hint="save an unprotected copy and check that"
+        ) from None
     except BaseException as exc:  # calamine reports damage with many exception types, and panics
         raise _unreadable_workbook(exc, path) from None
     return SheetGrids(path, package, book, names)
@@ -71,8 +81,9 @@ def _unreadable_workbook(exc: BaseException, path: Path, sheet: str | None = Non
     text = str(exc).strip()
     detail = f"{type(exc).__name__}: {text.splitlines()[0][:160]}" if text else type(exc).__name__
     what = f"sheet '{sheet}' is damaged and cannot be read" if sheet else "this is not a readable .xlsx workbook"
-    return WorkbookError(f"{what} ({detail})", path=path,
-                         hint="open it in your spreadsheet program and save it again as .xlsx")
+    return WorkbookError(
+        f"{what} ({detail})", path=path, hint="open it in your spreadsheet program and save it again as .xlsx"
+    )
 
 
 @dataclass
@@ -109,30 +120,39 @@ class SheetGrids(Mapping[str, SheetGrid]):
                 merged = list(sheet.merged_cell_ranges or [])
             except BaseException as exc:
                 raise _unreadable_workbook(exc, self.path, name) from None
-            self._read[name] = SheetGrid(cells, merged, {key: _unreadable_cell(note) for key, note in
-                                                         scan.notes.items()})
+            self._read[name] = SheetGrid(
+                cells, merged, {key: _unreadable_cell(note) for key, note in scan.notes.items()}
+            )
         return self._read[name]
 
 
 def _unreadable_cell(note: CellNote) -> Unreadable:
     if note.error is not None:
-        return Unreadable(f"the cell shows the error {note.error}",
-                          "correct the formula or the value it uses in your spreadsheet program and save")
+        return Unreadable(
+            f"the cell shows the error {note.error}",
+            "correct the formula or the value it uses in your spreadsheet program and save",
+        )
     formula = f" ={note.formula[:60]}" if note.formula else ""
-    return Unreadable(f"the formula{formula} has no saved result (leakbudget reads saved results and calculates "
-                      "nothing)", "open the workbook in a spreadsheet program, let it calculate and save it")
+    return Unreadable(
+        f"the formula{formula} has no saved result (leakbudget reads saved results and calculates nothing)",
+        "open the workbook in a spreadsheet program, let it calculate and save it",
+    )
 
 
 def _find_sheet(grids: Mapping[str, SheetGrid], spec: Sheet, path: Path) -> tuple[str, SheetGrid] | None:
     found = [name for name in grids if normalise(name) == normalise(spec.name)]
     if len(found) > 1:
-        raise WorkbookError(f"the sheets {' and '.join(repr(n) for n in found)} both read as '{spec.name}'",
-                            path=path, hint="rename or delete one of them")
+        raise WorkbookError(
+            f"the sheets {' and '.join(repr(n) for n in found)} both read as '{spec.name}'",
+            path=path,
+            hint="rename or delete one of them",
+        )
     if found:
         return found[0], grids[found[0]]
     if spec.required:
         raise WorkbookError(
-            f"the required sheet '{spec.name}' is missing (sheets found: {', '.join(grids) or 'none'})", path=path,
+            f"the required sheet '{spec.name}' is missing (sheets found: {', '.join(grids) or 'none'})",
+            path=path,
             hint=f"add a sheet named '{spec.name}' ({spec.help}) or start from `leakbudget template`",
         )
     return None
@@ -158,8 +178,12 @@ def read_settings(table: RawTable | None) -> tuple[Settings, list[str]]:
             continue
         key = normalise(name)
         if key in seen:
-            raise table.error(row, "Setting", f"the setting '{name}' is given twice (also row {seen[key]})",
-                              hint="keep one row per setting")
+            raise table.error(
+                row,
+                "Setting",
+                f"the setting '{name}' is given twice (also row {seen[key]})",
+                hint="keep one row per setting",
+            )
         seen[key] = row[0]
         raw = table.raw(row, "Value")
         if key not in SPECS_BY_NAME:
@@ -170,13 +194,16 @@ def read_settings(table: RawTable | None) -> tuple[Settings, list[str]]:
         try:
             settings.set(name, raw, f"row {row[0]}")
         except UnitProblem as exc:
-            raise table.error(row, "Value", f"setting '{name}': {exc}",
-                              hint=SPECS_BY_NAME[key].help) from None
+            raise table.error(row, "Value", f"setting '{name}': {exc}", hint=SPECS_BY_NAME[key].help) from None
         limits = SETTING_RANGES.get(SPECS_BY_NAME[key].name)
         if limits is not None and (problem := limits.problem(settings[SPECS_BY_NAME[key].name])) is not None:
-            raise table.error(row, "Value", f"setting '{name}': '{table.text(row, 'Value')}' is "
-                                            f"{settings[SPECS_BY_NAME[key].name]:g} {limits.unit}, {problem}",
-                              hint=limits.hint)
+            raise table.error(
+                row,
+                "Value",
+                f"setting '{name}': '{table.text(row, 'Value')}' is "
+                f"{settings[SPECS_BY_NAME[key].name]:g} {limits.unit}, {problem}",
+                hint=limits.hint,
+            )
     return settings, warnings
 
 
@@ -190,35 +217,52 @@ def _market_supply(market: str, settings: Settings) -> tuple[float, float, Sourc
     return (v or default_v, f or default_f, SUPPLY_SOURCES[market], True)
 
 
-def read_circuits(table: RawTable, settings: Settings, catalogue: cat.Catalogue, defaults_used: list[str]
-                  ) -> list[Circuit]:
+def read_circuits(
+    table: RawTable, settings: Settings, catalogue: cat.Catalogue, defaults_used: list[str]
+) -> list[Circuit]:
     circuits: list[Circuit] = []
     seen: dict[str, int] = {}
-    markets = [device(table.text(r, "Device") or "none").market
-               for r in table.rows if (table.text(r, "Device") or "none").lower() in DEVICES]
+    markets = [
+        device(table.text(r, "Device") or "none").market
+        for r in table.rows
+        if (table.text(r, "Device") or "none").lower() in DEVICES
+    ]
     fallback_market = "iec" if markets.count("iec") > markets.count("us") else "us"
     defaulted: dict[str, list[str]] = {}
     default_cable = str(settings["Default cable"])
     if default_cable not in catalogue.cables:
-        raise WorkbookError(f"setting 'Default cable': unknown cable key '{default_cable}'", path=table.path, sheet="Settings",
-                            hint=f"use one of {', '.join(sorted(catalogue.cables))}")
+        raise WorkbookError(
+            f"setting 'Default cable': unknown cable key '{default_cable}'",
+            path=table.path,
+            sheet="Settings",
+            hint=f"use one of {', '.join(sorted(catalogue.cables))}",
+        )
     for row in table.rows:
         cid = table.text(row, "Circuit")
         if cid is None:
             raise table.error(row, "Circuit", "the circuit id is blank", hint="give every circuit a unique id")
         if cid.lower() in seen:
-            raise table.error(row, "Circuit", f"the circuit id '{cid}' is used twice (also row {seen[cid.lower()]})",
-                              hint="give every circuit a unique id")
+            raise table.error(
+                row,
+                "Circuit",
+                f"the circuit id '{cid}' is used twice (also row {seen[cid.lower()]})",
+                hint="give every circuit a unique id",
+            )
         seen[cid.lower()] = row[0]
         dkey = table.text(row, "Device")
         if dkey is None:
-            raise table.error(row, "Device", "the device is blank",
-                              hint=f"type a device key ({', '.join(DEVICES)}) or 'none'")
+            raise table.error(
+                row, "Device", "the device is blank", hint=f"type a device key ({', '.join(DEVICES)}) or 'none'"
+            )
         try:
             dev = device(dkey)
         except KeyError:
-            raise table.error(row, "Device", f"'{dkey}' is not a known device key",
-                              hint=f"use one of {', '.join(DEVICES)} (see `leakbudget devices`)") from None
+            raise table.error(
+                row,
+                "Device",
+                f"'{dkey}' is not a known device key",
+                hint=f"use one of {', '.join(DEVICES)} (see `leakbudget devices`)",
+            ) from None
         rcd_type = table.choice(row, "RCD type", RCD_TYPES)
         system = table.choice(row, "System", SYSTEMS, "single") or "single"
         market = dev.market if dev.protected else fallback_market
@@ -237,20 +281,33 @@ def read_circuits(table: RawTable, settings: Settings, catalogue: cat.Catalogue,
             defaulted.setdefault(label, []).append(cid)
         cable_key = (table.text(row, "Cable") or default_cable).lower()
         if cable_key not in catalogue.cables:
-            raise table.error(row, "Cable", f"'{cable_key}' is not a known cable key",
-                              hint=f"use one of {', '.join(sorted(catalogue.cables))} (see `leakbudget cables`)")
+            raise table.error(
+                row,
+                "Cable",
+                f"'{cable_key}' is not a known cable key",
+                hint=f"use one of {', '.join(sorted(catalogue.cables))} (see `leakbudget cables`)",
+            )
         length = table.number(row, "Cable length", settings.length_unit, "m", plausible=CABLE_LENGTH_M)
         rooms_text = table.text(row, "Rooms")
         rooms = tuple(r.strip() for r in rooms_text.split(",") if r.strip()) if rooms_text else ()
-        circuits.append(Circuit(
-            circuit_id=cid, device=dev, rcd_type=rcd_type,
-            voltage_v=v if v is not None else v_default,
-            frequency_hz=f if f is not None else f_default,
-            supply_source=supply_source, system=system,
-            rating_a=table.number(row, "Rating", "A", positive=True),
-            cable_length_m=length, cable_key=cable_key, rooms=rooms,
-            note=table.text(row, "Note"), row=row[0], shared_neutral=bool(table.flag(row, "Shared neutral")),
-        ))
+        circuits.append(
+            Circuit(
+                circuit_id=cid,
+                device=dev,
+                rcd_type=rcd_type,
+                voltage_v=v if v is not None else v_default,
+                frequency_hz=f if f is not None else f_default,
+                supply_source=supply_source,
+                system=system,
+                rating_a=table.number(row, "Rating", "A", positive=True),
+                cable_length_m=length,
+                cable_key=cable_key,
+                rooms=rooms,
+                note=table.text(row, "Note"),
+                row=row[0],
+                shared_neutral=bool(table.flag(row, "Shared neutral")),
+            )
+        )
     for label, ids in defaulted.items():
         shown = ", ".join(ids[:8]) + (f" and {len(ids) - 8} more" if len(ids) > 8 else "")
         defaults_used.append(f"supply {label} for {shown}")
@@ -269,56 +326,92 @@ def read_loads(table: RawTable, circuits: list[Circuit], catalogue: cat.Catalogu
         if cid is not None:
             circuit = by_id.get(cid.lower())
             if circuit is None:
-                raise table.error(row, "Circuit", f"'{cid}' is not a circuit in the Circuits sheet",
-                                  hint="use a circuit id from the Circuits sheet, or leave it blank to have "
-                                       "`leakbudget split` place the load")
+                raise table.error(
+                    row,
+                    "Circuit",
+                    f"'{cid}' is not a circuit in the Circuits sheet",
+                    hint="use a circuit id from the Circuits sheet, or leave it blank to have "
+                    "`leakbudget split` place the load",
+                )
         key = table.text(row, "Appliance")
         if key is not None:
             key = key.lower()
             if key not in catalogue.appliances:
-                raise table.error(row, "Appliance", f"'{key}' is not in the appliance catalogue",
-                                  hint="see `leakbudget appliances WORD`, or add your own row on an Appliances sheet")
+                raise table.error(
+                    row,
+                    "Appliance",
+                    f"'{key}' is not in the appliance catalogue",
+                    hint="see `leakbudget appliances WORD`, or add your own row on an Appliances sheet",
+                )
         qty_value = table.number(row, "Quantity", "dimensionless", positive=True)
         if qty_value is not None and not float(qty_value).is_integer():
-            raise table.error(row, "Quantity", f"'{table.text(row, 'Quantity')}' is not a whole number",
-                              hint="type a whole number of identical units")
+            raise table.error(
+                row,
+                "Quantity",
+                f"'{table.text(row, 'Quantity')}' is not a whole number",
+                hint="type a whole number of identical units",
+            )
         leakage = table.number(row, "Leakage", "mA", plausible=STANDING_LEAKAGE_MA)
         y_cap = table.number(row, "Y capacitance", "nF")
         ins_r = table.number(row, "Insulation resistance", "Mohm", positive=True)
         _refuse_implausible_components(table, row, circuit, y_cap, ins_r)
         if leakage is None and y_cap is None and ins_r is None and key is None:
-            raise table.error(row, "Appliance", "the load has no leakage figure",
-                              hint="give a Leakage, a Y capacitance or Insulation resistance, or an Appliance key")
+            raise table.error(
+                row,
+                "Appliance",
+                "the load has no leakage figure",
+                hint="give a Leakage, a Y capacitance or Insulation resistance, or an Appliance key",
+            )
         leg_text = table.text(row, "Leg") or "L1"
         system = circuit.system if circuit is not None else "three"
         try:
             legs = parse_leg(leg_text, system)
         except ValueError as exc:
             raise table.error(row, "Leg", str(exc)) from None
-        loads.append(Load(
-            name=name, circuit_id=circuit.circuit_id if circuit else None, appliance_key=key,
-            quantity=int(qty_value) if qty_value is not None else 1,
-            leakage_ma=leakage, y_capacitance_nf=y_cap, insulation_resistance_mohm=ins_r,
-            power_w=table.number(row, "Power", "W"), current_a=table.number(row, "Current", "A"),
-            leg=legs, leg_text="-".join(legs), room=table.text(row, "Room"),
-            fixed=bool(table.flag(row, "Fixed")), note=table.text(row, "Note"), row=row[0],
-            waveform=table.choice(row, "Waveform", cat.WAVEFORMS),
-            model=table.text(row, "Model"),
-        ))
+        loads.append(
+            Load(
+                name=name,
+                circuit_id=circuit.circuit_id if circuit else None,
+                appliance_key=key,
+                quantity=int(qty_value) if qty_value is not None else 1,
+                leakage_ma=leakage,
+                y_capacitance_nf=y_cap,
+                insulation_resistance_mohm=ins_r,
+                power_w=table.number(row, "Power", "W"),
+                current_a=table.number(row, "Current", "A"),
+                leg=legs,
+                leg_text="-".join(legs),
+                room=table.text(row, "Room"),
+                fixed=bool(table.flag(row, "Fixed")),
+                note=table.text(row, "Note"),
+                row=row[0],
+                waveform=table.choice(row, "Waveform", cat.WAVEFORMS),
+                model=table.text(row, "Model"),
+            )
+        )
     return loads
 
 
-def _refuse_implausible_components(table: RawTable, row: Row, circuit: Circuit | None,
-                                   y_cap_nf: float | None, resistance_mohm: float | None) -> None:
+def _refuse_implausible_components(
+    table: RawTable, row: Row, circuit: Circuit | None, y_cap_nf: float | None, resistance_mohm: float | None
+) -> None:
     """Refuse a Y capacitance or insulation resistance whose leakage at the circuit's supply (IEC 60038 230 V
     50 Hz for a load not yet placed) is beyond a believable standing leakage per unit."""
     v, f = (circuit.voltage_v, circuit.frequency_hz) if circuit is not None else IEC_SUPPLY
     checks = (
-        ("Y capacitance", y_cap_nf, lambda: capacitive_current_ma(y_cap_nf, v, f),
-         "check the unit: bare numbers are taken in nF (type '4700 pF' or '4.7 nF')"),
-        ("Insulation resistance", resistance_mohm, lambda: resistive_current_ma(resistance_mohm, v),
-         "check the unit: bare numbers are taken in megohms (type '500 kohm' or '2 Mohm'); if it was measured, "
-         "the insulation has failed: have the appliance repaired"),
+        (
+            "Y capacitance",
+            y_cap_nf,
+            lambda: capacitive_current_ma(y_cap_nf, v, f),
+            "check the unit: bare numbers are taken in nF (type '4700 pF' or '4.7 nF')",
+        ),
+        (
+            "Insulation resistance",
+            resistance_mohm,
+            lambda: resistive_current_ma(resistance_mohm, v),
+            "check the unit: bare numbers are taken in megohms (type '500 kohm' or '2 Mohm'); if it was measured, "
+            "the insulation has failed: have the appliance repaired",
+        ),
     )
     for column, value, current, hint in checks:
         if value is None:
@@ -326,8 +419,12 @@ def _refuse_implausible_components(table: RawTable, row: Row, circuit: Circuit |
         implied_ma = float(current())
         problem = STANDING_LEAKAGE_MA.problem(implied_ma)
         if problem is not None:
-            raise table.error(row, column, f"'{table.text(row, column)}' per unit would leak {implied_ma:.3g} mA at "
-                                           f"{v:g} V {f:g} Hz, {problem}", hint=hint)
+            raise table.error(
+                row,
+                column,
+                f"'{table.text(row, column)}' per unit would leak {implied_ma:.3g} mA at {v:g} V {f:g} Hz, {problem}",
+                hint=hint,
+            )
 
 
 def read_project(path: str | Path, progress: Progress | None = None) -> Project:
@@ -349,7 +446,8 @@ def read_project(path: str | Path, progress: Progress | None = None) -> Project:
     if user_appliances is not None or user_cables is not None:
         catalogue = catalogue.with_user_rows(
             cat.appliances_from_table(user_appliances, f"your sheet '{user_appliances.sheet}'")
-            if user_appliances else [],
+            if user_appliances
+            else [],
             cat.cables_from_table(user_cables, f"your sheet '{user_cables.sheet}'") if user_cables else [],
         )
         for key in catalogue.overridden:
@@ -368,10 +466,10 @@ def read_project(path: str | Path, progress: Progress | None = None) -> Project:
         if key not in KNOWN_EXTRA_SETTINGS:
             warnings.append(f"the setting '{key}' is not one leakbudget knows; it was ignored")
     locations_table = _table(grids, LOCATIONS, path)
-    location_rows = (rows_from_table(locations_table, f"your sheet '{locations_table.sheet}'")
-                     if locations_table is not None else [])
-    return Project(path, circuits, loads, settings, catalogue, warnings, defaults_used, location_rows,
-                   readings)
+    location_rows = (
+        rows_from_table(locations_table, f"your sheet '{locations_table.sheet}'") if locations_table is not None else []
+    )
+    return Project(path, circuits, loads, settings, catalogue, warnings, defaults_used, location_rows, readings)
 
 
 # Settings read by later stages (planner, risk, review); listed so they are not reported as unknown.

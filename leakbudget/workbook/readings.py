@@ -19,8 +19,12 @@ def read_readings(table: RawTable, circuits: list[Circuit], defaults_used: list[
         cid = table.text(row, "Circuit")
         circuit = by_id.get(cid.lower()) if cid else None
         if circuit is None:
-            raise table.error(row, "Circuit", f"'{cid or ''}' is not a circuit in the Circuits sheet",
-                              hint="use a circuit id from the Circuits sheet")
+            raise table.error(
+                row,
+                "Circuit",
+                f"'{cid or ''}' is not a circuit in the Circuits sheet",
+                hint="use a circuit id from the Circuits sheet",
+            )
         value = table.number(row, "Reading", "mA")
         if value is None:
             raise table.error(row, "Reading", "the reading is blank", hint="type the clamp reading, e.g. '1.2 mA'")
@@ -31,24 +35,45 @@ def read_readings(table: RawTable, circuits: list[Circuit], defaults_used: list[
         elif words.strip().lower() in CONDITION_WORDS:
             conditions = CONDITION_WORDS[words.strip().lower()]
         else:
-            raise table.error(row, "Conditions", f"'{words}' is not 'all on' or 'idle'",
-                              hint="type 'all on' (every load running) or 'idle' (connected, not running)")
+            raise table.error(
+                row,
+                "Conditions",
+                f"'{words}' is not 'all on' or 'idle'",
+                hint="type 'all on' (every load running) or 'idle' (connected, not running)",
+            )
         calibrate = bool(table.flag(row, "Calibrate"))
         if calibrate and conditions != ALL_ON:
-            raise table.error(row, "Calibrate", "only an 'all on' reading can calibrate a circuit",
-                              hint="set Calibrate to no, or measure with every load running")
+            raise table.error(
+                row,
+                "Calibrate",
+                "only an 'all on' reading can calibrate a circuit",
+                hint="set Calibrate to no, or measure with every load running",
+            )
         if calibrate and circuit.circuit_id in calibrating:
-            raise table.error(row, "Calibrate", f"circuit '{circuit.circuit_id}' is already calibrated by row "
-                              f"{calibrating[circuit.circuit_id]}", hint="mark one reading per circuit")
+            raise table.error(
+                row,
+                "Calibrate",
+                f"circuit '{circuit.circuit_id}' is already calibrated by row {calibrating[circuit.circuit_id]}",
+                hint="mark one reading per circuit",
+            )
         if calibrate:
             calibrating[circuit.circuit_id] = row[0]
         raw_date = table.raw(row, "Date")
-        readings.append(Reading(
-            circuit_id=circuit.circuit_id, reading_ma=value, conditions=conditions,
-            date=raw_date.date().isoformat() if isinstance(raw_date, datetime) else
-            raw_date.isoformat() if isinstance(raw_date, date) else table.text(row, "Date"),
-            calibrate=calibrate, note=table.text(row, "Note"), row=row[0],
-        ))
+        readings.append(
+            Reading(
+                circuit_id=circuit.circuit_id,
+                reading_ma=value,
+                conditions=conditions,
+                date=raw_date.date().isoformat()
+                if isinstance(raw_date, datetime)
+                else raw_date.isoformat()
+                if isinstance(raw_date, date)
+                else table.text(row, "Date"),
+                calibrate=calibrate,
+                note=table.text(row, "Note"),
+                row=row[0],
+            )
+        )
     if defaulted:
         defaults_used.append(f"Readings conditions '{ALL_ON}' for row(s) {', '.join(defaulted)} (blank Conditions)")
     return readings

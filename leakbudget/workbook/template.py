@@ -8,9 +8,9 @@ from leakbudget.about import CAUTION
 from leakbudget.catalogue import WAVEFORMS, built_in
 from leakbudget.devices import DEVICES
 from leakbudget.errors import WorkbookError
+from leakbudget.input.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, READINGS, SETTINGS, Sheet
 from leakbudget.leakage import SYSTEMS
 from leakbudget.locations import LOCATION_KINDS
-from leakbudget.input.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, READINGS, SETTINGS, Sheet
 from leakbudget.settings import SETTING_SPECS
 from leakbudget.workbook.read import RCD_TYPES
 
@@ -57,8 +57,9 @@ def write_template(path: str | Path) -> Path:
     if path.suffix.lower() != ".xlsx":
         raise WorkbookError("the template must be an .xlsx file", path=path, hint="give a name ending in .xlsx")
     if path.exists():
-        raise WorkbookError("the file already exists; the template will not overwrite it", path=path,
-                            hint="choose a new file name")
+        raise WorkbookError(
+            "the file already exists; the template will not overwrite it", path=path, hint="choose a new file name"
+        )
     catalogue = built_in()
     book = xlsxwriter.Workbook(str(path))
     bold = book.add_format({"bold": True})
@@ -102,10 +103,17 @@ def write_template(path: str | Path) -> Path:
         ws = sheets[spec.name]
         for j, col in enumerate(spec.columns):
             if col.name in lists:
-                ws.data_validation(1, j, TEMPLATE_ROWS, j, {
-                    "validate": "list", "source": f"=lb_{col.name.replace(' ', '_').lower()}",
-                    "error_type": "warning" if col.name == "Appliance" else "stop",
-                    "error_message": f"Pick a value from the list ({col.help})",
-                })
+                ws.data_validation(
+                    1,
+                    j,
+                    TEMPLATE_ROWS,
+                    j,
+                    {
+                        "validate": "list",
+                        "source": f"=lb_{col.name.replace(' ', '_').lower()}",
+                        "error_type": "warning" if col.name == "Appliance" else "stop",
+                        "error_message": f"Pick a value from the list ({col.help})",
+                    },
+                )
     book.close()
     return path

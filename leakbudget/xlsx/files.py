@@ -58,7 +58,7 @@ def rewrite(source: Path, out: Path | None, build: Callable[[IO[bytes], IO[bytes
         if path is not None:
             remove_stale_temps(path)
     try:
-        original = open(source, "rb")
+        original = open(source, "rb")  # noqa: SIM115  (opened apart to word its error; the with below closes it)
     except OSError as exc:
         raise WriteBackError(
             f"{source}: cannot read the workbook ({exc.strerror}); check the path and run again."
@@ -72,8 +72,12 @@ def rewrite(source: Path, out: Path | None, build: Callable[[IO[bytes], IO[bytes
                 return
             refuse_if_changed(source, before)  # a save meanwhile must neither be overwritten nor backed up
             original.seek(0)
-            replace_atomically(backup, mode, lambda f: shutil.copyfileobj(original, f, COPY_CHUNK_BYTES),
-                               times_ns=(before.st_atime_ns, before.st_mtime_ns))
+            replace_atomically(
+                backup,
+                mode,
+                lambda f: shutil.copyfileobj(original, f, COPY_CHUNK_BYTES),
+                times_ns=(before.st_atime_ns, before.st_mtime_ns),
+            )
             refuse_if_changed(source, before)
 
         value = replace_atomically(target, mode, lambda dest: build(original, dest), before_replace=keep_previous)
@@ -93,7 +97,7 @@ def replace_atomically(
     """
     temp = final.with_name(f"{final.name}{TEMP_MARK}{os.getpid()}.tmp")
     try:
-        handle = open(temp, "wb")
+        handle = open(temp, "wb")  # noqa: SIM115  (opened apart to word its error; the with below closes it)
     except OSError as exc:
         raise WriteBackError(
             f"{final.parent}: cannot create a file in this folder ({exc.strerror}); make the folder writable or "
@@ -166,7 +170,7 @@ def remove_stale_temps(path: Path) -> None:
     import glob
 
     for temp in path.parent.glob(glob.escape(path.name) + TEMP_MARK + "*.tmp"):
-        pid_text = temp.name[len(path.name) + len(TEMP_MARK): -len(".tmp")]
+        pid_text = temp.name[len(path.name) + len(TEMP_MARK) : -len(".tmp")]
         try:
             age_s = time.time() - temp.stat().st_mtime
             if not pid_text.isdigit() or not _process_alive(int(pid_text)) or age_s > STALE_TEMP_AGE_S:

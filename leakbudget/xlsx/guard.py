@@ -75,8 +75,16 @@ WORKBOOK = "xl/workbook.xml"
 WORKBOOK_RELS = "xl/_rels/workbook.xml.rels"
 
 # What Python's zipfile raises for a damaged package or entry (bad headers, versions, CRCs, deflate data).
-ZIP_DAMAGE = (zipfile.BadZipFile, zlib.error, struct.error, EOFError, ValueError, NotImplementedError, RuntimeError,
-              OSError)
+ZIP_DAMAGE = (
+    zipfile.BadZipFile,
+    zlib.error,
+    struct.error,
+    EOFError,
+    ValueError,
+    NotImplementedError,
+    RuntimeError,
+    OSError,
+)
 
 RESAVE = "open it in your spreadsheet program and save it as an Excel workbook (.xlsx)"
 
@@ -111,9 +119,11 @@ def identify(path: Path) -> None:
     with open(path, "rb") as handle:
         head = handle.read(4096)
     if not head:
-        raise WorkbookError("the file is empty (0 bytes)", path=path,
-                            hint="it was cut off while being copied or saved; use a copy saved by your "
-                                 "spreadsheet program")
+        raise WorkbookError(
+            "the file is empty (0 bytes)",
+            path=path,
+            hint="it was cut off while being copied or saved; use a copy saved by your spreadsheet program",
+        )
     if head.startswith(ZIP_SIGNATURES):
         return
     if head.startswith(CFB_SIGNATURE):
@@ -121,21 +131,24 @@ def identify(path: Path) -> None:
     kind = _text_kind(head)
     if kind is not None:
         raise WorkbookError(f"this is a text file ({kind}), not an .xlsx workbook", path=path, hint=RESAVE)
-    raise WorkbookError("this is not an .xlsx workbook (it does not start like a zip package)", path=path,
-                        hint=RESAVE)
+    raise WorkbookError("this is not an .xlsx workbook (it does not start like a zip package)", path=path, hint=RESAVE)
 
 
 def _compound_file_error(path: Path) -> WorkbookError:
     with open(path, "rb") as handle, mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ) as data:
         if data.find(ENCRYPTED_PACKAGE_STREAM) >= 0:
             return WorkbookError(
-                "the workbook is password-protected (encrypted), so its cells cannot be read", path=path,
+                "the workbook is password-protected (encrypted), so its cells cannot be read",
+                path=path,
                 hint="open it in your spreadsheet program, remove the password or save an unprotected copy as "
-                     ".xlsx, and check that copy",
+                ".xlsx, and check that copy",
             )
         if any(data.find(name) >= 0 for name in XLS_STREAMS):
-            return WorkbookError("this is an Excel 97-2003 workbook (.xls), not an .xlsx workbook", path=path,
-                                 hint=RESAVE + " (it will ask for the password if the file has one)")
+            return WorkbookError(
+                "this is an Excel 97-2003 workbook (.xls), not an .xlsx workbook",
+                path=path,
+                hint=RESAVE + " (it will ask for the password if the file has one)",
+            )
     return WorkbookError("this is an older Office compound file, not an .xlsx workbook", path=path, hint=RESAVE)
 
 
@@ -199,13 +212,19 @@ class GuardedPackage:
             self.archive = zipfile.ZipFile(path)
             self.infos = self.archive.infolist()
         except ZIP_DAMAGE as exc:
-            raise WorkbookError(f"the file is cut short or damaged (its zip package cannot be opened: {exc})",
-                                path=path, hint="use a copy saved by your spreadsheet program, or a backup") from None
+            raise WorkbookError(
+                f"the file is cut short or damaged (its zip package cannot be opened: {exc})",
+                path=path,
+                hint="use a copy saved by your spreadsheet program, or a backup",
+            ) from None
         problem = zip_problem(self.infos)
         if problem is not None:
             self.close()
-            raise WorkbookError(f"refused to open the workbook because {problem}", path=path,
-                                hint="check it is the workbook you meant and re-save it in a spreadsheet program")
+            raise WorkbookError(
+                f"refused to open the workbook because {problem}",
+                path=path,
+                hint="check it is the workbook you meant and re-save it in a spreadsheet program",
+            )
         self._names = {info.filename.casefold(): info for info in self.infos}
         try:
             with self._damage():
@@ -224,30 +243,37 @@ class GuardedPackage:
         try:
             yield
         except ZIP_DAMAGE as exc:
-            raise WorkbookError(f"the file is damaged ({type(exc).__name__}: {str(exc)[:160]})", path=self.path,
-                                sheet=sheet, hint="use a copy saved by your spreadsheet program, or a backup"
-                                ) from None
+            raise WorkbookError(
+                f"the file is damaged ({type(exc).__name__}: {str(exc)[:160]})",
+                path=self.path,
+                sheet=sheet,
+                hint="use a copy saved by your spreadsheet program, or a backup",
+            ) from None
 
     def close(self) -> None:
         self.archive.close()
 
     def _check_kind(self) -> None:
         if "mimetype" in self._names and self.archive.read(self._names["mimetype"]).strip() == ODS_MIMETYPE:
-            raise WorkbookError("this is an OpenDocument spreadsheet (.ods), not an .xlsx workbook", path=self.path,
-                                hint=RESAVE)
+            raise WorkbookError(
+                "this is an OpenDocument spreadsheet (.ods), not an .xlsx workbook", path=self.path, hint=RESAVE
+            )
         if "xl/workbook.bin" in self._names:
-            raise WorkbookError("this is an Excel binary workbook (.xlsb), not an .xlsx workbook", path=self.path,
-                                hint=RESAVE)
+            raise WorkbookError(
+                "this is an Excel binary workbook (.xlsb), not an .xlsx workbook", path=self.path, hint=RESAVE
+            )
         if WORKBOOK.casefold() not in self._names:
-            raise WorkbookError(f"this zip file is not an .xlsx workbook (it has no {WORKBOOK})", path=self.path,
-                                hint=RESAVE)
+            raise WorkbookError(
+                f"this zip file is not an .xlsx workbook (it has no {WORKBOOK})", path=self.path, hint=RESAVE
+            )
 
     def _info(self, part: str, limit: int) -> zipfile.ZipInfo:
         info = self._names[part.casefold()]
         if info.file_size > limit:
             raise WorkbookError(
                 f"refused to read the workbook because its part {info.filename} unpacks to "
-                f"{_size(info.file_size)} (limit {_size(limit)})", path=self.path,
+                f"{_size(info.file_size)} (limit {_size(limit)})",
+                path=self.path,
                 hint="check it is the workbook you meant; delete what you do not need and save it again",
             )
         return info
@@ -256,11 +282,15 @@ class GuardedPackage:
         if isinstance(exc, UnsafeXmlError):
             return WorkbookError(
                 f"its part {part} declares a DTD or entities, which an .xlsx never needs (it may be an "
-                "entity-expansion attack), so it was not read", path=self.path,
+                "entity-expansion attack), so it was not read",
+                path=self.path,
                 hint="re-save the workbook in a spreadsheet program, or ask whoever sent it",
             )
-        return WorkbookError(f"its part {part} is damaged ({exc})", path=self.path,
-                             hint="re-save the workbook in a spreadsheet program and run again")
+        return WorkbookError(
+            f"its part {part} is damaged ({exc})",
+            path=self.path,
+            hint="re-save the workbook in a spreadsheet program and run again",
+        )
 
     def _read_xml(self, part: str) -> ET.Element:
         try:
@@ -303,9 +333,12 @@ class GuardedPackage:
         """Check the part of sheet ``name`` (size, DTD, cell rectangle) and return what calamine would miss."""
         part = self.sheet_parts.get(name)
         if part is None:
-            raise WorkbookError(f"the part that holds sheet '{name}' cannot be found in the package",
-                                path=self.path, sheet=name,
-                                hint="re-save the workbook in a spreadsheet program and run again")
+            raise WorkbookError(
+                f"the part that holds sheet '{name}' cannot be found in the package",
+                path=self.path,
+                sheet=name,
+                hint="re-save the workbook in a spreadsheet program and run again",
+            )
         info = self._info(part, MAX_SHEET_PART_BYTES)
         try:
             with self._damage(name):
@@ -315,9 +348,11 @@ class GuardedPackage:
         if scan.cells > MAX_SHEET_CELLS:
             raise WorkbookError(
                 f"its cells reach row {scan.rows:,} and column {column_letter(scan.columns - 1)}, more than the "
-                f"{MAX_SHEET_CELLS:,} cells leakbudget reads", path=self.path, sheet=name,
+                f"{MAX_SHEET_CELLS:,} cells leakbudget reads",
+                path=self.path,
+                sheet=name,
                 hint="delete stray values far below or right of the table (Ctrl+End shows the last cell) and "
-                     "save again",
+                "save again",
             )
         return scan
 
@@ -329,7 +364,9 @@ class GuardedPackage:
         if info.file_size > MAX_IRREGULAR_SHEET_BYTES:
             raise WorkbookError(
                 f"the sheet is written in an unusual way and is too large to check ({_size(info.file_size)})",
-                path=self.path, sheet=name, hint="re-save the workbook in a spreadsheet program and run again",
+                path=self.path,
+                sheet=name,
+                hint="re-save the workbook in a spreadsheet program and run again",
             )
         return _parsed_scan(self.archive, info, MAX_SHEET_CELLS)
 
@@ -346,15 +383,18 @@ class _CellPatterns:
     def __init__(self, prefix: bytes) -> None:
         self.any = re.compile(rb"<" + prefix + rb"c[\s/>]")
         # a cell start tag that may have children: its reference first, no second r attribute
-        self.open = re.compile(rb"<" + prefix + rb'c r="([A-Z]{1,3})([1-9][0-9]{0,6})"(?:(?! r=)' + _ATTRIBUTE
-                               + rb")*+ ?>")
+        self.open = re.compile(
+            rb"<" + prefix + rb'c r="([A-Z]{1,3})([1-9][0-9]{0,6})"(?:(?! r=)' + _ATTRIBUTE + rb")*+ ?>"
+        )
         self.empty = re.compile(rb"<" + prefix + rb"c(?:" + _ATTRIBUTE + rb")*+ ?/>")
         formula = rb"<" + prefix + rb"f(?:\s[^<>]*)?(?:/>|>([^<]*)</" + prefix + rb"f>)"
         value = rb"(<" + prefix + rb"v\s*/>|<" + prefix + rb"v>([^<]*)</" + prefix + rb"v>)?"
-        self.formula_cell = re.compile(rb"<" + prefix + rb'c r="([A-Z]{1,3})([0-9]{1,7})"([^<>]*)>\s*' + formula
-                                       + rb"\s*" + value)
-        self.error_cell = re.compile(rb"<" + prefix + rb'c r="([A-Z]{1,3})([0-9]{1,7})"[^<>]*\st="e"[^<>]*>\s*<'
-                                     + prefix + rb"v>([^<]*)<")
+        self.formula_cell = re.compile(
+            rb"<" + prefix + rb'c r="([A-Z]{1,3})([0-9]{1,7})"([^<>]*)>\s*' + formula + rb"\s*" + value
+        )
+        self.error_cell = re.compile(
+            rb"<" + prefix + rb'c r="([A-Z]{1,3})([0-9]{1,7})"[^<>]*\st="e"[^<>]*>\s*<' + prefix + rb"v>([^<]*)<"
+        )
 
 
 _PLAIN = _CellPatterns(b"")
@@ -396,7 +436,7 @@ def _fast_scan(archive: zipfile.ZipFile, info: zipfile.ZipInfo, max_cells: int) 
 def _chunk_end(data: bytes) -> int:
     """Where to cut ``data`` so that the head holds whole rows when it can, and whole tags always."""
     cut = data.rfind(b"row>")
-    if cut > 0 and data[cut - 1:cut] in (b"/", b":"):
+    if cut > 0 and data[cut - 1 : cut] in (b"/", b":"):
         return cut + 4
     cut = data.rfind(b"<")
     return cut if cut > 0 else len(data)
@@ -501,7 +541,8 @@ class _CellHandler(ContentHandler):
             no_result = not self.cell["v"] and kind not in ("str", "s", "inlineStr")
             if error or (self.cell["f"] is not None and (self.cell["v"] is None or no_result)):
                 self.scan.notes[self.at] = CellNote(
-                    *self.at, str(self.cell["v"]) if error else None, self.cell["f"] or None)  # type: ignore[arg-type]
+                    *self.at, str(self.cell["v"]) if error else None, self.cell["f"] or None
+                )  # type: ignore[arg-type]
 
 
 def _attr(attrs, name: str) -> str | None:  # noqa: ANN001

@@ -34,12 +34,16 @@ from typing import IO
 from urllib.parse import unquote
 
 from leakbudget.errors import WriteBackError
-# The zip-bomb limits are shared with the reader; Python's zipfile never inflates an entry past its declared size.
-from leakbudget.xlsx.guard import (  # noqa: F401 (the limits are part of this module's documented API)
-    MAX_COMPRESSION_RATIO, MAX_UNCOMPRESSED_BYTES, MAX_ZIP_ENTRIES, zip_problem,
-)
 from leakbudget.progress import Progress
 from leakbudget.xlsx.files import COPY_CHUNK_BYTES, rewrite
+
+# The zip-bomb limits are shared with the reader; Python's zipfile never inflates an entry past its declared size.
+from leakbudget.xlsx.guard import (  # noqa: F401 (the limits are part of this module's documented API)
+    MAX_COMPRESSION_RATIO,
+    MAX_UNCOMPRESSED_BYTES,
+    MAX_ZIP_ENTRIES,
+    zip_problem,
+)
 from leakbudget.xlsx.rows import SAMPLE_ROW, SheetXml, with_rows
 from leakbudget.xlsx.styles import merge_styles, remap_cell_styles
 from leakbudget.xlsx.xml_text import BadXmlError, Span, UnsafeXmlError, XmlPart, quoteattr
@@ -57,12 +61,14 @@ REL_TYPE_WORKSHEET = DOC_REL_NS + "/worksheet"
 REL_TYPE_STYLES = DOC_REL_NS + "/styles"
 # Parts of these kinds hang off a result sheet only to show its chart; they go when the sheet is replaced, even
 # after a spreadsheet program re-saved the file under its own part names.
-REMOVABLE_REL_TYPES = frozenset({
-    DOC_REL_NS + "/drawing",
-    DOC_REL_NS + "/chart",
-    "http://schemas.microsoft.com/office/2011/relationships/chartStyle",
-    "http://schemas.microsoft.com/office/2011/relationships/chartColorStyle",
-})
+REMOVABLE_REL_TYPES = frozenset(
+    {
+        DOC_REL_NS + "/drawing",
+        DOC_REL_NS + "/chart",
+        "http://schemas.microsoft.com/office/2011/relationships/chartStyle",
+        "http://schemas.microsoft.com/office/2011/relationships/chartColorStyle",
+    }
+)
 CT_RELATIONSHIPS = "application/vnd.openxmlformats-package.relationships+xml"
 CONTENT_TYPES = "[Content_Types].xml"
 WORKBOOK = "xl/workbook.xml"
@@ -106,8 +112,9 @@ class WriteResult:
     added: tuple[str, ...]  # sheet names appended
 
 
-def write_sheets(source: Path, sheets: Sequence[SheetData], out: Path | None = None,
-                 progress: Progress | None = None) -> WriteResult:
+def write_sheets(
+    source: Path, sheets: Sequence[SheetData], out: Path | None = None, progress: Progress | None = None
+) -> WriteResult:
     """Write ``sheets`` into the workbook ``source`` (or into a copy at ``out``), keeping everything else.
 
     Text is always written as text (a cell reading ``=1+2`` is not a formula); None and NaN give empty cells;
@@ -190,8 +197,9 @@ class _Package:
         return xml, [(_relationship(part, span.attrs), span) for span in xml.find("Relationship", 1)]
 
 
-def _graft(archive: zipfile.ZipFile, sheets: Sequence[SheetData], dest: IO[bytes], path: Path,
-           progress: Progress | None) -> tuple:
+def _graft(
+    archive: zipfile.ZipFile, sheets: Sequence[SheetData], dest: IO[bytes], path: Path, progress: Progress | None
+) -> tuple:
     """Write to ``dest`` the user's package with ``sheets`` grafted in; return (replaced, added) names."""
     try:
         return _graft_checked(archive, sheets, dest, path, progress)
@@ -202,8 +210,9 @@ def _graft(archive: zipfile.ZipFile, sheets: Sequence[SheetData], dest: IO[bytes
         ) from None
 
 
-def _graft_checked(archive: zipfile.ZipFile, sheets: Sequence[SheetData], dest: IO[bytes], path: Path,
-                   progress: Progress | None) -> tuple:
+def _graft_checked(
+    archive: zipfile.ZipFile, sheets: Sequence[SheetData], dest: IO[bytes], path: Path, progress: Progress | None
+) -> tuple:
     user = _Package(archive, path)
     for required in (CONTENT_TYPES, WORKBOOK, WORKBOOK_RELS):
         if user.actual(required) is None:
@@ -329,14 +338,22 @@ class _Graft:
         sheet_ids = [rid for rid, (kind, _) in zip(rel_ids, self.new_rels) if kind == REL_TYPE_WORKSHEET]
         _register_sheets(self.workbook, self.sheets_span, list(zip(self.new_sheets, sheet_ids)))
         _register_content_types(self.content_types, self.content_type_of, self.removed - set(self.writes))
-        for name, xml in ((CONTENT_TYPES, self.content_types), (WORKBOOK, self.workbook),
-                          (WORKBOOK_RELS, self.workbook_rels)):
+        for name, xml in (
+            (CONTENT_TYPES, self.content_types),
+            (WORKBOOK, self.workbook),
+            (WORKBOOK_RELS, self.workbook_rels),
+        ):
             if xml.changed:
                 self.writes[self.user.actual(name)] = xml.result()  # type: ignore[index]
 
 
-def _write_package(user: _Package, dest: IO[bytes], writes: dict[str, bytes | SheetXml], removed: set[str],
-                   progress: Progress | None = None) -> None:
+def _write_package(
+    user: _Package,
+    dest: IO[bytes],
+    writes: dict[str, bytes | SheetXml],
+    removed: set[str],
+    progress: Progress | None = None,
+) -> None:
     """Copy the user's entries in order (new content where written, skipping removed), then append new parts."""
     pending = dict(writes)
     with zipfile.ZipFile(dest, "w", zipfile.ZIP_DEFLATED) as out:
@@ -352,8 +369,9 @@ def _write_package(user: _Package, dest: IO[bytes], writes: dict[str, bytes | Sh
             _write_entry(out, _entry_like(None, name), data, progress)
 
 
-def _write_entry(out: zipfile.ZipFile, entry: zipfile.ZipInfo, data: bytes | SheetXml, progress: Progress | None
-                 ) -> None:
+def _write_entry(
+    out: zipfile.ZipFile, entry: zipfile.ZipInfo, data: bytes | SheetXml, progress: Progress | None
+) -> None:
     """One entry: bytes as they are, a sheet's rows streamed into the compressor as they are made."""
     if isinstance(data, bytes):
         out.writestr(entry, data)
@@ -446,7 +464,7 @@ def _allocate(like: str, taken: set[str]) -> str:
     """A free part name in ``like``'s folder: ``<folder>/leakbudget_<kind><n><ext>`` (``taken`` is casefolded)."""
     folder, name = posixpath.split(like)
     stem, ext = posixpath.splitext(name)
-    kind = stem.rstrip("0123456789") if not _is_ours(stem) else stem[len(OUR_PART_PREFIX):].rstrip("0123456789")
+    kind = stem.rstrip("0123456789") if not _is_ours(stem) else stem[len(OUR_PART_PREFIX) :].rstrip("0123456789")
     n = 1
     while (candidate := f"{folder}/{OUR_PART_PREFIX}{kind}{n}{ext}").casefold() in taken:
         n += 1
@@ -487,7 +505,7 @@ def _register_relationships(xml: XmlPart, rels: list[tuple[_Rel, object]], new: 
         used.add(f"rId{n}")
         ids.append(f"rId{n}")
         target = posixpath.relpath(part, "xl")
-        fragments.append(f"<{prefix}Relationship Id=\"rId{n}\" Type={quoteattr(rel_type)} Target={quoteattr(target)}/>")
+        fragments.append(f'<{prefix}Relationship Id="rId{n}" Type={quoteattr(rel_type)} Target={quoteattr(target)}/>')
     if fragments:
         xml.append_children(root, "".join(fragments).encode())
     return ids
@@ -506,7 +524,7 @@ def _register_sheets(workbook: XmlPart, sheets_span: Span, entries: list[tuple[s
     fragments = []
     for offset, (name, rid) in enumerate(entries):
         fragments.append(
-            f"<{prefix}sheet{declare} name={quoteattr(name)} sheetId=\"{next_id + offset}\" {rel_prefix}:id=\"{rid}\"/>"
+            f'<{prefix}sheet{declare} name={quoteattr(name)} sheetId="{next_id + offset}" {rel_prefix}:id="{rid}"/>'
         )
     workbook.append_children(sheets_span, "".join(fragments).encode())
 
@@ -521,12 +539,13 @@ def _register_content_types(xml: XmlPart, content_types: dict[str, str], removed
             xml.remove(span)
     fragments = []
     if not any(s.attrs.get("Extension", "").casefold() == "rels" for s in xml.find("Default", 1)):
-        fragments.append(f"<{root.prefix}Default Extension=\"rels\" ContentType=\"{CT_RELATIONSHIPS}\"/>")
+        fragments.append(f'<{root.prefix}Default Extension="rels" ContentType="{CT_RELATIONSHIPS}"/>')
     for part, content_type in content_types.items():
         span = overrides.get(part.casefold())
         if span is None or part.casefold() in gone:
-            fragments.append(f"<{root.prefix}Override PartName={quoteattr('/' + part)} "
-                             f"ContentType={quoteattr(content_type)}/>")
+            fragments.append(
+                f"<{root.prefix}Override PartName={quoteattr('/' + part)} ContentType={quoteattr(content_type)}/>"
+            )
         elif span.attrs.get("ContentType") != content_type:
             xml.set_attribute(span, "ContentType", content_type)
     if fragments:

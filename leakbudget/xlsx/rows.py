@@ -43,7 +43,10 @@ _DIMENSION = re.compile(rb'<dimension ref="[^"]*"/>')
 
 def escape_text(text: str) -> str:
     """``text`` as the content of a ``<t>`` element, cut to the cell limit; see the module docstring."""
-    if len(text) > EXCEL_MAX_TEXT_UTF16 // 2 and len(text.encode("utf-16-le", "surrogatepass")) > 2 * EXCEL_MAX_TEXT_UTF16:
+    if (
+        len(text) > EXCEL_MAX_TEXT_UTF16 // 2
+        and len(text.encode("utf-16-le", "surrogatepass")) > 2 * EXCEL_MAX_TEXT_UTF16
+    ):
         units = 0
         for index, char in enumerate(text):  # never split a character above U+FFFF
             units += 2 if ord(char) > 0xFFFF else 1
@@ -100,8 +103,9 @@ def used_range(rows: Sequence[Sequence[Cell]], header_width: int) -> str:
     return "A1" if end == "A1" else f"A1:{end}"
 
 
-def rows_xml(rows: Sequence[Sequence[Cell]], styles: Sequence[str], progress: RowProgress | None = None
-             ) -> Iterator[bytes]:
+def rows_xml(
+    rows: Sequence[Sequence[Cell]], styles: Sequence[str], progress: RowProgress | None = None
+) -> Iterator[bytes]:
     """``<row>`` elements for ``rows`` from row ``SAMPLE_ROW`` on, in UTF-8 pieces of ``ROWS_PER_CHUNK`` rows.
 
     ``styles[column]`` is the cell's style attribute (``' s="3"'`` or ``""``). Rows with no cell are left out.

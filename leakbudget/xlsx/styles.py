@@ -20,8 +20,17 @@ MAIN_NS = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 
 # Child order of <styleSheet> (ECMA-376 Part 1, §18.8, CT_Stylesheet); a missing list is inserted in this order.
 STYLESHEET_ORDER = (
-    "numFmts", "fonts", "fills", "borders", "cellStyleXfs", "cellXfs",
-    "cellStyles", "dxfs", "tableStyles", "colors", "extLst",
+    "numFmts",
+    "fonts",
+    "fills",
+    "borders",
+    "cellStyleXfs",
+    "cellXfs",
+    "cellStyles",
+    "dxfs",
+    "tableStyles",
+    "colors",
+    "extLst",
 )
 # Number format ids below this are built in (ECMA-376 Part 1, §18.8, numFmt); custom formats take ids from here up.
 FIRST_CUSTOM_NUMFMT_ID = 164
@@ -88,7 +97,7 @@ def remap_cell_styles(sheet_xml: bytes, xf_map: dict[int, int]) -> bytes:
 
 
 def _fragment(part: XmlPart, span: Span) -> bytes:
-    return part.data[span.start:span.end]
+    return part.data[span.start : span.end]
 
 
 def _merge_number_formats(editor: _ListEditor, ours: XmlPart) -> dict[int, int]:
@@ -145,7 +154,7 @@ class _ListEditor:
             return
         name = self.prefix + self.name.encode()
         element = b"<" + name + b' count="' + count.encode() + b'">' + body + b"</" + name + b">"
-        later = STYLESHEET_ORDER[STYLESHEET_ORDER.index(self.name) + 1:]
+        later = STYLESHEET_ORDER[STYLESHEET_ORDER.index(self.name) + 1 :]
         following = [s for s in self.part.spans if s.depth == 1 and s.local in later]
         if following:
             self.part.insert_before(following[0], element)

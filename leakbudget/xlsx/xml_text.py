@@ -9,7 +9,6 @@ Re-serialising with ElementTree would rename prefixes and break ``mc:Ignorable``
 from __future__ import annotations
 
 import html
-
 import re
 import xml.etree.ElementTree as ET
 from dataclasses import dataclass, field
@@ -106,9 +105,9 @@ class XmlPart:
     def find(self, local: str, depth: int, within: Span | None = None) -> list[Span]:
         """Elements of local name ``local`` at ``depth`` (inside ``within`` if given), in document order."""
         return [
-            s for s in self.spans
-            if s.depth == depth and s.local == local
-            and (within is None or within.start_end <= s.start < within.end)
+            s
+            for s in self.spans
+            if s.depth == depth and s.local == local and (within is None or within.start_end <= s.start < within.end)
         ]
 
     def namespace_prefix(self, namespace: str, spans: list[Span]) -> str | None:
@@ -116,7 +115,7 @@ class XmlPart:
         for span in spans:
             for key, value in span.attrs.items():
                 if key.startswith("xmlns:") and value == namespace:
-                    return key[len("xmlns:"):]
+                    return key[len("xmlns:") :]
         return None
 
     def append_children(self, span: Span, fragment: bytes) -> None:
@@ -136,7 +135,7 @@ class XmlPart:
 
     def set_attribute(self, span: Span, name: str, value: str) -> None:
         """Set attribute ``name`` of ``span``'s start tag to ``value`` (added after the element name if absent)."""
-        tag = self.data[span.start:span.start_end]
+        tag = self.data[span.start : span.start_end]
         quoted = quoteattr(value).encode()
         for match in _ATTRIBUTE.finditer(tag):
             if match.group(1).decode() == name:

@@ -61,7 +61,7 @@ def write_source(path: Path) -> None:
     wb = xlsxwriter.Workbook(str(path))
     bold = wb.add_format({"bold": True, "bg_color": "#DDEEFF", "border": 1})
     title = wb.add_format({"bold": True, "font_size": 14, "align": "center"})
-    amps = wb.add_format({"num_format": "0 \"A\""})
+    amps = wb.add_format({"num_format": '0 "A"'})
     metres = wb.add_format({"num_format": "0.0"})
     milli = wb.add_format({"num_format": "0.000", "italic": True})
     red = wb.add_format({"font_color": "#9C0006", "bg_color": "#FFC7CE"})
@@ -89,8 +89,9 @@ def write_source(path: Path) -> None:
     ws.set_column(1, 1, 24)
     ws.insert_image("G12", "badge.png", {"image_data": io.BytesIO(_png_bytes())})
     chart = wb.add_chart({"type": "column"})
-    chart.add_series({"name": "Leakage", "categories": ["Circuits", 2, 0, last - 1, 0],
-                      "values": ["Circuits", 2, 4, last - 1, 4]})
+    chart.add_series(
+        {"name": "Leakage", "categories": ["Circuits", 2, 0, last - 1, 0], "values": ["Circuits", 2, 4, last - 1, 4]}
+    )
     chart.set_title({"name": "Leakage per circuit"})
     ws.insert_chart("G2", chart)
 
@@ -110,26 +111,34 @@ def write_source(path: Path) -> None:
 
 def add_extension_parts(source: Path, target: Path) -> None:
     """Copy ``source`` adding a customXml part and a private ``extLst`` in the first worksheet (zip-level edit)."""
-    ext = (b'<extLst><ext uri="{6F1D3C2A-0B5E-4C49-9E0B-4A1B2C3D4E5F}" '
-           b'xmlns:lbx="urn:example:leakbudget-fixture"><lbx:note lbx:by="fixture">kept as is</lbx:note>'
-           b'</ext></extLst>')
+    ext = (
+        b'<extLst><ext uri="{6F1D3C2A-0B5E-4C49-9E0B-4A1B2C3D4E5F}" '
+        b'xmlns:lbx="urn:example:leakbudget-fixture"><lbx:note lbx:by="fixture">kept as is</lbx:note>'
+        b"</ext></extLst>"
+    )
     item = b'<?xml version="1.0" encoding="UTF-8"?>\n<panel xmlns="urn:example:panel"><ref>P1</ref></panel>\n'
-    props = (b'<?xml version="1.0" encoding="UTF-8" standalone="no"?>\n<ds:datastoreItem '
-             b'ds:itemID="{2A7B9C1D-3E4F-4A5B-8C6D-7E8F9A0B1C2D}" '
-             b'xmlns:ds="http://schemas.openxmlformats.org/officeDocument/2006/customXml"/>\n')
-    item_rels = (b'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<Relationships '
-                 b'xmlns="http://schemas.openxmlformats.org/package/2006/relationships"><Relationship Id="rId1" '
-                 b'Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/customXmlProps" '
-                 b'Target="itemProps1.xml"/></Relationships>')
-    props_type = b'application/vnd.openxmlformats-officedocument.customXmlProperties+xml'
+    props = (
+        b'<?xml version="1.0" encoding="UTF-8" standalone="no"?>\n<ds:datastoreItem '
+        b'ds:itemID="{2A7B9C1D-3E4F-4A5B-8C6D-7E8F9A0B1C2D}" '
+        b'xmlns:ds="http://schemas.openxmlformats.org/officeDocument/2006/customXml"/>\n'
+    )
+    item_rels = (
+        b'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<Relationships '
+        b'xmlns="http://schemas.openxmlformats.org/package/2006/relationships"><Relationship Id="rId1" '
+        b'Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/customXmlProps" '
+        b'Target="itemProps1.xml"/></Relationships>'
+    )
+    props_type = b"application/vnd.openxmlformats-officedocument.customXmlProperties+xml"
     with zipfile.ZipFile(source) as zin, zipfile.ZipFile(target, "w", zipfile.ZIP_DEFLATED) as zout:
         for info in zin.infolist():
             data = zin.read(info)
             if info.filename == "xl/worksheets/sheet1.xml":
                 data = data.replace(b"</worksheet>", ext + b"</worksheet>")
             elif info.filename == "[Content_Types].xml":
-                data = data.replace(b"</Types>", b'<Override PartName="/customXml/itemProps1.xml" ContentType="'
-                                    + props_type + b'"/></Types>')
+                data = data.replace(
+                    b"</Types>",
+                    b'<Override PartName="/customXml/itemProps1.xml" ContentType="' + props_type + b'"/></Types>',
+                )
             zout.writestr(info, data)
         zout.writestr("customXml/item1.xml", item)
         zout.writestr("customXml/itemProps1.xml", props)
@@ -142,8 +151,19 @@ def main() -> None:
         src = tmp / "panel.xlsx"
         write_source(src)
         lo_dir = tmp / "lo"
-        subprocess.run(["soffice", "--headless", f"-env:UserInstallation=file://{tmp}/profile",
-                        "--convert-to", "xlsx", "--outdir", str(lo_dir), str(src)], check=True)
+        subprocess.run(
+            [
+                "soffice",
+                "--headless",
+                f"-env:UserInstallation=file://{tmp}/profile",
+                "--convert-to",
+                "xlsx",
+                "--outdir",
+                str(lo_dir),
+                str(src),
+            ],
+            check=True,
+        )
         shutil.copyfile(lo_dir / "panel.xlsx", HERE / "libreoffice.xlsx")
         subprocess.run(["ssconvert", str(src), str(HERE / "gnumeric.xlsx")], check=True)
         add_extension_parts(HERE / "libreoffice.xlsx", HERE / "libreoffice_extension.xlsx")

@@ -41,6 +41,7 @@ STREAM_BYTES = 4096  # the mini stream cutoff: streams this long live in regular
 
 def _fods(sheets: dict[str, list[list[object]]]) -> str:
     """A flat OpenDocument spreadsheet (ODF 1.2, office:document) holding ``sheets``."""
+
     def cell(value: object) -> str:
         if isinstance(value, (int, float)):
             return f'<table:table-cell office:value-type="float" office:value="{value}"/>'
@@ -52,12 +53,14 @@ def _fods(sheets: dict[str, list[list[object]]]) -> str:
         + "</table:table>"
         for name, rows in sheets.items()
     )
-    return ('<?xml version="1.0" encoding="UTF-8"?><office:document '
-            'xmlns:office="urn:oasis:names:tc:opendocument:xmlns:office:1.0" '
-            'xmlns:table="urn:oasis:names:tc:opendocument:xmlns:table:1.0" '
-            'xmlns:text="urn:oasis:names:tc:opendocument:xmlns:text:1.0" office:version="1.2" '
-            'office:mimetype="application/vnd.oasis.opendocument.spreadsheet"><office:body><office:spreadsheet>'
-            f"{tables}</office:spreadsheet></office:body></office:document>")
+    return (
+        '<?xml version="1.0" encoding="UTF-8"?><office:document '
+        'xmlns:office="urn:oasis:names:tc:opendocument:xmlns:office:1.0" '
+        'xmlns:table="urn:oasis:names:tc:opendocument:xmlns:table:1.0" '
+        'xmlns:text="urn:oasis:names:tc:opendocument:xmlns:text:1.0" office:version="1.2" '
+        'office:mimetype="application/vnd.oasis.opendocument.spreadsheet"><office:body><office:spreadsheet>'
+        f"{tables}</office:spreadsheet></office:body></office:document>"
+    )
 
 
 def save_with_libreoffice(source: Path, targets: list[tuple[Path, str | None]]) -> None:
@@ -72,9 +75,17 @@ def save_with_libreoffice(source: Path, targets: list[tuple[Path, str | None]]) 
 
     with tempfile.TemporaryDirectory() as profile:
         pipe = f"leakbudget-fixtures-{os.getpid()}"
-        office = subprocess.Popen(["soffice", "--headless", "--invisible", "--norestore",
-                                   f"-env:UserInstallation=file://{profile}", f"--accept=pipe,name={pipe};urp;"],
-                                  stderr=subprocess.DEVNULL)
+        office = subprocess.Popen(
+            [
+                "soffice",
+                "--headless",
+                "--invisible",
+                "--norestore",
+                f"-env:UserInstallation=file://{profile}",
+                f"--accept=pipe,name={pipe};urp;",
+            ],
+            stderr=subprocess.DEVNULL,
+        )
         try:
             local = uno.getComponentContext()
             resolver = local.ServiceManager.createInstanceWithContext("com.sun.star.bridge.UnoUrlResolver", local)
@@ -86,8 +97,9 @@ def save_with_libreoffice(source: Path, targets: list[tuple[Path, str | None]]) 
                     time.sleep(0.2)
             desktop = context.ServiceManager.createInstanceWithContext("com.sun.star.frame.Desktop", context)
             for target, password in targets:
-                doc = desktop.loadComponentFromURL(uno.systemPathToFileUrl(str(source)), "_blank", 0,
-                                                   (prop("Hidden", True),))
+                doc = desktop.loadComponentFromURL(
+                    uno.systemPathToFileUrl(str(source)), "_blank", 0, (prop("Hidden", True),)
+                )
                 args = [prop("FilterName", "MS Excel 97")] + ([prop("Password", password)] if password else [])
                 doc.storeToURL(uno.systemPathToFileUrl(str(target)), tuple(args))
                 doc.close(True)
@@ -101,13 +113,26 @@ def save_with_libreoffice(source: Path, targets: list[tuple[Path, str | None]]) 
                 office.kill()
 
 
-def _directory_entry(name: str, kind: int, child: int = NOSTREAM, right: int = NOSTREAM, start: int = ENDOFCHAIN,
-                     size: int = 0) -> bytes:
+def _directory_entry(
+    name: str, kind: int, child: int = NOSTREAM, right: int = NOSTREAM, start: int = ENDOFCHAIN, size: int = 0
+) -> bytes:
     """One 128-byte directory entry ([MS-CFB] 2.6.1); ``kind`` 1 storage, 2 stream, 5 root, 0 unused."""
     encoded = (name + "\0").encode("utf-16-le") if name else b""
     return struct.pack(
-        "<64sHBBIII16sIQQIQ", encoded, len(encoded), kind, 1, NOSTREAM, right, child, bytes(16), 0, 0, 0,
-        start, size,
+        "<64sHBBIII16sIQQIQ",
+        encoded,
+        len(encoded),
+        kind,
+        1,
+        NOSTREAM,
+        right,
+        child,
+        bytes(16),
+        0,
+        0,
+        0,
+        start,
+        size,
     )
 
 
@@ -132,10 +157,30 @@ def compound_file(streams: list[tuple[str, bytes]]) -> bytes:
         right = 1 + ordered[position + 1] if position + 1 < len(ordered) else NOSTREAM
         entries.append(_directory_entry(name, 2, right=right, start=2 + i * per_stream, size=len(data)))
     entries += [_directory_entry("", 0)] * (SECTOR // 128 - len(entries))
-    header = struct.pack(
-        "<8s16sHHHHH6sIIIIIIIII", bytes.fromhex("D0CF11E0A1B11AE1"), bytes(16), 0x003E, 0x0003, 0xFFFE, 9, 6,
-        bytes(6), 0, 1, 1, 0, STREAM_BYTES, ENDOFCHAIN, 0, ENDOFCHAIN, 0,
-    ) + struct.pack("<I", 0) + struct.pack("<I", FREESECT) * 108
+    header = (
+        struct.pack(
+            "<8s16sHHHHH6sIIIIIIIII",
+            bytes.fromhex("D0CF11E0A1B11AE1"),
+            bytes(16),
+            0x003E,
+            0x0003,
+            0xFFFE,
+            9,
+            6,
+            bytes(6),
+            0,
+            1,
+            1,
+            0,
+            STREAM_BYTES,
+            ENDOFCHAIN,
+            0,
+            ENDOFCHAIN,
+            0,
+        )
+        + struct.pack("<I", 0)
+        + struct.pack("<I", FREESECT) * 108
+    )
     assert len(header) == SECTOR
     return header + struct.pack(f"<{SECTOR // 4}I", *fat) + b"".join(entries) + b"".join(d for _, d in streams)
 

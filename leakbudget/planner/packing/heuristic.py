@@ -91,15 +91,22 @@ class _State:
 
     def fits(self, i: int, b: int) -> bool:
         c = self.col[b]
-        return bool(self.p.allowed[i, c] and self.p.leak_ma[i, c] <= self.res_leak[b]
-                    and self.p.amps_a[i, c] <= self.res_amps[b])
+        return bool(
+            self.p.allowed[i, c]
+            and self.p.leak_ma[i, c] <= self.res_leak[b]
+            and self.p.amps_a[i, c] <= self.res_amps[b]
+        )
 
     def fitting(self, i: int, exclude: tuple[int, ...] = ()) -> np.ndarray:
         """Open bins item i fits on now (indices)."""
         lim = self.limit
         cols = self.col[:lim]
-        ok = (self.open[:lim] & self.p.allowed[i, cols] & (self.p.leak_ma[i, cols] <= self.res_leak[:lim])
-              & (self.p.amps_a[i, cols] <= self.res_amps[:lim]))
+        ok = (
+            self.open[:lim]
+            & self.p.allowed[i, cols]
+            & (self.p.leak_ma[i, cols] <= self.res_leak[:lim])
+            & (self.p.amps_a[i, cols] <= self.res_amps[:lim])
+        )
         for b in exclude:
             if b < lim:
                 ok[b] = False
@@ -157,10 +164,13 @@ class _State:
                 if curing:
                     victim = curing[0]
                 else:
-                    def share(k: int) -> float:
+
+                    def share(k: int, b: int = b, over_l: float = over_l, over_a: float = over_a) -> float:
                         w, a = self.weight(k, b)
                         return (min(w / over_l, 1.0) if over_l > 0 else 0.0) + (
-                            min(a / over_a, 1.0) if over_a > 0 else 0.0)
+                            min(a / over_a, 1.0) if over_a > 0 else 0.0
+                        )
+
                     victim = max(members, key=share)
                 self.take(victim)
                 pool.append(victim)
@@ -196,8 +206,8 @@ class _State:
         items = np.asarray(pool, dtype=np.int64)
         share_l = p.leak_ma[items, e] / cap_l
         share_a = p.amps_a[items, e] / cap_a
-        room_l = float(self.res_leak[:self.limit][self.open[:self.limit]].sum()) / cap_l
-        room_a = float(self.res_amps[:self.limit][self.open[:self.limit]].sum()) / cap_a
+        room_l = float(self.res_leak[: self.limit][self.open[: self.limit]].sum()) / cap_l
+        room_a = float(self.res_amps[: self.limit][self.open[: self.limit]].sum()) / cap_a
         leak_scarce = share_l.sum() / max(room_l, 1e-12) >= share_a.sum() / max(room_a, 1e-12)
         heavy = (share_a > share_l) if leak_scarce else (share_l > share_a)
         spread_res = self.res_amps if leak_scarce else self.res_leak
@@ -231,8 +241,7 @@ class _State:
         bins = np.flatnonzero(ok)
         if bins.size == 0:
             return -1
-        deficit = np.maximum(p.leak_ma[i, cols[bins]] - self.res_leak[bins], 0) / np.maximum(
-            self.cap_leak[bins], 1e-12)
+        deficit = np.maximum(p.leak_ma[i, cols[bins]] - self.res_leak[bins], 0) / np.maximum(self.cap_leak[bins], 1e-12)
         for b in bins[np.argsort(deficit)][:SHIFT_CANDIDATE_BINS].tolist():
             w, a = self.weight(i, b)
             # prefer moving items that are moved anyway (no extra move)
@@ -252,8 +261,11 @@ class _State:
     def eliminate_new_bins(self, deadline: float) -> None:
         """Try to empty each new bin, least filled first."""
         e = self.p.n_existing
-        order = sorted((b for b in range(e, self.limit) if self.open[b]),
-                       key=lambda b: self.res_leak[b] / max(self.cap_leak[b], 1e-12), reverse=True)
+        order = sorted(
+            (b for b in range(e, self.limit) if self.open[b]),
+            key=lambda b: self.res_leak[b] / max(self.cap_leak[b], 1e-12),
+            reverse=True,
+        )
         for b in order:
             if time.monotonic() > deadline:
                 return
@@ -288,7 +300,7 @@ class _State:
     def restore_moved(self, deadline: float) -> None:
         """Bring moved items back to their start bin, relocating items moved in there when that makes room."""
         p = self.p
-        moved_out = [i for i in np.flatnonzero((p.start >= 0) & (self.bin_of != p.start)).tolist()]
+        moved_out = np.flatnonzero((p.start >= 0) & (self.bin_of != p.start)).tolist()
         for i in sorted(moved_out, key=lambda k: self.size[k]):
             if time.monotonic() > deadline:
                 return
@@ -327,8 +339,9 @@ class _State:
             if time.monotonic() > deadline:
                 return
             lim = self.limit
-            use = np.where(self.open[:lim], (base[:lim] + self.cap_leak[:lim] - self.res_leak[:lim])
-                           / budget[:lim], -np.inf)
+            use = np.where(
+                self.open[:lim], (base[:lim] + self.cap_leak[:lim] - self.res_leak[:lim]) / budget[:lim], -np.inf
+            )
             b = int(np.argmax(use))
             free = [k for k in self.members[b] if self.bin_of[k] != p.start[k]]
             best: tuple[float, int, int] | None = None
@@ -337,8 +350,9 @@ class _State:
                 targets = self.fitting(k, exclude=(b,))
                 if targets.size == 0:
                     continue
-                after = (base[targets] + self.cap_leak[targets] - self.res_leak[targets]
-                         + p.leak_ma[k, self.col[targets]]) / budget[targets]
+                after = (
+                    base[targets] + self.cap_leak[targets] - self.res_leak[targets] + p.leak_ma[k, self.col[targets]]
+                ) / budget[targets]
                 j = int(np.argmin(after))
                 worst = max(float(after[j]), (base[b] + self.cap_leak[b] - self.res_leak[b] - w) / budget[b])
                 if worst < use[b] - 1e-12 and (best is None or worst < best[0]):
@@ -384,7 +398,7 @@ def improve(p: Packing, deadline: float) -> Solution:
         pre_open = packing_bound(p)
         step = max(1, pre_open // SPREAD_STEPS)
         while True:
-            attempt(lambda st: st.place_spread(st.repair(), pre_open))
+            attempt(lambda st, opened=pre_open: st.place_spread(st.repair(), opened))
             assert best is not None
             pre_open += step
             if pre_open >= best.solution().new_count or time.monotonic() > build_until:

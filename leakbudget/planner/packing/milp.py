@@ -61,8 +61,9 @@ class _Model:
             if count == 0 or items.size == 0:
                 continue
             with np.errstate(divide="ignore", invalid="ignore"):
-                share = np.maximum(p.leak_ma[items, c] / p.spare_leak_ma[c],
-                                   np.nan_to_num(p.amps_a[items, c] / p.spare_amps_a[c]))
+                share = np.maximum(
+                    p.leak_ma[items, c] / p.spare_leak_ma[c], np.nan_to_num(p.amps_a[items, c] / p.spare_amps_a[c])
+                )
             order = items[np.argsort(-share, kind="stable")]
             first_slot = len(self.slot_type)
             for s in range(count):
@@ -116,7 +117,7 @@ class _Model:
         by_item = np.argsort(self.pair_item, kind="stable")
         bounds = np.searchsorted(self.pair_item[by_item], np.arange(self.n + 1))
         for i in range(self.n):
-            cols = by_item[bounds[i]:bounds[i + 1]]
+            cols = by_item[bounds[i] : bounds[i + 1]]
             add(cols, np.ones(cols.size), 1.0, 1.0)
         u_col = nx + ny
         for j in range(e):
@@ -127,8 +128,12 @@ class _Model:
             if math.isfinite(p.spare_amps_a[j]):
                 add(cols, self.pair_amps[cols], -np.inf, float(p.spare_amps_a[j]))
             if with_u:
-                add(np.append(cols, u_col), np.append(self.pair_leak[cols], -p.budget_ma[j]), -np.inf,
-                    -float(p.base_ma[j]))
+                add(
+                    np.append(cols, u_col),
+                    np.append(self.pair_leak[cols], -p.budget_ma[j]),
+                    -np.inf,
+                    -float(p.base_ma[j]),
+                )
         for s in range(ny):
             cols = np.flatnonzero(self.pair_slot == s)
             tcol = self.slot_col[s]
@@ -141,8 +146,12 @@ class _Model:
             if s + 1 < ny and self.slot_type[s + 1] == self.slot_type[s]:
                 add(np.array([y + 1, y]), np.array([1.0, -1.0]), -np.inf, 0.0)
             if with_u:
-                add(np.concatenate([cols, [y, u_col]]),
-                    np.concatenate([self.pair_leak[cols], [p.base_ma[tcol], -p.budget_ma[tcol]]]), -np.inf, 0.0)
+                add(
+                    np.concatenate([cols, [y, u_col]]),
+                    np.concatenate([self.pair_leak[cols], [p.base_ma[tcol], -p.budget_ma[tcol]]]),
+                    -np.inf,
+                    0.0,
+                )
         n_vars = nx + ny + (1 if with_u else 0)
         matrix = coo_matrix((np.concatenate(v), (np.concatenate(r), np.concatenate(c))), shape=(row, n_vars))
         return matrix.tocsr(), np.asarray(lo), np.asarray(hi)
@@ -155,7 +164,7 @@ class _Model:
 
     def decode(self, x: np.ndarray) -> Solution:
         e = self.p.n_existing
-        chosen = np.flatnonzero(x[:self.n_x] > _INT_TOL)
+        chosen = np.flatnonzero(x[: self.n_x] > _INT_TOL)
         bin_of = np.full(self.n, -1, dtype=np.int64)
         slot = self.pair_slot[chosen]
         bin_of[self.pair_item[chosen]] = np.where(slot >= 0, e + slot, self.pair_bin[chosen])
@@ -183,18 +192,31 @@ def _native_output_silenced() -> Iterator[None]:
         os.close(devnull)
 
 
-def _solve(c: np.ndarray, integrality: np.ndarray, matrix: object, lo: np.ndarray, hi: np.ndarray,
-           upper: np.ndarray, time_limit_s: float, gap: float) -> object:
+def _solve(
+    c: np.ndarray,
+    integrality: np.ndarray,
+    matrix: object,
+    lo: np.ndarray,
+    hi: np.ndarray,
+    upper: np.ndarray,
+    time_limit_s: float,
+    gap: float,
+) -> object:
     from scipy.optimize import Bounds, LinearConstraint, milp
 
     with _native_output_silenced():
-        return milp(c, integrality=integrality, bounds=Bounds(np.zeros(c.size), upper),
-                    constraints=LinearConstraint(matrix, lo, hi),
-                    options={"time_limit": max(time_limit_s, 0.05), "mip_rel_gap": gap, "presolve": True})
+        return milp(
+            c,
+            integrality=integrality,
+            bounds=Bounds(np.zeros(c.size), upper),
+            constraints=LinearConstraint(matrix, lo, hi),
+            options={"time_limit": max(time_limit_s, 0.05), "mip_rel_gap": gap, "presolve": True},
+        )
 
 
-def solve_exact(p: Packing, slots: list[int], min_new: int, min_moves: int, time_limit_s: float,
-                headroom_time_s: float) -> ExactResult:
+def solve_exact(
+    p: Packing, slots: list[int], min_new: int, min_moves: int, time_limit_s: float, headroom_time_s: float
+) -> ExactResult:
     """Solve stage 1 (new circuits, then moves) and, if proven, stage 2 (headroom) for one packing.
 
     ``slots[t]`` is the most new bins of type t worth offering (the heuristic's total is enough: no optimum
@@ -263,7 +285,7 @@ def _headroom(model: _Model, sol: Solution, time_limit_s: float) -> tuple[Soluti
     matrix, lo, hi = model.rows(with_u=True)
     n_vars = nx + ny + 1
     count = np.zeros(n_vars)
-    count[nx:nx + ny] = 1.0
+    count[nx : nx + ny] = 1.0
     keep = np.zeros(n_vars)
     mcols, mvals, always = model.moves_row()
     keep[mcols] = mvals
@@ -282,8 +304,11 @@ def _headroom(model: _Model, sol: Solution, time_limit_s: float) -> tuple[Soluti
     if res.x is None:
         return None, False
     candidate = model.decode(res.x)
-    if (candidate.violations(p, solver=True) or candidate.key(p)[:2] != sol.key(p)[:2]
-            or candidate.max_use(p) > sol.max_use(p)):
+    if (
+        candidate.violations(p, solver=True)
+        or candidate.key(p)[:2] != sol.key(p)[:2]
+        or candidate.max_use(p) > sol.max_use(p)
+    ):
         return None, False
     return candidate, res.status == 0
 
@@ -323,13 +348,22 @@ def lp_bound(p: Packing, time_limit_s: float = 5.0) -> int:
                 rows_v.append(weights[cols])
                 b.append(float(spare))
             row += 1
-    a_ub = coo_matrix((np.concatenate(rows_v), (np.concatenate(rows_r), np.concatenate(rows_c))),
-                      shape=(row, nx + t)).tocsr()
+    a_ub = coo_matrix(
+        (np.concatenate(rows_v), (np.concatenate(rows_r), np.concatenate(rows_c))), shape=(row, nx + t)
+    ).tocsr()
     a_eq = coo_matrix((np.ones(nx), (pi, np.arange(nx))), shape=(n, nx + t)).tocsr()
     cost = np.concatenate([np.zeros(nx), np.ones(t)])
     with _native_output_silenced():
-        res = linprog(cost, A_ub=a_ub, b_ub=np.asarray(b), A_eq=a_eq, b_eq=np.ones(n), bounds=(0, None),
-                      method="highs", options={"time_limit": max(time_limit_s, 0.05)})
+        res = linprog(
+            cost,
+            A_ub=a_ub,
+            b_ub=np.asarray(b),
+            A_eq=a_eq,
+            b_eq=np.ones(n),
+            bounds=(0, None),
+            method="highs",
+            options={"time_limit": max(time_limit_s, 0.05)},
+        )
     if res.status != 0:
         return 0
     return max(0, int(math.ceil(res.fun - 1e-6)))

@@ -61,8 +61,10 @@ class Packing:
             if on.size == 0:
                 continue
             need = 0
-            for weights, spare in ((self.leak_ma[on, j], self.spare_leak_ma[j]),
-                                   (self.amps_a[on, j], self.spare_amps_a[j])):
+            for weights, spare in (
+                (self.leak_ma[on, j], self.spare_leak_ma[j]),
+                (self.amps_a[on, j], self.spare_amps_a[j]),
+            ):
                 excess = float(weights.sum()) - float(spare)
                 if excess > 0:
                     removed = np.cumsum(np.sort(weights)[::-1])
