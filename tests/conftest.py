@@ -67,3 +67,13 @@ def make_workbook(tmp_path: Path):
         return write_workbook(tmp_path / name, sheets if sheets is not None else basic_sheets())
 
     return make
+
+
+SLOW_FIXTURES = {"demo_run"}  # builds the demo's HTML and PDF report once (several seconds)
+
+
+def pytest_collection_modifyitems(items: list[pytest.Item]) -> None:
+    """Tests that use a slow fixture are slow too (`-m "not slow"` leaves them out)."""
+    for item in items:
+        if SLOW_FIXTURES & set(getattr(item, "fixturenames", ())):
+            item.add_marker(pytest.mark.slow)

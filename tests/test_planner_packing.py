@@ -99,6 +99,7 @@ def test_existing_bins_as_dummy_items_by_hand():
     assert new_bins_bound(np.array([7, 7, 7, 4.0]), np.array([3, 4.0]), 10) == 3
 
 
+@pytest.mark.slow
 @settings(max_examples=60, deadline=None)
 @given(st.lists(st.integers(1, 10), min_size=1, max_size=7), st.lists(st.integers(0, 10), max_size=2))
 def test_bounds_never_exceed_the_optimum(sizes, spares):

@@ -527,6 +527,7 @@ def test_split_plan_section_equals_split_json(tmp_path, capsys, monkeypatch):
     assert section.blocks[0].text == plan["summary"]
 
 
+@pytest.mark.slow
 def test_unprotected_only_plan_renders_without_overview(tmp_path):
     sheets = basic_sheets()
     for row in sheets["Circuits"][1:]:

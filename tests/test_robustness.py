@@ -255,6 +255,7 @@ def _one_sheet_package() -> bytes:
 # ------------------------------------------------------------------------------------------- big but fine
 
 
+@pytest.mark.slow
 def test_a_million_formatted_empty_rows_stay_fast_and_small(tmp_path: Path) -> None:
     """1 000 000 rows of formatted empty cells below the loads (see robustness_cases.million_formatted_rows)."""
     path = million_formatted_rows(tmp_path)
@@ -471,6 +472,7 @@ def test_formula_like_names_reach_the_result_sheet_as_text(tmp_path: Path) -> No
 # ------------------------------------------------------------------------------------------- random damage
 
 
+@pytest.mark.slow
 @settings(max_examples=100, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(seed=st.integers(0, 2**32 - 1), cell_damage=st.integers(0, 3), package_damage=st.integers(0, 2))
 def test_random_damage_exit_0_1_2_no_traceback_input_unchanged_cells_kept(

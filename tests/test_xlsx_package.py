@@ -504,6 +504,7 @@ print("done", flush=True)
 """
 
 
+@pytest.mark.slow
 def test_killed_or_interrupted_write_leaves_the_original(tmp_path: Path) -> None:
     """SIGKILL at three moments and SIGINT once, to parallel children each writing a 500 000-row sheet (seconds)."""
     plans = [(signal.SIGKILL, 0.05), (signal.SIGKILL, 0.4), (signal.SIGKILL, 0.8), (signal.SIGINT, 0.4)]
