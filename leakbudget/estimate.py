@@ -257,7 +257,9 @@ def evaluate(project: Project, loads: list[LoadResult]) -> list[CircuitResult]:
     index = project.circuit_index()
     n = len(project.circuits)
     placed = [r for r in loads if r.circuit_id is not None]
-    idx = np.fromiter((index[r.circuit_id.lower()] for r in placed), dtype=np.int64, count=len(placed))
+    idx = np.fromiter(
+        (index[r.circuit_id.lower()] for r in loads if r.circuit_id is not None), dtype=np.int64, count=len(placed)
+    )
     mags = np.fromiter((r.leakage_ma for r in placed), dtype=float, count=len(placed))
     phasors = np.fromiter((r.phasor_ma for r in placed), dtype=complex, count=len(placed))
     arithmetic = phys.arithmetic_sums(idx, mags, n)

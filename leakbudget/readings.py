@@ -25,13 +25,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Protocol
 
 from leakbudget import risk
 from leakbudget.devices import Status, status
-from leakbudget.estimate import CATALOGUE, Estimate
-from leakbudget.model import IDLE, Reading
+from leakbudget.estimate import CATALOGUE, CircuitResult, LoadResult
+from leakbudget.model import IDLE, Project, Reading
 from leakbudget.provenance import Source
-from leakbudget.risk import TripProbability
+from leakbudget.risk import RiskResult, TripProbability
 
 CALIBRATE_ADVICE = "consider calibrating this circuit with the reading (Calibrate = yes)"
 FAR_ABOVE = "far above"
@@ -49,6 +50,15 @@ THRESHOLDS = (
 
 
 # --- Reconciliation and calibration ------------------------------------------------------------------------------
+class _CheckedEstimate(Protocol):
+    """The estimate with its trip likelihoods, as :class:`leakbudget.checking.CheckResult` holds them."""
+
+    project: Project
+    circuits: list[CircuitResult]
+    loads: list[LoadResult]
+    risk: RiskResult | None
+
+
 @dataclass
 class Calibration:
     """A circuit's estimate with its catalogue values scaled by ``factor`` to match a reading."""
@@ -110,7 +120,7 @@ def calibration_factor(fixed: complex, catalogue: complex, reading_ma: float) ->
     return k if k >= 0.0 else None
 
 
-def _calibrate(result: Estimate, reading: Reading) -> tuple[Calibration | None, str]:
+def _calibrate(result: _CheckedEstimate, reading: Reading) -> tuple[Calibration | None, str]:
     index = result.project.circuit_index()[reading.circuit_id.lower()]
     circuit_result = result.circuits[index]
     mine = [r for r in result.loads if r.circuit_id == reading.circuit_id]
@@ -160,7 +170,7 @@ def _calibrate(result: Estimate, reading: Reading) -> tuple[Calibration | None, 
     return calibration, how
 
 
-def reconcile(result: Estimate) -> list[ReadingResult]:
+def reconcile(result: _CheckedEstimate) -> list[ReadingResult]:
     """Compare every reading with its circuit's estimate; calibrate where asked."""
     project = result.project
     if not project.readings:

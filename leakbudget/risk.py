@@ -564,7 +564,8 @@ def circuit_distributions(result: Estimate, params: RiskParameters) -> tuple[lis
     """Circuit index and distribution of every placed load and cable run, in the check's order."""
     index = result.project.circuit_index()
     placed = [r for r in result.loads if r.circuit_id is not None]
-    return [index[r.circuit_id.lower()] for r in placed], [distribution(r, params) for r in placed]  # type: ignore[union-attr]
+    circuits = [index[r.circuit_id.lower()] for r in result.loads if r.circuit_id is not None]
+    return circuits, [distribution(r, params) for r in placed]
 
 
 def _check_rows(result: Estimate, params: RiskParameters) -> _Rows:
@@ -572,8 +573,8 @@ def _check_rows(result: Estimate, params: RiskParameters) -> _Rows:
     index = result.project.circuit_index()
     placed = [r for r in result.loads if r.circuit_id is not None]
     group = np.fromiter(
-        (index[r.circuit_id.lower()] for r in placed),
-        dtype=np.int64,  # type: ignore[union-attr]
+        (index[r.circuit_id.lower()] for r in result.loads if r.circuit_id is not None),
+        dtype=np.int64,
         count=len(placed),
     )
     return _Rows.from_arrays(group, *_describe(placed, params))

@@ -25,13 +25,14 @@ from leakbudget.errors import LeakbudgetError
 from leakbudget.locations import LOCATION_KINDS
 
 if TYPE_CHECKING:
-    pass
+    # typer 0.27 carries its own copy of click; TyperGroup.invoke takes that copy's Context
+    from typer._click import Context as ClickContext
 
 
 class _Group(TyperGroup):
     """Turns every LeakbudgetError into one line on stderr and exit code 2: the one place errors are converted."""
 
-    def invoke(self, ctx: typer.Context) -> Any:
+    def invoke(self, ctx: ClickContext) -> Any:
         try:
             return super().invoke(ctx)
         except LeakbudgetError as exc:

@@ -176,4 +176,4 @@ EV_CHARGER_KEY_PREFIX = "ev-charger"  # catalogue keys of EV charging equipment 
 
 def is_ev_charger(appliance_key: str | None) -> bool:
     """Whether a catalogue key names EV charging equipment (built-in keys and user rows named ``ev-charger…``)."""
-    return bool(appliance_key) and appliance_key.startswith(EV_CHARGER_KEY_PREFIX)
+    return bool(appliance_key and appliance_key.startswith(EV_CHARGER_KEY_PREFIX))

@@ -34,14 +34,14 @@ from leakbudget.estimate import MEASURED, CircuitResult, LoadResult
 from leakbudget.locations import Classification, classify_room
 from leakbudget.model import Circuit, Project
 from leakbudget.provenance import Kind, Source
-from leakbudget.settings import US_SUPPLY
+from leakbudget.settings import US_SUPPLY, Settings
 
 # Heating and cooking elements take up moisture through their end seals while cold; at switch-on their leakage
 # can be several times the dry value until they dry out (BS 7671:2001 guidance). The factor is the risk model's
 # `Switch-on factor` setting (one default, in risk.py), so the review and the likelihood agree.
 
 
-def _switch_on(settings) -> tuple[float, Source]:  # type: ignore[no-untyped-def]
+def _switch_on(settings: Settings) -> tuple[float, Source]:
     factor = float(settings["Switch-on factor"])
     origin = settings.sources["Switch-on factor"]
     return factor, Source(

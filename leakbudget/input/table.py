@@ -20,7 +20,7 @@ from dataclasses import dataclass, field
 from datetime import date, datetime, time, timedelta
 from importlib import resources
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, final
 
 from leakbudget.errors import CatalogueError, WorkbookError
 from leakbudget.input.schema import Column, Sheet, normalise
@@ -39,6 +39,7 @@ _DATES = (datetime, date, time, timedelta)
 Row = tuple[int, list[Any]]  # (1-based row number in the file, cell values)
 
 
+@final  # never subclassed: `type(x) is Unreadable` tells it apart from every other value
 @dataclass(frozen=True)
 class Unreadable:
     """A cell whose value cannot be used (not a valid quantity, a formula with no saved result, an error value,

@@ -62,6 +62,7 @@ def registry() -> Any:
     """The one pint registry of the process (built on first use)."""
     import pint
 
+    ureg: pint.UnitRegistry[Any]
     try:  # pint keeps its parsed definitions in the user's cache folder: ten times faster start-up
         ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
     except OSError:  # no writable cache folder

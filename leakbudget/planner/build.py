@@ -252,7 +252,7 @@ def build(
         for i in movable:
             key = room_key(loads[i].room)
             if key not in kinds:
-                kinds[key] = new_kind(
+                kind = kinds[key] = new_kind(
                     project,
                     key,
                     loads[i].room,
@@ -262,8 +262,8 @@ def build(
                     [circuits[j] for j in all_protected.serving(key)],
                 )
                 limit = limits_ma.get(kind_limit_key(key))
-                if kinds[key] is not None and limit is not None:
-                    kinds[key] = dataclasses.replace(kinds[key], budget_ma=min(kinds[key].budget_ma, limit))
+                if kind is not None and limit is not None:
+                    kinds[key] = dataclasses.replace(kind, budget_ma=min(kind.budget_ma, limit))
         usable = [j for j in protected if j not in frozen]
         spare_leak = np.full(len(circuits), -math.inf)
         spare_amps = np.full(len(circuits), -math.inf)
@@ -328,10 +328,10 @@ def _groups(
     elig: dict[int, tuple[list[int], list[NewKind]]] = {}
     patterns: dict[tuple[tuple[int, ...], tuple[int, ...]], list[int]] = {}
     for i in movable:
-        bins = eligibility.circuits_for(loads[i], on[i])
+        circuits_on = eligibility.circuits_for(loads[i], on[i])
         new = list(eligibility.kinds_for(loads[i], kinds))
-        elig[i] = (bins, new)
-        patterns.setdefault((tuple(bins), tuple(id(k) for k in new)), []).append(i)
+        elig[i] = (circuits_on, new)
+        patterns.setdefault((tuple(circuits_on), tuple(id(k) for k in new)), []).append(i)
     for bins, new_ids in patterns:
         anchor = ("pattern", bins, new_ids)
         find(anchor)

@@ -306,6 +306,7 @@ def _exact_plan(g: RoomGroup, time_s: float) -> bool:
         g.headroom_proven = better and result.headroom_proven
         g.bound, g.moves_bound = sol.new_count, sol.moves(p)
     else:
+        assert g.solution is not None  # sol, or the heuristic plan h that it did not beat
         g.bound = max(g.bound, min(result.new_bound, g.solution.new_count))
     return not g.proven
 

@@ -224,12 +224,17 @@ def overview_chart_png(bars: Sequence[CircuitBar]) -> bytes | None:
     return chart.png() if chart is not None else None
 
 
+def _percent_of_budget(value_ma: float | None, budget_ma: float | None) -> float:
+    assert value_ma is not None and budget_ma is not None  # overview_chart keeps protected circuits only
+    return 100 * value_ma / budget_ma
+
+
 def _draw_overview(fig: Any, rows: Sequence[CircuitBar], height: float) -> None:
     ax = fig.add_axes((0.16, 0.55 / height, 0.8, (height - 0.85) / height))
     _style_axis(ax)
     names = [_plain(b.circuit) for b in rows][::-1]
-    used = [100 * b.gate_ma / b.budget_ma for b in rows][::-1]
-    no_trip = [100 * b.no_trip_ma / b.budget_ma for b in rows][::-1]  # type: ignore[operator]
+    used = [_percent_of_budget(b.gate_ma, b.budget_ma) for b in rows][::-1]
+    no_trip = [_percent_of_budget(b.no_trip_ma, b.budget_ma) for b in rows][::-1]
     colours = [STATUS_COLOURS[b.status] for b in rows][::-1]
     y = list(range(len(rows)))
     ax.barh(y, used, height=0.6, color=colours, zorder=2)

@@ -50,14 +50,21 @@ OVERVIEW_ROWS = 28  # circuits per overview chart: 0.9 in + 0.3 in each stays wi
 
 
 class FindingLike(Protocol):
-    """What the report reads from a review finding (``leakbudget.compliance.rules``)."""
+    """What the report reads from a review finding (``leakbudget.compliance.rules``); read-only, as the frozen
+    Finding's fields are."""
 
-    severity: Any
-    rule: str
-    source: Any
-    circuit: str | None
-    load: str | None
-    message: str
+    @property
+    def severity(self) -> Any: ...
+    @property
+    def rule(self) -> str: ...
+    @property
+    def source(self) -> Any: ...
+    @property
+    def circuit(self) -> str | None: ...
+    @property
+    def load(self) -> str | None: ...
+    @property
+    def message(self) -> str: ...
 
 
 # ---- helpers ---------------------------------------------------------------------------------------------------

@@ -5,6 +5,7 @@ from __future__ import annotations
 import os
 import stat
 from pathlib import Path
+from typing import IO
 
 from leakbudget.errors import ReportError
 from leakbudget.reporting.document import Report
@@ -52,6 +53,10 @@ def write_report(report: Report, workbook: Path, html: Path | None = None, pdf: 
             data = render_pdf(report)
         # a report replacing an earlier one keeps its permissions; a new one gets the workbook's
         mode = stat.S_IMODE(os.stat(path if path.exists() else workbook).st_mode)
-        replace_atomically(path, mode, lambda handle, payload=data: handle.write(payload))  # never half-written
+
+        def write(handle: IO[bytes], payload: bytes = data) -> int:
+            return handle.write(payload)
+
+        replace_atomically(path, mode, write)  # never half-written
         written.append(path)
     return written

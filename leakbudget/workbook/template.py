@@ -40,7 +40,7 @@ INSTRUCTIONS = (
 )
 
 
-def _header(ws, book, sheet: Sheet, bold) -> None:  # type: ignore[no-untyped-def]
+def _header(ws, book, sheet: Sheet, bold) -> None:  # noqa: ANN001
     for j, col in enumerate(sheet.columns):
         ws.write_string(0, j, col.name, bold)
         unit = f" Bare numbers are in {col.unit}." if col.unit else ""
@@ -96,8 +96,8 @@ def write_template(path: str | Path) -> Path:
         hidden.write_string(0, j, name, bold)
         for i, v in enumerate(values, start=1):
             hidden.write_string(i, j, v)
-        col = chr(65 + j)
-        book.define_name(f"lb_{name.replace(' ', '_').lower()}", f"=Lists!${col}$2:${col}${len(values) + 1}")
+        letter = chr(65 + j)
+        book.define_name(f"lb_{name.replace(' ', '_').lower()}", f"=Lists!${letter}$2:${letter}${len(values) + 1}")
     hidden.hide()
     for spec in (CIRCUITS, LOADS, LOCATIONS):
         ws = sheets[spec.name]

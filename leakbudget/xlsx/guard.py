@@ -34,6 +34,7 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import cast
 from xml.sax import SAXException
 from xml.sax.handler import ContentHandler
 
@@ -540,9 +541,8 @@ class _CellHandler(ContentHandler):
             error = kind == "e" and self.cell["v"] is not None
             no_result = not self.cell["v"] and kind not in ("str", "s", "inlineStr")
             if error or (self.cell["f"] is not None and (self.cell["v"] is None or no_result)):
-                self.scan.notes[self.at] = CellNote(
-                    *self.at, str(self.cell["v"]) if error else None, self.cell["f"] or None
-                )  # type: ignore[arg-type]
+                formula = cast("str | None", self.cell["f"])  # "f" and "v" hold text or None, "children" a bool
+                self.scan.notes[self.at] = CellNote(*self.at, str(self.cell["v"]) if error else None, formula or None)
 
 
 def _attr(attrs, name: str) -> str | None:  # noqa: ANN001

@@ -188,7 +188,7 @@ class _Package:
                 "re-save the workbook in a spreadsheet program and run again."
             ) from None
 
-    def rels(self, part: str) -> tuple[XmlPart | None, list[tuple[_Rel, object]]]:
+    def rels(self, part: str) -> tuple[XmlPart | None, list[tuple[_Rel, Span]]]:
         """The relationships part of ``part`` (None if absent) and its relationships with their spans."""
         rels_name = _rels_name(part)
         if self.actual(rels_name) is None:
@@ -238,13 +238,14 @@ class _Graft:
         self.user, self.scratch = user, scratch
         self.content_types = user.xml(CONTENT_TYPES, 1)
         self.workbook = user.xml(WORKBOOK, 2)
-        self.sheets_span = next(iter(self.workbook.find("sheets", 1)), None)
-        if self.workbook.root.tag != f"{{{MAIN_NS}}}workbook" or self.sheets_span is None:
+        sheets_span = next(iter(self.workbook.find("sheets", 1)), None)
+        if self.workbook.root.tag != f"{{{MAIN_NS}}}workbook" or sheets_span is None:
             raise WriteBackError(
                 f"{user.path.name}: the workbook part is of a kind leakbudget does not edit "
                 f"({self.workbook.root.tag}); save it as a regular Excel .xlsx workbook (not 'Strict Open XML') "
                 "and run again."
             )
+        self.sheets_span = sheets_span
         workbook_rels, self.rel_list = user.rels(WORKBOOK)
         assert workbook_rels is not None  # its presence was checked
         self.workbook_rels = workbook_rels
@@ -492,7 +493,7 @@ def _worksheet_parts(package: _Package) -> list[str]:
     return [rels[e.get(f"{{{DOC_REL_NS}}}id", "")] for e in (sheets if sheets is not None else [])]  # type: ignore
 
 
-def _register_relationships(xml: XmlPart, rels: list[tuple[_Rel, object]], new: list[tuple[str, str]]) -> list[str]:
+def _register_relationships(xml: XmlPart, rels: list[tuple[_Rel, Span]], new: list[tuple[str, str]]) -> list[str]:
     """Append a relationship per (type, part) to the workbook's relationships part; return their ids."""
     used = {rel.id for rel, _ in rels}
     root = xml.spans[0]
@@ -541,13 +542,13 @@ def _register_content_types(xml: XmlPart, content_types: dict[str, str], removed
     if not any(s.attrs.get("Extension", "").casefold() == "rels" for s in xml.find("Default", 1)):
         fragments.append(f'<{root.prefix}Default Extension="rels" ContentType="{CT_RELATIONSHIPS}"/>')
     for part, content_type in content_types.items():
-        span = overrides.get(part.casefold())
-        if span is None or part.casefold() in gone:
+        override = overrides.get(part.casefold())
+        if override is None or part.casefold() in gone:
             fragments.append(
                 f"<{root.prefix}Override PartName={quoteattr('/' + part)} ContentType={quoteattr(content_type)}/>"
             )
-        elif span.attrs.get("ContentType") != content_type:
-            xml.set_attribute(span, "ContentType", content_type)
+        elif override.attrs.get("ContentType") != content_type:
+            xml.set_attribute(override, "ContentType", content_type)
     if fragments:
         xml.append_children(root, "".join(fragments).encode())
 
@@ -617,7 +618,7 @@ def _add_chart(book, worksheet, sheet: SheetData) -> None:  # noqa: ANN001
     last = len(sheet.rows) if spec.data_rows is None else min(spec.data_rows, len(sheet.rows))
     chart = book.add_chart({"type": "column"})
     for i, column in enumerate(spec.value_columns):
-        series = {
+        series: dict[str, object] = {
             "name": [sheet.name, 0, column],
             "categories": [sheet.name, 1, spec.category_column, last, spec.category_column],
             "values": [sheet.name, 1, column, last, column],

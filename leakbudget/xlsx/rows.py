@@ -121,18 +121,17 @@ def rows_xml(
     for number, row in enumerate(rows, start=SAMPLE_ROW):
         cells = []
         for column, value in enumerate(row):
-            kind = type(value)
-            if kind is str:
+            if type(value) is str:
                 body = texts.get(value)
                 if body is None:
                     body = texts[value] = text_cell(value)
-            elif kind is float:
+            elif type(value) is float:
                 if value != value:
                     continue
                 body = f"><v>{value!r}</v></c>" if -EXCEL_MAX_NUMBER <= value <= EXCEL_MAX_NUMBER else _cell(value)
             elif value is None:
                 continue
-            elif kind is int and -EXCEL_MAX_NUMBER <= value <= EXCEL_MAX_NUMBER:
+            elif type(value) is int and -EXCEL_MAX_NUMBER <= value <= EXCEL_MAX_NUMBER:
                 body = f"><v>{value}</v></c>"
             else:
                 body = _cell(value)

@@ -263,7 +263,7 @@ class _State:
         e = self.p.n_existing
         order = sorted(
             (b for b in range(e, self.limit) if self.open[b]),
-            key=lambda b: self.res_leak[b] / max(self.cap_leak[b], 1e-12),
+            key=lambda b: self.res_leak[b] / max(float(self.cap_leak[b]), 1e-12),
             reverse=True,
         )
         for b in order:
@@ -398,7 +398,11 @@ def improve(p: Packing, deadline: float) -> Solution:
         pre_open = packing_bound(p)
         step = max(1, pre_open // SPREAD_STEPS)
         while True:
-            attempt(lambda st, opened=pre_open: st.place_spread(st.repair(), opened))
+
+            def spread(st: _State, opened: int = pre_open) -> list[int]:
+                return st.place_spread(st.repair(), opened)
+
+            attempt(spread)
             assert best is not None
             pre_open += step
             if pre_open >= best.solution().new_count or time.monotonic() > build_until:

@@ -21,6 +21,7 @@ import sys
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -201,7 +202,7 @@ def _solve(
     upper: np.ndarray,
     time_limit_s: float,
     gap: float,
-) -> object:
+) -> Any:  # scipy's OptimizeResult (scipy has no type stubs)
     from scipy.optimize import Bounds, LinearConstraint, milp
 
     with _native_output_silenced():
