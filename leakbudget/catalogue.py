@@ -19,6 +19,9 @@ NATURES = ("capacitive", "resistive", "mixed")
 WAVEFORMS = ("sine", "pulsating-dc", "high-frequency", "smooth-dc")
 CLASSES = ("0I", "I", "II", "III")
 CONNECTIONS = ("plug", "fixed")
+WIRINGS = ("line-neutral", "line-line")
+LINE_NEUTRAL, LINE_LINE = WIRINGS
+LEAKAGE_PER = ("line", "total")
 CATEGORIES = ("kitchen", "bathroom", "laundry", "outdoor", "garage", "office", "shop", "general")
 DEFAULT_REFERENCE_VOLTAGE_V = 230.0
 DEFAULT_REFERENCE_FREQUENCY_HZ = 50.0
@@ -46,6 +49,14 @@ class Appliance:
     typical_source: Source
     upper_source: Source
     origin: str  # "built-in catalogue" or "workbook sheet 'Appliances' row N"
+    wiring: str = LINE_NEUTRAL  # "line-neutral" or "line-line"
+    rated_voltage_v: float | None = None  # the voltage typical_power_w is rated at (None: the reference voltage)
+    leakage_per: str = "line"  # a line-line row's figures: "line" (each line to earth) or "total" (both lines)
+    line_neutral_ma: float = 0.0  # typical leakage of a line-line row's line-to-neutral parts, on L1 [mA]
+
+    @property
+    def line_to_line(self) -> bool:
+        return self.wiring == LINE_LINE
 
 
 @dataclass(frozen=True, slots=True)
@@ -139,6 +150,13 @@ def appliances_from_table(table: RawTable, origin_prefix: str | None = None) -> 
                 )
                 or DEFAULT_REFERENCE_FREQUENCY_HZ,
                 typical_power_w=table.number(row, "Typical power", "W"),
+                wiring=table.choice(row, "Wiring", WIRINGS, LINE_NEUTRAL) or LINE_NEUTRAL,
+                rated_voltage_v=table.number(row, "Rated voltage", "V", positive=True, plausible=VOLTAGE_V),
+                leakage_per=table.choice(row, "Leakage per", LEAKAGE_PER, "line") or "line",
+                line_neutral_ma=table.number(
+                    row, "Line-neutral leakage", "mA", positive=False, plausible=STANDING_LEAKAGE_MA
+                )
+                or 0.0,
                 typical_source=source_from_text(typical_src)
                 if typical_src
                 else (Source(Kind.USER, f"{origin} (no source given)") if user else Source.from_memory()),

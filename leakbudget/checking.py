@@ -36,5 +36,15 @@ def check(project: Project) -> CheckResult:
     loads = estimate(project)
     result = CheckResult(project, evaluate(project, loads), loads)
     result.risk = assess(result)
+    mark_marginal(result)
     result.readings = reconcile(result)
     return result
+
+
+def mark_marginal(result: CheckResult) -> None:
+    """One verdict: a circuit within budget whose switch-on trip likelihood is above the ``Switch-on limit``
+    setting gets the status ``marginal`` (between ok and over-budget)."""
+    limit = float(result.project.settings["Switch-on limit"])
+    for c in result.circuits:
+        if c.status is Status.OK and c.risk is not None and c.risk.switch_on > limit:
+            c.status = Status.MARGINAL

@@ -15,9 +15,12 @@ from functools import lru_cache
 import numpy as np
 
 # Phase angle of each line-to-earth voltage for each supply system [degrees].
+# split: 120/240 V split-phase, the two halves of a centre-tapped winding, 180° apart; network: 120/208 V, two lines
+# of a three-phase wye, 120° apart; three: all three lines of a wye.
 LEG_ANGLES_DEG: dict[str, dict[str, float]] = {
     "single": {"L1": 0.0},
     "split": {"L1": 0.0, "L2": 180.0},
+    "network": {"L1": 0.0, "L2": -120.0},
     "three": {"L1": 0.0, "L2": -120.0, "L3": 120.0},
 }
 SYSTEMS = tuple(LEG_ANGLES_DEG)
@@ -67,14 +70,31 @@ def parse_leg(leg: str, system: str) -> tuple[str, ...]:
     return parts
 
 
-@lru_cache(maxsize=1024)
-def leg_rotation(legs: tuple[str, ...], system: str) -> complex:
-    """Unit phasor (or average of two) that turns a load's own phasor into the circuit's reference frame.
+def line_to_line_factor(system: str) -> float:
+    """Line-to-line voltage as a multiple of line-to-neutral: 2 on split-phase (120/240 V), √3 on a wye (120/208 V
+    network, 230/400 V three-phase), 1 on a single-phase circuit [dimensionless]."""
+    if system == "split":
+        return 2.0
+    return math.sqrt(3.0) if len(LEG_ANGLES_DEG[system]) > 1 else 1.0
 
-    A line-to-line load's leakage is taken as split equally between its two lines (symmetric Y-capacitors).
+
+@lru_cache(maxsize=4096)
+def line_shares(legs: tuple[str, ...], system: str, share: float, first_line: float) -> tuple[float, complex]:
+    """How a load's per-line leakage phasor counts: (arithmetic factor, phasor factor in the circuit's frame).
+
+    A load on one line: (1, e^{jθ}), θ that line's angle. A line-to-line load: each of its two lines carries
+    ``share`` of the figure (1 for a figure per line to earth, ½ for a figure that is the total of both lines),
+    split ``first_line`` : 1 − ``first_line`` between them around that mean (a real appliance is not symmetric),
+    so the arithmetic sum counts 2 × share and the phasor sum is share × (2·f·e^{jθ₁} + 2·(1 − f)·e^{jθ₂}).
+    On split-phase (θ₂ = θ₁ + 180°) a symmetric load (f = ½) cancels; on a 120/208 V network (120° apart) it sums
+    to the size of one line's share.
     """
     angles = LEG_ANGLES_DEG[system]
-    return sum(cmath.exp(1j * math.radians(angles[leg])) for leg in legs) / len(legs)
+    first = cmath.exp(1j * math.radians(angles[legs[0]]))
+    if len(legs) == 1:
+        return 1.0, first
+    second = cmath.exp(1j * math.radians(angles[legs[1]]))
+    return 2.0 * share, share * (2.0 * first_line * first + 2.0 * (1.0 - first_line) * second)
 
 
 def conductor_rotation_sum(system: str) -> complex:

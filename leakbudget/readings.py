@@ -153,7 +153,7 @@ def _calibrate(result: _CheckedEstimate, reading: Reading) -> tuple[Calibration 
                 )
             loads.append(d)
         samples = result.risk.samples if result.risk is not None else risk.SAMPLES_MAX
-        probability = risk.trip_probability(loads, dev, sum_rule=settings.sum_rule, samples=samples, seed=params.seed)
+        probability = risk.trip_probability(loads, dev, sum_rule=risk.LIKELIHOOD_SUM, samples=samples, seed=params.seed)
     calibration = Calibration(
         factor=k,
         leakage_ma=arithmetic,

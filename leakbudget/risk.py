@@ -49,12 +49,15 @@ from typing import Any, NamedTuple
 import numpy as np
 
 from leakbudget.devices import Device
-from leakbudget.estimate import CATALOGUE, MEASURED, Estimate, LoadResult
+from leakbudget.estimate import CATALOGUE, MEASURED, Estimate, LoadResult, trip_weights
+from leakbudget.provenance import Kind
 from leakbudget.settings import (
     COMPONENT_TOLERANCE_DEFAULT,
     METER_ACCURACY_DEFAULT,
+    MODEL_SPREAD_DEFAULT,
     SEED_DEFAULT,
     SWITCH_ON_FACTOR_DEFAULT,
+    UNIT_SPREAD_DEFAULT,
     UPPER_PERCENTILE_DEFAULT,
 )
 
@@ -120,6 +123,8 @@ class RiskParameters:
     meter_accuracy: float = METER_ACCURACY_DEFAULT
     component_tolerance: float = COMPONENT_TOLERANCE_DEFAULT
     upper_percentile: float = UPPER_PERCENTILE_DEFAULT
+    model_spread: float = MODEL_SPREAD_DEFAULT  # geometric standard deviation between models [dimensionless]
+    unit_spread: float = UNIT_SPREAD_DEFAULT  # geometric standard deviation between units of one model
     switch_on_factor: float = SWITCH_ON_FACTOR_DEFAULT
     samples: int | None = None  # None = auto
     seed: int = SEED_DEFAULT
@@ -131,6 +136,8 @@ class RiskParameters:
             meter_accuracy=float(settings["Meter accuracy"]),
             component_tolerance=float(settings["Component tolerance"]),
             upper_percentile=float(settings["Upper percentile"]),
+            model_spread=float(settings["Model spread"]),
+            unit_spread=float(settings["Unit spread"]),
             switch_on_factor=float(settings["Switch-on factor"]),
             samples=settings["Samples"],
             seed=int(settings["Seed"]),
@@ -515,7 +522,7 @@ def _describe(
     rows = [a for _, a in appliances.values()]  # per catalogue row; index -1 (no row) takes the last entries
     basis_value = [a.upper_ma if params.basis == "upper" else a.typical_ma for a in rows]
     ratio = np.array([a.typical_ma / v if v > 0.0 else 0.0 for a, v in zip(rows, basis_value)] + [1.0])
-    sigma = np.array([lognormal_sigma(a.typical_ma, a.upper_ma, params.upper_percentile) for a in rows] + [0.0])
+    sigma = np.array([model_sigma(a, params) for a in rows] + [0.0])
     cap_ratio = np.array([a.upper_ma / a.typical_ma if a.typical_ma > 0.0 else math.inf for a in rows] + [math.inf])
     heating = np.array([a.heating for a in rows] + [False])
     basis = np.array([r.basis for r in results], dtype=object)
@@ -528,9 +535,39 @@ def _describe(
     leakage = np.fromiter((r.leakage_ma for r in results), dtype=float, count=n)
     phasor = np.fromiter((r.phasor_ma for r in results), dtype=complex, count=n)
     coefficient = np.divide(phasor, leakage, out=np.ones(n, dtype=complex), where=leakage > 0.0)
-    centre = leakage * np.where(catalogue, ratio[code], 1.0)
-    cap = np.where(catalogue, cap_ratio[code], math.inf)
+    quantity = np.fromiter((r.quantity if r.load is not None else 1 for r in results), dtype=float, count=n)
+    sum_sigma, sum_mu = fenton_wilkinson(quantity, math.log(params.unit_spread))
+    # Two levels: the row's units share one model factor (σ = ``spread``) and vary unit to unit; their sum is the
+    # Fenton-Wilkinson lognormal, so the row is one lognormal of σ² = σ_model² + σ_sum², median typical·e^μ_sum.
+    spread = np.where(catalogue, np.hypot(spread, sum_sigma), spread)
+    centre = leakage * np.where(catalogue, ratio[code] * np.exp(sum_mu) / quantity, 1.0)
+    cap = np.where(catalogue, cap_ratio[code] * quantity / np.exp(sum_mu), math.inf)
     return np.where(catalogue, 2, 1).astype(np.int8), centre, spread.astype(float), coefficient, factor, cap
+
+
+def model_sigma(appliance: Any, params: RiskParameters) -> float:
+    """σ of ln(leakage) between models of one catalogue kind [dimensionless].
+
+    A published upper value is a product standard's limit, not a percentile of real units: the spread is the
+    ``Model spread`` setting (σ = ln of its geometric standard deviation) and the limit only caps the draws. A
+    from-memory upper value is a high-percentile judgement: σ = ln(upper / typical) / Φ⁻¹(``Upper percentile``).
+    """
+    if appliance.upper_source.kind is Kind.PUBLISHED:
+        return math.log(params.model_spread)
+    return lognormal_sigma(appliance.typical_ma, appliance.upper_ma, params.upper_percentile)
+
+
+def fenton_wilkinson(quantity: np.ndarray, sigma: float) -> tuple[np.ndarray, np.ndarray]:
+    """The lognormal that matches the mean and variance of a sum of ``quantity`` independent lognormal units,
+    each of median 1 and σ = ``sigma``: returns (σ_sum, μ_sum) with ln(sum) ~ N(μ_sum, σ_sum²).
+
+    Fenton-Wilkinson: σ_sum² = ln(1 + (e^{σ²} − 1) / n), μ_sum = ln n + σ²/2 − σ_sum²/2 (Fenton, IRE Trans. Comm.
+    Systems 8(1), 1960). Exact for n = 1.
+    """
+    n = np.maximum(np.asarray(quantity, dtype=float), 1.0)
+    s2 = sigma * sigma
+    sum_s2 = np.log1p(np.expm1(s2) / n)
+    return np.sqrt(sum_s2), np.log(n) + s2 / 2.0 - sum_s2 / 2.0
 
 
 def _appliance_code(appliances: dict[int, Any], appliance: Any) -> int:
@@ -569,7 +606,8 @@ def circuit_distributions(result: Estimate, params: RiskParameters) -> tuple[lis
 
 
 def _check_rows(result: Estimate, params: RiskParameters) -> _Rows:
-    """The check's placed loads and cable runs as arrays, grouped by circuit index."""
+    """The check's placed loads and cable runs as arrays, grouped by circuit index, each weighted by how much its
+    waveform counts towards its device's trip point (:func:`leakbudget.estimate.trip_weight`)."""
     index = result.project.circuit_index()
     placed = [r for r in result.loads if r.circuit_id is not None]
     group = np.fromiter(
@@ -577,20 +615,31 @@ def _check_rows(result: Estimate, params: RiskParameters) -> _Rows:
         dtype=np.int64,
         count=len(placed),
     )
-    return _Rows.from_arrays(group, *_describe(placed, params))
+    shape, centre, spread, coefficient, factor, cap = _describe(placed, params)
+    coefficient = coefficient * trip_weights(result.project, placed)
+    return _Rows.from_arrays(group, shape, centre, spread, coefficient, factor, cap)
 
 
-def method_lines(params: RiskParameters, samples: int, sum_rule: str) -> list[str]:
+# What the device measures: the residual current, the phasor sum of the leakage it sees. The budget may be gated
+# on the arithmetic sum (the conservative figure), but the likelihood of a trip is computed on what trips it.
+LIKELIHOOD_SUM = "phasor"
+
+
+def method_lines(params: RiskParameters, samples: int, sum_rule: str = LIKELIHOOD_SUM) -> list[str]:
     """How the likelihood was computed, in sentences with sources, for the results."""
     return [
-        f"Monte Carlo, {samples:,} samples, seed {params.seed}, on the {sum_rule} sum; ± is one standard error; "
-        "'<x' means no sample reached the no-trip level (95 % bound 3/N, the rule of three).",
+        f"Monte Carlo, {samples:,} samples, seed {params.seed}, on the {sum_rule} sum (the residual current the "
+        "device measures); ± is one standard error; '<x' means no sample reached the no-trip level (95 % bound "
+        "3/N, the rule of three).",
         "Model: trip point uniform between the device's no-trip and trip levels; measured values "
         f"±{100 * params.meter_accuracy:g} % (Meter accuracy, rectangular per JCGM 100:2008 4.3.7), computed "
         f"values and cable runs ±{100 * params.component_tolerance:g} % (Component tolerance); catalogue values "
-        f"lognormal, typical = median, upper = {100 * params.upper_percentile:g}th percentile (Upper percentile) "
-        "and never exceeded (a unit above its upper value is faulty, not standing leakage); "
-        f"at switch-on after idle, heating elements × {params.switch_on_factor:g} (Switch-on factor).",
+        f"lognormal in two levels, the units of a row sharing one model (geometric spread "
+        f"{params.model_spread:g}, Model spread, where the upper value is a published limit; else upper = "
+        f"{100 * params.upper_percentile:g}th percentile, Upper percentile) and varying unit to unit (geometric "
+        f"spread {params.unit_spread:g}, Unit spread; their sum by Fenton-Wilkinson), never above the upper value "
+        "(a unit above it is faulty, not standing leakage); at switch-on after idle, every heating element × "
+        f"{params.switch_on_factor:g} (Switch-on factor), one common cause for all of them.",
     ]
 
 
@@ -606,9 +655,7 @@ def assess(result: Estimate) -> RiskResult:
     protected = np.array([lv is not None for lv in levels], dtype=bool)
     random_rows = int(np.count_nonzero((rows.shape != 0) & protected[rows.group])) if len(rows.group) else 0
     samples = params.samples if params.samples is not None else auto_samples(random_rows)
-    probabilities = _trip_probabilities(rows, len(result.circuits), levels, settings.sum_rule, samples, params.seed)
+    probabilities = _trip_probabilities(rows, len(result.circuits), levels, LIKELIHOOD_SUM, samples, params.seed)
     for c, p in zip(result.circuits, probabilities):
         c.risk = p
-    return RiskResult(
-        probabilities, samples, params.seed, settings.sum_rule, params, method_lines(params, samples, settings.sum_rule)
-    )
+    return RiskResult(probabilities, samples, params.seed, LIKELIHOOD_SUM, params, method_lines(params, samples))

@@ -10,7 +10,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
-from leakbudget.devices import BUDGET_FRACTION_DEFAULT
+from leakbudget.devices import BUDGET_FRACTION_DEFAULT, BUDGET_OF, TRIP_LEVEL
 from leakbudget.input.schema import normalise
 from leakbudget.input.units import UnitProblem, to_unit
 from leakbudget.provenance import Kind, Source
@@ -22,6 +22,19 @@ SUPPLY_SOURCES = {
     "us": Source.common_practice("US dwelling supply 120 V 60 Hz"),
     "iec": Source.published("IEC 60038 nominal 230 V 50 Hz"),
 }
+# A line-to-line appliance is not symmetric (single-pole switched elements, damp end seals): the share of its
+# leakage on its first line. From memory; no published figure.
+LINE_IMBALANCE_DEFAULT = 0.6
+LINE_IMBALANCE_SOURCE = Source.from_memory(
+    "60 % of a line-to-line appliance's leakage on one line, 40 % on the other (single-pole switched elements, "
+    "damp end seals)"
+)
+# A circuit within budget whose switch-on trip likelihood is above this is "marginal" (a modelling choice: 1 %, one
+# trip in a hundred cold starts, is where a user starts to notice).
+SWITCH_ON_LIMIT_DEFAULT = 0.01
+SWITCH_ON_LIMIT_SOURCE = Source(
+    Kind.DEFAULT, "modelling choice: 1 % switch-on trip likelihood, above which a circuit within budget is marginal"
+)
 LOAD_FACTOR_DEFAULT = 0.8  # continuous load at 80 % of rating, common practice (cf. NEC 210.19/210.20)
 BY_DEVICE = "by device: 120 V 60 Hz for UL devices (common practice), 230 V 50 Hz for RCDs (IEC 60038)"
 
@@ -38,7 +51,17 @@ COMPONENT_TOLERANCE_SOURCE = Source.common_practice(
     "±20 % (tolerance letter M of IEC 60062), the usual tolerance of Y-capacitors"
 )
 UPPER_PERCENTILE_DEFAULT = 0.95
-UPPER_PERCENTILE_SOURCE = Source(Kind.DEFAULT, "modelling choice: the catalogue upper value as the 95th percentile")
+UPPER_PERCENTILE_SOURCE = Source(
+    Kind.DEFAULT, "modelling choice: a from-memory catalogue upper value as the 95th percentile"
+)
+# The two-level spread of catalogue values (geometric standard deviations): between models and batches of one kind
+# of appliance, and between units of one model. From memory; no published survey fixes them.
+MODEL_SPREAD_DEFAULT = 1.6
+MODEL_SPREAD_SOURCE = Source.from_memory(
+    "geometric standard deviation 1.6 of one kind's leakage between models and batches"
+)
+UNIT_SPREAD_DEFAULT = 1.15
+UNIT_SPREAD_SOURCE = Source.from_memory("geometric standard deviation 1.15 between units of one model")
 SWITCH_ON_FACTOR_DEFAULT = 3.0
 SWITCH_ON_FACTOR_SOURCE = Source.from_memory(
     "damp heating element at switch-on leaks 3 × its dry value (guidance says only 'several times')"
@@ -88,6 +111,14 @@ def parse_seed(value: Any) -> int:
     if not float(result).is_integer() or result < 0:
         raise UnitProblem(f"'{_shown(value)}' is not a whole number of 0 or more")
     return int(result)
+
+
+def parse_line_share(value: Any) -> float:
+    """A share of a line-to-line load's leakage on its first line, from 50 % (symmetric) to 100 %."""
+    result = to_unit(value, "dimensionless")
+    if not 0.5 <= result <= 1.0:
+        raise UnitProblem(f"'{_shown(value)}' is not a share between 50 % and 100 % (type 60 % or 0.6)")
+    return result
 
 
 def _fraction(value: Any) -> float:
@@ -173,6 +204,14 @@ SETTING_SPECS: tuple[SettingSpec, ...] = (
         "Share of the trip level standing leakage may use (default 0.30).",
     ),
     SettingSpec(
+        "Budget of",
+        _choice(*BUDGET_OF),
+        TRIP_LEVEL,
+        Source(Kind.DEFAULT, "default: the trip level, as BS 7671:2018 reg. 531.3.2 (30 % of IΔn)"),
+        "What the budget fraction is a share of: trip level (default) or no-trip level (e.g. 0.45 × 4 mA = 1.8 mA "
+        "for a Class A GFCI).",
+    ),
+    SettingSpec(
         "Basis",
         _choice("typical", "upper"),
         "typical",
@@ -185,6 +224,20 @@ SETTING_SPECS: tuple[SettingSpec, ...] = (
         "arithmetic",
         Source(Kind.DEFAULT, "default (the conservative figure)"),
         "Which per-circuit sum gates the budget: arithmetic (conservative) or phasor.",
+    ),
+    SettingSpec(
+        "Switch-on limit",
+        _fraction,
+        SWITCH_ON_LIMIT_DEFAULT,
+        SWITCH_ON_LIMIT_SOURCE,
+        "A circuit within budget whose switch-on trip likelihood is above this is 'marginal' (default 1 %).",
+    ),
+    SettingSpec(
+        "Line imbalance",
+        parse_line_share,
+        LINE_IMBALANCE_DEFAULT,
+        LINE_IMBALANCE_SOURCE,
+        "Share of a line-to-line load's leakage on its first line (default 60 %; 50 % is perfectly symmetric).",
     ),
     SettingSpec(
         "Length unit",
@@ -245,6 +298,21 @@ SETTING_SPECS: tuple[SettingSpec, ...] = (
         "Percentile the catalogue upper value stands for in the trip likelihood (default 95 %).",
     ),
     SettingSpec(
+        "Model spread",
+        parse_factor,
+        MODEL_SPREAD_DEFAULT,
+        MODEL_SPREAD_SOURCE,
+        "Geometric standard deviation of a catalogue value between models of one kind (default 1.6); the units "
+        "of one Loads row share one model.",
+    ),
+    SettingSpec(
+        "Unit spread",
+        parse_factor,
+        UNIT_SPREAD_DEFAULT,
+        UNIT_SPREAD_SOURCE,
+        "Geometric standard deviation between units of one model (default 1.15).",
+    ),
+    SettingSpec(
         "Switch-on factor",
         parse_factor,
         SWITCH_ON_FACTOR_DEFAULT,
@@ -298,6 +366,10 @@ class Settings:
     @property
     def budget_fraction(self) -> float:
         return float(self.values["Budget fraction"])
+
+    @property
+    def budget_of(self) -> str:
+        return str(self.values["Budget of"])
 
     @property
     def basis(self) -> str:

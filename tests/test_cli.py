@@ -99,3 +99,10 @@ def test_template_then_check(tmp_path):
     assert json.loads(result.stdout)["circuits"] == []
     again = runner.invoke(app, ["template", str(path)])
     assert again.exit_code == 2 and "will not overwrite" in again.output
+
+
+def test_the_workbook_format_tables_are_made_from_the_schema():
+    # README's tables of sheets, columns and settings are generated (`python -m tests.readme_tables`).
+    from tests import readme_tables
+
+    assert readme_tables.current() == readme_tables.tables().strip()

@@ -141,3 +141,18 @@ def test_the_planner_estimates_a_load_on_another_supply_with_the_check_formula(m
     assert figures.leak_ma(0, filt, e1) == pytest.approx(2 * math.pi * 50 * 4.7e-9 * 230 * 1e3, rel=1e-12)
     assert figures.leak_ma(0, filt, e1) == pytest.approx(0.3396, abs=5e-5)
     assert figures.leak_ma(1, meter, k1) == pytest.approx(2 * 0.75)  # a measured value holds on any supply
+
+
+def test_the_ul_budget_is_a_modelling_choice_and_may_be_a_share_of_the_no_trip_level(make_workbook):
+    # 30 % of a UL 943 Class A device's 6 mA trip level is an analogy with BS 7671:2018 reg. 531.3.2, not a US
+    # rule; the alternative is a share of its 4 mA no-trip level (UL 943): 0.45 × 4 mA = 1.8 mA.
+    from leakbudget.provenance import Kind
+
+    circuits = [["K1", "gfci-a", 120, 60, "single", 20, None, "Kitchen"]]
+    loads = [["Meter", "K1", None, 1, "1 mA", None, None, None, "Kitchen"]]
+    default = run(make_workbook, circuits, loads).circuits[0]
+    assert default.budget_ma == pytest.approx(1.8) and default.budget_source.kind is Kind.DEFAULT
+    assert "modelling choice" in str(default.budget_source)
+    share = run(make_workbook, circuits, loads, [["Budget of", "no-trip level"], ["Budget fraction", 0.45]])
+    assert share.circuits[0].budget_ma == pytest.approx(0.45 * 4.0)
+    assert "no-trip level" in str(share.circuits[0].budget_source)

@@ -57,28 +57,50 @@ def test_rescale_capacitive_with_v_times_f_and_resistive_with_v():
     assert float(r) == pytest.approx(120 / 230)
 
 
+def on(leg: str, system: str) -> complex:
+    """The unit phasor of one line in a system's frame."""
+    return phys.line_shares((leg,), system, 1.0, 1.0)[1]
+
+
 def test_split_phase_equal_capacitive_leakage_cancels():
     # 120/240 V split phase: L1 and L2 are 180° apart, so equal leakage on each leg cancels (phasor physics).
     z = 1j * 0.5
-    total = z * phys.leg_rotation(("L1",), "split") + z * phys.leg_rotation(("L2",), "split")
+    total = z * on("L1", "split") + z * on("L2", "split")
     assert abs(total) == pytest.approx(0.0, abs=1e-12)
 
 
 def test_three_phase_balanced_cancels_and_two_phases_sum_to_one():
     # Three phases 120° apart: equal leakage on all three cancels; on two of them the sum has the size of one.
     z = 1j * 0.8
-    three = sum(z * phys.leg_rotation((leg,), "three") for leg in ("L1", "L2", "L3"))
-    two = sum(z * phys.leg_rotation((leg,), "three") for leg in ("L1", "L2"))
+    three = sum(z * on(leg, "three") for leg in ("L1", "L2", "L3"))
+    two = sum(z * on(leg, "three") for leg in ("L1", "L2"))
     assert abs(three) == pytest.approx(0.0, abs=1e-12)
     assert abs(two) == pytest.approx(0.8, rel=1e-12)
     # independent: numpy complex exponentials
     ref = abs(0.8 * (np.exp(1j * 0) + np.exp(-1j * 2 * np.pi / 3)))
     assert abs(two) == pytest.approx(ref, rel=1e-12)
+    # a 120/208 V network circuit is two lines of that wye: the same 120°
+    assert on("L2", "network") == pytest.approx(on("L2", "three"))
 
 
-def test_line_to_line_load_on_split_phase_has_no_net_leakage():
-    rot = phys.leg_rotation(("L1", "L2"), "split")
-    assert abs(rot) == pytest.approx(0.0, abs=1e-12)
+def test_line_to_line_load_counts_both_lines():
+    # A figure per line to earth on L1-L2: the arithmetic sum counts both lines (2 ×); a symmetric load (50 % on
+    # each) cancels on split phase (180°) and sums to one line's figure on a 120/208 V network (120°, physics).
+    arithmetic, phasor = phys.line_shares(("L1", "L2"), "split", 1.0, 0.5)
+    assert arithmetic == 2.0 and abs(phasor) == pytest.approx(0.0, abs=1e-12)
+    arithmetic, phasor = phys.line_shares(("L1", "L2"), "network", 1.0, 0.5)
+    assert arithmetic == 2.0 and abs(phasor) == pytest.approx(abs(1 + np.exp(-2j * np.pi / 3)), rel=1e-12)
+    assert abs(phasor) == pytest.approx(1.0, rel=1e-12)
+    # 60 % / 40 % on split phase leaves 1.2 − 0.8 = 0.4 of one line's figure; a total figure counts half per line
+    assert abs(phys.line_shares(("L1", "L2"), "split", 1.0, 0.6)[1]) == pytest.approx(0.4, rel=1e-12)
+    assert phys.line_shares(("L1", "L2"), "split", 0.5, 0.6) == (1.0, pytest.approx(0.2))
+
+
+def test_line_to_line_voltage():
+    # Split phase 120/240 V: 2 × 120; a wye (120/208 V, 230/400 V): √3 × line-to-neutral (IEC 60038 pairs).
+    assert 120 * phys.line_to_line_factor("split") == 240
+    assert 120 * phys.line_to_line_factor("network") == pytest.approx(208, abs=0.5)
+    assert 230 * phys.line_to_line_factor("three") == pytest.approx(400, abs=2)  # 398.4 V; 400 V nominal
 
 
 def test_phasor_and_arithmetic_sums_per_circuit():

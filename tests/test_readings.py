@@ -64,13 +64,14 @@ def test_each_flag_against_the_uniform_quantiles(make_workbook, reading, conditi
 
 
 def test_catalogue_interval_is_the_lognormal_quantiles_scipy(make_workbook):
-    # Reference: scipy.stats.lognorm.ppf with the catalogue refrigerator (typical 0.5, upper 0.75 mA at 120 V 60 Hz).
+    # Reference: scipy.stats.lognorm.ppf with the catalogue refrigerator (typical 0.5, upper 0.75 mA at 120 V 60 Hz,
+    # the UL 101 limit): one unit of the two-level model, σ² = ln²(Model spread 1.6) + ln²(Unit spread 1.15).
     from scipy.stats import lognorm
 
     fridge = ["Fridge", "K1", "refrigerator", 1, None, None, None, None, "Kitchen", None]
     result = check(read_project(make_workbook(sheets([fridge], [["K1", 0.5, None, None]]))))
     (rr,) = result.readings
-    sigma = math.log(0.75 / 0.5) / 1.6448536269514715  # upper = 95th percentile
+    sigma = math.hypot(math.log(1.6), math.log(1.15))
     assert rr.low_ma == pytest.approx(lognorm(s=sigma, scale=0.5).ppf(0.025), rel=0.01)
     # draws are capped at the upper value, and the quantile of min(S, c) is min(quantile of S, c)
     assert rr.high_ma == pytest.approx(min(lognorm(s=sigma, scale=0.5).ppf(0.975), 0.75), rel=0.01)

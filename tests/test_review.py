@@ -406,7 +406,8 @@ def test_fault_sign_iec_60335_1_heating_limit_scales_with_power(plan, power, mea
 
 
 def test_fault_sign_against_a_from_memory_upper_is_only_info(plan):
-    p = plan([circuit("K1", "gfci-a", "Kitchen")], [load("Microwave", "K1", "microwave", "1.5 mA")])
+    # The dishwasher row's upper value (1.5 mA) is from memory, not a published limit.
+    p = plan([circuit("K1", "gfci-a", "Kitchen")], [load("Dishwasher", "K1", "dishwasher", "3.5 mA")])
     (hit,) = found(p, "fault-sign")
     assert hit.severity is Severity.INFO and hit.source.kind is Kind.FROM_MEMORY
     assert "not a published limit" in hit.message
@@ -415,10 +416,10 @@ def test_fault_sign_against_a_from_memory_upper_is_only_info(plan):
 # --------------------------------------------------------------------------------------------- high leakage
 
 
-def test_high_leakage_plug_connected_above_3_5_ma_iec_60950_1_5_1_7(plan):
+def test_high_leakage_plug_connected_above_3_5_ma_iec_62368_1(plan):
     circuits = [circuit("W1", "rcd-30", "Workshop", us=False)]
     (hit,) = found(plan(circuits, [load("Welder", "W1", "inverter-welder", "4.2 mA")]), "high-leakage")
-    assert hit.severity is Severity.WARNING and "IEC 60950-1 5.1.7" in str(hit.source)
+    assert hit.severity is Severity.WARNING and "IEC 62368-1" in str(hit.source)
     assert found(plan(circuits, [load("Welder", "W1", "inverter-welder", "3.4 mA")]), "high-leakage") == []
     # permanently connected equipment may exceed 3.5 mA (IEC 61140 Annex B): no finding
     assert found(plan(circuits, [load("Pump", "W1", "pool-pump-vfd", "4.2 mA")]), "high-leakage") == []

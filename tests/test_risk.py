@@ -17,6 +17,7 @@ import numpy as np
 import pytest
 
 from leakbudget import risk
+from leakbudget.catalogue import built_in
 from leakbudget.checking import check
 from leakbudget.devices import DEVICES
 from leakbudget.errors import WorkbookError
@@ -281,7 +282,7 @@ def test_check_reports_what_the_planner_function_reproduces(make_workbook):
             assert c.risk is None
             continue
         again = risk.trip_probability(
-            mine, c.circuit.device, sum_rule="arithmetic", samples=result.risk.samples, seed=result.risk.seed
+            mine, c.circuit.device, sum_rule=risk.LIKELIHOOD_SUM, samples=result.risk.samples, seed=result.risk.seed
         )
         assert (again.dry, again.switch_on, again.dry_se, again.samples) == (
             pytest.approx(c.risk.dry, rel=1e-5, abs=1e-9),
@@ -298,11 +299,17 @@ def test_distributions_follow_the_basis_of_each_load(make_workbook):
     # Catalogue kettle: typical 0.2 mA, upper 0.75 mA at 230 V 50 Hz, resistive (∝ V), heating element.
     kettle = by_name["Kettle"]
     assert kettle.shape == LOGNORMAL and kettle.centre_ma == pytest.approx(0.2 * 120 / 230)
-    assert kettle.spread == pytest.approx(math.log(0.75 / 0.2) / 1.6448536269514715)  # Φ⁻¹(0.95)
+    # Its upper value is a published limit (IEC 60335-1 cl. 13.2): the spread is the two-level model's, between
+    # models (Model spread 1.6) and, for one unit, between units (Unit spread 1.15): σ² = ln²1.6 + ln²1.15.
+    assert kettle.spread == pytest.approx(math.hypot(math.log(1.6), math.log(1.15)))
     assert kettle.switch_on_factor == 3.0
     assert by_name["Meter"] == D(UNIFORM, pytest.approx(0.8), 0.05, pytest.approx(1j), 1.0)  # ±5 % meter
     assert by_name["Filter"].shape == UNIFORM and by_name["Filter"].spread == 0.20  # ±20 % component tolerance
-    assert by_name["Range"].coefficient == pytest.approx(0.0)  # symmetric L1-L2 load: nothing in the phasor sum
+    # L1-L2 range, figure per line: 60 % / 40 % (Line imbalance) leaves 0.4 of a line's figure in the phasor sum,
+    # plus its line-to-neutral parts on L1; the arithmetic sum counts 2 lines plus those parts.
+    row = built_in().appliances["range-electric"]
+    part = row.line_neutral_ma / row.typical_ma
+    assert abs(by_name["Range"].coefficient) == pytest.approx((0.4 + part) / (2.0 + part))
     upper = check(_project(make_workbook, [["Basis", "upper"]]))
     upper_kettle = next(
         risk.distribution(r, risk.RiskParameters.from_settings(upper.project.settings))
@@ -314,12 +321,13 @@ def test_distributions_follow_the_basis_of_each_load(make_workbook):
 
 def test_settings_change_the_model_and_the_reported_method(make_workbook):
     base = check(_project(make_workbook))
-    wetter = check(_project(make_workbook, [["Switch-on factor", 5]]))
-    assert wetter.circuits[0].risk.switch_on > base.circuits[0].risk.switch_on  # the kettle heats on K1
+    wet = check(_project(make_workbook, [["Switch-on factor", 20]]))  # lets the kettle on K1 near 4 mA
+    wetter = check(_project(make_workbook, [["Switch-on factor", 30]]))
+    assert wetter.circuits[0].risk.switch_on > wet.circuits[0].risk.switch_on > 0.0
     assert wetter.circuits[0].risk.dry == base.circuits[0].risk.dry
-    # upper further out: thinner tail below the cap (a switch-on factor of 6 lets the capped kettle reach 4 mA)
-    wide_tail = check(_project(make_workbook, [["Switch-on factor", 6]]))
-    narrower = check(_project(make_workbook, [["Switch-on factor", 6], ["Upper percentile", "99 %"]]))
+    # a narrower spread between models: a thinner tail
+    wide_tail = wet
+    narrower = check(_project(make_workbook, [["Switch-on factor", 20], ["Model spread", 1.2]]))
     assert 0.0 < narrower.circuits[0].risk.switch_on < wide_tail.circuits[0].risk.switch_on
     changed = check(_project(make_workbook, [["Samples", 2000], ["Seed", 9], ["Meter accuracy", "2 %"]]))
     assert changed.risk.samples == 2000 and changed.risk.seed == 9

@@ -35,7 +35,13 @@ err_console = Console(stderr=True)
 TERMINAL_TABLE_ROWS = 40
 
 
-STATUS_STYLE = {"ok": "green", "over-budget": "yellow", "trip-risk": "bold red", "unprotected": "magenta"}
+STATUS_STYLE = {
+    "ok": "green",
+    "marginal": "dark_khaki",
+    "over-budget": "yellow",
+    "trip-risk": "bold red",
+    "unprotected": "magenta",
+}
 
 
 def fmt(value: float | None, digits: int = 3) -> str:
@@ -259,6 +265,24 @@ def render_check(job: Any) -> None:
             "contributor in the 'Circuit results' sheet.",
             highlight=False,
         )
+    from leakbudget.risk import likelihood_text
+
+    marginal = [c for c in result.circuits if c.status.value == "marginal"]
+    limit = float(project.settings["Switch-on limit"])
+    for c in marginal[:TERMINAL_TABLE_ROWS]:
+        out_console.print(
+            f"{c.circuit.circuit_id} is marginal: within its budget, but its switch-on trip likelihood "
+            f"{likelihood_text(c.risk, switch_on=True)} is above the Switch-on limit of {100 * limit:g} %.",
+            highlight=False,
+        )
+    for c in result.circuits:
+        if c.dc_blinded:
+            out_console.print(
+                f"[bold red]{c.circuit.circuit_id}: {c.smooth_dc_ma:.1f} mA of smooth DC leakage under a Type "
+                f"{c.circuit.rcd_type} RCD, more than it operates with (BS 7671:2018 reg. 531.3.3 notes): it may "
+                "not trip on a fault.[/] Fit a Type B device, or a DC-detecting device (IEC 62955) ahead of it.",
+                highlight=False,
+            )
     if not result.circuits:
         out_console.print("The Circuits sheet has no circuits yet: add one row per circuit.")
     elif bad:
@@ -266,6 +290,11 @@ def render_check(job: Any) -> None:
             f"[bold]{len(bad)} circuit(s) over budget.[/] Split loads across circuits (`leakbudget split`), measure "
             "the largest contributors, and repair appliances that leak far above their typical value; never remove "
             "or up-rate protection."
+        )
+    elif marginal:
+        out_console.print(
+            f"Every protected circuit is within its budget, but {len(marginal)} are marginal (likely to trip when "
+            "cold heating elements switch on): measure them, or give the heating loads circuits of their own."
         )
     else:
         out_console.print("Every protected circuit is within its budget.")

@@ -28,7 +28,7 @@ from leakbudget.compliance.codes import (
     Scope,
     is_ev_charger,
 )
-from leakbudget.devices import Family, Status
+from leakbudget.devices import Family, Status, smooth_dc_limit
 from leakbudget.errors import LeakbudgetError
 from leakbudget.estimate import MEASURED, CircuitResult, LoadResult
 from leakbudget.locations import Classification, classify_room
@@ -51,11 +51,14 @@ def _switch_on(settings: Settings) -> tuple[float, Source]:
     )
 
 
-# IEC 60950-1 5.1.7 / IEC 62368-1: plug-connected equipment (ordinary plug) may have at most 3.5 mA protective
+# IEC 62368-1 (which replaced the withdrawn IEC 60950-1): plug-connected equipment (ordinary plug) may have at most 3.5 mA protective
 # conductor current; above it, permanent connection or an industrial plug and a high-leakage label (IEC 61140
 # Annex B gives the general limits).
 HIGH_LEAKAGE_PLUG_MA = 3.5
-HIGH_LEAKAGE_SOURCE = Source.published("IEC 60950-1 5.1.7 / IEC 62368-1; IEC 61140 Annex B")
+HIGH_LEAKAGE_SOURCE = Source.from_memory(
+    "IEC 62368-1 (pluggable equipment type A: 3.5 mA protective conductor current), clause from memory; IEC 61140 "
+    "Annex B (plug-connected equipment)"
+)
 
 # Common practice: keep the load-side run of a 5 mA (UL 943 Class A) GFCI under about 75 m / 250 ft.
 M_PER_FT = 0.3048  # the international foot, exact by definition
@@ -421,6 +424,19 @@ def rule_waveform(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
                 f"The leakage of {r.name} is {wave} ({origin}) and {v.cid} has a Type {rcd_type} device, "
                 f"which cannot reliably see it and can be blinded by it: {cure}.",
             )
+        if v.result.dc_blinded and rcd_type is not None:
+            limit, limit_source = smooth_dc_limit(rcd_type)
+            yield Finding(
+                Severity.ERROR,
+                "waveform",
+                limit_source,
+                v.cid,
+                None,
+                f"{v.cid} carries {_ma(v.result.smooth_dc_ma)} of smooth DC leakage, more than the "
+                f"{_ma(limit or 0.0)} its Type {rcd_type} device operates with: the device may not trip on a fault "
+                "while it flows; fit a Type B device of the same IΔn, or a DC-detecting device (IEC 62955) "
+                "ahead of it, and keep the smooth-DC loads on circuits of their own.",
+            )
 
 
 def published_limit(r: LoadResult) -> tuple[float, Source] | None:
@@ -475,7 +491,7 @@ def rule_fault_sign(views: list[_Circuit], code: Code, result: CheckResult) -> I
 
 
 def rule_high_leakage(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
-    """Plug-connected equipment above 3.5 mA (IEC 60950-1 5.1.7 / IEC 62368-1 / IEC 61140 Annex B)."""
+    """Plug-connected equipment above 3.5 mA (IEC 62368-1 / IEC 61140 Annex B)."""
     for r in result.loads:
         plug = r.appliance is not None and r.appliance.connection == "plug"
         if r.load is None or not plug or r.per_unit_ma <= HIGH_LEAKAGE_PLUG_MA:
@@ -531,27 +547,36 @@ def rule_long_run(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
 
 
 def rule_switch_on(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
-    """A heating element whose switch-on (moist) leakage would reach the no-trip level while the dry circuit total
-    is within budget."""
-    phasor = result.project.settings.sum_rule == "phasor"
-    factor, source = _switch_on(result.project.settings)
+    """A circuit within budget that is likely to trip at switch-on: a heating element whose switch-on (moist)
+    leakage would reach the no-trip level, or a switch-on trip likelihood above the Switch-on limit (marginal)."""
+    settings = result.project.settings
+    phasor = settings.sum_rule == "phasor"
+    factor, source = _switch_on(settings)
+    limit = float(settings["Switch-on limit"])
     total_phasor: dict[str, complex] = {}
     for r in result.loads:
         if r.circuit_id is not None:
             total_phasor[r.circuit_id] = total_phasor.get(r.circuit_id, 0j) + r.phasor_ma
     for v in views:
         dev = v.circuit.device
-        if not dev.protected or v.result.status is not Status.OK:
+        c = v.result
+        if not dev.protected or c.status not in (Status.OK, Status.MARGINAL):
             continue
+        likely = (
+            f" (switch-on trip likelihood {100 * c.risk.switch_on:.2g} %, above the Switch-on limit of "
+            f"{100 * limit:g} %: marginal)"
+            if c.status is Status.MARGINAL and c.risk is not None
+            else ""
+        )
+        spoken = False
         for r in v.loads:
             if r.appliance is None or not r.appliance.heating:
                 continue
             extra = factor - 1.0
-            wet_total = (
-                abs(total_phasor[v.cid] + r.phasor_ma * extra) if phasor else v.result.gate_ma + r.leakage_ma * extra
-            )
+            wet_total = abs(total_phasor[v.cid] + r.phasor_ma * extra) if phasor else c.gate_ma + r.leakage_ma * extra
             if wet_total < dev.no_trip_ma:
                 continue
+            spoken = True
             yield Finding(
                 Severity.WARNING,
                 "switch-on",
@@ -560,9 +585,22 @@ def rule_switch_on(views: list[_Circuit], code: Code, result: CheckResult) -> It
                 r.name,
                 f"{r.name} is a heating element: its {_ma(r.leakage_ma)} dry leakage may be about "
                 f"{_ma(r.leakage_ma * factor)} at switch-on after standing cold, taking {v.cid} "
-                f"from {_ma(v.result.gate_ma)} to {_ma(wet_total)}, at or above its no-trip level "
-                f"{_ma(dev.no_trip_ma)}; measure it at switch-on, and move it to a circuit with more "
+                f"from {_ma(c.gate_ma)} to {_ma(wet_total)}, at or above its no-trip level "
+                f"{_ma(dev.no_trip_ma)}{likely}; measure it at switch-on, and move it to a circuit with more "
                 f"headroom (`leakbudget split`) or have the element's seals repaired if it trips.",
+            )
+        if likely and not spoken:
+            assert c.risk is not None
+            yield Finding(
+                Severity.WARNING,
+                "switch-on",
+                Source(Kind.DEFAULT, str(settings.sources["Switch-on limit"])),
+                v.cid,
+                None,
+                f"{v.cid} is within its budget, but its switch-on trip likelihood {100 * c.risk.switch_on:.2g} % "
+                f"is above the Switch-on limit of {100 * limit:g} %, so it is marginal: its heating elements, "
+                f"{factor:g} × their dry leakage when cold ({source}), may trip it; measure them at switch-on, or "
+                "give them a circuit of their own (`leakbudget split --max-trip-likelihood`).",
             )
 
 

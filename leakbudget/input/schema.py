@@ -50,7 +50,13 @@ CIRCUITS = Sheet(
         Column("RCD type", None, False, "AC, A, F or B (IEC 60755 / IEC 62423); blank if unknown."),
         Column("Voltage", "V", False, "Line-to-neutral supply voltage; blank takes the Settings default."),
         Column("Frequency", "Hz", False, "Supply frequency; blank takes the Settings default."),
-        Column("System", None, False, "single (line-neutral), split (120/240 V two-pole) or three (three-phase)."),
+        Column(
+            "System",
+            None,
+            False,
+            "single (line-neutral), split (120/240 V split-phase: two lines 180° apart), network (120/208 V: two "
+            "lines of a three-phase wye, 120° apart) or three (three-phase).",
+        ),
         Column("Rating", "A", False, "Overcurrent rating of the circuit."),
         Column("Cable length", "m", False, "Load-side cable run; bare numbers in the 'Length unit' setting."),
         Column("Cable", None, False, "Cable catalogue key (see `leakbudget cables`); blank takes the default."),
@@ -79,7 +85,13 @@ LOADS = Sheet(
         Column("Insulation resistance", "Mohm", False, "Insulation resistance to earth per unit."),
         Column("Power", "W", False, "Rated power per unit."),
         Column("Current", "A", False, "Rated current per unit."),
-        Column("Leg", None, False, "L1, L2, L3, or L1-L2 etc. for line-to-line loads (default L1)."),
+        Column(
+            "Leg",
+            None,
+            False,
+            "L1, L2, L3, or L1-L2 etc. for line-to-line loads (default L1; a line-line appliance on a split, "
+            "network or three-phase circuit defaults to L1-L2).",
+        ),
         Column("Room", None, False, "Room the load is in."),
         Column("Fixed", None, False, "yes if the load must stay on its circuit."),
         Column(
@@ -127,6 +139,32 @@ APPLIANCES = Sheet(
         Column("Reference voltage", "V", False, "Supply voltage the leakage values hold at (default 230 V)."),
         Column("Reference frequency", "Hz", False, "Supply frequency the leakage values hold at (default 50 Hz)."),
         Column("Typical power", "W", False, "Typical rated power per unit."),
+        Column(
+            "Wiring",
+            None,
+            False,
+            "line-neutral (default) or line-line: how the appliance connects (a 240 V range, a 208 V or 400 V unit).",
+        ),
+        Column(
+            "Rated voltage",
+            "V",
+            False,
+            "Voltage its Typical power is rated at: the line-to-line voltage for a line-line appliance "
+            "(default: Reference voltage).",
+        ),
+        Column(
+            "Leakage per",
+            None,
+            False,
+            "For a line-line appliance: line (each line's leakage to earth; default) or total (both lines together).",
+        ),
+        Column(
+            "Line-neutral leakage",
+            "mA",
+            False,
+            "Typical leakage of a line-line appliance's line-to-neutral parts (a clock, a lamp, a 120 V motor), "
+            "on one line, at the reference supply (default 0).",
+        ),
         Column("Typical source", None, False, "Where the typical value comes from."),
         Column("Upper source", None, False, "Where the upper value comes from."),
     ),

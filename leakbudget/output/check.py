@@ -110,6 +110,11 @@ def circuit_dict(c: CircuitResult) -> dict[str, Any]:
         "largest_contributor": c.largest,
         "largest_contributor_ma": _num(c.largest_ma),
         **risk_dict(c.risk),
+        "pulsating_dc_ma": _num(c.pulsating_dc_ma),
+        "high_frequency_ma": _num(c.high_frequency_ma),
+        "smooth_dc_ma": _num(c.smooth_dc_ma),
+        "trip_equivalent_ma": _num(c.trip_equivalent_ma),
+        "dc_blinded": c.dc_blinded,
         "note": circuit.note,
     }
 
@@ -204,6 +209,9 @@ CIRCUIT_COLUMNS: tuple[tuple[str, str, str | None], ...] = (
     ("Trip likelihood, switch-on", "trip_probability_switch_on", "0.00%"),
     ("± (switch-on)", "trip_probability_switch_on_se", "0.00%"),
     ("Likelihood (text)", "trip_probability_text", None),
+    ("Pulsating DC (mA)", "pulsating_dc_ma", "0.000"),
+    ("Smooth DC (mA)", "smooth_dc_ma", "0.000"),
+    ("No-trip judged on (mA)", "trip_equivalent_ma", "0.000"),
     ("Note", "note", None),
 )
 

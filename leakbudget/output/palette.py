@@ -12,4 +12,10 @@ BUDGET_COLOUR = "#e0a100"  # amber dashed line: the standing-leakage budget
 NO_TRIP_COLOUR = "#c4162a"  # crimson solid line: the device's no-trip level
 # Load segments: calm hues far from the amber and crimson of the two levels.
 SEGMENT_COLOURS = ("#2f6f8f", "#6aa6a0", "#3f4f7a", "#8fb3d9", "#4d8a5c", "#a3c48f", "#7a6a9e", "#b9b2d6")
-STATUS_COLOURS = {"ok": "#2e7d4f", "over-budget": "#b36b00", "trip-risk": "#b3122a", "unprotected": "#6b5b95"}
+STATUS_COLOURS = {
+    "ok": "#2e7d4f",
+    "marginal": "#8a7a00",
+    "over-budget": "#b36b00",
+    "trip-risk": "#b3122a",
+    "unprotected": "#6b5b95",
+}

@@ -24,7 +24,7 @@ import numpy as np
 from leakbudget.catalogue import Appliance
 from leakbudget.devices import budget_ma
 from leakbudget.devices import device as find_device
-from leakbudget.estimate import COMPUTED, LoadResult, cable_result, per_unit_phasors
+from leakbudget.estimate import LoadResult, cable_result, leakage_on
 from leakbudget.leakage import rescale, split_by_nature
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.planner.packing.problem import MARGIN_MA, Packing, Solution
@@ -88,16 +88,16 @@ class Figures:
     """Leakage and current of each load on a given circuit, as the check estimates them (cached per supply).
 
     On the supply the check used for a load (its circuit's, or a room's for an unplaced load) the leakage is the
-    check's own figure (``LoadResult.leakage_ma``, which includes readings on identical units). On another
-    supply it is estimated by the check's own formula (:func:`leakbudget.estimate.per_unit_phasors`): a Leakage value the user gave holds as it is, a
-    computed figure is computed again, and a catalogue or identical-unit figure is rescaled (resistive part ∝ V,
-    capacitive part ∝ V·f, split by the catalogue row's nature).
+    check's own figure (``LoadResult.leakage_ma``, which includes readings on identical units). On another supply
+    it is estimated by the check's own formula (:func:`leakbudget.estimate.leakage_on`); a reading on an identical
+    unit is rescaled (resistive part ∝ V, capacitive part ∝ V·f, split by the catalogue row's nature).
     """
 
     def __init__(self, project: Project, estimates: list[LoadResult]) -> None:
         self.project = project
         self.estimates = estimates  # the check's results, loads in sheet order first
         self.basis = project.settings.basis
+        self.first_line = float(project.settings["Line imbalance"])
         self._leak: dict[tuple[int, float, float], float] = {}
 
     def appliance(self, load: Load) -> Appliance | None:
@@ -107,19 +107,20 @@ class Figures:
         """Arithmetic leakage of all the load's units on ``circuit`` [mA]."""
         key = (index, circuit.voltage_v, circuit.frequency_hz)
         if key not in self._leak:
-            self._leak[key] = self._estimate(index, load, circuit.voltage_v, circuit.frequency_hz)
+            self._leak[key] = self._estimate(index, load, circuit)
         return self._leak[key]
 
-    def _estimate(self, index: int, load: Load, voltage_v: float, frequency_hz: float) -> float:
+    def _estimate(self, index: int, load: Load, circuit: Circuit) -> float:
         known = self.estimates[index]
-        if (known.voltage_v, known.frequency_hz) == (voltage_v, frequency_hz):
+        if (known.voltage_v, known.frequency_hz) == (circuit.voltage_v, circuit.frequency_hz):
             return known.leakage_ma
         appliance = self.appliance(load)
-        if load.leakage_ma is not None or known.basis == COMPUTED or appliance is None:
-            z, _, _ = per_unit_phasors([load], [appliance], np.array([voltage_v]), np.array([frequency_hz]), self.basis)
-            return float(abs(z[0])) * load.quantity
+        if known.measured_on is None or appliance is None:
+            return leakage_on(load, appliance, circuit, self.basis, self.first_line)
         resistive, capacitive = split_by_nature(known.per_unit_ma, appliance.nature)
-        r, c = rescale(resistive, capacitive, known.voltage_v, known.frequency_hz, voltage_v, frequency_hz)
+        r, c = rescale(
+            resistive, capacitive, known.voltage_v, known.frequency_hz, circuit.voltage_v, circuit.frequency_hz
+        )
         return abs(complex(float(r), float(c))) * load.quantity
 
     def amps_a(self, load: Load, circuit: Circuit) -> float:
@@ -186,7 +187,7 @@ def new_kind(
     if new_rating_a is not None:
         proto = dataclasses.replace(proto, rating_a=new_rating_a)
         text += f", rating {new_rating_a:g} A (--new-rating)"
-    budget = budget_ma(proto.device, project.settings.budget_fraction)
+    budget = budget_ma(proto.device, project.settings.budget_fraction, project.settings.budget_of)
     return NewKind(room, proto, text, cable_ma(proto, project), budget, current_capacity_a(proto, factor))
 
 
@@ -219,7 +220,10 @@ def build(
     loads = project.loads
     index = project.circuit_index()
     budgets = [
-        min(budget_ma(c.device, settings.budget_fraction), limits_ma.get(circuit_limit_key(c.circuit_id), math.inf))
+        min(
+            budget_ma(c.device, settings.budget_fraction, settings.budget_of),
+            limits_ma.get(circuit_limit_key(c.circuit_id), math.inf),
+        )
         if c.device.protected
         else math.nan
         for c in circuits

@@ -22,7 +22,7 @@ from typing import Protocol, TypeVar
 from leakbudget.catalogue import Appliance
 from leakbudget.checking import CheckResult
 from leakbudget.devices import Status
-from leakbudget.leakage import parse_leg
+from leakbudget.leakage import line_to_line_factor, parse_leg
 from leakbudget.model import Circuit, Load, Project
 
 
@@ -36,11 +36,14 @@ CURRENT_GIVEN = "your Current value"
 NO_CURRENT = "no Current, Power or catalogue power: counted as 0 A"
 
 
+WITHIN_BUDGET = (Status.OK, Status.MARGINAL)  # marginal: within budget, its likelihood is the cap's business
+
+
 def line_voltage_v(load: Load, circuit: Circuit) -> float:
     """Voltage the load runs at on ``circuit`` [V]: line-to-neutral, or line-to-line for a two-leg load."""
     if len(load.leg) < 2:
         return circuit.voltage_v
-    return circuit.voltage_v * (2.0 if circuit.system == "split" else math.sqrt(3.0))
+    return circuit.voltage_v * line_to_line_factor(circuit.system)
 
 
 def load_current_a(load: Load, appliance: Appliance | None, circuit: Circuit) -> tuple[float, str]:
@@ -51,10 +54,12 @@ def load_current_a(load: Load, appliance: Appliance | None, circuit: Circuit) ->
     if load.power_w is not None:
         return load.power_w * load.quantity / v, f"computed: your Power ÷ {v:g} V"
     if appliance is not None and appliance.typical_power_w:
+        rated = appliance.rated_voltage_v if appliance.line_to_line == (len(load.leg) == 2) else None
+        v_used = rated or v
         return (
-            appliance.typical_power_w * load.quantity / v,
+            appliance.typical_power_w * load.quantity / v_used,
             f"computed: catalogue '{appliance.key}' typical power {appliance.typical_power_w:g} W "
-            f"(typical, from memory) ÷ {v:g} V",
+            f"(typical, from memory) ÷ {v_used:g} V" + (" (its rated voltage)" if rated else ""),
         )
     return 0.0, NO_CURRENT
 
@@ -158,7 +163,7 @@ def verify_plan(before: Project, after: CheckResult, blocked: set[str], left_alo
     old = {(ld.row, ld.name): ld for ld in before.loads}
     for result in after.circuits:
         cid = result.circuit.circuit_id
-        if result.circuit.device.protected and cid not in blocked and result.status is not Status.OK:
+        if result.circuit.device.protected and cid not in blocked and result.status not in WITHIN_BUDGET:
             problems.append(
                 f"{cid} is {result.status.value} ({result.gate_ma:.4f} mA, budget {result.budget_ma:.4f} mA)"
             )

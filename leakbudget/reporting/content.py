@@ -170,6 +170,16 @@ def _caution_section(result: CheckResult, doc: Mapping[str, Any]) -> Section:
                 "over-budget",
             )
         )
+    marginal = [c["circuit"] for c in doc["circuits"] if c["status"] == "marginal"]
+    if marginal:
+        blocks.append(
+            Paragraph(
+                f"Marginal: {', '.join(marginal)}: within budget, but likely to trip when cold heating elements are "
+                "switched on (switch-on likelihood above the Switch-on limit setting). Measure them, or give the "
+                "heating loads circuits of their own; never remove or up-rate protection.",
+                "marginal",
+            )
+        )
     for d in doc.get("readings") or ():
         if d["flag"] != "consistent":
             blocks.append(
@@ -731,6 +741,13 @@ def _verdict(
             f"{over} circuit(s) over budget but below the no-trip level: the plan needs changes "
             f"before installation.{review}",
             "over-budget",
+        )
+    marginal = counts.get("marginal", 0)
+    if marginal:
+        return Paragraph(
+            f"Every protected circuit is within its budget, but {marginal} circuit(s) are marginal: likely to trip "
+            f"at switch-on.{review}",
+            "marginal",
         )
     if errors:
         return Paragraph(f"Every protected circuit is within its budget.{review}", "over-budget")

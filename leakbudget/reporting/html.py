@@ -14,11 +14,11 @@ import struct
 
 from leakbudget.reporting.document import Cell, Facts, Figure, Paragraph, Report, Section, Table
 
-TONES = ("ok", "over-budget", "trip-risk", "unprotected", "error", "warning", "info", "caution", "muted")
+TONES = ("ok", "marginal", "over-budget", "trip-risk", "unprotected", "error", "warning", "info", "caution", "muted")
 
 CSS = """
 :root { --paper:#f4f1ea; --card:#ffffff; --ink:#1f2a36; --soft:#5b6672; --rule:#ddd7ca; --accent:#1d5c63;
-  --ok:#2e7d4f; --over:#b36b00; --trip:#b3122a; --unprot:#6b5b95; --info:#3f5f8a; }
+  --ok:#2e7d4f; --marginal:#8a7a00; --over:#b36b00; --trip:#b3122a; --unprot:#6b5b95; --info:#3f5f8a; }
 * { box-sizing: border-box; }
 body { margin:0; background:var(--paper); color:var(--ink);
   font:15px/1.5 "Segoe UI", "Helvetica Neue", Arial, sans-serif; }
@@ -62,10 +62,10 @@ td small.src, dd small.src { display: block; color: var(--soft); font-size: 11.5
 .k-common-practice { color: #5b6672; background: #eef0f2; }
 .k-user-setting { color: #4b3f7a; background: #efeaf8; }
 .k-default { color: #6d7680; background: #f6f6f6; }
-.tone-ok { color: var(--ok); } .tone-over-budget { color: var(--over); } .tone-trip-risk { color: var(--trip); }
+.tone-ok { color: var(--ok); } .tone-marginal { color: var(--marginal); } .tone-over-budget { color: var(--over); } .tone-trip-risk { color: var(--trip); }
 .tone-unprotected { color: var(--unprot); } .tone-error { color: var(--trip); } .tone-warning { color: var(--over); }
 .tone-info { color: var(--info); }
-td.tone-ok, td.tone-over-budget, td.tone-trip-risk, td.tone-unprotected, td.tone-error, td.tone-warning,
+td.tone-ok, td.tone-marginal, td.tone-over-budget, td.tone-trip-risk, td.tone-unprotected, td.tone-error, td.tone-warning,
 td.tone-info { font-weight: 600; }
 footer { font-size: 12px; color: var(--soft); padding-top: 14px; }
 @media print {

@@ -314,6 +314,11 @@ def read_circuits(
     return circuits
 
 
+def _default_leg(appliance: cat.Appliance | None, system: str) -> str:
+    """A blank Leg: both lines (L1-L2) for a line-line appliance on a circuit with two or more lines, else L1."""
+    return "L1-L2" if appliance is not None and appliance.line_to_line and system != "single" else "L1"
+
+
 def read_loads(table: RawTable, circuits: list[Circuit], catalogue: cat.Catalogue) -> list[Load]:
     by_id = {c.circuit_id.lower(): c for c in circuits}
     loads: list[Load] = []
@@ -362,8 +367,8 @@ def read_loads(table: RawTable, circuits: list[Circuit], catalogue: cat.Catalogu
                 "the load has no leakage figure",
                 hint="give a Leakage, a Y capacitance or Insulation resistance, or an Appliance key",
             )
-        leg_text = table.text(row, "Leg") or "L1"
         system = circuit.system if circuit is not None else "three"
+        leg_text = table.text(row, "Leg") or _default_leg(catalogue.appliances.get(key) if key else None, system)
         try:
             legs = parse_leg(leg_text, system)
         except ValueError as exc:
