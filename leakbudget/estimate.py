@@ -62,6 +62,9 @@ class LoadResult:
     voltage_v: float
     frequency_hz: float
     measured_on: str | None = None  # the identical unit(s) whose Leakage reading this load takes
+    # A line-to-line load's phasor moves by this per unit of its first line's share (∂ phasor_ma / ∂ Line imbalance,
+    # × quantity): the likelihood draws the share; 0 for a load on one line [mA].
+    imbalance_ma: complex = 0j
 
 
 @dataclass(slots=True)
@@ -233,9 +236,10 @@ def per_unit_leakage(
     frequency_hz: np.ndarray,
     basis: str,
     first_line: float,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """The one estimate formula: each load's per-unit leakage on its circuit, arithmetic [mA] and as a phasor in the
-    circuit's frame (line L1 at 0°) [mA], with which loads are measured and which computed.
+    circuit's frame (line L1 at 0°) [mA], with which loads are measured and which computed, and how a line-to-line
+    load's phasor moves with its first line's share (∂ phasor / ∂ share) [mA].
 
     A load on one line: its figure (:func:`_line_phasors`) on that line. A line-to-line load: every line counts
     its share (:func:`leakbudget.leakage.line_shares`): the arithmetic sum both lines' shares, the phasor sum each
@@ -247,6 +251,7 @@ def per_unit_leakage(
     arithmetic_factor = np.ones(n)
     phasor_factor = np.ones(n, dtype=complex)
     first = np.ones(n, dtype=complex)
+    imbalance_factor = np.zeros(n, dtype=complex)
     neutral_part = np.zeros(n)
     for i, (load, appliance, system) in enumerate(zip(loads, appliances, systems)):
         if len(load.leg) == 2:
@@ -262,10 +267,12 @@ def per_unit_leakage(
             share = SHARE_PER_LINE
         arithmetic_factor[i], phasor_factor[i] = phys.line_shares(load.leg, system, share, first_line)
         first[i] = phys.line_shares(load.leg[:1], system, 1.0, 1.0)[1]
+        if len(load.leg) == 2:
+            imbalance_factor[i] = 2.0 * share * (first[i] - phys.line_shares(load.leg[1:], system, 1.0, 1.0)[1])
     neutral = line * neutral_part  # the row's line-to-neutral part, scaled with its value and supply like it
     arithmetic = np.abs(line) * arithmetic_factor + np.abs(neutral)
     phasor = line * phasor_factor + neutral * first
-    return arithmetic, phasor, is_measured, is_computed
+    return arithmetic, phasor, is_measured, is_computed, line * imbalance_factor
 
 
 def _line_to_line_text(load: Load, appliance: Appliance | None, kind: str, first_line: float) -> str:
@@ -317,7 +324,7 @@ def estimate(project: Project) -> list[LoadResult]:
         if load.appliance_key:
             apps[i] = appliances.get(load.appliance_key)
     quantity = np.array([x.quantity for x in loads], dtype=float)
-    per_unit, per_unit_phasor, is_measured, is_computed = per_unit_leakage(
+    per_unit, per_unit_phasor, is_measured, is_computed, imbalance = per_unit_leakage(
         loads, apps, systems, voltage, frequency, basis, first_line
     )
     phasor = per_unit_phasor * quantity
@@ -352,6 +359,7 @@ def estimate(project: Project) -> list[LoadResult]:
                 source=text,
                 voltage_v=v,
                 frequency_hz=f,
+                imbalance_ma=complex(imbalance[i] * quantity[i]),
             )
         )
     for circuit in project.circuits:
@@ -364,7 +372,7 @@ def estimate(project: Project) -> list[LoadResult]:
 
 def leakage_on(load: Load, appliance: Appliance | None, circuit: Circuit, basis: str, first_line: float) -> float:
     """Arithmetic leakage of all the load's units if it were on ``circuit`` [mA], by :func:`per_unit_leakage`."""
-    arithmetic, _, _, _ = per_unit_leakage(
+    arithmetic, _, _, _, _ = per_unit_leakage(
         [load],
         [appliance],
         [circuit.system],
@@ -525,6 +533,10 @@ def stand_in_readings(project: Project, results: list[LoadResult]) -> None:
         r.per_unit_ma = abs(per_unit) * arithmetic_factor
         r.leakage_ma = r.per_unit_ma * r.quantity
         r.phasor_ma = per_unit * phasor_factor * r.quantity
+        if len(load.leg) == 2:
+            second = phys.line_shares(load.leg[1:], circuit.system if circuit else "three", 1.0, 1.0)[1]
+            first = phys.line_shares(load.leg[:1], circuit.system if circuit else "three", 1.0, 1.0)[1]
+            r.imbalance_ma = per_unit * 2.0 * share * (first - second) * r.quantity
         r.basis = MEASURED
         r.measured_on = units
         mean = "mean of the readings on" if len(measured[key]) > 1 else "reading on"

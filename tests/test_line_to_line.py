@@ -83,3 +83,12 @@ def test_a_120_208_v_network_circuit(make_workbook):
 def test_a_line_to_line_appliance_keeps_a_single_line_on_a_single_phase_circuit(make_workbook):
     result = run(make_workbook, "single", [["Range", "K1", "range-electric", 1, None, None, None, None, "Kitchen"]])
     assert result.loads[0].load.leg == ("L1",)
+
+
+def test_the_phasor_moves_with_the_first_lines_share_as_stated(make_workbook):
+    # imbalance_ma is ∂ phasor / ∂ share: the phasor at 70 % equals the one at 60 % plus 0.1 × imbalance_ma.
+    loads = [["Cooktop", "K1", None, 2, None, "10 nF", None, "L1-L2", "Kitchen"]]
+    at_60 = run(make_workbook, "split", loads).loads[0]
+    at_70 = run(make_workbook, "split", loads, [["Line imbalance", "70 %"]]).loads[0]
+    assert at_70.phasor_ma == pytest.approx(at_60.phasor_ma + 0.1 * at_60.imbalance_ma)
+    assert abs(at_60.imbalance_ma) == pytest.approx(2 * 2 * per_line_ma(10, 120, 60) * 2)  # 2 units, |e1 − e2| = 2
