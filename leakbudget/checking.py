@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 from leakbudget.devices import Status
 from leakbudget.estimate import Estimate, LoadResult, estimate, evaluate
 from leakbudget.model import Project
+from leakbudget.protection import DeviceResult, evaluate_tree
 from leakbudget.readings import ReadingResult, reconcile
 from leakbudget.risk import RiskResult, assess
 
@@ -21,10 +22,12 @@ class CheckResult(Estimate):
 
     risk: RiskResult | None = None  # trip likelihoods and how they were computed
     readings: list[ReadingResult] = field(default_factory=list)  # Readings sheet reconciled with the estimate
+    devices: list[DeviceResult] = field(default_factory=list)  # shared devices (Protection sheet) and their totals
 
     @property
     def all_ok(self) -> bool:
-        return all(c.status in (Status.OK, Status.UNPROTECTED) for c in self.circuits)
+        fine = (Status.OK, Status.UNPROTECTED)
+        return all(c.status in fine for c in self.circuits) and all(d.status in fine for d in self.devices)
 
     @property
     def unplaced(self) -> list[LoadResult]:
@@ -37,6 +40,7 @@ def check(project: Project) -> CheckResult:
     result = CheckResult(project, evaluate(project, loads), loads)
     result.risk = assess(result)
     mark_marginal(result)
+    result.devices = evaluate_tree(result, result.risk.samples)
     result.readings = reconcile(result)
     return result
 

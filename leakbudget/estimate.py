@@ -26,6 +26,7 @@ from leakbudget.devices import (
     SINE,
     SMOOTH_DC,
     WAVEFORMS,
+    Device,
     Family,
     Status,
     budget_ma,
@@ -89,6 +90,8 @@ class CircuitResult:
     smooth_dc_ma: float = 0.0
     trip_equivalent_ma: float = 0.0
     dc_blinded: bool = False  # smooth DC above what its RCD type operates with (BS 7671:2018 reg. 531.3.3 notes)
+    protected_by: str | None = None  # the nearest shared device above it (Protection sheet)
+    device_status: Status | None = None  # that device's status
 
 
 @dataclass
@@ -392,17 +395,22 @@ def load_waveform(r: LoadResult) -> str:
 
 
 def trip_weight(circuit: Circuit, waveform: str) -> float:
-    """How much a milliampere of ``waveform`` counts towards the device's no-trip level, relative to sine.
+    """How much a milliampere of ``waveform`` counts towards the circuit's device's no-trip level, relative to sine
+    (:func:`device_trip_weight` of the circuit's own device and RCD type)."""
+    return device_trip_weight(circuit.device, circuit.rcd_type, waveform)
+
+
+def device_trip_weight(dev: Device, rcd_type: str | None, waveform: str) -> float:
+    """How much a milliampere of ``waveform`` counts towards a device's no-trip level, relative to sine.
 
     An RCD of known type operates on each waveform within its own band (IEC 61008-1 / IEC 60755 / IEC 62423); the
     no-trip judgement scales each part to sine by the band's lower limit, 0.5 / low (Type A pulsating DC: 0.5 /
     0.35 = 1.43): conservative where the band is wider than the sine one. A waveform the type is not made for, an
     unknown type and other device families count as sine (1).
     """
-    dev = circuit.device
-    if waveform == SINE or dev.family is not Family.RCD or not circuit.rcd_type:
+    if waveform == SINE or dev.family is not Family.RCD or not rcd_type:
         return 1.0
-    band = operating_band(circuit.rcd_type, waveform, dev.trip_ma)
+    band = operating_band(rcd_type, waveform, dev.trip_ma)
     return 0.5 / band[0] if band is not None and band[0] > 0 else 1.0
 
 

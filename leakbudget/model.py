@@ -31,6 +31,9 @@ class Circuit:
     note: str | None
     row: int
     shared_neutral: bool = False  # shares its neutral with another circuit (multiwire branch circuit)
+    protected_by: str | None = None  # Id of the shared device it hangs under (Protection sheet)
+    phase: str = "L1"  # the board's line a single-pole circuit takes
+    purpose: str = "mixed"  # sockets, lighting, dedicated or mixed
 
 
 @dataclass(slots=True)
@@ -52,6 +55,28 @@ class Load:
     row: int
     waveform: str | None = None  # the Waveform column; None = the catalogue's (or sine)
     model: str | None = None  # model reference; a Leakage reading on one unit stands for units of the same model
+    protected_by: str | None = None  # Id of a device inside its circuit that protects it (Protection sheet)
+
+
+PURPOSES = ("sockets", "lighting", "dedicated", "mixed")
+PHASES = ("L1", "L2", "L3")
+
+
+@dataclass(slots=True)
+class SharedDevice:
+    """A Protection row: a device protecting several circuits of a board, above other devices, or inside one
+    circuit (``circuit_id``)."""
+
+    device_id: str
+    device: Device
+    rcd_type: str | None
+    upstream_id: str | None
+    rating_a: float | None
+    board: str | None
+    system: str  # the lines it carries
+    circuit_id: str | None  # set for a device inside one circuit
+    note: str | None
+    row: int
 
 
 # What a Readings row's Conditions say: every load running, or loads connected but not running.
@@ -93,6 +118,7 @@ class Project:
     defaults_used: list[str] = field(default_factory=list)  # plain sentences: "Voltage 120 V (…) for K1, K2"
     location_rows: list[LocationRow] = field(default_factory=list)  # the user's Locations sheet
     readings: list[Reading] = field(default_factory=list)  # optional Readings sheet
+    protection: list[SharedDevice] = field(default_factory=list)  # optional Protection sheet
 
     def circuit_index(self) -> dict[str, int]:
         return {c.circuit_id.lower(): i for i, c in enumerate(self.circuits)}

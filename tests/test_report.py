@@ -311,7 +311,7 @@ def test_every_load_shows_its_source_and_provenance_mark(demo_run):
     ) in raw
     # the budget rule's source and the device levels' sources (UL 943, BS 7671:2018 reg. 531.3.2)
     assert "UL 943 Class A (no trip below 4 mA)" in raw
-    assert "30 % of trip level, by analogy with BS 7671:2018 reg. 531.3.2 (common practice)" in raw
+    assert "modelling choice: 30 % of the trip level, by analogy with BS 7671:2018 reg. 531.3.2" in raw
 
 
 def test_embedded_charts_show_the_check_numbers(demo_run):

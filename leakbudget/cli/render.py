@@ -176,6 +176,64 @@ def _circuits_to_show(circuits: list[Any]) -> list[Any]:
     return [circuits[i] for i in sorted(sorted(range(len(circuits)), key=rank)[:TERMINAL_TABLE_ROWS])]
 
 
+def render_board(result: Any, wide: bool) -> None:
+    """The protection tree: each shared device with what hangs under it, indented, and its accumulated total."""
+    from leakbudget.output.check import device_dict
+
+    table = Table(
+        title="Shared devices: everything below each one (mA)",
+        title_justify="left",
+        box=box.SIMPLE_HEAD,
+        pad_edge=False,
+        padding=(0, 1, 0, 0),
+    )
+    for header in ("Device", "Key", "Sum", "Phasor", "Budget/ no-trip", "Used", "Status", "P(trip)", "Switch-on"):
+        table.add_column(header, justify="left" if header in ("Device", "Key", "Status") else "right", overflow="fold")
+    devices = {d.device_id: d for d in result.devices}
+    circuits = {c.circuit.circuit_id: c for c in result.circuits}
+
+    def add(device_id: str, depth: int) -> None:
+        node = devices[device_id]
+        d = device_dict(node)
+        used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"
+        table.add_row(
+            "  " * depth + d["id"],
+            d["device"],
+            fmt(d["leakage_ma"], 2),
+            fmt(d["phasor_ma"], 2),
+            f"{fmt(d['budget_ma'], 2)}/{fmt(d['no_trip_ma'], 2)}",
+            used,
+            f"[{STATUS_STYLE[d['status']]}]{d['status']}[/]",
+            _short_probability(d["trip_probability_text"], d["trip_probability"], wide),
+            _short_probability(d["trip_probability_switch_on_text"], d["trip_probability_switch_on"], wide),
+        )
+        for below in node.below:
+            add(below, depth + 1)
+        direct = [cid for cid in node.circuits if circuits[cid].circuit.protected_by == device_id]
+        for cid in direct:
+            c = circuits[cid]
+            table.add_row("  " * (depth + 1) + cid, c.circuit.device.key, fmt(c.leakage_ma, 2), fmt(c.phasor_ma, 2))
+        inside = [x for x in result.devices if x.shared.circuit_id is not None and x.shared.circuit_id in direct]
+        for x in inside:
+            add(x.device_id, depth + 2)
+
+    roots = [d.device_id for d in result.devices if d.shared.upstream_id is None and d.shared.circuit_id is None]
+    for root in roots:
+        add(root, 0)
+    for x in result.devices:  # devices inside circuits that hang under no shared device
+        if x.shared.circuit_id is not None and circuits[x.shared.circuit_id].circuit.protected_by is None:
+            add(x.device_id, 0)
+    out_console.print(table)
+    for x in result.devices:
+        if x.status.value in ("over-budget", "trip-risk", "marginal"):
+            out_console.print(
+                f"{x.device_id} is {x.status.value}: {fmt(x.gate_ma, 2)} mA from everything below it against its "
+                f"{fmt(x.budget_ma, 2)} mA budget ({x.budget_source}); largest contributor {x.largest} "
+                f"({x.largest_ma:.2f} mA).",
+                highlight=False,
+            )
+
+
 def render_check(job: Any) -> None:
     from leakbudget.output.check import circuit_dict
 
@@ -206,9 +264,10 @@ def render_check(job: Any) -> None:
         d = circuit_dict(c)
         used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"
         budget, no_trip = fmt(d["budget_ma"], 2), fmt(d["no_trip_ma"], 2)
+        own = d["device"] if c.circuit.device.protected or c.protected_by is None else f"via {c.protected_by}"
         cells = [
             d["circuit"],
-            d["device"],
+            own,
             fmt(d["leakage_ma"], 2),
             fmt(d["phasor_ma"], 2),
             *((budget, no_trip) if wide else (f"{budget}/{no_trip}" if d["budget_ma"] is not None else "-",)),
@@ -225,6 +284,8 @@ def render_check(job: Any) -> None:
             )
         table.add_row(*cells)
     out_console.print(table)
+    if result.devices:
+        render_board(result, wide)
     if len(shown) < len(result.circuits):
         out_console.print(
             f"Showing {len(shown)} of {len(result.circuits):,} circuits: those using most of their budget; "

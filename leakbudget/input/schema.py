@@ -68,6 +68,25 @@ CIRCUITS = Sheet(
             "yes if this circuit shares its neutral with another circuit (a multiwire branch circuit); blank = no.",
         ),
         Column("Note", None, False, "Free text, copied to the results."),
+        Column(
+            "Protected by",
+            None,
+            False,
+            "Id of the shared device (Protection sheet) the circuit hangs under, e.g. RCD1; blank = none.",
+        ),
+        Column(
+            "Phase",
+            None,
+            False,
+            "The supply line a single-pole circuit takes on a split-phase or three-phase board: L1, L2 or L3 "
+            "(default L1).",
+        ),
+        Column(
+            "Purpose",
+            None,
+            False,
+            "sockets, lighting, dedicated (one appliance) or mixed (default); the review and the planner use it.",
+        ),
     ),
 )
 
@@ -108,6 +127,47 @@ LOADS = Sheet(
             "Model reference; a Leakage measured on one unit stands for the units with "
             "the same Appliance and Model that have no figure of their own.",
         ),
+        Column(
+            "Protected by",
+            None,
+            False,
+            "Id of a device inside the circuit that protects this load (Protection sheet row with a Circuit): a "
+            "GFCI receptacle upstream of its outlet, a cord set's own interrupting device; blank = none.",
+        ),
+    ),
+)
+
+PROTECTION = Sheet(
+    "Protection",
+    False,
+    "One row per shared device: an RCD protecting several circuits of a board, a time-delayed RCD above others, "
+    "or a device inside one circuit (give its Circuit).",
+    (
+        Column("Id", None, True, "Unique id the Circuits and Loads sheets name in Protected by, e.g. RCD1 or MAIN."),
+        Column("Device", None, True, "Device key (see `leakbudget devices`), as on Circuits."),
+        Column("RCD type", None, False, "AC, A, F or B (IEC 60755 / IEC 62423); blank if unknown."),
+        Column(
+            "Upstream",
+            None,
+            False,
+            "Id of the device above it; blank = at the origin (or, with a Circuit, under that circuit's own devices).",
+        ),
+        Column("Rating", "A", False, "Its rated current."),
+        Column("Board", None, False, "Free text: which board it sits in."),
+        Column(
+            "System",
+            None,
+            False,
+            "The lines it carries: single (two-pole, default), split, network or three (four-pole).",
+        ),
+        Column(
+            "Circuit",
+            None,
+            False,
+            "For a device inside one circuit (a GFCI receptacle, a cord set's device): that circuit's id; blank for "
+            "a device on the board.",
+        ),
+        Column("Note", None, False, "Free text, copied to the results."),
     ),
 )
 
@@ -206,11 +266,12 @@ READINGS = Sheet(
     ),
 )
 
-SHEETS: tuple[Sheet, ...] = (CIRCUITS, LOADS, SETTINGS, APPLIANCES, CABLES, LOCATIONS, READINGS)
+SHEETS: tuple[Sheet, ...] = (CIRCUITS, LOADS, PROTECTION, SETTINGS, APPLIANCES, CABLES, LOCATIONS, READINGS)
 
 # Result sheets written back into the workbook; these names are reserved (replaced on every run).
 CIRCUIT_RESULTS = "Circuit results"
 LOAD_RESULTS = "Load results"
 REVIEW_FINDINGS = "Review findings"
 READING_RESULTS = "Reading results"
+DEVICE_RESULTS = "Device results"
 SPLIT_PLAN = "Split plan"

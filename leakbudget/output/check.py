@@ -13,8 +13,9 @@ from typing import Any
 from leakbudget.about import CAUTION, __version__
 from leakbudget.checking import CheckResult
 from leakbudget.estimate import CircuitResult, LoadResult
-from leakbudget.input.schema import CIRCUIT_RESULTS, LOAD_RESULTS, READING_RESULTS
+from leakbudget.input.schema import CIRCUIT_RESULTS, DEVICE_RESULTS, LOAD_RESULTS, READING_RESULTS
 from leakbudget.output.palette import BUDGET_COLOUR, NO_TRIP_COLOUR, SEGMENT_COLOURS
+from leakbudget.protection import DeviceResult
 from leakbudget.readings import COVERAGE, THRESHOLDS, ReadingResult
 from leakbudget.risk import TripProbability, likelihood_text
 from leakbudget.xlsx.package import ChartSpec, SheetData
@@ -119,6 +120,55 @@ def circuit_dict(c: CircuitResult) -> dict[str, Any]:
     }
 
 
+def tree_keys(c: CircuitResult) -> dict[str, Any]:
+    """The protection tree's keys of a circuit (only in workbooks with a Protection sheet)."""
+    return {
+        "protected_by": c.protected_by,
+        "device_status": c.device_status.value if c.device_status is not None else None,
+        "phase": c.circuit.phase,
+        "purpose": c.circuit.purpose,
+    }
+
+
+def device_dict(d: DeviceResult) -> dict[str, Any]:
+    """One shared device of the Protection sheet, with everything below it."""
+    shared = d.shared
+    dev = shared.device
+    return {
+        "id": shared.device_id,
+        "device": dev.key,
+        "device_label": dev.label,
+        "rcd_type": shared.rcd_type,
+        "upstream": shared.upstream_id,
+        "inside_circuit": shared.circuit_id,
+        "board": shared.board,
+        "system": shared.system,
+        "rating_a": shared.rating_a,
+        "circuits": d.circuits,
+        "below": d.below,
+        "load_count": d.load_count,
+        "leakage_ma": _num(d.leakage_ma),
+        "phasor_ma": _num(d.phasor_ma),
+        "gate_ma": _num(d.gate_ma),
+        "trip_equivalent_ma": _num(d.trip_equivalent_ma),
+        "smooth_dc_ma": _num(d.smooth_dc_ma),
+        "dc_blinded": d.dc_blinded,
+        "budget_ma": _num(d.budget_ma),
+        "budget_source": str(d.budget_source),
+        "no_trip_ma": _num(dev.no_trip_ma),
+        "no_trip_source": str(dev.no_trip_source),
+        "trip_ma": _num(dev.trip_ma),
+        "trip_source": str(dev.trip_source),
+        "headroom_used": _num(d.headroom_used),
+        "status": d.status.value,
+        "largest_contributor": d.largest,
+        "largest_contributor_ma": _num(d.largest_ma),
+        **risk_dict(d.risk),
+        "circuits_lost_on_trip": d.lost,
+        "note": shared.note,
+    }
+
+
 def load_dict(r: LoadResult) -> dict[str, Any]:
     load = r.load
     return {
@@ -161,7 +211,10 @@ def to_json(result: CheckResult) -> dict[str, Any]:
         "defaults_used": project.defaults_used,
         "warnings": project.warnings,
         "caution": CAUTION,
-        "circuits": [circuit_dict(c) for c in result.circuits],
+        "circuits": [
+            {**circuit_dict(c), **tree_keys(c)} if project.protection else circuit_dict(c) for c in result.circuits
+        ],
+        "devices": [device_dict(d) for d in result.devices],
         "loads": [load_dict(r) for r in result.loads],
         "risk": risk_summary(result),
         "readings": readings_list(result),
@@ -212,6 +265,31 @@ CIRCUIT_COLUMNS: tuple[tuple[str, str, str | None], ...] = (
     ("Pulsating DC (mA)", "pulsating_dc_ma", "0.000"),
     ("Smooth DC (mA)", "smooth_dc_ma", "0.000"),
     ("No-trip judged on (mA)", "trip_equivalent_ma", "0.000"),
+    ("Note", "note", None),
+)
+
+DEVICE_COLUMNS: tuple[tuple[str, str, str | None], ...] = (
+    ("Device id", "id", None),
+    ("Device", "device", None),
+    ("RCD type", "rcd_type", None),
+    ("Upstream", "upstream", None),
+    ("Inside circuit", "inside_circuit", None),
+    ("Board", "board", None),
+    ("Circuits", "circuits_text", None),
+    ("Loads", "load_count", "0"),
+    ("Leakage, arithmetic (mA)", "leakage_ma", "0.000"),
+    ("Leakage, phasor (mA)", "phasor_ma", "0.000"),
+    ("No-trip judged on (mA)", "trip_equivalent_ma", "0.000"),
+    ("Budget (mA)", "budget_ma", "0.000"),
+    ("Budget source", "budget_source", None),
+    ("No-trip level (mA)", "no_trip_ma", "0.000"),
+    ("Budget used", "headroom_used", "0%"),
+    ("Status", "status", None),
+    ("Largest contributor", "largest_contributor", None),
+    ("Largest (mA)", "largest_contributor_ma", "0.000"),
+    ("Trip likelihood, dry", "trip_probability", "0.00%"),
+    ("Trip likelihood, switch-on", "trip_probability_switch_on", "0.00%"),
+    ("Circuits lost on a trip", "lost_text", None),
     ("Note", "note", None),
 )
 
@@ -314,6 +392,12 @@ def result_sheets(result: CheckResult) -> list[SheetData]:
         _sheet(CIRCUIT_RESULTS, CIRCUIT_COLUMNS, doc["circuits"], footer, chart),
         _sheet(LOAD_RESULTS, LOAD_COLUMNS, doc["loads"], footer[:1]),
     ]
+    if doc["devices"]:
+        records = [
+            {**d, "circuits_text": ", ".join(d["circuits"]), "lost_text": ", ".join(d["circuits_lost_on_trip"])}
+            for d in doc["devices"]
+        ]
+        sheets.append(_sheet(DEVICE_RESULTS, DEVICE_COLUMNS, records, footer[:1]))
     if doc["readings"]:
         sheets.append(
             _sheet(READING_RESULTS, READING_COLUMNS, doc["readings"], [footer[0], f"Thresholds: {THRESHOLDS}"])

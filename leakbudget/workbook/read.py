@@ -21,12 +21,23 @@ from leakbudget.input.ranges import (
     STANDING_LEAKAGE_MA,
     VOLTAGE_V,
 )
-from leakbudget.input.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, READINGS, SETTINGS, Sheet, normalise
+from leakbudget.input.schema import (
+    APPLIANCES,
+    CABLES,
+    CIRCUITS,
+    LOADS,
+    LOCATIONS,
+    PROTECTION,
+    READINGS,
+    SETTINGS,
+    Sheet,
+    normalise,
+)
 from leakbudget.input.table import MergedRange, RawTable, Row, Unreadable
 from leakbudget.input.units import UnitProblem
-from leakbudget.leakage import SYSTEMS, capacitive_current_ma, parse_leg, resistive_current_ma
+from leakbudget.leakage import LEG_ANGLES_DEG, SYSTEMS, capacitive_current_ma, parse_leg, resistive_current_ma
 from leakbudget.locations import rows_from_table
-from leakbudget.model import Circuit, Load, Project
+from leakbudget.model import PHASES, PURPOSES, Circuit, Load, Project, SharedDevice
 from leakbudget.progress import Progress
 from leakbudget.provenance import Source
 from leakbudget.settings import (
@@ -218,8 +229,13 @@ def _market_supply(market: str, settings: Settings) -> tuple[float, float, Sourc
 
 
 def read_circuits(
-    table: RawTable, settings: Settings, catalogue: cat.Catalogue, defaults_used: list[str]
+    table: RawTable,
+    settings: Settings,
+    catalogue: cat.Catalogue,
+    defaults_used: list[str],
+    shared: dict[str, SharedDevice] | None = None,
 ) -> list[Circuit]:
+    shared = shared or {}
     circuits: list[Circuit] = []
     seen: dict[str, int] = {}
     markets = [
@@ -306,12 +322,167 @@ def read_circuits(
                 note=table.text(row, "Note"),
                 row=row[0],
                 shared_neutral=bool(table.flag(row, "Shared neutral")),
+                protected_by=_protected_by(table, row, shared, board_level=True),
+                phase=table.choice(row, "Phase", PHASES, "L1") or "L1",
+                purpose=table.choice(row, "Purpose", PURPOSES, "mixed") or "mixed",
             )
         )
+        _check_phase(table, row, circuits[-1], shared)
     for label, ids in defaulted.items():
         shown = ", ".join(ids[:8]) + (f" and {len(ids) - 8} more" if len(ids) > 8 else "")
         defaults_used.append(f"supply {label} for {shown}")
     return circuits
+
+
+def read_protection(table: RawTable | None) -> dict[str, SharedDevice]:
+    """The Protection sheet: shared devices by lower-case Id; every problem names its cell (an unknown Upstream, a
+    cycle of Upstream ids, a device that protects nothing)."""
+    if table is None:
+        return {}
+    shared: dict[str, SharedDevice] = {}
+    for row in table.rows:
+        did = table.text(row, "Id")
+        if did is None:
+            raise table.error(row, "Id", "the id is blank", hint="give every shared device an id, e.g. RCD1")
+        if did.lower() in shared:
+            raise table.error(
+                row, "Id", f"the id '{did}' is used twice (also row {shared[did.lower()].row})", hint="keep ids unique"
+            )
+        dkey = table.text(row, "Device")
+        try:
+            dev = device(dkey or "")
+        except KeyError:
+            dev = None
+        if dev is None or not dev.protected:
+            raise table.error(
+                row,
+                "Device",
+                f"'{dkey or ''}' is not a protective device key",
+                hint=f"use one of {', '.join(k for k in DEVICES if k != 'none')} (see `leakbudget devices`)",
+            )
+        shared[did.lower()] = SharedDevice(
+            device_id=did,
+            device=dev,
+            rcd_type=table.choice(row, "RCD type", RCD_TYPES),
+            upstream_id=table.text(row, "Upstream"),
+            rating_a=table.number(row, "Rating", "A", positive=True),
+            board=table.text(row, "Board"),
+            system=table.choice(row, "System", SYSTEMS, "single") or "single",
+            circuit_id=table.text(row, "Circuit"),
+            note=table.text(row, "Note"),
+            row=row[0],
+        )
+    rows = {r[0]: r for r in table.rows}
+    for d in shared.values():
+        if d.upstream_id is None:
+            continue
+        up = shared.get(d.upstream_id.lower())
+        if up is None:
+            raise table.error(
+                rows[d.row],
+                "Upstream",
+                f"'{d.upstream_id}' is not an Id of the Protection sheet",
+                hint="use the Id of the device above it, or leave it blank for a device at the origin",
+            )
+        if d.circuit_id is not None:
+            raise table.error(
+                rows[d.row],
+                "Upstream",
+                "a device inside a circuit takes its place under that circuit's devices",
+                hint="leave Upstream blank for a row with a Circuit",
+            )
+        if up.circuit_id is not None:
+            raise table.error(
+                rows[d.row],
+                "Upstream",
+                f"'{up.device_id}' sits inside circuit {up.circuit_id}, not on a board",
+                hint="name a board device as Upstream",
+            )
+        seen = [d.device_id]
+        node: SharedDevice | None = up
+        while node is not None:
+            if node.device_id.lower() == d.device_id.lower():
+                raise table.error(
+                    rows[d.row],
+                    "Upstream",
+                    f"the Upstream ids go round in a circle ({' → '.join([*seen, node.device_id])})",
+                    hint="every chain of Upstream ids must end at a device at the origin",
+                )
+            seen.append(node.device_id)
+            node = shared.get(node.upstream_id.lower()) if node.upstream_id else None
+    return shared
+
+
+def _protected_by(table: RawTable, row: Row, shared: dict[str, SharedDevice], board_level: bool) -> str | None:
+    did = table.text(row, "Protected by")
+    if did is None:
+        return None
+    d = shared.get(did.lower())
+    if d is None:
+        raise table.error(
+            row,
+            "Protected by",
+            f"'{did}' is not an Id of the Protection sheet",
+            hint="add the device to the Protection sheet, or leave the cell blank",
+        )
+    if board_level and d.circuit_id is not None:
+        raise table.error(
+            row,
+            "Protected by",
+            f"'{d.device_id}' is a device inside circuit {d.circuit_id}, not on the board",
+            hint="name the board device the circuit hangs under (a Protection row without a Circuit)",
+        )
+    return d.device_id
+
+
+def _check_phase(table: RawTable, row: Row, circuit: Circuit, shared: dict[str, SharedDevice]) -> None:
+    """A single-pole circuit's Phase must be a line its device carries."""
+    if circuit.protected_by is None or circuit.system != "single":
+        return
+    d = shared[circuit.protected_by.lower()]
+    if circuit.phase not in LEG_ANGLES_DEG[d.system]:
+        raise table.error(
+            row,
+            "Phase",
+            f"{d.device_id} is a {d.system} device and carries no {circuit.phase}",
+            hint=f"use {', '.join(LEG_ANGLES_DEG[d.system])}, or give {d.device_id} the System it has on the "
+            "Protection sheet",
+        )
+
+
+def _link_load_devices(
+    table: RawTable | None,
+    shared: dict[str, SharedDevice],
+    circuits: list[Circuit],
+    loads_table: RawTable,
+    loads: list[Load],
+) -> None:
+    """A device inside a circuit names an existing circuit, and every load under one sits on that circuit."""
+    by_id = {c.circuit_id.lower(): c for c in circuits}
+    rows = {r[0]: r for r in table.rows} if table is not None else {}
+    for d in shared.values():
+        if d.circuit_id is not None:
+            if d.circuit_id.lower() not in by_id:
+                raise table.error(  # type: ignore[union-attr]
+                    rows[d.row],
+                    "Circuit",
+                    f"'{d.circuit_id}' is not a circuit in the Circuits sheet",
+                    hint="use the id of the circuit the device sits on, or leave it blank for a board device",
+                )
+            d.circuit_id = by_id[d.circuit_id.lower()].circuit_id
+    load_rows = {r[0]: r for r in loads_table.rows}
+    for load in loads:
+        if load.protected_by is None:
+            continue
+        d = shared[load.protected_by.lower()]
+        if d.circuit_id is None or load.circuit_id is None or d.circuit_id.lower() != load.circuit_id.lower():
+            where = f"sits inside circuit {d.circuit_id}" if d.circuit_id else "is a board device"
+            raise loads_table.error(
+                load_rows[load.row],
+                "Protected by",
+                f"'{d.device_id}' {where}, not on this load's circuit",
+                hint="name a device inside the load's own circuit (a Protection row whose Circuit is that circuit)",
+            )
 
 
 def _default_leg(appliance: cat.Appliance | None, system: str) -> str:
@@ -319,7 +490,10 @@ def _default_leg(appliance: cat.Appliance | None, system: str) -> str:
     return "L1-L2" if appliance is not None and appliance.line_to_line and system != "single" else "L1"
 
 
-def read_loads(table: RawTable, circuits: list[Circuit], catalogue: cat.Catalogue) -> list[Load]:
+def read_loads(
+    table: RawTable, circuits: list[Circuit], catalogue: cat.Catalogue, shared: dict[str, SharedDevice] | None = None
+) -> list[Load]:
+    shared = shared or {}
     by_id = {c.circuit_id.lower(): c for c in circuits}
     loads: list[Load] = []
     for row in table.rows:
@@ -392,6 +566,7 @@ def read_loads(table: RawTable, circuits: list[Circuit], catalogue: cat.Catalogu
                 row=row[0],
                 waveform=table.choice(row, "Waveform", cat.WAVEFORMS),
                 model=table.text(row, "Model"),
+                protected_by=_protected_by(table, row, shared, board_level=False) if shared else None,
             )
         )
     return loads
@@ -461,9 +636,12 @@ def read_project(path: str | Path, progress: Progress | None = None) -> Project:
     loads_table = _table(grids, LOADS, path)
     assert circuits_table is not None and loads_table is not None  # required sheets
     defaults_used: list[str] = []
-    circuits = read_circuits(circuits_table, settings, catalogue, defaults_used)
+    protection_table = _table(grids, PROTECTION, path)
+    shared = read_protection(protection_table)
+    circuits = read_circuits(circuits_table, settings, catalogue, defaults_used, shared)
     report(2)
-    loads = read_loads(loads_table, circuits, catalogue)
+    loads = read_loads(loads_table, circuits, catalogue, shared)
+    _link_load_devices(protection_table, shared, circuits, loads_table, loads)
     report(3)
     readings_table = _table(grids, READINGS, path)
     readings = read_readings(readings_table, circuits, defaults_used) if readings_table is not None else []
@@ -474,7 +652,18 @@ def read_project(path: str | Path, progress: Progress | None = None) -> Project:
     location_rows = (
         rows_from_table(locations_table, f"your sheet '{locations_table.sheet}'") if locations_table is not None else []
     )
-    return Project(path, circuits, loads, settings, catalogue, warnings, defaults_used, location_rows, readings)
+    return Project(
+        path,
+        circuits,
+        loads,
+        settings,
+        catalogue,
+        warnings,
+        defaults_used,
+        location_rows,
+        readings,
+        list(shared.values()),
+    )
 
 
 # Settings read by later stages (planner, risk, review); listed so they are not reported as unknown.
