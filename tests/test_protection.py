@@ -17,7 +17,18 @@ from leakbudget.devices import Status
 from leakbudget.errors import WorkbookError
 from leakbudget.workbook.read import read_project
 
-CIRCUITS = ["Circuit", "Device", "Voltage", "Frequency", "System", "Rating", "Rooms", "Protected by", "Phase", "Purpose"]
+CIRCUITS = [
+    "Circuit",
+    "Device",
+    "Voltage",
+    "Frequency",
+    "System",
+    "Rating",
+    "Rooms",
+    "Protected by",
+    "Phase",
+    "Purpose",
+]
 LOADS = ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Y capacitance", "Room", "Protected by"]
 PROTECTION = ["Id", "Device", "RCD type", "Upstream", "Rating", "Board", "System", "Circuit"]
 
@@ -25,20 +36,35 @@ PROTECTION = ["Id", "Device", "RCD type", "Upstream", "Rating", "Board", "System
 def uk_flat(make_workbook, extra_protection=(), circuits=None, loads=None, name="flat.xlsx"):
     """A split-load board: RCD1 (30 mA, Type A) over four circuits of an invented flat at 4 Tanner's Row."""
     sheets = {
-        "Protection": [PROTECTION, ["RCD1", "rcd-30", "A", None, 63, "Consumer unit", "single", None],
-                       *extra_protection],
-        "Circuits": [CIRCUITS, *(circuits or [
-            ["Ring kitchen", "none", 230, 50, "single", 32, "Kitchen", "RCD1", None, "sockets"],
-            ["Ring lounge", "none", 230, 50, "single", 32, "Lounge", "RCD1", None, "sockets"],
-            ["Lights", "none", 230, 50, "single", 6, None, "RCD1", None, "lighting"],
-            ["Shower", "none", 230, 50, "single", 40, "Bathroom", "RCD1", None, "dedicated"],
-        ])],
-        "Loads": [LOADS, *(loads or [
-            ["Kitchen ring loads", "Ring kitchen", None, 1, "4.0 mA", None, "Kitchen", None],
-            ["Lounge ring loads", "Ring lounge", None, 1, "3.5 mA", None, "Lounge", None],
-            ["LED drivers", "Lights", None, 1, "1.8 mA", None, None, None],
-            ["Shower", "Shower", None, 1, "3.0 mA", None, "Bathroom", None],
-        ])],
+        "Protection": [
+            PROTECTION,
+            ["RCD1", "rcd-30", "A", None, 63, "Consumer unit", "single", None],
+            *extra_protection,
+        ],
+        "Circuits": [
+            CIRCUITS,
+            *(
+                circuits
+                or [
+                    ["Ring kitchen", "none", 230, 50, "single", 32, "Kitchen", "RCD1", None, "sockets"],
+                    ["Ring lounge", "none", 230, 50, "single", 32, "Lounge", "RCD1", None, "sockets"],
+                    ["Lights", "none", 230, 50, "single", 6, None, "RCD1", None, "lighting"],
+                    ["Shower", "none", 230, 50, "single", 40, "Bathroom", "RCD1", None, "dedicated"],
+                ]
+            ),
+        ],
+        "Loads": [
+            LOADS,
+            *(
+                loads
+                or [
+                    ["Kitchen ring loads", "Ring kitchen", None, 1, "4.0 mA", None, "Kitchen", None],
+                    ["Lounge ring loads", "Ring lounge", None, 1, "3.5 mA", None, "Lounge", None],
+                    ["LED drivers", "Lights", None, 1, "1.8 mA", None, None, None],
+                    ["Shower", "Shower", None, 1, "3.0 mA", None, "Bathroom", None],
+                ]
+            ),
+        ],
     }
     return make_workbook(sheets, name)
 
@@ -74,7 +100,9 @@ def test_the_command_line_shows_the_board_and_exits_1(make_workbook):
 def test_a_workbook_without_a_protection_sheet_has_an_empty_devices_list(make_workbook):
     from tests.conftest import basic_sheets
 
-    doc = json.loads(CliRunner().invoke(app, ["check", str(make_workbook(basic_sheets())), "--json", "--no-write"]).stdout)
+    doc = json.loads(
+        CliRunner().invoke(app, ["check", str(make_workbook(basic_sheets())), "--json", "--no-write"]).stdout
+    )
     assert doc["devices"] == [] and "protected_by" not in doc["circuits"][0]
 
 
@@ -92,21 +120,28 @@ def test_a_four_pole_rcd_sees_three_phases_cancel(make_workbook):
 
 def test_a_tt_board_sums_upwards(make_workbook):
     # A type S 100 mA RCD at the origin over RCD1 and RCD2 sees all four circuits; each 30 mA RCD its own two.
-    extra = [["MAIN", "rcd-100s", "A", None, 100, "Origin", "single", None],
-             ["RCD2", "rcd-30", "A", "MAIN", 63, "Consumer unit", "single", None]]
+    extra = [
+        ["MAIN", "rcd-100s", "A", None, 100, "Origin", "single", None],
+        ["RCD2", "rcd-30", "A", "MAIN", 63, "Consumer unit", "single", None],
+    ]
     circuits = [
         ["Ring kitchen", "none", 230, 50, "single", 32, "Kitchen", "RCD1", None, "sockets"],
         ["Lights up", "none", 230, 50, "single", 6, None, "RCD1", None, "lighting"],
         ["Ring lounge", "none", 230, 50, "single", 32, "Lounge", "RCD2", None, "sockets"],
         ["Lights down", "none", 230, 50, "single", 6, None, "RCD2", None, "lighting"],
     ]
-    loads = [[f"L{i}", c[0], None, 1, f"{ma} mA", None, None, None] for i, (c, ma) in
-             enumerate(zip(circuits, (4.0, 1.0, 3.5, 0.8)))]
-    path = make_workbook({
-        "Protection": [PROTECTION, ["RCD1", "rcd-30", "A", "MAIN", 63, "Consumer unit", "single", None], *extra],
-        "Circuits": [CIRCUITS, *circuits],
-        "Loads": [LOADS, *loads],
-    }, "tt.xlsx")
+    loads = [
+        [f"L{i}", c[0], None, 1, f"{ma} mA", None, None, None]
+        for i, (c, ma) in enumerate(zip(circuits, (4.0, 1.0, 3.5, 0.8)))
+    ]
+    path = make_workbook(
+        {
+            "Protection": [PROTECTION, ["RCD1", "rcd-30", "A", "MAIN", 63, "Consumer unit", "single", None], *extra],
+            "Circuits": [CIRCUITS, *circuits],
+            "Loads": [LOADS, *loads],
+        },
+        "tt.xlsx",
+    )
     result = check(read_project(path))
     by_id = {d.device_id: d for d in result.devices}
     assert by_id["RCD1"].leakage_ma == pytest.approx(5.0) and by_id["RCD2"].leakage_ma == pytest.approx(4.3)
@@ -117,14 +152,19 @@ def test_a_tt_board_sums_upwards(make_workbook):
 def test_a_gfci_receptacle_protects_only_the_loads_below_it(make_workbook):
     # A US kitchen circuit with no breaker GFCI: a GFCI receptacle (GR1) feeds the counter outlets downstream;
     # the fridge upstream of it is not under it.
-    path = make_workbook({
-        "Protection": [PROTECTION, ["GR1", "gfci-a", None, None, 20, None, "single", "K1"]],
-        "Circuits": [CIRCUITS, ["K1", "none", 120, 60, "single", 20, "Kitchen", None, None, "sockets"]],
-        "Loads": [LOADS,
-                  ["Toaster", "K1", None, 1, "0.3 mA", None, "Kitchen", "GR1"],
-                  ["Kettle", "K1", None, 1, "0.2 mA", None, "Kitchen", "GR1"],
-                  ["Fridge", "K1", None, 1, "0.5 mA", None, "Kitchen", None]],
-    }, "kitchen.xlsx")
+    path = make_workbook(
+        {
+            "Protection": [PROTECTION, ["GR1", "gfci-a", None, None, 20, None, "single", "K1"]],
+            "Circuits": [CIRCUITS, ["K1", "none", 120, 60, "single", 20, "Kitchen", None, None, "sockets"]],
+            "Loads": [
+                LOADS,
+                ["Toaster", "K1", None, 1, "0.3 mA", None, "Kitchen", "GR1"],
+                ["Kettle", "K1", None, 1, "0.2 mA", None, "Kitchen", "GR1"],
+                ["Fridge", "K1", None, 1, "0.5 mA", None, "Kitchen", None],
+            ],
+        },
+        "kitchen.xlsx",
+    )
     result = check(read_project(path))
     (gr1,) = result.devices
     assert gr1.leakage_ma == pytest.approx(0.5) and gr1.load_count == 2  # toaster and kettle only
@@ -158,11 +198,87 @@ def test_bad_trees_are_refused_in_one_sentence(make_workbook, change, message):
 
 
 def test_a_load_under_a_device_inside_another_circuit_is_refused(make_workbook):
-    path = make_workbook({
-        "Protection": [PROTECTION, ["GR1", "gfci-a", None, None, 20, None, "single", "K1"]],
-        "Circuits": [CIRCUITS, ["K1", "none", 120, 60, "single", 20, "Kitchen", None, None, None],
-                     ["K2", "none", 120, 60, "single", 20, "Kitchen", None, None, None]],
-        "Loads": [LOADS, ["Toaster", "K2", None, 1, "0.3 mA", None, "Kitchen", "GR1"]],
-    }, "k.xlsx")
+    path = make_workbook(
+        {
+            "Protection": [PROTECTION, ["GR1", "gfci-a", None, None, 20, None, "single", "K1"]],
+            "Circuits": [
+                CIRCUITS,
+                ["K1", "none", 120, 60, "single", 20, "Kitchen", None, None, None],
+                ["K2", "none", 120, 60, "single", 20, "Kitchen", None, None, None],
+            ],
+            "Loads": [LOADS, ["Toaster", "K2", None, 1, "0.3 mA", None, "Kitchen", "GR1"]],
+        },
+        "k.xlsx",
+    )
     with pytest.raises(WorkbookError, match="'GR1' sits inside circuit K1, not on this load's circuit"):
         read_project(path)
+
+
+# ------------------------------------------------------------------------------------------ review on the tree
+
+
+def tree_for_review(make_workbook):
+    """A UK board that breaks every tree rule: a general-type 100 mA RCD over a 30 mA RCD (no selectivity), an
+    RCBO under the 30 mA RCD (two general types in series), both lighting circuits under it (BS 7671 314.1),
+    12.7 mA below it (over 9 mA, BS 7671 531.3.2; above 10 mA, 543.7) of which 7 mA smooth DC (Type A blinded)."""
+    path = make_workbook(
+        {
+            "Protection": [
+                PROTECTION,
+                ["MAIN", "rcd-100", "A", None, 100, "Origin", "single", None],
+                ["RCD1", "rcd-30", "A", "MAIN", 63, "Consumer unit", "single", None],
+            ],
+            "Circuits": [
+                CIRCUITS,
+                ["Lights up", "none", 230, 50, "single", 6, "Landing", "RCD1", None, "lighting"],
+                ["Lights down", "none", 230, 50, "single", 6, "Lounge", "RCD1", None, "lighting"],
+                ["Garage", "rcd-30", 230, 50, "single", 32, "Garage", "RCD1", None, "dedicated"],
+            ],
+            "Loads": [
+                [*LOADS, "Waveform"],
+                ["LEDs up", "Lights up", None, 1, "2.5 mA", None, "Landing", None, None],
+                ["LEDs down", "Lights down", None, 1, "3.2 mA", None, "Lounge", None, None],
+                ["EV point", "Garage", None, 1, "7 mA", None, "Garage", None, "smooth-dc"],
+            ],
+        },
+        "board.xlsx",
+    )
+    from leakbudget.compliance.rules import review
+
+    return review(read_project(path), "bs-7671")
+
+
+def test_the_tree_rules(make_workbook):
+    rv = tree_for_review(make_workbook)
+    by_rule: dict[str, list] = {}
+    for f in rv.findings:
+        by_rule.setdefault(f.rule, []).append(f)
+    # selectivity: MAIN (general 100 mA) over RCD1, and RCD1 over the Garage RCBO: neither is type S
+    assert len(by_rule["selectivity"]) == 2 and all(f.severity.value == "warning" for f in by_rule["selectivity"])
+    assert "536.4.1.4" in str(by_rule["selectivity"][0].source)
+    (budget,) = [f for f in by_rule["device-budget"] if "RCD1" in f.message]
+    assert budget.severity.value == "error" and "12.70 mA" in budget.message  # 2.5 + 3.2 + 7.0 over 9 mA
+    assert "531.3.2" in str(budget.source)
+    assert {f.message.split()[5].rstrip(":") for f in by_rule["high-integrity"]} == {"RCD1", "MAIN"}
+    (division,) = by_rule["division"]
+    assert "Lights up, Lights down" in division.message and "314.1" in str(division.source)
+    assert any("RCD1" in f.message for f in by_rule["device-waveform"])  # 7 mA smooth DC under Type A
+
+
+def test_a_type_s_rcd_over_30_ma_rcds_is_selective(make_workbook):
+    path = make_workbook(
+        {
+            "Protection": [
+                PROTECTION,
+                ["MAIN", "rcd-100s", "A", None, 100, "Origin", "single", None],
+                ["RCD1", "rcd-30", "A", "MAIN", 63, "Consumer unit", "single", None],
+            ],
+            "Circuits": [CIRCUITS, ["Ring", "none", 230, 50, "single", 32, "Lounge", "RCD1", None, "sockets"]],
+            "Loads": [LOADS, ["Loads", "Ring", None, 1, "1 mA", None, "Lounge", None]],
+        },
+        "tt.xlsx",
+    )
+    from leakbudget.compliance.rules import review
+
+    # type S 100 mA ≥ 3 × 30 mA (BS 7671 536.4.1.4 / IEC 60364-5-53, from memory): selective, no warning
+    assert [f for f in review(read_project(path), "bs-7671").findings if f.rule == "selectivity"] == []

@@ -13,7 +13,7 @@ data in :mod:`leakbudget.compliance.codes`; room names are classified by :mod:`l
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from enum import Enum
 from typing import Any
 
@@ -28,11 +28,12 @@ from leakbudget.compliance.codes import (
     Scope,
     is_ev_charger,
 )
-from leakbudget.devices import Family, Status, smooth_dc_limit
+from leakbudget.devices import Device, Family, Status, smooth_dc_limit
 from leakbudget.errors import LeakbudgetError
 from leakbudget.estimate import MEASURED, CircuitResult, LoadResult
 from leakbudget.locations import Classification, classify_room
-from leakbudget.model import Circuit, Project
+from leakbudget.model import Circuit, Project, SharedDevice
+from leakbudget.protection import chain
 from leakbudget.provenance import Kind, Source
 from leakbudget.settings import US_SUPPLY, Settings
 
@@ -174,6 +175,16 @@ class _Circuit:
     result: CircuitResult
     loads: list[LoadResult]
     rooms: list[Classification]
+    above: list[SharedDevice] = field(default_factory=list)  # shared devices above it, nearest first
+    inside: list[SharedDevice] = field(default_factory=list)  # devices inside it (a GFCI receptacle)
+
+    def satisfied(self, code: Code) -> bool:
+        """Whether the circuit has the protection ``code`` requires: its own device, a shared device above it, or
+        devices inside it that every one of its loads sits under."""
+        if code.satisfied_by(self.circuit.device) or any(code.satisfied_by(d.device) for d in self.above):
+            return True
+        good = {d.device_id for d in self.inside if code.satisfied_by(d.device)}
+        return bool(good) and all(r.load is not None and r.load.protected_by in good for r in self.loads)
 
     @property
     def circuit(self) -> Circuit:
@@ -210,13 +221,17 @@ def _circuits(result: CheckResult) -> list[_Circuit]:
             if name not in classified:
                 classified[name] = classify_room(name, project.location_rows)
             rooms.append(classified[name])
-        views.append(_Circuit(c, loads, rooms))
+        above = chain(project, c.circuit.protected_by)
+        inside = [d for d in project.protection if d.circuit_id == c.circuit.circuit_id]
+        views.append(_Circuit(c, loads, rooms, above, inside))
     return views
 
 
 def _missing(view: _Circuit) -> str:
     """What a circuit that lacks the code's protection has instead."""
     dev = view.circuit.device
+    if view.above:
+        return f"{view.cid} hangs under {view.above[0].device_id} ({view.above[0].device.label}), not that kind"
     if not dev.protected:
         return f"{view.cid} has no ground-fault protection"
     return f"{view.cid} has {dev.key} ({dev.label}), not that kind"
@@ -254,7 +269,7 @@ EVIDENCE_NOTE = {
 def rule_location(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
     """Rooms where the code requires protection for people (NEC 210.8(A); IEC 60364-7-701 / BS 7671 701)."""
     for v in views:
-        if code.satisfied_by(v.circuit.device):
+        if v.satisfied(code):
             continue
         hits: list[tuple[str, str, LocationRule]] = [
             (c.room, kind, code.locations[kind]) for c in v.rooms for kind in c.kinds if kind in code.locations
@@ -285,7 +300,7 @@ def rule_room_unclassified(views: list[_Circuit], code: Code, result: CheckResul
         for c in v.rooms:
             if c.classified:
                 continue
-            protected = code.satisfied_by(v.circuit.device)
+            protected = v.satisfied(code)
             yield Finding(
                 Severity.INFO if protected else Severity.WARNING,
                 "room-unclassified",
@@ -303,7 +318,7 @@ def rule_appliance_outlet(views: list[_Circuit], code: Code, result: CheckResult
     if code.appliance_source is None:
         return
     for v in views:
-        if code.satisfied_by(v.circuit.device):
+        if v.satisfied(code):
             continue
         for r in v.loads:
             key = r.appliance.key if r.appliance is not None else None
@@ -325,7 +340,7 @@ def rule_ev_charging(views: list[_Circuit], code: Code, result: CheckResult) -> 
     if code.ev_source is None:
         return
     for v in views:
-        if code.satisfied_by(v.circuit.device):
+        if v.satisfied(code):
             continue
         for r in v.loads:
             a = r.appliance
@@ -351,7 +366,7 @@ def rule_socket_outlets(views: list[_Circuit], code: Code, result: CheckResult) 
     for v in views:
         rating = v.circuit.rating_a
         evidence = v.outlets()
-        if code.satisfied_by(v.circuit.device) or evidence == "fixed" or (rating and rating > SOCKET_OUTLET_MAX_A):
+        if v.satisfied(code) or evidence == "fixed" or (rating and rating > SOCKET_OUTLET_MAX_A):
             continue
         plugs = [r.name for r in v.loads if r.appliance is not None and r.appliance.connection == "plug"]
         what = (
@@ -638,6 +653,157 @@ def rule_budget(views: list[_Circuit], code: Code, result: CheckResult) -> Itera
             )
 
 
+# --------------------------------------------------------------------------------------------- the protection tree
+
+# Selectivity of RCDs in series: the upstream one time-delayed (type S) with IΔn at least 3 × the downstream one,
+# or the downstream device's break time within the upstream's non-actuating time (IEC 61008-1 type S times).
+SELECTIVITY_RATIO = 3.0
+SELECTIVITY_SOURCE = Source.from_memory(
+    "BS 7671:2018 reg. 536.4.1.4 / IEC 60364-5-53 (RCDs in series: the upstream one type S with IΔn at least 3 × "
+    "the downstream one), from memory"
+)
+HIGH_INTEGRITY_MA = 10.0
+HIGH_INTEGRITY_SOURCE = Source.from_memory(
+    "BS 7671:2018 reg. 543.7 (protective conductor current above 10 mA: high-integrity protective conductor), "
+    "clause from memory"
+)
+DIVISION_SOURCE = Source.published(
+    "BS 7671:2018 reg. 314.1 (divide an installation to reduce the inconvenience of a fault and unwanted RCD "
+    "tripping; account for the danger of losing a lighting circuit)"
+)
+
+
+def _pairs(result: CheckResult) -> Iterator[tuple[str, Device, str, Device]]:
+    """(downstream name, its device, upstream name, its device) for every two devices in series."""
+    project = result.project
+    by_id = {d.device_id.lower(): d for d in project.protection}
+    for d in project.protection:
+        if d.upstream_id:
+            up = by_id[d.upstream_id.lower()]
+            yield d.device_id, d.device, up.device_id, up.device
+    for c in project.circuits:
+        if c.device.protected and c.protected_by:
+            up = by_id[c.protected_by.lower()]
+            yield f"{c.circuit_id}'s {c.device.key}", c.device, up.device_id, up.device
+    for d in project.protection:
+        if d.circuit_id is None:
+            continue
+        circuit = next(c for c in project.circuits if c.circuit_id == d.circuit_id)
+        if circuit.device.protected:
+            yield d.device_id, d.device, f"{circuit.circuit_id}'s {circuit.device.key}", circuit.device
+        elif circuit.protected_by:
+            up = by_id[circuit.protected_by.lower()]
+            yield d.device_id, d.device, up.device_id, up.device
+
+
+def _selective(down: Device, up: Device) -> bool:
+    if up.time_delayed and up.trip_ma >= SELECTIVITY_RATIO * down.trip_ma:
+        return True
+    # times: the downstream device clears at 5 IΔn (of its own) before the upstream one may act at that current
+    current = 5.0 * down.trip_ma
+    return down.max_break_time_s(current_ma=current) < up.min_non_actuating_time_s(current_ma=current)
+
+
+def rule_selectivity(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """Two devices in series that are not selective: a fault below the lower one may trip the upper one too, and
+    take out everything under it."""
+    for down_name, down, up_name, up in _pairs(result):
+        if _selective(down, up):
+            continue
+        yield Finding(
+            Severity.WARNING,
+            "selectivity",
+            SELECTIVITY_SOURCE,
+            None,
+            None,
+            f"{down_name} ({down.label}) sits under {up_name} ({up.label}) without selectivity: a fault below "
+            f"{down_name} may trip {up_name} as well and cut everything under it; make the upstream device "
+            "time-delayed (type S) with at least three times the IΔn of the one below, as the designer and the "
+            "code in force allow.",
+        )
+
+
+def rule_device_budget(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """A shared device whose accumulated protective conductor current is over its budget or reaches its no-trip
+    level (BS 7671:2018 reg. 531.3.2 applies to the total downstream of an RCD)."""
+    for d in result.devices:
+        dev = d.shared.device
+        if d.status not in (Status.OVER_BUDGET, Status.TRIP_RISK):
+            continue
+        regulation = code.budget_is_regulation and dev.family is Family.RCD
+        severity = Severity.ERROR if d.status is Status.TRIP_RISK or regulation else Severity.WARNING
+        yield Finding(
+            severity,
+            "device-budget",
+            dev.no_trip_source if d.status is Status.TRIP_RISK else d.budget_source,
+            None,
+            None,
+            f"{d.device_id} ({dev.label}) carries {_ma(d.gate_ma)} from everything below it "
+            f"({', '.join(d.circuits)}), {'at or above its no-trip level ' + _ma(dev.no_trip_ma) if d.status is Status.TRIP_RISK else 'over its budget ' + _ma(d.budget_ma)}"
+            f"; the largest part is {d.largest} ({_ma(d.largest_ma)}): move circuits to another device of the "
+            "board, give the largest a device of its own (an RCBO), or measure the largest contributors.",
+        )
+
+
+def rule_high_integrity(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """A device whose accumulated protective conductor current is above 10 mA, which calls for a high-integrity
+    protective conductor."""
+    for d in result.devices:
+        if d.shared.circuit_id is None and d.leakage_ma > HIGH_INTEGRITY_MA:
+            yield Finding(
+                Severity.WARNING,
+                "high-integrity",
+                HIGH_INTEGRITY_SOURCE,
+                None,
+                None,
+                f"The protective conductor current below {d.device_id} adds up to {_ma(d.leakage_ma)}, above "
+                f"{_ma(HIGH_INTEGRITY_MA)}: the circuits below it need a high-integrity protective conductor "
+                "(duplicated, or of a greater cross-section) where the code in force asks for it.",
+            )
+
+
+def rule_division(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """Every lighting circuit, or every socket circuit, of the installation under one device: one trip darkens or
+    cuts the whole home."""
+    for purpose, what in (("lighting", "darkens"), ("sockets", "cuts every socket of")):
+        group = [v for v in views if v.circuit.purpose == purpose]
+        tops = {v.above[-1].device_id if v.above else None for v in group}
+        nearest = {v.above[0].device_id if v.above else None for v in group}
+        if len(group) < 2 or None in nearest or len(nearest) != 1:
+            continue
+        (device_id,) = nearest
+        others = {d.device_id for d in result.devices if d.shared.circuit_id is None} - {device_id} - tops
+        yield Finding(
+            Severity.WARNING,
+            "division",
+            DIVISION_SOURCE,
+            None,
+            None,
+            f"Every {purpose} circuit ({', '.join(v.cid for v in group)}) hangs under {device_id}: one trip "
+            f"{what} the whole home; spread them over "
+            + (f"{device_id} and {', '.join(sorted(others))}" if others else "two devices")
+            + " (`leakbudget split`).",
+        )
+
+
+def rule_device_waveform(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """A shared device that the smooth DC of everything below it blinds (BS 7671:2018 reg. 531.3.3 notes)."""
+    for d in result.devices:
+        if not d.dc_blinded or d.shared.rcd_type is None:
+            continue
+        limit, source = smooth_dc_limit(d.shared.rcd_type)
+        yield Finding(
+            Severity.ERROR,
+            "device-waveform",
+            source,
+            None,
+            None,
+            f"{d.device_id} (Type {d.shared.rcd_type}) sees {_ma(d.smooth_dc_ma)} of smooth DC leakage from below "
+            f"it, more than the {_ma(limit or 0.0)} it operates with: it may not trip on a fault; fit a Type B "
+            "device, or put the smooth-DC loads under a DC-detecting device (IEC 62955) of their own.",
+        )
+
+
 RULES: dict[str, RuleFunc] = {
     "location": rule_location,
     "appliance-outlet": rule_appliance_outlet,
@@ -651,6 +817,11 @@ RULES: dict[str, RuleFunc] = {
     "long-run": rule_long_run,
     "switch-on": rule_switch_on,
     "budget": rule_budget,
+    "device-budget": rule_device_budget,
+    "selectivity": rule_selectivity,
+    "high-integrity": rule_high_integrity,
+    "division": rule_division,
+    "device-waveform": rule_device_waveform,
 }
 
 

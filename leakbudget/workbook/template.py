@@ -8,9 +8,20 @@ from leakbudget.about import CAUTION
 from leakbudget.catalogue import WAVEFORMS, built_in
 from leakbudget.devices import DEVICES
 from leakbudget.errors import WorkbookError
-from leakbudget.input.schema import APPLIANCES, CABLES, CIRCUITS, LOADS, LOCATIONS, READINGS, SETTINGS, Sheet
+from leakbudget.input.schema import (
+    APPLIANCES,
+    CABLES,
+    CIRCUITS,
+    LOADS,
+    LOCATIONS,
+    PROTECTION,
+    READINGS,
+    SETTINGS,
+    Sheet,
+)
 from leakbudget.leakage import SYSTEMS
 from leakbudget.locations import LOCATION_KINDS
+from leakbudget.model import PHASES, PURPOSES
 from leakbudget.settings import SETTING_SPECS
 from leakbudget.workbook.read import RCD_TYPES
 
@@ -31,6 +42,14 @@ INSTRUCTIONS = (
     "with the same key.",
     "6. Readings (optional): clamp readings of whole circuits (all loads on, or idle); check compares them with "
     "the estimate and, with Calibrate = yes, scales the circuit's catalogue values to match.",
+    "6b. Protection (optional): one row per shared device: an RCD protecting several circuits of a board (give "
+    "each of them its Id in the Circuits sheet's Protected by, and a single-pole circuit its Phase), a "
+    "time-delayed RCD above others (name it as their Upstream), or a device inside one circuit, such as a GFCI "
+    "receptacle (give its Circuit, and its Id in Protected by of the loads it protects). System: single for a "
+    "two-pole device, three for a four-pole one on a three-phase board.",
+    "6c. System of a circuit: single (line-neutral), split (US 120/240 V: two lines 180° apart), network "
+    "(120/208 V: two lines of a three-phase wye, 120° apart, as in many apartment buildings fed from a "
+    "three-phase service), three (all three lines).",
     "7. Run: leakbudget check THIS.xlsx   (results go to the sheets 'Circuit results' and 'Load results').",
     "8. Review against a wiring code: leakbudget review THIS.xlsx --code nec-2023 (or nec-2020, iec-60364, "
     "bs-7671). Locations (optional): room names the built-in table does not know, with the kind of location "
@@ -79,9 +98,11 @@ def write_template(path: str | Path) -> Path:
         "Waveform": list(WAVEFORMS),
         "Location kind": list(LOCATION_KINDS),
         "Cable": list(catalogue.cables),
+        "Phase": list(PHASES),
+        "Purpose": list(PURPOSES),
     }
     sheets = {}
-    for spec in (CIRCUITS, LOADS, SETTINGS, APPLIANCES, CABLES, LOCATIONS, READINGS):
+    for spec in (CIRCUITS, LOADS, PROTECTION, SETTINGS, APPLIANCES, CABLES, LOCATIONS, READINGS):
         ws = book.add_worksheet(spec.name)
         _header(ws, book, spec, bold)
         sheets[spec.name] = ws
@@ -99,10 +120,24 @@ def write_template(path: str | Path) -> Path:
         letter = chr(65 + j)
         book.define_name(f"lb_{name.replace(' ', '_').lower()}", f"=Lists!${letter}$2:${letter}${len(values) + 1}")
     hidden.hide()
-    for spec in (CIRCUITS, LOADS, LOCATIONS):
+    ids = f"='{PROTECTION.name}'!$A$2:$A${TEMPLATE_ROWS + 1}"  # the Protection sheet's Id column
+    for spec in (CIRCUITS, LOADS, PROTECTION, LOCATIONS):
         ws = sheets[spec.name]
         for j, col in enumerate(spec.columns):
-            if col.name in lists:
+            if col.name in ("Protected by", "Upstream"):
+                ws.data_validation(
+                    1,
+                    j,
+                    TEMPLATE_ROWS,
+                    j,
+                    {
+                        "validate": "list",
+                        "source": ids,
+                        "error_type": "stop",
+                        "error_message": f"Pick an Id from the Protection sheet ({col.help})",
+                    },
+                )
+            elif col.name in lists:
                 ws.data_validation(
                     1,
                     j,
