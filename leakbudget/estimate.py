@@ -92,6 +92,7 @@ class CircuitResult:
     dc_blinded: bool = False  # smooth DC above what its RCD type operates with (BS 7671:2018 reg. 531.3.3 notes)
     protected_by: str | None = None  # the nearest shared device above it (Protection sheet)
     device_status: Status | None = None  # that device's status
+    guarding_device: Device | None = None  # a circuit with no device of its own: the shared device judging it
 
 
 @dataclass

@@ -219,5 +219,6 @@ def _protect_circuits(project: Project, circuits: list[CircuitResult], devices: 
         c.budget_ma = nearest.budget_ma
         c.budget_source = Source(nearest.budget_source.kind, f"{nearest.device_id}: {nearest.budget_source.text}")
         c.status = nearest.status
+        c.guarding_device = nearest.shared.device
         c.headroom_used = c.gate_ma / nearest.budget_ma if nearest.budget_ma > 0 else math.nan
         c.risk = nearest.risk

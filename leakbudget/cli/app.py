@@ -248,14 +248,28 @@ def report(
     caution()
 
 
+EXAMPLES = ("alder-quay-remodel", "tanners-row-flat")
+
+
 @app.command()
 def demo(
     folder: Annotated[Path, typer.Option("--folder", help="Where to put the example workbook.")] = Path("."),
+    example: Annotated[
+        str,
+        typer.Option(
+            "--example",
+            help="Which invented example: alder-quay-remodel (a US remodel, the default) or tanners-row-flat (a UK "
+            "flat on a dual-RCD board).",
+        ),
+    ] = EXAMPLES[0],
 ) -> None:
-    """Copy the shipped example (an invented remodel) into FOLDER and check it there."""
+    """Copy a shipped example (an invented job) into FOLDER and check it there."""
     from leakbudget import api
+    from leakbudget.errors import LeakbudgetError
 
-    dest = api.copy_example(folder)
+    if example not in EXAMPLES:
+        raise LeakbudgetError(f"--example '{example}' is not a shipped example; use one of {', '.join(EXAMPLES)}.")
+    dest = api.copy_example(folder, f"{example}.xlsx")
     out_console.print(f"Copied the example workbook to {dest}.", highlight=False)
     job = api.check(dest, write=True)
     render_check(job)

@@ -420,6 +420,30 @@ def render_split(job: Any) -> None:
                 a.load.name, a.from_id or "(unplaced)", a.to_id or "-", fmt(a.leakage_ma, 2), fmt(a.current_a, 1)
             )
         out_console.print(moves)
+    if plan.board is not None and plan.board.circuit_moves:
+        board = Table(
+            title="Circuit moves between shared devices (board plan)",
+            title_justify="left",
+            box=box.SIMPLE_HEAD,
+            pad_edge=False,
+            padding=(0, 1, 0, 0),
+        )
+        for header in ("Circuit", "From", "To"):
+            board.add_column(header, overflow="fold")
+        for m in plan.board.moves:
+            if m.moved:
+                to = f"an RCBO of its own ({m.own_device})" if m.own_device else (m.to_id or "-")
+                board.add_row(m.circuit, m.from_id or "-", to)
+        out_console.print(board)
+        before = {d.device_id: d for d in plan.before.devices}
+        for d in plan.after.devices:
+            if d.shared.circuit_id is None and d.device_id in before:
+                b = before[d.device_id]
+                out_console.print(
+                    f"{d.device_id}: {fmt(b.gate_ma, 2)} → {fmt(d.gate_ma, 2)} mA of its {fmt(d.budget_ma, 2)} mA "
+                    f"budget, {b.status.value} → {d.status.value}.",
+                    highlight=False,
+                )
     table = Table(
         title="Circuits before → after", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False, padding=(0, 1, 0, 0)
     )

@@ -83,6 +83,7 @@ def phase_deg(r: LoadResult) -> float | None:
 
 def circuit_dict(c: CircuitResult) -> dict[str, Any]:
     circuit = c.circuit
+    levels = c.guarding_device or circuit.device  # a circuit under a shared device only: that device's levels
     dev = circuit.device
     return {
         "circuit": circuit.circuit_id,
@@ -101,11 +102,11 @@ def circuit_dict(c: CircuitResult) -> dict[str, Any]:
         "phasor_ma": _num(c.phasor_ma),
         "gate_ma": _num(c.gate_ma),
         "budget_ma": _num(c.budget_ma),
-        "budget_source": str(c.budget_source) if dev.protected else None,
-        "no_trip_ma": _num(dev.no_trip_ma),
-        "no_trip_source": str(dev.no_trip_source) if dev.protected else None,
-        "trip_ma": _num(dev.trip_ma),
-        "trip_source": str(dev.trip_source) if dev.protected else None,
+        "budget_source": str(c.budget_source) if levels.protected else None,
+        "no_trip_ma": _num(levels.no_trip_ma),
+        "no_trip_source": str(levels.no_trip_source) if levels.protected else None,
+        "trip_ma": _num(levels.trip_ma),
+        "trip_source": str(levels.trip_source) if levels.protected else None,
         "headroom_used": _num(c.headroom_used),
         "status": c.status.value,
         "largest_contributor": c.largest,

@@ -11,7 +11,7 @@ from typing import Any
 
 from leakbudget.about import CAUTION, __version__
 from leakbudget.input.schema import SPLIT_PLAN
-from leakbudget.output.check import _num, circuit_dict
+from leakbudget.output.check import _num, circuit_dict, device_dict
 from leakbudget.planner.plan import SplitPlan
 from leakbudget.xlsx.package import SheetData
 
@@ -81,6 +81,12 @@ def circuits_list(plan: SplitPlan) -> list[dict[str, Any]]:
 def summary(plan: SplitPlan) -> str:
     """One sentence on what the plan does and how good it is proven to be."""
     what = f"{plan.new_count} new circuit(s), {plan.moves} load(s) moved, {plan.placed} placed"
+    if plan.board is not None:
+        what += (
+            f", {plan.board.circuit_moves - plan.board.new_devices} circuit(s) moved to another device and "
+            f"{plan.board.new_devices} given a device of their own (the board plan"
+            + (", proven optimal)" if plan.board.optimal else ")")
+        )
     if plan.optimal:
         proof = (
             f"proven optimal: no plan needs fewer new circuits (lower bound {plan.lower_bound_new_circuits}) "
@@ -153,6 +159,12 @@ def to_json(plan: SplitPlan) -> dict[str, Any]:
             for n in plan.new_circuits
         ],
         "assignments": [assignment_dict(a) for a in plan.assignments],
+        "circuit_moves": plan.board.circuit_moves if plan.board is not None else 0,
+        "circuit_assignments": [
+            {"circuit": m.circuit, "from": m.from_id, "to": m.to_id, "own_device": m.own_device, "moved": m.moved}
+            for m in (plan.board.moves if plan.board is not None else [])
+        ],
+        "devices": [device_dict(d) for d in plan.after.devices],
         "circuits": circuits_list(plan),
         "notes": plan.notes,
         "warnings": project.warnings,

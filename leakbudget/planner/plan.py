@@ -17,6 +17,7 @@ from leakbudget.devices import DEVICES
 from leakbudget.devices import device as find_device
 from leakbudget.errors import LeakbudgetError
 from leakbudget.model import Circuit, Load, Project
+from leakbudget.planner.board import BoardPlan, apply_board, plan_board
 from leakbudget.planner.build import Blocker, Figures, RoomGroup, build
 from leakbudget.planner.packing.bounds import packing_bound
 from leakbudget.planner.packing.heuristic import Unplaceable, improve
@@ -98,6 +99,7 @@ class SplitPlan:
     likelihood_cap_source: str | None = None
     likelihood_iterations: int = 0  # plans made under the cap (1: the first plan met it)
     tightened_budget_ma: dict[str, float] = field(default_factory=dict)  # budgets the cap lowered, per circuit id
+    board: BoardPlan | None = None  # circuits moved between shared devices (Protection sheet), when needed
 
     @property
     def feasible(self) -> bool:
@@ -184,6 +186,21 @@ def plan_once(
     problems = verify_plan(project, after, blocked_ids, left_alone)
     if problems:
         raise RuntimeError("the split planner produced a plan that breaks a limit (a bug): " + "; ".join(problems))
+    board = plan_board(planned, after) if planned.protection else None
+    if board is not None:
+        planned = apply_board(planned, board)
+        after = check(planned)
+        blockers += [Blocker(None, (), text) for text in board.problems]
+    for d in after.devices:
+        if d.shared.circuit_id is None and d.gate_ma > d.budget_ma and (board is None or board.feasible):
+            blockers.append(
+                Blocker(
+                    None,
+                    (),
+                    f"{d.device_id} carries {d.gate_ma:.3f} mA, above its budget of "
+                    f"{d.budget_ma:.3f} mA, and the board plan cannot move it below",
+                )
+            )
     if progress is not None:
         progress(STAGE_CHECK, 1, 1)
     assignments = _assignments(project, planned, setup.figures)
@@ -207,6 +224,7 @@ def plan_once(
         current_after_a=_currents(planned, setup.figures),
         capacity_a={c.circuit_id: current_capacity_a(c, factor) for c in planned.circuits},
         notes=_notes(project, assignments, planned),
+        board=board,
     )
 
 
