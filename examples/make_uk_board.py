@@ -34,10 +34,10 @@ CIRCUITS = [
         "Purpose",
         "Note",
     ],
-    ["Ring kitchen", "none", None, 230, 50, "single", 32, 28, "twin-and-earth-2.5", "Kitchen", "RCD1", "sockets", None],
-    ["Cooker", "none", None, 230, 50, "single", 32, 9, "twin-and-earth-6", "Kitchen", "RCD1", "dedicated", None],
+    ["C1", "none", None, 230, 50, "single", 32, 28, "twin-and-earth-2.5", "Kitchen", "RCD1", "sockets", None],
+    ["C2", "none", None, 230, 50, "single", 32, 9, "twin-and-earth-6", "Kitchen", "RCD1", "dedicated", None],
     [
-        "Ring upstairs",
+        "C3",
         "none",
         None,
         230,
@@ -52,7 +52,7 @@ CIRCUITS = [
         None,
     ],
     [
-        "Lights down",
+        "C4",
         "none",
         None,
         230,
@@ -67,7 +67,7 @@ CIRCUITS = [
         None,
     ],
     [
-        "Lights up",
+        "C5",
         "none",
         None,
         230,
@@ -81,9 +81,9 @@ CIRCUITS = [
         "lighting",
         None,
     ],
-    ["Ring lounge", "none", None, 230, 50, "single", 32, 35, "twin-and-earth-2.5", "Lounge", "RCD2", "sockets", None],
+    ["C6", "none", None, 230, 50, "single", 32, 35, "twin-and-earth-2.5", "Lounge", "RCD2", "sockets", None],
     [
-        "Immersion",
+        "C7",
         "none",
         None,
         230,
@@ -98,7 +98,7 @@ CIRCUITS = [
         None,
     ],
     [
-        "Shower",
+        "C8",
         "rcd-30",
         "A",
         230,
@@ -114,25 +114,36 @@ CIRCUITS = [
     ],
 ]
 
+# What each way of the board feeds (UK boards number their ways; the note says what each is).
+NOTES = {
+    "C1": "Kitchen ring",
+    "C2": "Cooker: oven and hob",
+    "C3": "Upstairs ring: study and bedroom",
+    "C4": "Lights downstairs",
+    "C5": "Lights upstairs",
+    "C6": "Lounge ring",
+    "C7": "Immersion heater",
+}
+
 LOADS = [
     ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Room", "Fixed", "Power"],
-    ["Washer", "Ring kitchen", "washer-inverter", 1, None, "Kitchen", None],
-    ["Dishwasher", "Ring kitchen", "commercial-dishwasher", 1, "1.1 mA", "Kitchen", None],
-    ["Fridge freezer", "Ring kitchen", "refrigerator", 1, None, "Kitchen", None],
-    ["Kettle", "Ring kitchen", "kettle", 1, None, "Kitchen", None],
-    ["Toaster", "Ring kitchen", "toaster", 1, None, "Kitchen", None],
-    ["Oven", "Cooker", "wall-oven", 1, None, "Kitchen", "yes"],
-    ["Hob", "Cooker", "induction-hob", 1, None, "Kitchen", "yes"],
-    ["Desk computer", "Ring upstairs", "desktop-pc", 1, None, "Study", None],
-    ["Monitor", "Ring upstairs", "monitor", 1, None, "Study", None],
-    ["Printer", "Ring upstairs", "printer", 1, None, "Study", None],
-    ["Router", "Ring upstairs", "network-gear", 1, None, "Study", None],
-    ["Downlights", "Lights down", "hf-ballast-luminaire", 4, None, "Lounge", "yes"],
-    ["Bedroom lights", "Lights up", "hf-ballast-luminaire", 3, None, "Bedroom", "yes"],
-    ["Television and box", "Ring lounge", "network-gear", 2, None, "Lounge", None],
-    ["Lamps", "Ring lounge", None, 3, "0.05 mA", "Lounge", None],
-    ["Immersion heater", "Immersion", "storage-water-heater", 1, None, "Airing cupboard", "yes"],
-    ["Shower", "Shower", "electric-shower", 1, None, "Bathroom", "yes", 8500],
+    ["Washer", "C1", "washer-inverter", 1, None, "Kitchen", None],
+    ["Dishwasher", "C1", "commercial-dishwasher", 1, "1.1 mA", "Kitchen", None],
+    ["Fridge freezer", "C1", "refrigerator", 1, None, "Kitchen", None],
+    ["Kettle", "C1", "kettle", 1, None, "Kitchen", None],
+    ["Toaster", "C1", "toaster", 1, None, "Kitchen", None],
+    ["Oven", "C2", "wall-oven", 1, None, "Kitchen", "yes"],
+    ["Hob", "C2", "induction-hob", 1, None, "Kitchen", "yes"],
+    ["Desk computer", "C3", "desktop-pc", 1, None, "Study", None],
+    ["Monitor", "C3", "monitor", 1, None, "Study", None],
+    ["Printer", "C3", "printer", 1, None, "Study", None],
+    ["Router", "C3", "network-gear", 1, None, "Study", None],
+    ["Downlights", "C4", "hf-ballast-luminaire", 4, None, "Lounge", "yes"],
+    ["Bedroom lights", "C5", "hf-ballast-luminaire", 3, None, "Bedroom", "yes"],
+    ["Television and box", "C6", "network-gear", 2, None, "Lounge", None],
+    ["Lamps", "C6", None, 3, "0.05 mA", "Lounge", None],
+    ["Immersion heater", "C7", "storage-water-heater", 1, None, "Airing cupboard", "yes"],
+    ["Shower", "C8", "electric-shower", 1, None, "Bathroom", "yes", 8500],
 ]
 
 SETTINGS = [
@@ -152,6 +163,8 @@ ABOUT = [
 
 
 def build(path: Path) -> Path:
+    for row in CIRCUITS[1:]:
+        row[-1] = row[-1] or NOTES.get(str(row[0]))
     book = xlsxwriter.Workbook(str(path))
     bold = book.add_format({"bold": True})
     about = book.add_worksheet("About")

@@ -187,8 +187,14 @@ def render_board(result: Any, wide: bool) -> None:
         pad_edge=False,
         padding=(0, 1, 0, 0),
     )
-    for header in ("Device", "Key", "Sum", "Phasor", "Budget/ no-trip", "Used", "Status", "P(trip)", "Switch-on"):
-        table.add_column(header, justify="left" if header in ("Device", "Key", "Status") else "right", overflow="fold")
+    headers = ("Device", "Key", "Sum", "Phasor", "Budget/ no-trip", "Used", "Status", "P(trip)", "Switch-on")
+    for header in headers if wide else tuple(h for h in headers if h != "Key"):
+        table.add_column(
+            header,
+            justify="left" if header in ("Device", "Key", "Status") else "right",
+            no_wrap=header != "Device",
+            min_width=10 if header == "Budget/ no-trip" else None,
+        )
     devices = {d.device_id: d for d in result.devices}
     circuits = {c.circuit.circuit_id: c for c in result.circuits}
 
@@ -198,7 +204,7 @@ def render_board(result: Any, wide: bool) -> None:
         used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"
         table.add_row(
             "  " * depth + d["id"],
-            d["device"],
+            *((d["device"],) if wide else ()),
             fmt(d["leakage_ma"], 2),
             fmt(d["phasor_ma"], 2),
             f"{fmt(d['budget_ma'], 2)}/{fmt(d['no_trip_ma'], 2)}",
@@ -212,7 +218,8 @@ def render_board(result: Any, wide: bool) -> None:
         direct = [cid for cid in node.circuits if circuits[cid].circuit.protected_by == device_id]
         for cid in direct:
             c = circuits[cid]
-            table.add_row("  " * (depth + 1) + cid, c.circuit.device.key, fmt(c.leakage_ma, 2), fmt(c.phasor_ma, 2))
+            key = (c.circuit.device.key,) if wide else ()
+            table.add_row("  " * (depth + 1) + cid, *key, fmt(c.leakage_ma, 2), fmt(c.phasor_ma, 2))
         inside = [x for x in result.devices if x.shared.circuit_id is not None and x.shared.circuit_id in direct]
         for x in inside:
             add(x.device_id, depth + 2)
@@ -264,7 +271,7 @@ def render_check(job: Any) -> None:
         d = circuit_dict(c)
         used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"
         budget, no_trip = fmt(d["budget_ma"], 2), fmt(d["no_trip_ma"], 2)
-        own = d["device"] if c.circuit.device.protected or c.protected_by is None else f"via {c.protected_by}"
+        own = d["device"] if c.circuit.device.protected or c.protected_by is None else f"↳{c.protected_by}"
         cells = [
             d["circuit"],
             own,

@@ -624,6 +624,8 @@ def rule_budget(views: list[_Circuit], code: Code, result: CheckResult) -> Itera
     for v in views:
         c = v.result
         dev = c.circuit.device
+        if not dev.protected:
+            continue  # judged with the shared device above it (device-budget), if any
         largest = f"; the largest contributor is {c.largest} ({_ma(c.largest_ma)})" if c.largest else ""
         advice = (
             "split the circuit (`leakbudget split`), measure the largest contributors, and repair appliances "

@@ -237,6 +237,18 @@ def split_sheet(plan: SplitPlan) -> SheetData:
                 limits,
             ]
         )
+    if doc["circuit_assignments"]:
+        width = len(LOAD_HEADER)
+        rows.append([None] * width)
+        rows.append(["Circuit", None, None, None, "From device", "To device", "Change", None, None, "Device after"])
+        after = {d["id"]: d for d in doc["devices"]}
+        for m in doc["circuit_assignments"]:
+            to = m["to"] if m["own_device"] is None else f"an RCBO of its own ({m['own_device']})"
+            d = after.get(m["to"] or "")
+            state = f"{d['id']}: {d['leakage_ma']:.3f} mA of {d['budget_ma']:.3f} mA, {d['status']}" if d else None
+            rows.append(
+                [m["circuit"], None, None, None, m["from"], to, "moved" if m["moved"] else "stays", None, None, state]
+            )
     footer = [
         f"Written by leakbudget {__version__}; this sheet is replaced on every run of `leakbudget split`.",
         f"Plan: {doc['summary']}",
