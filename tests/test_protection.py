@@ -282,3 +282,13 @@ def test_a_type_s_rcd_over_30_ma_rcds_is_selective(make_workbook):
 
     # type S 100 mA ≥ 3 × 30 mA (BS 7671 536.4.1.4 / IEC 60364-5-53, from memory): selective, no warning
     assert [f for f in review(read_project(path), "bs-7671").findings if f.rule == "selectivity"] == []
+
+
+def test_the_report_has_a_section_per_shared_device(make_workbook, tmp_path):
+    from leakbudget.api import report
+
+    job = report(uk_flat(make_workbook), html=tmp_path / "flat.html")
+    html = (tmp_path / "flat.html").read_text(encoding="utf-8")
+    assert "Shared device RCD1" in html and 'id="device-RCD1"' in html
+    assert "12.300" in html  # RCD1's total, as check computes it (4.0 + 3.5 + 1.8 + 3.0 mA)
+    assert job.report.sections and any(s.title == "Shared device RCD1" for s in job.report.sections)

@@ -433,6 +433,75 @@ def _readings_section(doc: Mapping[str, Any]) -> Section | None:
     )
 
 
+DEVICE_HEADERS = ("Circuit", "Own device", "Phase", "Purpose", "Sum (mA)", "Phasor (mA)")
+
+
+def _device_sections(doc: Mapping[str, Any]) -> list[Section]:
+    """One section per shared device: its circuits stacked against its budget and no-trip level (the protection
+    tree; BS 7671:2018 reg. 531.3.2 on the accumulated total)."""
+    from leakbudget.reporting.charts import CircuitBar, Segment, circuit_chart
+
+    circuits = {c["circuit"]: c for c in doc["circuits"]}
+    sections = []
+    used: set[str] = set()
+    for d in doc["devices"]:
+        below = [circuits[cid] for cid in d["circuits"]]
+        bar = CircuitBar(
+            circuit=d["id"],
+            device_label=d["device_label"],
+            status=d["status"],
+            segments=tuple(Segment(c["circuit"], c["leakage_ma"] or 0.0) for c in below),
+            leakage_ma=d["leakage_ma"] or 0.0,
+            phasor_ma=d["phasor_ma"] or 0.0,
+            gate_ma=d["gate_ma"] or 0.0,
+            gate_is_phasor=doc["sum_rule"] == "phasor",
+            budget_ma=d["budget_ma"],
+            no_trip_ma=d["no_trip_ma"],
+        )
+        rows = [
+            [
+                Cell(c["circuit"]),
+                Cell(c["device"]),
+                Cell(c.get("phase") or "-"),
+                Cell(c.get("purpose") or "-"),
+                _ma(c["leakage_ma"], "leakage_ma"),
+                _ma(c["phasor_ma"], "phasor_ma"),
+            ]
+            for c in below
+        ]
+        facts = Facts(
+            [
+                ("Device", Cell(f"{d['device_label']} ({d['device']}), RCD type {d['rcd_type'] or 'not given'}")),
+                (
+                    "Upstream",
+                    Cell(d["upstream"] or ("inside " + d["inside_circuit"] if d["inside_circuit"] else "origin")),
+                ),
+                ("Everything below it", _ma(d["leakage_ma"], "leakage_ma")),
+                ("Budget", _sourced(d["budget_ma"], "budget_ma", None)),
+                ("Budget source", Cell(d["budget_source"])),
+                ("Status", Cell(d["status"], tone=d["status"])),
+                ("Trip likelihood, switch-on", Cell(d["trip_probability_switch_on_text"] or "-")),
+                ("Lost when it trips", Cell(", ".join(d["circuits_lost_on_trip"]) or "-")),
+            ]
+        )
+        alt = (
+            f"Stacked bar: {d['id']} carries {d['leakage_ma']:.3f} mA from {len(below)} circuit(s) against budget "
+            f"{d['budget_ma']:.3f} mA and no-trip level {d['no_trip_ma']:.3f} mA."
+        )
+        blocks: list[Block] = [
+            facts,
+            Figure(
+                circuit_chart(bar),
+                alt,
+                "Leakage by circuit below the device; the diamond marks the phasor sum.",
+                f"chart-device-{d['id']}",
+            ),
+            Table(DEVICE_HEADERS, rows, f"Circuits below {d['id']}", f"device-{d['id']}"),
+        ]
+        sections.append(Section(_anchor(f"device-{d['id']}", used), f"Shared device {d['id']}", blocks))
+    return sections
+
+
 def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any]) -> list[Section]:
     from leakbudget.reporting.charts import circuit_chart
 
@@ -782,6 +851,7 @@ def build_report(
         _caution_section(result, doc),
         _settings_section(result, doc),
         _circuits_section(result, doc, bars),
+        *_device_sections(doc),
         *(x for x in (_likelihood_section(doc), _readings_section(doc)) if x is not None),
         *_detail_sections(result, doc, bars),
         _plan_section(plan),
