@@ -95,7 +95,7 @@ def main() -> None:
             proven += plan.board.optimal and plan.board.feasible
             moved.append(plan.board.circuit_moves)
     print(f"{args.boards} boards of 40 circuits under 4 RCDs, 150 loads")
-    print(f"board plan proven optimal: {proven}/{len([m for m in moved])} boards that needed one")
+    print(f"board plan proven optimal: {proven}/{len(moved)} boards that needed one")
     print(f"circuits moved: mean {statistics.mean(moved) if moved else 0:.1f}, worst {max(moved, default=0)}")
     print(
         f"time: mean {statistics.mean(times):.2f} s, worst {max(times):.2f} s; "

@@ -22,14 +22,33 @@ Model (every choice is a setting or a named constant, with its source):
   that band (UL 943 Class A 4-6 mA; IEC 61008-1 / IEC 61009-1 0.5 IΔn - IΔn).
 
 * The standing leakage S is the same per-circuit sum the budget uses (``Sum`` setting: arithmetic, or the
-  magnitude of the phasor sum). P(trip) = P(S ≥ T) = E[F_T(S)], F_T(s) = clip((s − a) / (b − a), 0, 1): the
-  trip point is integrated exactly and only S is sampled (conditional Monte Carlo; the estimator's variance is
-  never larger than that of counting trips). Standard error = sample standard deviation of F_T(S) / √N.
-  When no sample reaches the no-trip level the estimate is 0 and the 95 % upper bound is 3 / N (the "rule of
-  three", Hanley & Lippman-Hand, JAMA 249(13), 1983).
+  magnitude of the phasor sum); the check computes it on the phasor sum, the residual current the device measures.
+  P(trip) = P(S ≥ T) = E[F_T(S)], F_T(s) = clip((s − a) / (b − a), 0, 1): the trip point is integrated exactly
+  and only S is sampled (conditional Monte Carlo; the estimator's variance is never larger than that of counting
+  trips). Standard error = sample standard deviation of F_T(S) / √N. When no sample reaches the no-trip level the
+  estimate is 0 and the 95 % upper bound is 3 / N (the "rule of three", Hanley & Lippman-Hand, JAMA 249(13), 1983).
+
+* Directions in the phasor sum (two modelling choices, both stated in the method lines the results print). A
+  row's phasor is its magnitude draw times a direction. Most rows have a fixed one (their line and nature); two
+  kinds draw theirs per sample, the units of one row sharing one draw as they share their magnitude's:
+
+  - a row whose catalogue nature is mixed (resistive and capacitive parts, nominally 45°: a catalogue figure, or a
+    measured one split by that nature) turns by δ uniform in ±45° about its nominal direction, so that its
+    leakage angle is uniform between 0° (resistive) and 90° (capacitive); its magnitude stays the row's draw.
+    Computed rows (``Y capacitance``, ``Insulation resistance``) have a known angle and do not turn;
+  - a line-to-line load's share f on its first line: which line is the heavier is unknown, so f = ½ ± D, either
+    sign equally likely, D uniform with mean |f_set − ½|, f_set the ``Line imbalance`` setting: D ~ U(0, 2(f_set −
+    ½)) up to f_set = 75 %, U(2(f_set − ½) − ½, ½) above (f stays within 0–100 %). The row's phasor at a draw is
+    its point estimate's (at f_set) plus (f − f_set) × ∂phasor/∂f
+    (:attr:`leakbudget.estimate.LoadResult.imbalance_ma`), scaled with its magnitude draw.
+
+  Rows with neither keep their fixed weights (the fast path); the arithmetic sum has no directions to draw.
 
 * Random numbers: two streams (uniform and standard normal), seeded from the ``Seed`` setting, each a matrix
-  of ``positions × samples``. The k-th random load of a circuit uses row k. So a circuit's result depends only on
+  of ``positions × samples``. The k-th load of a circuit with a random magnitude uses row k. A third stream of
+  the same seed (independent of the first two, which stay as they were) draws the directions, a matrix
+  ``positions × 2 × samples`` (the turn of a mixed-nature row, the first line's share of a line-to-line load):
+  the k-th row of a circuit with a random direction uses position k. So a circuit's result depends only on
   its own loads, their order and the seed (never on the other circuits), and :func:`trip_probability` on a
   circuit's loads reproduces what ``check`` printed for it. Estimates of different circuits share draws, so they
   are correlated with one another; each one alone is unbiased with the stated standard error.
@@ -41,7 +60,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterator, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 from functools import lru_cache
 from statistics import NormalDist
 from typing import Any, NamedTuple
@@ -49,10 +68,12 @@ from typing import Any, NamedTuple
 import numpy as np
 
 from leakbudget.devices import Device
-from leakbudget.estimate import CATALOGUE, MEASURED, Estimate, LoadResult, trip_weights
+from leakbudget.estimate import CATALOGUE, COMPUTED, MEASURED, Estimate, LoadResult, trip_weights
+from leakbudget.leakage import NATURE_ANGLE_DEG
 from leakbudget.provenance import Kind
 from leakbudget.settings import (
     COMPONENT_TOLERANCE_DEFAULT,
+    LINE_IMBALANCE_DEFAULT,
     METER_ACCURACY_DEFAULT,
     MODEL_SPREAD_DEFAULT,
     SEED_DEFAULT,
@@ -75,6 +96,10 @@ UNIFORM = "uniform"
 LOGNORMAL = "lognormal"
 SHAPES = (FIXED, UNIFORM, LOGNORMAL)
 
+# A mixed-nature row's leakage angle is drawn uniform from 0° (resistive) to 90° (capacitive) about its nominal 45°:
+# a turn of at most ±45° (a modelling choice: the catalogue says only that both parts are present).
+MIXED_ANGLE_SPREAD_DEG = min(NATURE_ANGLE_DEG["mixed"], 90.0 - NATURE_ANGLE_DEG["mixed"])
+
 
 # --- The model ---------------------------------------------------------------------------------------------------
 class LeakageDistribution(NamedTuple):
@@ -87,6 +112,14 @@ class LeakageDistribution(NamedTuple):
     a balanced cable run) [dimensionless]. ``switch_on_factor`` multiplies the draw in the switch-on scenario.
     ``cap`` bounds a lognormal draw at ``cap × centre_ma`` (the catalogue upper value: a unit that is not faulty
     stays at or below its limit; leakage above it is a fault, which the review flags) [dimensionless].
+
+    The direction draws of the phasor sum (see the module's text; defaults: none): at a draw the coefficient is
+    ``coefficient × e^{jδ} × (1 + (f − line_share) × imbalance)``. ``imbalance`` is the coefficient's relative
+    change per unit of a line-to-line load's share f on its first line, (∂c/∂f) / c (0 for a load on one line;
+    relative, so that turning or weighting ``coefficient`` carries it along) [dimensionless]; ``line_share`` is the
+    share ``coefficient`` was computed at (the ``Line imbalance`` setting), which also sets the mean imbalance of
+    the draws [dimensionless]; ``angle_spread_deg`` is the half-width of the uniform turn δ about ``coefficient``'s
+    direction (45 for a mixed-nature row, 0 for a fixed angle) [degrees].
     """
 
     shape: str
@@ -95,6 +128,9 @@ class LeakageDistribution(NamedTuple):
     coefficient: complex = 1.0 + 0.0j
     switch_on_factor: float = 1.0
     cap: float = math.inf
+    imbalance: complex = 0j
+    line_share: float = 0.5
+    angle_spread_deg: float = 0.0
 
 
 class TripProbability(NamedTuple):
@@ -126,6 +162,7 @@ class RiskParameters:
     model_spread: float = MODEL_SPREAD_DEFAULT  # geometric standard deviation between models [dimensionless]
     unit_spread: float = UNIT_SPREAD_DEFAULT  # geometric standard deviation between units of one model
     switch_on_factor: float = SWITCH_ON_FACTOR_DEFAULT
+    line_share: float = LINE_IMBALANCE_DEFAULT  # a line-to-line load's share on its first line (Line imbalance)
     samples: int | None = None  # None = auto
     seed: int = SEED_DEFAULT
     basis: str = "typical"  # the catalogue value the point estimate used (Basis setting)
@@ -139,6 +176,7 @@ class RiskParameters:
             model_spread=float(settings["Model spread"]),
             unit_spread=float(settings["Unit spread"]),
             switch_on_factor=float(settings["Switch-on factor"]),
+            line_share=float(settings["Line imbalance"]),
             samples=settings["Samples"],
             seed=int(settings["Seed"]),
             basis=str(settings["Basis"]),
@@ -208,6 +246,30 @@ def _cached_streams(seed: int, positions: int, samples: int) -> tuple[np.ndarray
     return uniform, normal
 
 
+def _direction_stream(seed: int, positions: int, samples: int) -> np.ndarray:
+    """Uniform draws for the directions, ``positions × 2 × samples`` ([k, 0] a turn, [k, 1] a line share).
+
+    The third child of the seed's ``SeedSequence`` (the first two feed :func:`_streams`, which it leaves as they
+    were); filled position by position, so the first k positions are the same whatever ``positions`` is.
+    """
+    capacity = max(16, 1 << (positions - 1).bit_length())
+    if 2 * capacity * samples <= STREAM_CACHE_ELEMENTS:
+        return _cached_direction_stream(seed, capacity, samples)[:positions]
+    return _draw_direction_stream(seed, positions, samples)
+
+
+def _draw_direction_stream(seed: int, positions: int, samples: int) -> np.ndarray:
+    sequence = np.random.SeedSequence(seed).spawn(3)[2]
+    return np.random.Generator(np.random.PCG64(sequence)).random((positions, 2, samples), dtype=np.float32)
+
+
+@lru_cache(maxsize=4)
+def _cached_direction_stream(seed: int, positions: int, samples: int) -> np.ndarray:
+    turns = _draw_direction_stream(seed, positions, samples)
+    turns.flags.writeable = False
+    return turns
+
+
 @dataclass
 class _Rows:
     """Load distributions as arrays, sorted by group (circuit), sheet order kept within a group."""
@@ -216,9 +278,12 @@ class _Rows:
     shape: np.ndarray  # 0 fixed, 1 uniform, 2 lognormal
     centre: np.ndarray  # [mA]
     spread: np.ndarray
-    coefficient: np.ndarray  # complex
+    coefficient: np.ndarray  # complex, the nominal direction
     factor: np.ndarray  # switch-on factor
     cap: np.ndarray  # lognormal draws are bounded at cap × centre
+    imbalance: np.ndarray  # complex, (∂coefficient / ∂(first line's share)) / coefficient
+    share: np.ndarray  # the first line's share the coefficient was computed at
+    turn: np.ndarray  # half-width of the uniform turn about the nominal direction [rad]
 
     @classmethod
     def from_arrays(
@@ -230,17 +295,23 @@ class _Rows:
         coefficient: np.ndarray,
         factor: np.ndarray,
         cap: np.ndarray,
+        imbalance: np.ndarray | None = None,
+        share: np.ndarray | None = None,
+        turn: np.ndarray | None = None,
     ) -> _Rows:
         """Sort by group (stable) and mark rows without spread, or with nothing to spread, as fixed."""
+        n = len(group)
+        imbalance = np.zeros(n, dtype=complex) if imbalance is None else imbalance
+        share = np.full(n, 0.5) if share is None else share
+        turn = np.zeros(n) if turn is None else turn
         shape = np.where((spread <= 0.0) | (centre <= 0.0), 0, shape).astype(np.int8)
         order = np.argsort(group, kind="stable")
-        return cls(
-            group[order], shape[order], centre[order], spread[order], coefficient[order], factor[order], cap[order]
-        )
+        columns = (group, shape, centre, spread, coefficient, factor, cap, imbalance, share, turn)
+        return cls(*(column[order] for column in columns))
 
     @classmethod
     def build(cls, groups: Sequence[int], loads: Sequence[LeakageDistribution]) -> _Rows:
-        columns = list(zip(*loads)) if loads else [(), (), (), (), (), ()]
+        columns = list(zip(*loads)) if loads else [()] * len(LeakageDistribution._fields)
         shape = np.array([SHAPES.index(s) for s in columns[0]], dtype=np.int8)
         return cls.from_arrays(
             np.asarray(groups, dtype=np.int64),
@@ -250,21 +321,27 @@ class _Rows:
             np.asarray(columns[3], dtype=complex),
             np.asarray(columns[4], dtype=float),
             np.asarray(columns[5], dtype=float),
+            np.asarray(columns[6], dtype=complex),
+            np.asarray(columns[7], dtype=float),
+            np.radians(np.asarray(columns[8], dtype=float)),
         )
 
     def subset(self, keep: np.ndarray) -> _Rows:
-        return _Rows(
-            self.group[keep],
-            self.shape[keep],
-            self.centre[keep],
-            self.spread[keep],
-            self.coefficient[keep],
-            self.factor[keep],
-            self.cap[keep],
-        )
+        return _Rows(*(getattr(self, f.name)[keep] for f in fields(self)))
+
+    def directed(self) -> np.ndarray:
+        """Rows whose direction is drawn per sample: a turn, or a line-to-line share that varies (not ½)."""
+        return ((self.turn > 0.0) | ((self.imbalance != 0.0) & (self.share != 0.5))) & (self.centre > 0.0)
+
+    def random(self, sum_rule: str) -> np.ndarray:
+        """Rows that are sampled: a random magnitude, or (phasor sum) a random direction."""
+        random = self.shape != 0
+        return random | self.directed() if sum_rule == "phasor" else random
 
     def weights(self, sum_rule: str) -> np.ndarray:
-        """Per-row weights whose weighted sums make S: (arithmetic) Σv, Σv(f−1); (phasor) re, im, dry and extra."""
+        """Per-row weights whose weighted sums make S: (arithmetic) Σv, Σv(f−1); (phasor) re, im, dry and extra.
+
+        The phasor weights are the nominal directions; :func:`_turned` adds what a drawn direction changes."""
         extra = self.factor - 1.0
         if sum_rule == "phasor":
             c = self.coefficient
@@ -298,7 +375,8 @@ def _draw(
     normal: np.ndarray,
     cap: np.ndarray,
 ) -> np.ndarray:
-    """Leakage draws [mA], one row per random load: centre × (1 + a(2U − 1)) or centre × min(exp(σZ), cap)."""
+    """Leakage draws [mA], one row per sampled load: centre × (1 + a(2U − 1)) or centre × min(exp(σZ), cap);
+    a fixed magnitude (a row sampled for its direction only) is its centre."""
     with np.errstate(divide="ignore", invalid="ignore"):
         z_cap = np.where(spread > 0.0, np.log(cap) / np.where(spread > 0.0, spread, 1.0), np.inf)
 
@@ -316,15 +394,89 @@ def _draw(
         u += ((1.0 - spread[rows]) * centre[rows])[:, None].astype(np.float32)
         return u
 
-    uni = shape == 1
-    if not uni.any():
-        return lognormal(slice(None))
-    if uni.all():
-        return uniform_(slice(None))
+    uni, fixed = shape == 1, shape == 0
+    if not fixed.any():
+        if not uni.any():
+            return lognormal(slice(None))
+        if uni.all():
+            return uniform_(slice(None))
     values = np.empty((len(pos), uniform.shape[1]), dtype=np.float32)
-    values[uni] = uniform_(uni)
-    values[~uni] = lognormal(~uni)
+    values[fixed] = centre[fixed, None]
+    if uni.any():
+        values[uni] = uniform_(uni)
+    logn = ~(uni | fixed)
+    if logn.any():
+        values[logn] = lognormal(logn)
     return values
+
+
+def _share_offsets(u: np.ndarray, share: np.ndarray) -> np.ndarray:
+    """f − share for draws of a line-to-line load's first line share f, from uniforms ``u`` (rows × samples).
+
+    f = ½ ± D, the sign from the uniform's half, D uniform on [lo, hi] with mean m = |share − ½|: hi = min(2m, ½),
+    lo = 2m − hi (so D ~ U(0, 2m) while 2m ≤ ½, and f never leaves 0–1).
+    """
+    m = np.minimum(np.abs(share - 0.5), 0.5)
+    hi = np.minimum(2.0 * m, 0.5)
+    lo = 2.0 * m - hi
+    v = 2.0 * u - 1.0  # U(−1, 1): its sign picks the heavier line, its size the place in [lo, hi]
+    d = np.abs(v)
+    d *= (hi - lo)[:, None].astype(np.float32)
+    d += lo[:, None].astype(np.float32)
+    np.copysign(d, v, out=d)
+    d += (0.5 - share)[:, None].astype(np.float32)
+    return d
+
+
+def _turned(
+    values: np.ndarray,
+    coefficient: np.ndarray,
+    imbalance: np.ndarray,
+    share: np.ndarray,
+    turn: np.ndarray,
+    u: np.ndarray,
+) -> np.ndarray:
+    """What drawn directions add to the nominal phasors [mA]: rows × (real, imaginary) × samples, float32.
+
+    A row's phasor at a draw is v·c·e^{jδ}·(1 + (f − share)·r): v its magnitude draw, c its nominal coefficient,
+    r its relative change per unit of its first line's share (``imbalance``), δ uniform in ±``turn`` (from
+    ``u[:, 0]``) and f the first line's share (from ``u[:, 1]``, :func:`_share_offsets`). Returned minus the
+    nominal v·c, so that every row keeps the fixed weights of :meth:`_Rows.weights`.
+    """
+    k, samples = values.shape
+    moved = (imbalance != 0.0).any()
+    turned = (turn > 0.0).any()
+    # g = e^{jδ}(1 + t·r) − 1, the relative change of the row's phasor
+    if moved:
+        t = _share_offsets(u[:, 1], share)
+        w_re = t * imbalance.real.astype(np.float32)[:, None]  # (1 + t·r) − 1
+        w_im = t * imbalance.imag.astype(np.float32)[:, None]
+    if turned:
+        delta = 2.0 * u[:, 0] - 1.0
+        delta *= turn.astype(np.float32)[:, None]
+        cos_m1, sin = np.cos(delta), np.sin(delta)
+        cos_m1 -= np.float32(1.0)
+        if moved:  # (cos δ − 1)(1 + w_re) − sin δ·w_im + w_re, and sin δ·(1 + w_re) + cos δ·w_im
+            g_re = cos_m1 * w_re
+            g_re += cos_m1
+            g_re -= sin * w_im
+            g_re += w_re
+            g_im = sin * w_re
+            g_im += sin
+            g_im += (cos_m1 + np.float32(1.0)) * w_im
+        else:
+            g_re, g_im = cos_m1, sin
+    else:
+        g_re, g_im = w_re, w_im
+    a = coefficient.real.astype(np.float32)[:, None]
+    b = coefficient.imag.astype(np.float32)[:, None]
+    out = np.empty((k, 2, samples), dtype=np.float32)
+    np.multiply(g_re, a, out=out[:, 0])  # c·g, times the magnitude
+    out[:, 0] -= g_im * b
+    np.multiply(g_im, a, out=out[:, 1])
+    out[:, 1] += g_re * b
+    out *= values[:, None, :]
+    return out
 
 
 def _segment_sums(values: np.ndarray, group: np.ndarray, weights: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -345,30 +497,67 @@ def _segment_sums(values: np.ndarray, group: np.ndarray, weights: np.ndarray) ->
     return segs, sums
 
 
+def _add_directed(sums: np.ndarray, seg: np.ndarray, rank: np.ndarray, extra: np.ndarray, change: np.ndarray) -> None:
+    """Add what drawn directions change (``change``: rows × (real, imaginary) × samples) to the phasor sums of their
+    groups (``seg``: each row's index in ``sums``), dry and at switch-on (× the row's switch-on extra).
+
+    The rows of one rank (their place among their group's rows with a drawn direction) are in different groups,
+    so each rank is one scatter without repeated indices: no reduction over the few rows a group has.
+    """
+    heating = extra != 0.0
+    for r in np.unique(rank).tolist():
+        at = rank == r
+        sums[seg[at], :2] += change[at]
+        hot = at & heating
+        if hot.any():
+            sums[seg[hot], 2:] += change[hot] * extra[hot, None, None].astype(np.float32)
+
+
 def _random_sums(
     rows: _Rows, sum_rule: str, samples: int, seed: int, block_elements: int = BLOCK_ELEMENTS
 ) -> Iterator[tuple[np.ndarray, np.ndarray]]:
     """Weighted sums over each group's random loads, per sample: yields (group ids, sums[group, weight, sample]).
 
     Groups come in order, each exactly once, in blocks of at most ``block_elements`` draws; a group cut by a
-    block boundary is carried into the next block.
+    block boundary is carried into the next block. Rows with a drawn direction (phasor sum) add what their draw
+    changes (:func:`_turned`), summed with unit weights; the other rows keep their fixed weights.
     """
-    random = rows.shape != 0
+    random = rows.random(sum_rule)
     group = rows.group[random]
     if len(group) == 0:
         return
-    shape, centre, spread, cap = rows.shape[random], rows.centre[random], rows.spread[random], rows.cap[random]
-    weights = rows.weights(sum_rule)[:, random]
-    pos = _positions(group)
+    sampled = rows.subset(random)
+    shape, centre, spread, cap = sampled.shape, sampled.centre, sampled.spread, sampled.cap
+    weights = sampled.weights(sum_rule)
+    n = len(group)
+    magnitude = shape != 0
+    pos = np.zeros(n, dtype=np.int64)
+    pos[magnitude] = _positions(group[magnitude])
     uniform, normal = _streams(seed, int(pos.max()) + 1, samples)
+    directed = sampled.directed() if sum_rule == "phasor" else np.zeros(n, dtype=bool)
+    if directed.any():
+        d_pos = np.zeros(n, dtype=np.int64)
+        d_pos[directed] = _positions(group[directed])
+        turns = _direction_stream(seed, int(d_pos.max()) + 1, samples)
+        extra = sampled.factor - 1.0
     step = max(1, block_elements // samples)
     carry_group: int | None = None
     carry: np.ndarray | None = None
-    n = len(group)
     for i in range(0, n, step):
         j = min(n, i + step)
         values = _draw(shape[i:j], centre[i:j], spread[i:j], pos[i:j], uniform, normal, cap[i:j])
         segs, sums = _segment_sums(values, group[i:j], weights[:, i:j])
+        if directed[i:j].any():
+            d = np.flatnonzero(directed[i:j]) + i
+            change = _turned(
+                values[d - i],
+                sampled.coefficient[d],
+                sampled.imbalance[d],
+                sampled.share[d],
+                sampled.turn[d],
+                turns[d_pos[d]],
+            )
+            _add_directed(sums, np.searchsorted(segs, group[d]), d_pos[d], extra[d], change)
         if carry is not None:
             if segs[0] == carry_group:
                 sums[0] += carry
@@ -386,7 +575,7 @@ def _random_sums(
 
 def _fixed_sums(rows: _Rows, sum_rule: str, n_groups: int) -> np.ndarray:
     """Weighted sums of the fixed (non-random) loads per group: array [group, weight]."""
-    fixed = rows.shape == 0
+    fixed = ~rows.random(sum_rule)
     weights = rows.weights(sum_rule)
     return np.stack(
         [np.bincount(rows.group[fixed], weights=rows.centre[fixed] * w[fixed], minlength=n_groups) for w in weights],
@@ -512,10 +701,23 @@ def likelihood_text(p: TripProbability | None, switch_on: bool = False) -> str:
 
 
 # --- From the check's estimates to distributions -------------------------------------------------------------------
-def _describe(
-    results: Sequence[LoadResult], params: RiskParameters
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Shape code, centre [mA], spread, phasor coefficient, switch-on factor and cap of each estimated load."""
+class _Described(NamedTuple):
+    """The distribution columns of estimated loads (as :class:`LeakageDistribution`, the turn in degrees)."""
+
+    shape: np.ndarray
+    centre: np.ndarray
+    spread: np.ndarray
+    coefficient: np.ndarray
+    factor: np.ndarray
+    cap: np.ndarray
+    imbalance: np.ndarray
+    share: np.ndarray
+    angle_spread_deg: np.ndarray
+
+
+def _describe(results: Sequence[LoadResult], params: RiskParameters) -> _Described:
+    """Shape code, centre [mA], spread, phasor coefficient, switch-on factor, cap and the direction draws (how the
+    coefficient moves with a line-to-line load's share, the share, the turn) of each estimated load."""
     n = len(results)
     appliances: dict[int, tuple[int, Any]] = {}
     code = np.fromiter((_appliance_code(appliances, r.appliance) for r in results), dtype=np.int64, count=n)
@@ -525,6 +727,7 @@ def _describe(
     sigma = np.array([model_sigma(a, params) for a in rows] + [0.0])
     cap_ratio = np.array([a.upper_ma / a.typical_ma if a.typical_ma > 0.0 else math.inf for a in rows] + [math.inf])
     heating = np.array([a.heating for a in rows] + [False])
+    mixed = np.array([a.nature == "mixed" for a in rows] + [False])
     basis = np.array([r.basis for r in results], dtype=object)
     is_load = np.fromiter((r.load is not None for r in results), dtype=bool, count=n)
     catalogue = (basis == CATALOGUE) & (code >= 0)
@@ -535,6 +738,13 @@ def _describe(
     leakage = np.fromiter((r.leakage_ma for r in results), dtype=float, count=n)
     phasor = np.fromiter((r.phasor_ma for r in results), dtype=complex, count=n)
     coefficient = np.divide(phasor, leakage, out=np.ones(n, dtype=complex), where=leakage > 0.0)
+    moves = np.fromiter((r.imbalance_ma for r in results), dtype=complex, count=n)
+    # relative to the phasor, so that turning or weighting the coefficient (a board line, a waveform) carries it
+    imbalance = np.divide(moves, phasor, out=np.zeros(n, dtype=complex), where=(phasor != 0.0) & (leakage > 0.0))
+    share = np.where(imbalance != 0.0, params.line_share, 0.5)
+    # The angle of a mixed-nature row's figure (catalogue, or measured and split by that nature) is drawn; a computed
+    # row's is known from its C and R.
+    turn = np.where(is_load & mixed[code] & (basis != COMPUTED), MIXED_ANGLE_SPREAD_DEG, 0.0)
     quantity = np.fromiter((r.quantity if r.load is not None else 1 for r in results), dtype=float, count=n)
     sum_sigma, sum_mu = fenton_wilkinson(quantity, math.log(params.unit_spread))
     # Two levels: the row's units share one model factor (σ = ``spread``) and vary unit to unit; their sum is the
@@ -542,7 +752,8 @@ def _describe(
     spread = np.where(catalogue, np.hypot(spread, sum_sigma), spread)
     centre = leakage * np.where(catalogue, ratio[code] * np.exp(sum_mu) / quantity, 1.0)
     cap = np.where(catalogue, cap_ratio[code] * quantity / np.exp(sum_mu), math.inf)
-    return np.where(catalogue, 2, 1).astype(np.int8), centre, spread.astype(float), coefficient, factor, cap
+    shape = np.where(catalogue, 2, 1).astype(np.int8)
+    return _Described(shape, centre, spread.astype(float), coefficient, factor, cap, imbalance, share, turn)
 
 
 def model_sigma(appliance: Any, params: RiskParameters) -> float:
@@ -584,25 +795,38 @@ def distribution(result: LoadResult, params: RiskParameters) -> LeakageDistribut
     """The distribution of one estimated load (or cable run), in its circuit's phasor frame.
 
     Measured: uniform ± meter accuracy; computed and cable: uniform ± component tolerance; catalogue: lognormal
-    with the typical value (rescaled to the supply) as median; heating elements carry the switch-on factor.
+    with the typical value (rescaled to the supply) as median; heating elements carry the switch-on factor; a
+    mixed-nature row turns, a line-to-line load's share on its first line is drawn (the module's text).
     """
-    shape, centre, spread, coefficient, factor, cap = _describe([result], params)
-    return LeakageDistribution(
-        SHAPES[int(shape[0])],
-        float(centre[0]),
-        float(spread[0]),
-        complex(coefficient[0]),
-        float(factor[0]),
-        float(cap[0]),
-    )
+    return _distributions(_describe([result], params))[0]
+
+
+def _distributions(d: _Described, trip_weight: np.ndarray | float = 1.0) -> list[LeakageDistribution]:
+    coefficient, imbalance = d.coefficient * trip_weight, d.imbalance
+    return [
+        LeakageDistribution(
+            SHAPES[int(d.shape[i])],
+            float(d.centre[i]),
+            float(d.spread[i]),
+            complex(coefficient[i]),
+            float(d.factor[i]),
+            float(d.cap[i]),
+            complex(imbalance[i]),
+            float(d.share[i]),
+            float(d.angle_spread_deg[i]),
+        )
+        for i in range(len(d.shape))
+    ]
 
 
 def circuit_distributions(result: Estimate, params: RiskParameters) -> tuple[list[int], list[LeakageDistribution]]:
-    """Circuit index and distribution of every placed load and cable run, in the check's order."""
+    """Circuit index and distribution of every placed load and cable run, in the check's order, each in its
+    circuit's phasor frame weighted by how much its waveform counts towards its device's trip point, as the check
+    computes them (:func:`_check_rows`)."""
     index = result.project.circuit_index()
     placed = [r for r in result.loads if r.circuit_id is not None]
     circuits = [index[r.circuit_id.lower()] for r in result.loads if r.circuit_id is not None]
-    return circuits, [distribution(r, params) for r in placed]
+    return circuits, _distributions(_describe(placed, params), trip_weights(result.project, placed))
 
 
 def _check_rows(result: Estimate, params: RiskParameters) -> _Rows:
@@ -615,9 +839,20 @@ def _check_rows(result: Estimate, params: RiskParameters) -> _Rows:
         dtype=np.int64,
         count=len(placed),
     )
-    shape, centre, spread, coefficient, factor, cap = _describe(placed, params)
-    coefficient = coefficient * trip_weights(result.project, placed)
-    return _Rows.from_arrays(group, shape, centre, spread, coefficient, factor, cap)
+    d = _describe(placed, params)
+    weight = trip_weights(result.project, placed)
+    return _Rows.from_arrays(
+        group,
+        d.shape,
+        d.centre,
+        d.spread,
+        d.coefficient * weight,
+        d.factor,
+        d.cap,
+        d.imbalance,
+        d.share,
+        np.radians(d.angle_spread_deg),
+    )
 
 
 # What the device measures: the residual current, the phasor sum of the leakage it sees. The budget may be gated
@@ -640,7 +875,29 @@ def method_lines(params: RiskParameters, samples: int, sum_rule: str = LIKELIHOO
         f"spread {params.unit_spread:g}, Unit spread; their sum by Fenton-Wilkinson), never above the upper value "
         "(a unit above it is faulty, not standing leakage); at switch-on after idle, every heating element × "
         f"{params.switch_on_factor:g} (Switch-on factor), one common cause for all of them.",
+        *([direction_line(params)] if sum_rule == "phasor" else []),
     ]
+
+
+def direction_line(params: RiskParameters) -> str:
+    """The method line on the directions drawn in the phasor sum (both modelling choices)."""
+    m = min(abs(params.line_share - 0.5), 0.5)
+    hi = min(2.0 * m, 0.5)
+    lo = 2.0 * m - hi
+    if hi > 0.0:
+        lines = (
+            f"a line-to-line load's share on its first line 50 % ± D, D uniform between {100 * lo:g} % and "
+            f"{100 * hi:g} %, either line the heavier with equal chance, so that the mean imbalance is the Line "
+            f"imbalance setting's {100 * params.line_share:g} % / {100 * (1 - params.line_share):g} % (which the "
+            "point estimate uses)"
+        )
+    else:
+        lines = "a line-to-line load 50 % / 50 % on its lines (Line imbalance 50 %: symmetric, nothing drawn)"
+    return (
+        "Directions in the phasor sum, drawn per sample (modelling choices; the units of a row share one draw): "
+        f"a mixed-nature row's leakage angle (nominally {NATURE_ANGLE_DEG['mixed']:g}°) uniform between 0° "
+        f"(resistive) and 90° (capacitive); {lines}."
+    )
 
 
 def assess(result: Estimate) -> RiskResult:
@@ -653,7 +910,7 @@ def assess(result: Estimate) -> RiskResult:
         for c in result.circuits
     ]
     protected = np.array([lv is not None for lv in levels], dtype=bool)
-    random_rows = int(np.count_nonzero((rows.shape != 0) & protected[rows.group])) if len(rows.group) else 0
+    random_rows = int(np.count_nonzero(rows.random(LIKELIHOOD_SUM) & protected[rows.group])) if len(rows.group) else 0
     samples = params.samples if params.samples is not None else auto_samples(random_rows)
     probabilities = _trip_probabilities(rows, len(result.circuits), levels, LIKELIHOOD_SUM, samples, params.seed)
     for c, p in zip(result.circuits, probabilities):
