@@ -148,8 +148,8 @@ def _calibrate(result: _CheckedEstimate, reading: Reading) -> tuple[Calibration 
         for r in mine:
             d = risk.distribution(r, params)
             if r.basis == CATALOGUE:
-                d = risk.LeakageDistribution(
-                    risk.UNIFORM, k * r.leakage_ma, params.meter_accuracy, d.coefficient, d.switch_on_factor
+                d = d._replace(
+                    shape=risk.UNIFORM, centre_ma=k * r.leakage_ma, spread=params.meter_accuracy, cap=math.inf
                 )
             loads.append(d)
         samples = result.risk.samples if result.risk is not None else risk.SAMPLES_MAX
