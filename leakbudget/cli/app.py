@@ -48,7 +48,8 @@ app = typer.Typer(
     name="leakbudget",
     help=(
         "Standing earth-leakage budgets for GFCI/RCD-protected circuits: estimate each load's leakage, sum it "
-        "per circuit, check it against the device's levels, and write the results back into the workbook.\n\n"
+        "per circuit and per shared device, check it against the device's levels, and write the results back into "
+        "the workbook.\n\n"
         "A planning aid, not a substitute for measurement, the local code and licensed practice; test every "
         "protective device after installation and never remove protection to cure nuisance trips."
     ),
@@ -74,9 +75,11 @@ def check(
     as_json: JsonOpt = False,
     no_write: Annotated[bool, typer.Option("--no-write", help="Check only; write nothing.")] = False,
 ) -> None:
-    """Estimate standing leakage per protected circuit and write 'Circuit results' and 'Load results'.
+    """Estimate standing leakage per protected circuit and shared device; write 'Circuit results', 'Load results'
+    and, with a Protection sheet, 'Device results'.
 
-    Exit code 0 when every protected circuit is within budget, 1 when any is not, 2 on bad input.
+    Exit code 0 when every protected circuit and shared device is within budget and none is marginal, 1 when
+    any is not, 2 on bad input.
     """
     from leakbudget import api
 

@@ -267,11 +267,14 @@ def render_check(job: Any) -> None:
     if wide:
         table.add_column("Largest contributor", overflow="fold")
     shown = _circuits_to_show(result.circuits)
+    inside = {d.shared.circuit_id: d.device_id for d in result.devices if d.shared.circuit_id is not None}
     for c in shown:
         d = circuit_dict(c)
         used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"
         budget, no_trip = fmt(d["budget_ma"], 2), fmt(d["no_trip_ma"], 2)
         own = d["device"] if c.circuit.device.protected or c.protected_by is None else f"↳{c.protected_by}"
+        if own == "none" and c.circuit.circuit_id in inside:
+            own = f"in:{inside[c.circuit.circuit_id]}"  # a device inside the circuit (a GFCI receptacle)
         cells = [
             d["circuit"],
             own,
