@@ -52,3 +52,23 @@ def test_the_two_level_example(make_workbook):
     read_as_percentile = office(make_workbook, "rcd-30", "upper, from memory").circuits[0]
     assert read_as_percentile.risk is not None
     assert f"show a {100 * read_as_percentile.risk.dry:.0f} % likelihood of tripping while using 47 %" in README
+
+
+def test_the_waveform_and_budget_examples(make_workbook):
+    from tests.test_estimate import run
+    from tests.test_waveforms import one_circuit
+
+    text = " ".join(README.split())
+    pulsed = one_circuit(make_workbook, "A", "11 mA", "pulsating-dc").circuits[0]
+    assert (
+        f"counts it as 11 × 0.5 / 0.35 = {pulsed.trip_equivalent_ma:.1f} mA and the circuit is `{pulsed.status.value}`"
+        in text
+    )
+    blinded = one_circuit(make_workbook, "A", "7 mA", "smooth-dc").circuits[0]
+    assert blinded.dc_blinded and "7 mA of smooth DC under the same Type A device" in text
+    circuits = [["K1", "gfci-a", 120, 60, "single", 20, None, "Kitchen"]]
+    loads = [["Meter", "K1", None, 1, "1 mA", None, None, None, "Kitchen"]]
+    ul = run(make_workbook, circuits, loads).circuits[0]
+    assert f"0.30 × 6 mA = {ul.budget_ma:.1f} mA by analogy" in text
+    share = run(make_workbook, circuits, loads, [["Budget of", "no-trip level"], ["Budget fraction", 0.45]])
+    assert f"0.45 × 4 mA = {share.circuits[0].budget_ma:.1f} mA of the no-trip level" in text
