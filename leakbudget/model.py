@@ -34,6 +34,7 @@ class Circuit:
     protected_by: str | None = None  # Id of the shared device it hangs under (Protection sheet)
     phase: str = "L1"  # the board's line a single-pole circuit takes
     purpose: str = "mixed"  # sockets, lighting, dedicated or mixed
+    neutral_earth_bond: bool = False  # neutral tied to earth on its load side (a bonded subpanel, a generator)
 
 
 @dataclass(slots=True)
@@ -56,6 +57,7 @@ class Load:
     waveform: str | None = None  # the Waveform column; None = the catalogue's (or sine)
     model: str | None = None  # model reference; a Leakage reading on one unit stands for units of the same model
     protected_by: str | None = None  # Id of a device inside its circuit that protects it (Protection sheet)
+    neutral_earth_bond: bool = False  # its neutral tied to earth (a bonding strap left in, a bonded generator)
 
 
 PURPOSES = ("sockets", "lighting", "dedicated", "mixed")

@@ -42,8 +42,9 @@ CIRCUITS = [
     "Cable length",
     "Rooms",
     "Shared neutral",
+    "Neutral-earth bond",
 ]
-LOADS = ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Power", "Room", "Waveform"]
+LOADS = ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Power", "Room", "Waveform", "Neutral-earth bond"]
 
 
 def circuit(
@@ -57,9 +58,10 @@ def circuit(
     rating: float = 20,
     length: float | str | None = None,
     shared: str | None = None,
+    bond: str | None = None,
 ) -> list[Any]:
     v, f = (120, 60) if us else (230, 50)
-    return [cid, device, rcd_type, v, f, system, rating, length, rooms, shared]
+    return [cid, device, rcd_type, v, f, system, rating, length, rooms, shared, bond]
 
 
 def load(
@@ -72,8 +74,9 @@ def load(
     room: str | None = None,
     waveform: str | None = None,
     quantity: int = 1,
+    bond: str | None = None,
 ) -> list[Any]:
-    return [name, cid, appliance, quantity, leakage, power, room, waveform]
+    return [name, cid, appliance, quantity, leakage, power, room, waveform, bond]
 
 
 @pytest.fixture
@@ -457,6 +460,77 @@ def test_shared_neutral_column_takes_yes_or_no(plan):
         plan([circuit("K1", "gfci-a", "Kitchen", shared="maybe")], [load("Fridge", "K1", "refrigerator")])
 
 
+# --------------------------------------------------------------------------------------------- neutral-earth bond
+
+
+def test_neutral_earth_bond_of_a_three_wire_dryer_under_a_gfci_ul_943(plan):
+    # UL 943: a Class A GFCI must trip on a load-side grounded-neutral connection; the cure (strap out, four-wire)
+    # is common practice.
+    p = plan([circuit("D1", "gfci-a", "Laundry", system="split")], [load("Dryer", "D1", "dryer", bond="yes")])
+    (hit,) = found(p, "neutral-earth")
+    assert hit.severity is Severity.ERROR and hit.load == "Dryer" and hit.source.kind is Kind.PUBLISHED
+    assert "UL 943" in str(hit.source) and "four-wire" in hit.message and "bonding strap out" in hit.message
+    # no bond, or no device to sense it: no finding
+    assert found(plan([circuit("D1", "gfci-a", "Laundry")], [load("Dryer", "D1", "dryer")]), "neutral-earth") == []
+    unprotected = plan([circuit("D1", "none", "Laundry")], [load("Dryer", "D1", "dryer", bond="yes")])
+    assert found(unprotected, "neutral-earth") == []
+
+
+def test_neutral_earth_bond_of_a_subpanel_under_an_rcd_is_common_practice(plan):
+    # an IEC RCD: the neutral's return current partly through earth is residual current (common practice)
+    p = plan([circuit("S1", "rcd-30", "Workshop", us=False, bond="yes")], [load("Lathe", "S1", None, "1 mA")])
+    (hit,) = found(p, "neutral-earth")
+    assert hit.severity is Severity.ERROR and hit.load is None and hit.source.kind is Kind.COMMON_PRACTICE
+    assert "subpanel" in hit.message and "switches the neutral" in hit.message
+    assert (
+        found(
+            plan([circuit("S1", "rcd-30", "Workshop", us=False)], [load("Lathe", "S1", None, "1 mA")]), "neutral-earth"
+        )
+        == []
+    )
+
+
+def test_neutral_earth_bond_under_a_shared_or_an_inside_device(make_workbook):
+    # UL 943 Class A grounded-neutral detection seen from a shared device above the circuit and from a GFCI
+    # receptacle inside it (Protection sheet).
+    from tests.test_protection import CIRCUITS as TREE_CIRCUITS
+    from tests.test_protection import LOADS as TREE_LOADS
+    from tests.test_protection import PROTECTION
+
+    path = make_workbook(
+        {
+            "Protection": [
+                PROTECTION,
+                ["RCD1", "rcd-30", "A", None, 63, "Consumer unit", "single", None],
+                ["GR1", "gfci-a", None, None, 20, None, "single", "K2"],
+            ],
+            "Circuits": [
+                [*TREE_CIRCUITS, "Neutral-earth bond"],
+                ["K1", "none", 230, 50, "single", 20, "Workshop", "RCD1", None, "sockets", None],
+                ["K2", "none", 120, 60, "single", 20, "Garage", None, None, "sockets", None],
+                ["K3", "none", 120, 60, "single", 20, "Garage", None, None, "sockets", "yes"],
+            ],
+            "Loads": [
+                [*TREE_LOADS, "Neutral-earth bond"],
+                ["Generator", "K1", None, 1, "0.5 mA", None, None, None, "yes"],
+                ["Inverter", "K2", None, 1, "0.5 mA", None, None, "GR1", "yes"],
+                ["Welder", "K2", None, 1, "0.5 mA", None, None, None, "yes"],
+                ["Saw", "K3", None, 1, "0.5 mA", None, None, None, None],
+            ],
+        },
+        "bonds.xlsx",
+    )
+    hits = [f for f in review(read_project(path), "nec-2023").findings if f.rule == "neutral-earth"]
+    assert [(f.circuit, f.load) for f in hits] == [("K1", "Generator"), ("K2", "Inverter")]  # Welder is above GR1
+    assert "RCD1" in hits[0].message and "switches the neutral" in hits[0].message
+    assert "GR1" in hits[1].message and "UL 943" in str(hits[1].source)
+
+
+def test_neutral_earth_bond_column_takes_yes_or_no(plan):
+    with pytest.raises(WorkbookError, match=r"column 'Neutral-earth bond', cell I2: 'sometimes' is not yes or no"):
+        plan([circuit("K1", "gfci-a", "Kitchen")], [load("Dryer", "K1", "dryer", bond="sometimes")])
+
+
 # --------------------------------------------------------------------------------------------- long run
 
 
@@ -526,6 +600,7 @@ def everything(plan):
             circuit("W1", "gfci-a", "Laundry"),
             circuit("G1", "gfci-a", "Garage"),
             circuit("D1", "none", "Dining room"),
+            circuit("T1", "gfci-a", "Laundry", system="split"),
         ],
         [
             load("Hair dryer", "B1", "hair-dryer"),
@@ -534,6 +609,7 @@ def everything(plan):
             load("Welder", "G1", "inverter-welder", "4.5 mA"),
             load("Microwave", "D1", "microwave"),
             load("Cord set", "D1", "ev-charger-level-1"),
+            load("Dryer", "T1", "dryer", bond="yes"),
         ],
     )
     iec = plan(

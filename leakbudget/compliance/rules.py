@@ -6,8 +6,8 @@ is wrong and what to do. The advice is always to split, measure, repair, relocat
 code asks for; never to remove protection or raise its rated residual current.
 
 Rules (ids in :data:`RULES`): location, appliance-outlet, ev-charging, socket-outlets, room-unclassified,
-waveform, fault-sign, high-leakage, shared-neutral, long-run, switch-on, budget. The codes' requirements are
-data in :mod:`leakbudget.compliance.codes`; room names are classified by :mod:`leakbudget.locations`.
+waveform, fault-sign, high-leakage, shared-neutral, neutral-earth, long-run, switch-on, budget. The codes'
+requirements are data in :mod:`leakbudget.compliance.codes`; room names are classified by :mod:`leakbudget.locations`.
 """
 
 from __future__ import annotations
@@ -77,6 +77,20 @@ SHARED_NEUTRAL_SOURCE = Source.common_practice(
     "a neutral shared with another circuit carries that circuit's return current through a single-pole "
     "device's sensing coil (common practice)"
 )
+# A load-side neutral-to-earth connection: part of the neutral's return current comes back through earth, which a
+# residual-current device sees as residual current (physics), and UL 943 requires Class A GFCIs to trip on such a
+# connection by itself (a second, grounded-neutral sensing coil); most RCDs trip on it too (common practice). The
+# usual causes and cures are common practice of the trade.
+NEUTRAL_EARTH_GFCI_SOURCE = Source.published(
+    "UL 943 (Class A GFCIs must trip on a load-side grounded-neutral connection; clause number not confirmed here); "
+    "causes and cures: common practice"
+)
+NEUTRAL_EARTH_SOURCE = Source.common_practice(
+    "a load-side neutral-to-earth connection returns part of the neutral current through earth, which the device "
+    "sees as residual current, and most devices also sense the connection itself (common practice)"
+)
+# Catalogue rows of appliances that may be connected three-wire with a neutral-to-frame bonding strap.
+BONDING_STRAP_KEYS = ("dryer", "range-electric")
 SMOOTH_DC_SOURCE = Source.published("IEC 62423 (Type B); IEC 62955 (6 mA DC detection for EV charging)")
 
 # What each RCD type detects (IEC 60755 / IEC 62423): AC sine only; A adds pulsating DC; F adds the composite
@@ -542,6 +556,69 @@ def rule_shared_neutral(views: list[_Circuit], code: Code, result: CheckResult) 
         )
 
 
+def _sensing(devices: list[tuple[str, Device]]) -> tuple[str, Device] | None:
+    """The nearest protective device of (name, device) pairs listed nearest first, or None."""
+    return next(((name, d) for name, d in devices if d.protected), None)
+
+
+def _neutral_earth_source(device: Device) -> Source:
+    return NEUTRAL_EARTH_GFCI_SOURCE if device.family is Family.GFCI else NEUTRAL_EARTH_SOURCE
+
+
+def rule_neutral_earth(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """A neutral tied to earth on the load side of a GFCI/RCD (the Neutral-earth bond column): the device trips at
+    once or at random, whatever the leakage budget says (UL 943 Class A grounded-neutral detection)."""
+    for v in views:
+        c = v.circuit
+        board = [(f"{v.cid}'s {c.device.key}", c.device)] + [(d.device_id, d.device) for d in v.above]
+        if c.neutral_earth_bond:
+            hit = _sensing(board)
+            chosen = hit or _sensing([(d.device_id, d.device) for d in v.inside])
+            if chosen is not None:
+                name, dev = chosen
+                where = "" if hit is not None else f" if the bond lies below {name}"
+                yield Finding(
+                    Severity.ERROR if hit is not None else Severity.WARNING,
+                    "neutral-earth",
+                    _neutral_earth_source(dev),
+                    v.cid,
+                    None,
+                    f"{v.cid} has its neutral tied to earth on its load side, under {name} ({dev.label}): part of "
+                    f"the neutral current returns through earth and the device will trip{where}; separate neutral "
+                    "and earth in the subpanel it feeds (neutral bar isolated, bonded only at the service), or, for "
+                    "a generator or inverter with a bonded neutral, use a transfer switch that switches the neutral.",
+                )
+        for r in v.loads:
+            if r.load is None or not r.load.neutral_earth_bond:
+                continue
+            own = [(d.device_id, d.device) for d in v.inside if d.device_id == r.load.protected_by]
+            hit = _sensing(own + board)
+            if hit is None:
+                continue
+            name, dev = hit
+            key = r.appliance.key if r.appliance is not None else None
+            if key in BONDING_STRAP_KEYS:
+                cure = (
+                    "take the bonding strap out of its terminal block and connect it four-wire (separate neutral "
+                    "and equipment grounding conductors), as its instructions say"
+                )
+            else:
+                cure = (
+                    "for a dryer or range, take the bonding strap out and connect it four-wire; for a generator or "
+                    "inverter with a bonded neutral, use a transfer switch that switches the neutral, or unbond its "
+                    "neutral as its maker allows"
+                )
+            yield Finding(
+                Severity.ERROR,
+                "neutral-earth",
+                _neutral_earth_source(dev),
+                v.cid,
+                r.name,
+                f"{r.name} ties neutral to earth under {name} ({dev.label}) on {v.cid}: part of the neutral current "
+                f"returns through earth and the device will trip, whatever the leakage; {cure}.",
+            )
+
+
 def rule_long_run(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
     """A load-side cable run longer than the usual limit for a 5 mA GFCI (common practice)."""
     for v in views:
@@ -816,6 +893,7 @@ RULES: dict[str, RuleFunc] = {
     "fault-sign": rule_fault_sign,
     "high-leakage": rule_high_leakage,
     "shared-neutral": rule_shared_neutral,
+    "neutral-earth": rule_neutral_earth,
     "long-run": rule_long_run,
     "switch-on": rule_switch_on,
     "budget": rule_budget,

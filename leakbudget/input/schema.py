@@ -87,6 +87,14 @@ CIRCUITS = Sheet(
             False,
             "sockets, lighting, dedicated (one appliance) or mixed (default); the review and the planner use it.",
         ),
+        Column(
+            "Neutral-earth bond",
+            None,
+            False,
+            "yes if the neutral is tied to earth on the circuit's load side (a subpanel it feeds with neutral and "
+            "earth bonded, a generator or inverter with a bonded neutral whose transfer does not switch the "
+            "neutral); blank = no.",
+        ),
     ),
 )
 
@@ -133,6 +141,13 @@ LOADS = Sheet(
             False,
             "Id of a device inside the circuit that protects this load (Protection sheet row with a Circuit): a "
             "GFCI receptacle upstream of its outlet, a cord set's own interrupting device; blank = none.",
+        ),
+        Column(
+            "Neutral-earth bond",
+            None,
+            False,
+            "yes if the load ties neutral to earth (a three-wire dryer or range with its bonding strap in, a "
+            "generator or inverter with a bonded neutral); blank = no.",
         ),
     ),
 )

@@ -325,6 +325,7 @@ def read_circuits(
                 protected_by=_protected_by(table, row, shared, board_level=True),
                 phase=table.choice(row, "Phase", PHASES, "L1") or "L1",
                 purpose=table.choice(row, "Purpose", PURPOSES, "mixed") or "mixed",
+                neutral_earth_bond=bool(table.flag(row, "Neutral-earth bond")),
             )
         )
         _check_phase(table, row, circuits[-1], shared)
@@ -567,6 +568,7 @@ def read_loads(
                 waveform=table.choice(row, "Waveform", cat.WAVEFORMS),
                 model=table.text(row, "Model"),
                 protected_by=_protected_by(table, row, shared, board_level=False) if shared else None,
+                neutral_earth_bond=bool(table.flag(row, "Neutral-earth bond")),
             )
         )
     return loads
