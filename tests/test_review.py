@@ -257,6 +257,61 @@ def test_appliance_outlet_satisfied_by_gfci(plan):
     assert found(p, "appliance-outlet") == []
 
 
+def test_appliance_outlet_nec_2023_table_210_8_D_vending_machine_and_pressure_washer(plan):
+    # NEC 2023 Table 210.8(D) lists them (from memory); NEC 2020 has them in 422.5(A) (from memory).
+    p = plan(
+        [circuit("S1", "none", "Shop")],
+        [load("Vending", "S1", "vending-machine"), load("Washer", "S1", "pressure-washer")],
+    )
+    hits = found(p, "appliance-outlet", "nec-2023")
+    assert [h.load for h in hits] == ["Vending", "Washer"]
+    assert all("NEC 2023 Table 210.8(D)" in str(h.source) and h.source.kind is Kind.FROM_MEMORY for h in hits)
+    assert "high-pressure spray washers" in hits[1].message
+    old = found(p, "appliance-outlet", "nec-2020")
+    assert [h.load for h in old] == ["Vending", "Washer"] and "NEC 2020 422.5(A)" in str(old[0].source)
+    ok = plan([circuit("S1", "gfci-a", "Shop")], [load("Vending", "S1", "vending-machine")])
+    assert found(ok, "appliance-outlet") == []
+
+
+# --------------------------------------------------------------------------------------------- outdoor outlets
+
+
+def test_outdoor_outlet_nec_2023_210_8_F_hard_wired_heat_pump_and_pool_pump(plan):
+    # NEC 2023 210.8(F): outdoor outlets of dwellings, hard-wired included, single-phase up to 150 V to ground and
+    # 50 A; Exception No. 2 (listed HVAC equipment) expired 1 September 2026.
+    p = plan(
+        [circuit("HP", "none", "Back yard", system="split", rating=30)],
+        [load("Heat pump", "HP", "heat-pump-inverter"), load("Pool pump", "HP", "pool-pump")],
+    )
+    (hit,) = found(p, "outdoor-outlet", "nec-2023")
+    assert hit.severity is Severity.ERROR and hit.source.kind is Kind.PUBLISHED
+    assert str(hit.source).startswith("NEC 2023 210.8(F)") and "1 September 2026" in str(hit.source)
+    assert "Heat pump, Pool pump" in hit.message and "ran out on 1 September 2026" in hit.message
+    # NEC 2020 210.8(F) (from memory)
+    (old,) = found(p, "outdoor-outlet", "nec-2020")
+    assert old.source.kind is Kind.FROM_MEMORY and "1 January 2023" in old.message
+    assert found(p, "outdoor-outlet", "bs-7671") == []
+
+
+@pytest.mark.parametrize(
+    "device, system, voltage_rating, loads, expected",
+    [
+        ("gfci-a", "split", 30, [("Pool pump", "pool-pump")], 0),  # protected
+        ("none", "split", 60, [("Pool pump", "pool-pump")], 0),  # above 50 A
+        ("none", "three", 30, [("Pool pump", "pool-pump")], 0),  # not single-phase
+        ("none", "single", 20, [("Floodlights", "outdoor-led-floodlight")], 0),  # lighting outlets excepted
+        ("none", "single", 20, [("Pond pump", "pond-pump")], 0),  # a receptacle: the location rule, 210.8(A)
+        ("none", "single", None, [("Pool pump", "pool-pump")], 1),  # no Rating: a warning
+    ],
+)
+def test_outdoor_outlet_nec_2023_210_8_F_limits(plan, device, system, voltage_rating, loads, expected):
+    row = circuit("P1", device, "Patio", system=system, rating=voltage_rating)
+    hits = found(plan([row], [load(n, "P1", k) for n, k in loads]), "outdoor-outlet", "nec-2023")
+    assert len(hits) == expected
+    if hits:
+        assert hits[0].severity is Severity.WARNING and "Rating is not given" in hits[0].message
+
+
 # --------------------------------------------------------------------------------------------- EV charging
 
 
@@ -601,6 +656,7 @@ def everything(plan):
             circuit("G1", "gfci-a", "Garage"),
             circuit("D1", "none", "Dining room"),
             circuit("T1", "gfci-a", "Laundry", system="split"),
+            circuit("HP", "none", "Back yard", system="split", rating=30),
         ],
         [
             load("Hair dryer", "B1", "hair-dryer"),
@@ -610,6 +666,7 @@ def everything(plan):
             load("Microwave", "D1", "microwave"),
             load("Cord set", "D1", "ev-charger-level-1"),
             load("Dryer", "T1", "dryer", bond="yes"),
+            load("Heat pump", "HP", "heat-pump-inverter"),
         ],
     )
     iec = plan(

@@ -51,6 +51,8 @@ class Code:
     locations: dict[str, LocationRule]  # location kind → requirement
     appliance_outlets: dict[str, str] = field(default_factory=dict)  # appliance key → the rule's wording
     appliance_source: Source | None = None
+    appliance_outlet_sources: dict[str, Source] = field(default_factory=dict)  # a key's own clause, if not the above
+    outdoor_source: Source | None = None  # NEC 210.8(F): outdoor outlets of dwellings, hard-wired ones included
     ev_source: Source | None = None
     socket_source: Source | None = None  # IEC / BS: socket-outlets need additional protection wherever they are
     waveform_source: Source = Source.published("IEC 60755 / IEC 62423 (RCD types AC, A, F, B)")
@@ -80,7 +82,14 @@ class Code:
         return device.family is Family.RCD and device.trip_ma <= ADDITIONAL_PROTECTION_MAX_MA
 
 
-def _nec(year: int, kitchen: Scope, appliance_outlets: dict[str, str], appliance_source: Source) -> Code:
+def _nec(
+    year: int,
+    kitchen: Scope,
+    appliance_outlets: dict[str, str],
+    appliance_source: Source,
+    appliance_outlet_sources: dict[str, Source],
+    outdoor_source: Source,
+) -> Code:
     where = Source.published(f"NEC {year} 210.8(A)")
     wet = LocationRule(Scope.RECEPTACLES, where)
     locations = dict.fromkeys(
@@ -108,6 +117,8 @@ def _nec(year: int, kitchen: Scope, appliance_outlets: dict[str, str], appliance
         locations=locations,
         appliance_outlets=appliance_outlets,
         appliance_source=appliance_source,
+        appliance_outlet_sources=appliance_outlet_sources,
+        outdoor_source=outdoor_source,
         ev_source=Source.published(f"NEC {year} 625.54"),
     )
 
@@ -139,16 +150,55 @@ NEC_2023_APPLIANCES = {
     "heat-pump-dryer": "clothes dryers",
     "microwave": "microwave ovens",
     "sump-pump": "sump pumps",
+    "vending-machine": "vending machines",
+    "pressure-washer": "high-pressure spray washers",
 }
+# The items NEC 2023 moved into Table 210.8(D) from 422.5(A) (NEC 2020): vending machines, high-pressure spray
+# washers, drinking-water coolers, tire inflation and automotive vacuum machines (the catalogue has the first two).
+NEC_2023_TABLE_ITEMS = Source.from_memory(
+    "NEC 2023 Table 210.8(D) (vending machines, high-pressure spray washers, drinking-water coolers, tire "
+    "inflation and automotive vacuum machines), from memory"
+)
+NEC_2020_422_5_A = Source.from_memory(
+    "NEC 2020 422.5(A) (GFCI for vending machines, cord-and-plug-connected high-pressure spray washing machines, "
+    "drinking water coolers, tire inflation and automotive vacuum machines), from memory"
+)
+NEC_422_5_KEYS = {"vending-machine": "vending machines", "pressure-washer": "high-pressure spray washing machines"}
+
+# NEC 210.8(F): every outdoor outlet of a dwelling (a receptacle or the point where hard-wired equipment connects),
+# on a single-phase branch circuit of at most 150 V to ground and 50 A, needs GFCI protection; lighting outlets are
+# excepted. NEC 2023's Exception No. 2 for listed HVAC equipment expired on 1 September 2026 (confirmed from a
+# public summary of the code text); NEC 2020's exception for HVAC equipment with power conversion (TIA 20-13) ran
+# to 1 January 2023.
+OUTDOOR_MAX_V_TO_GROUND = 150.0
+OUTDOOR_MAX_A = 50.0
+HVAC_EXCEPTION_EXPIRED = {2023: "1 September 2026", 2020: "1 January 2023"}
+NEC_2023_210_8_F = Source.published(
+    "NEC 2023 210.8(F) (outdoor outlets of dwellings, hard-wired ones included, single-phase, up to 150 V to ground "
+    "and 50 A; Exception No. 1 lighting outlets; Exception No. 2, listed HVAC equipment, expired 1 September 2026)"
+)
+NEC_2020_210_8_F = Source.from_memory(
+    "NEC 2020 210.8(F) (outdoor outlets of dwellings, single-phase, up to 150 V to ground and 50 A; lighting outlets "
+    "excepted; the TIA 20-13 HVAC exception ran to 1 January 2023), from memory"
+)
 
 CODES: dict[str, Code] = {
     "nec-2020": _nec(
         2020,
         Scope.COUNTERTOP,
-        {"dishwasher": "dishwashers"},
+        {"dishwasher": "dishwashers", **NEC_422_5_KEYS},
         Source.from_memory("NEC 2020 210.8(D) (dishwasher outlets in dwelling units), from memory"),
+        dict.fromkeys(NEC_422_5_KEYS, NEC_2020_422_5_A),
+        NEC_2020_210_8_F,
     ),
-    "nec-2023": _nec(2023, Scope.RECEPTACLES, NEC_2023_APPLIANCES, Source.published("NEC 2023 210.8(D)")),
+    "nec-2023": _nec(
+        2023,
+        Scope.RECEPTACLES,
+        NEC_2023_APPLIANCES,
+        Source.published("NEC 2023 210.8(D)"),
+        dict.fromkeys(NEC_422_5_KEYS, NEC_2023_TABLE_ITEMS),
+        NEC_2023_210_8_F,
+    ),
     "iec-60364": _iec(
         "iec-60364",
         "IEC 60364 (low-voltage installations)",
@@ -177,3 +227,14 @@ EV_CHARGER_KEY_PREFIX = "ev-charger"  # catalogue keys of EV charging equipment 
 def is_ev_charger(appliance_key: str | None) -> bool:
     """Whether a catalogue key names EV charging equipment (built-in keys and user rows named ``ev-charger…``)."""
     return bool(appliance_key and appliance_key.startswith(EV_CHARGER_KEY_PREFIX))
+
+
+# Catalogue rows that are luminaires or their drivers: lighting outlets, excepted from NEC 210.8(F).
+LIGHTING_KEY_WORDS = ("light", "luminaire", "led-driver", "lamp")
+# Catalogue rows that are HVAC equipment (NEC 2023 210.8(F) Exception No. 2, now expired).
+HVAC_KEYS = ("heat-pump-inverter", "window-air-conditioner")
+
+
+def is_lighting(appliance_key: str | None) -> bool:
+    """Whether a catalogue key names a luminaire or its driver (a lighting outlet)."""
+    return bool(appliance_key and any(word in appliance_key for word in LIGHTING_KEY_WORDS))

@@ -5,9 +5,9 @@ Each :class:`Finding` has a severity (error / warning / info), the rule it comes
 is wrong and what to do. The advice is always to split, measure, repair, relocate or fit the kind of device the
 code asks for; never to remove protection or raise its rated residual current.
 
-Rules (ids in :data:`RULES`): location, appliance-outlet, ev-charging, socket-outlets, room-unclassified,
-waveform, fault-sign, high-leakage, shared-neutral, neutral-earth, long-run, switch-on, budget. The codes'
-requirements are data in :mod:`leakbudget.compliance.codes`; room names are classified by :mod:`leakbudget.locations`.
+Rules (ids in :data:`RULES`): location, appliance-outlet, outdoor-outlet, ev-charging, socket-outlets,
+room-unclassified, waveform, fault-sign, high-leakage, shared-neutral, neutral-earth, long-run, switch-on, budget.
+The codes' requirements are data in :mod:`leakbudget.compliance.codes`; room names are classified by :mod:`leakbudget.locations`.
 """
 
 from __future__ import annotations
@@ -22,11 +22,16 @@ from leakbudget.compliance.codes import (
     CODE_KEYS,
     CODES,
     DEFAULT_CODE_BY_FREQUENCY_HZ,
+    HVAC_EXCEPTION_EXPIRED,
+    HVAC_KEYS,
+    OUTDOOR_MAX_A,
+    OUTDOOR_MAX_V_TO_GROUND,
     SOCKET_OUTLET_MAX_A,
     Code,
     LocationRule,
     Scope,
     is_ev_charger,
+    is_lighting,
 )
 from leakbudget.devices import Device, Family, Status, smooth_dc_limit
 from leakbudget.errors import LeakbudgetError
@@ -337,16 +342,65 @@ def rule_appliance_outlet(views: list[_Circuit], code: Code, result: CheckResult
         for r in v.loads:
             key = r.appliance.key if r.appliance is not None else None
             if key in code.appliance_outlets:
+                source = code.appliance_outlet_sources.get(key, code.appliance_source)
                 yield Finding(
                     Severity.ERROR,
                     "appliance-outlet",
-                    code.appliance_source,
+                    source,
                     v.cid,
                     r.name,
-                    f"{r.name} ({key}) is on {v.cid}: {_clause(code.appliance_source)} requires GFCI "
+                    f"{r.name} ({key}) is on {v.cid}: {_clause(source)} requires GFCI "
                     f"protection for outlets supplying {code.appliance_outlets[key]}; {_missing(v)}: "
                     f"{code.remedy}.",
                 )
+
+
+def connection(r: LoadResult) -> str | None:
+    """How a load connects: "plug", "fixed" (hard-wired) or None when not known (the catalogue's connection)."""
+    return r.appliance.connection if r.appliance is not None else None
+
+
+def rule_outdoor_outlet(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """Hard-wired outdoor equipment of a dwelling without GFCI protection (NEC 210.8(F): every outdoor outlet on a
+    single-phase circuit up to 150 V to ground and 50 A, lighting outlets excepted)."""
+    if code.outdoor_source is None:
+        return
+    year = int(code.key.rsplit("-", 1)[1])
+    for v in views:
+        c = v.circuit
+        if v.satisfied(code) or c.purpose == "lighting" or c.system == "three":
+            continue
+        if c.voltage_v > OUTDOOR_MAX_V_TO_GROUND or (c.rating_a is not None and c.rating_a > OUTDOOR_MAX_A):
+            continue
+        outdoor_room = any("outdoor" in room.kinds for room in v.rooms)
+        hits = [
+            r
+            for r in v.loads
+            if connection(r) != "plug"  # receptacles outdoors: the location rule (210.8(A))
+            and not is_lighting(r.appliance.key if r.appliance is not None else None)
+            and (outdoor_room or (r.appliance is not None and r.appliance.category == "outdoor"))
+        ]
+        if not hits:
+            continue
+        names = ", ".join(r.name for r in hits[:4]) + (", …" if len(hits) > 4 else "")
+        hvac = any(r.appliance is not None and r.appliance.key in HVAC_KEYS for r in hits)
+        note = (
+            f" (the exception for HVAC equipment ran out on {HVAC_EXCEPTION_EXPIRED[year]})"
+            if hvac and year in HVAC_EXCEPTION_EXPIRED
+            else ""
+        )
+        rating = "" if c.rating_a is not None else " (its Rating is not given; the rule covers circuits up to 50 A)"
+        yield Finding(
+            Severity.ERROR if c.rating_a is not None else Severity.WARNING,
+            "outdoor-outlet",
+            code.outdoor_source,
+            v.cid,
+            None,
+            f"{v.cid} supplies outdoor equipment that is not plug-connected ({names}){rating}: "
+            f"{_clause(code.outdoor_source)} requires {code.requirement} for every outdoor outlet of a dwelling "
+            f"on a single-phase circuit up to {OUTDOOR_MAX_V_TO_GROUND:g} V to ground and {OUTDOOR_MAX_A:g} A, "
+            f"hard-wired equipment included{note}; {_missing(v)}: {code.remedy}.",
+        )
 
 
 def rule_ev_charging(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
@@ -886,6 +940,7 @@ def rule_device_waveform(views: list[_Circuit], code: Code, result: CheckResult)
 RULES: dict[str, RuleFunc] = {
     "location": rule_location,
     "appliance-outlet": rule_appliance_outlet,
+    "outdoor-outlet": rule_outdoor_outlet,
     "ev-charging": rule_ev_charging,
     "socket-outlets": rule_socket_outlets,
     "room-unclassified": rule_room_unclassified,
