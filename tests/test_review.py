@@ -43,6 +43,7 @@ CIRCUITS = [
     "Rooms",
     "Shared neutral",
     "Neutral-earth bond",
+    "Purpose",
 ]
 LOADS = ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Power", "Room", "Waveform", "Neutral-earth bond"]
 
@@ -59,9 +60,10 @@ def circuit(
     length: float | str | None = None,
     shared: str | None = None,
     bond: str | None = None,
+    purpose: str | None = None,
 ) -> list[Any]:
     v, f = (120, 60) if us else (230, 50)
-    return [cid, device, rcd_type, v, f, system, rating, length, rooms, shared, bond]
+    return [cid, device, rcd_type, v, f, system, rating, length, rooms, shared, bond, purpose]
 
 
 def load(
@@ -367,6 +369,33 @@ def test_socket_outlets_unknown_connection_is_a_warning(plan):
     assert hit.severity is Severity.WARNING and hit.source.kind is Kind.FROM_MEMORY  # 32 A limit from memory
 
 
+# --------------------------------------------------------------------------------------------- lighting
+
+
+def test_lighting_bs_7671_411_3_4_domestic_lighting_circuit_needs_a_30_ma_rcd(plan):
+    # BS 7671:2018 reg. 411.3.4: AC final circuits supplying luminaires in domestic premises need 30 mA RCD
+    # additional protection; the socket-outlet rule (411.3.3) no longer speaks for a lighting circuit.
+    lights = [load("Downlights", "L1", None, "0.5 mA")]
+    p = plan([circuit("L1", "none", "Hall", us=False, rating=6, purpose="lighting")], lights)
+    (hit,) = found(p, "lighting", "bs-7671")
+    assert hit.severity is Severity.ERROR and str(hit.source).startswith("BS 7671:2018 reg. 411.3.4")
+    assert hit.source.kind is Kind.PUBLISHED and "is a lighting circuit" in hit.message
+    assert found(p, "socket-outlets", "bs-7671") == []
+    # a luminaire row on a mixed circuit counts too
+    mixed = plan([circuit("M1", "none", "Hall", us=False)], [load("Ballasts", "M1", "hf-ballast-luminaire")])
+    assert [f.circuit for f in found(mixed, "lighting", "bs-7671")] == ["M1"]
+
+
+def test_lighting_bs_7671_411_3_4_not_raised_with_an_rcd_or_under_other_codes(plan):
+    lights = [load("Downlights", "L1", None, "0.5 mA")]
+    ok = plan([circuit("L1", "rcd-30", "Hall", us=False, rating=6, purpose="lighting")], lights)
+    assert found(ok, "lighting", "bs-7671") == []
+    bare = plan([circuit("L1", "none", "Hall", us=False, rating=6, purpose="lighting")], lights)
+    assert found(bare, "lighting", "iec-60364") == [] and found(bare, "lighting", "nec-2023") == []
+    sockets = plan([circuit("S1", "none", "Hall", us=False, purpose="sockets")], [load("Kettle", "S1", "kettle")])
+    assert found(sockets, "lighting", "bs-7671") == []
+
+
 # --------------------------------------------------------------------------------------------- waveform
 
 
@@ -670,8 +699,18 @@ def everything(plan):
         ],
     )
     iec = plan(
-        [circuit("C1", "rcd-30", "Office", us=False, rcd_type="AC"), circuit("C2", "none", "Office", us=False)],
-        [load("Drive", "C1", None, "1 mA", waveform="high-frequency"), load("Kettle", "C2", "kettle")],
+        [
+            circuit("C1", "rcd-30", "Office", us=False, rcd_type="AC"),
+            circuit("C2", "none", "Office", us=False),
+            circuit("L1", "none", "Hall", us=False, rating=6, purpose="lighting"),
+            circuit("C3", "none", "Office", us=False),
+        ],
+        [
+            load("Radio", "C3", None, "0.2 mA"),  # connection unknown: a socket-outlets warning
+            load("Drive", "C1", None, "1 mA", waveform="high-frequency"),
+            load("Kettle", "C2", "kettle"),
+            load("Downlights", "L1", None, "0.5 mA"),
+        ],
     )
     return review(us, "nec-2023").findings, review(iec, "bs-7671").findings
 

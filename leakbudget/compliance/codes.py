@@ -55,6 +55,7 @@ class Code:
     outdoor_source: Source | None = None  # NEC 210.8(F): outdoor outlets of dwellings, hard-wired ones included
     ev_source: Source | None = None
     socket_source: Source | None = None  # IEC / BS: socket-outlets need additional protection wherever they are
+    lighting_source: Source | None = None  # BS 7671 411.3.4: circuits supplying luminaires in domestic premises
     waveform_source: Source = Source.published("IEC 60755 / IEC 62423 (RCD types AC, A, F, B)")
     budget_is_regulation: bool = False  # the 30 % budget rule is a regulation of this code (for RCDs)
 
@@ -214,6 +215,10 @@ CODES: dict[str, Code] = {
         bath="BS 7671:2018 reg. 701.411.3.3",
         ev="BS 7671:2018 reg. 722.531.2.101",
         sockets=Source.published("BS 7671:2018 reg. 411.3.3 and 415.1.1"),
+        lighting_source=Source.published(
+            "BS 7671:2018 reg. 411.3.4 (AC final circuits supplying luminaires in domestic premises: additional "
+            "protection by an RCD of IΔn 30 mA or less)"
+        ),
         waveform_source=Source.published("BS 7671:2018 reg. 531.3.3; IEC 62423 (RCD types AC, A, F, B)"),
         budget_is_regulation=True,
     ),

@@ -6,8 +6,9 @@ is wrong and what to do. The advice is always to split, measure, repair, relocat
 code asks for; never to remove protection or raise its rated residual current.
 
 Rules (ids in :data:`RULES`): location, appliance-outlet, outdoor-outlet, ev-charging, socket-outlets,
-room-unclassified, waveform, fault-sign, high-leakage, shared-neutral, neutral-earth, long-run, switch-on, budget.
-The codes' requirements are data in :mod:`leakbudget.compliance.codes`; room names are classified by :mod:`leakbudget.locations`.
+lighting, room-unclassified, waveform, fault-sign, high-leakage, shared-neutral, neutral-earth, long-run,
+switch-on, budget, and the protection tree's. The codes' requirements are data in
+:mod:`leakbudget.compliance.codes`; room names are classified by :mod:`leakbudget.locations`.
 """
 
 from __future__ import annotations
@@ -436,6 +437,8 @@ def rule_socket_outlets(views: list[_Circuit], code: Code, result: CheckResult) 
         evidence = v.outlets()
         if v.satisfied(code) or evidence == "fixed" or (rating and rating > SOCKET_OUTLET_MAX_A):
             continue
+        if v.circuit.purpose == "lighting":
+            continue  # supplies luminaires, not socket-outlets: the lighting rule (BS 7671 reg. 411.3.4)
         plugs = [r.name for r in v.loads if r.appliance is not None and r.appliance.connection == "plug"]
         what = (
             f"plug-connected loads ({', '.join(plugs[:4])}{', …' if len(plugs) > 4 else ''})"
@@ -450,6 +453,33 @@ def rule_socket_outlets(views: list[_Circuit], code: Code, result: CheckResult) 
             None,
             f"{v.cid} feeds {what} through socket-outlets up to {SOCKET_OUTLET_MAX_A:g} A: "
             f"{_clause(code.socket_source)} requires {code.requirement}; {_missing(v)}: {code.remedy}.",
+        )
+
+
+def rule_lighting(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """A lighting circuit of a dwelling (Purpose lighting, or a circuit with luminaires) without 30 mA RCD
+    additional protection (BS 7671:2018 reg. 411.3.4)."""
+    if code.lighting_source is None:
+        return
+    for v in views:
+        if v.satisfied(code):
+            continue
+        lamps = [r.name for r in v.loads if r.appliance is not None and is_lighting(r.appliance.key)]
+        if v.circuit.purpose != "lighting" and not lamps:
+            continue
+        what = (
+            "is a lighting circuit"
+            if v.circuit.purpose == "lighting"
+            else f"supplies luminaires ({', '.join(lamps[:4])}{', …' if len(lamps) > 4 else ''})"
+        )
+        yield Finding(
+            Severity.ERROR,
+            "lighting",
+            code.lighting_source,
+            v.cid,
+            None,
+            f"{v.cid} {what} in domestic premises: {_clause(code.lighting_source)} requires {code.requirement} "
+            f"for AC final circuits supplying luminaires; {_missing(v)}: {code.remedy}.",
         )
 
 
@@ -943,6 +973,7 @@ RULES: dict[str, RuleFunc] = {
     "outdoor-outlet": rule_outdoor_outlet,
     "ev-charging": rule_ev_charging,
     "socket-outlets": rule_socket_outlets,
+    "lighting": rule_lighting,
     "room-unclassified": rule_room_unclassified,
     "waveform": rule_waveform,
     "fault-sign": rule_fault_sign,
