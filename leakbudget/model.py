@@ -58,9 +58,20 @@ class Load:
     model: str | None = None  # model reference; a Leakage reading on one unit stands for units of the same model
     protected_by: str | None = None  # Id of a device inside its circuit that protects it (Protection sheet)
     neutral_earth_bond: bool = False  # its neutral tied to earth (a bonding strap left in, a bonded generator)
+    connection: str | None = None  # the Connection column, "plug" or "fixed" (hard-wired); None = the catalogue's
 
 
 PURPOSES = ("sockets", "lighting", "dedicated", "mixed")
+# What a Loads row's Connection says: a plug (cord-and-plug) or hard-wired; "fixed" as the catalogue names it.
+CONNECTION_WORDS = {
+    "plug": "plug",
+    "cord-and-plug": "plug",
+    "cord": "plug",
+    "hard-wired": "fixed",
+    "hardwired": "fixed",
+    "fixed": "fixed",
+    "permanent": "fixed",
+}
 PHASES = ("L1", "L2", "L3")
 
 

@@ -45,7 +45,18 @@ CIRCUITS = [
     "Neutral-earth bond",
     "Purpose",
 ]
-LOADS = ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Power", "Room", "Waveform", "Neutral-earth bond"]
+LOADS = [
+    "Load",
+    "Circuit",
+    "Appliance",
+    "Quantity",
+    "Leakage",
+    "Power",
+    "Room",
+    "Waveform",
+    "Neutral-earth bond",
+    "Connection",
+]
 
 
 def circuit(
@@ -77,8 +88,9 @@ def load(
     waveform: str | None = None,
     quantity: int = 1,
     bond: str | None = None,
+    connection: str | None = None,
 ) -> list[Any]:
-    return [name, cid, appliance, quantity, leakage, power, room, waveform, bond]
+    return [name, cid, appliance, quantity, leakage, power, room, waveform, bond, connection]
 
 
 @pytest.fixture
@@ -312,6 +324,33 @@ def test_outdoor_outlet_nec_2023_210_8_F_limits(plan, device, system, voltage_ra
     assert len(hits) == expected
     if hits:
         assert hits[0].severity is Severity.WARNING and "Rating is not given" in hits[0].message
+
+
+# --------------------------------------------------------------------------------------------- connection
+
+
+def test_connection_column_overrides_the_catalogue_for_receptacle_rules(plan):
+    # NEC 2023 210.8(A) covers receptacles: a hard-wired load is only a note, a plug-connected one an error; with
+    # neither the Connection column nor a catalogue row, the finding says the connection is unknown.
+    def location(connection):
+        p = plan([circuit("B1", "none", "Main bath")], [load("Fan", "B1", None, "0.2 mA", connection=connection)])
+        (hit,) = found(p, "location", "nec-2023")
+        return hit
+
+    assert location(None).severity is Severity.WARNING and "Connection column" in location(None).message
+    assert location("plug").severity is Severity.ERROR
+    assert location("hard-wired").severity is Severity.INFO
+    # the catalogue's plug-connected hair dryer, said to be hard-wired: only a note
+    p = plan([circuit("B1", "none", "Main bath")], [load("Dryer", "B1", "hair-dryer", connection="Hard-wired")])
+    assert [f.severity for f in found(p, "location", "nec-2023")] == [Severity.INFO]
+    # BS 7671:2018 reg. 411.3.3: a hard-wired load feeds no socket-outlet
+    p = plan([circuit("C1", "none", "Lounge", us=False)], [load("Heater", "C1", "kettle", connection="hard-wired")])
+    assert found(p, "socket-outlets", "bs-7671") == []
+
+
+def test_connection_column_takes_plug_or_hard_wired(plan):
+    with pytest.raises(WorkbookError, match=r"column 'Connection', cell J2: 'wireless' is not plug or hard-wired"):
+        plan([circuit("B1", "none", "Main bath")], [load("Fan", "B1", None, "0.2 mA", connection="wireless")])
 
 
 # --------------------------------------------------------------------------------------------- EV charging

@@ -188,6 +188,14 @@ def _nearest_frequency_hz(frequency_hz: float) -> float:
 # ------------------------------------------------------------------------------------------------ context
 
 
+def connection(r: LoadResult) -> str | None:
+    """How a load connects: "plug" or "fixed" (hard-wired), from its Connection column, else the catalogue's; None
+    when neither says."""
+    if r.load is not None and r.load.connection is not None:
+        return r.load.connection
+    return r.appliance.connection if r.appliance is not None else None
+
+
 @dataclass
 class _Circuit:
     """One circuit as the rules see it: its check result, its loads (no cable line) and its rooms."""
@@ -217,7 +225,7 @@ class _Circuit:
     def outlets(self) -> str:
         """Evidence of receptacles: "plug" (a plug-connected load), "fixed" (every load fixed-wired), else
         "unknown" (no loads, or a load whose connection is not known)."""
-        kinds = [r.appliance.connection if r.appliance is not None else None for r in self.loads]
+        kinds = [connection(r) for r in self.loads]
         if "plug" in kinds:
             return "plug"
         if kinds and all(k == "fixed" for k in kinds):
@@ -281,7 +289,10 @@ SCOPE_SEVERITY = {  # (scope, receptacle evidence) → severity of a missing-pro
 }
 EVIDENCE_NOTE = {
     "plug": "",
-    "unknown": " It applies if the circuit feeds a receptacle there (the loads' connection is not known).",
+    "unknown": (
+        " It applies if the circuit feeds a receptacle there (the loads' connection is not known: say plug or "
+        "hard-wired in the Loads sheet's Connection column)."
+    ),
     "fixed": " Its loads are all fixed-wired, so it applies only if the circuit also feeds a receptacle there.",
 }
 
@@ -356,11 +367,6 @@ def rule_appliance_outlet(views: list[_Circuit], code: Code, result: CheckResult
                 )
 
 
-def connection(r: LoadResult) -> str | None:
-    """How a load connects: "plug", "fixed" (hard-wired) or None when not known (the catalogue's connection)."""
-    return r.appliance.connection if r.appliance is not None else None
-
-
 def rule_outdoor_outlet(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
     """Hard-wired outdoor equipment of a dwelling without GFCI protection (NEC 210.8(F): every outdoor outlet on a
     single-phase circuit up to 150 V to ground and 50 A, lighting outlets excepted)."""
@@ -415,7 +421,7 @@ def rule_ev_charging(views: list[_Circuit], code: Code, result: CheckResult) -> 
             a = r.appliance
             if a is None or not is_ev_charger(a.key):
                 continue
-            if code.family == "nec" and a.connection != "plug":
+            if code.family == "nec" and connection(r) != "plug":
                 continue  # 625.54 covers receptacles; fixed equipment carries its own personnel protection
             yield Finding(
                 Severity.ERROR,
@@ -439,7 +445,7 @@ def rule_socket_outlets(views: list[_Circuit], code: Code, result: CheckResult) 
             continue
         if v.circuit.purpose == "lighting":
             continue  # supplies luminaires, not socket-outlets: the lighting rule (BS 7671 reg. 411.3.4)
-        plugs = [r.name for r in v.loads if r.appliance is not None and r.appliance.connection == "plug"]
+        plugs = [r.name for r in v.loads if connection(r) == "plug"]
         what = (
             f"plug-connected loads ({', '.join(plugs[:4])}{', …' if len(plugs) > 4 else ''})"
             if plugs
@@ -606,7 +612,7 @@ def rule_fault_sign(views: list[_Circuit], code: Code, result: CheckResult) -> I
 def rule_high_leakage(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
     """Plug-connected equipment above 3.5 mA (IEC 62368-1 / IEC 61140 Annex B)."""
     for r in result.loads:
-        plug = r.appliance is not None and r.appliance.connection == "plug"
+        plug = connection(r) == "plug"
         if r.load is None or not plug or r.per_unit_ma <= HIGH_LEAKAGE_PLUG_MA:
             continue
         yield Finding(

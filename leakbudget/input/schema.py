@@ -122,6 +122,13 @@ LOADS = Sheet(
         Column("Room", None, False, "Room the load is in."),
         Column("Fixed", None, False, "yes if the load must stay on its circuit."),
         Column(
+            "Connection",
+            None,
+            False,
+            "plug (cord-and-plug) or hard-wired (permanently connected); overrides the catalogue's connection for "
+            "the review's receptacle rules.",
+        ),
+        Column(
             "Waveform",
             None,
             False,

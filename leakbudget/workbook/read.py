@@ -37,7 +37,7 @@ from leakbudget.input.table import MergedRange, RawTable, Row, Unreadable
 from leakbudget.input.units import UnitProblem
 from leakbudget.leakage import LEG_ANGLES_DEG, SYSTEMS, capacitive_current_ma, parse_leg, resistive_current_ma
 from leakbudget.locations import rows_from_table
-from leakbudget.model import PHASES, PURPOSES, Circuit, Load, Project, SharedDevice
+from leakbudget.model import CONNECTION_WORDS, PHASES, PURPOSES, Circuit, Load, Project, SharedDevice
 from leakbudget.progress import Progress
 from leakbudget.provenance import Source
 from leakbudget.settings import (
@@ -569,9 +569,21 @@ def read_loads(
                 model=table.text(row, "Model"),
                 protected_by=_protected_by(table, row, shared, board_level=False) if shared else None,
                 neutral_earth_bond=bool(table.flag(row, "Neutral-earth bond")),
+                connection=_connection(table, row),
             )
         )
     return loads
+
+
+def _connection(table: RawTable, row: Row) -> str | None:
+    """The Connection cell as "plug" or "fixed" (hard-wired), or None when blank."""
+    text = table.text(row, "Connection")
+    if text is None:
+        return None
+    word = CONNECTION_WORDS.get(text.strip().lower().replace("_", "-").replace(" ", "-"))
+    if word is None:
+        raise table.error(row, "Connection", f"'{text}' is not plug or hard-wired", hint="type plug or hard-wired")
+    return word
 
 
 def _refuse_implausible_components(

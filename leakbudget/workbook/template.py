@@ -95,6 +95,8 @@ def write_template(path: str | Path) -> Path:
         "System": list(SYSTEMS),
         "Fixed": ["yes", "no"],
         "Shared neutral": ["yes", "no"],
+        "Neutral-earth bond": ["yes", "no"],
+        "Connection": ["plug", "hard-wired"],
         "Waveform": list(WAVEFORMS),
         "Location kind": list(LOCATION_KINDS),
         "Cable": list(catalogue.cables),
@@ -118,7 +120,9 @@ def write_template(path: str | Path) -> Path:
         for i, v in enumerate(values, start=1):
             hidden.write_string(i, j, v)
         letter = chr(65 + j)
-        book.define_name(f"lb_{name.replace(' ', '_').lower()}", f"=Lists!${letter}$2:${letter}${len(values) + 1}")
+        book.define_name(
+            f"lb_{name.replace(' ', '_').replace('-', '_').lower()}", f"=Lists!${letter}$2:${letter}${len(values) + 1}"
+        )
     hidden.hide()
     ids = f"='{PROTECTION.name}'!$A$2:$A${TEMPLATE_ROWS + 1}"  # the Protection sheet's Id column
     for spec in (CIRCUITS, LOADS, PROTECTION, LOCATIONS):
@@ -145,7 +149,7 @@ def write_template(path: str | Path) -> Path:
                     j,
                     {
                         "validate": "list",
-                        "source": f"=lb_{col.name.replace(' ', '_').lower()}",
+                        "source": f"=lb_{col.name.replace(' ', '_').replace('-', '_').lower()}",
                         "error_type": "warning" if col.name == "Appliance" else "stop",
                         "error_message": f"Pick a value from the list ({col.help})",
                     },
