@@ -55,7 +55,7 @@ LOADS = [
         "Current",
         "Leg",
         "Room",
-        "Fixed",
+        "Stays",
         "Note",
     ],
     [

@@ -126,7 +126,7 @@ NOTES = {
 }
 
 LOADS = [
-    ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Room", "Fixed", "Power"],
+    ["Load", "Circuit", "Appliance", "Quantity", "Leakage", "Room", "Stays", "Power"],
     ["Washer", "C1", "washer-inverter", 1, None, "Kitchen", None],
     ["Dishwasher", "C1", "commercial-dishwasher", 1, "1.1 mA", "Kitchen", None],
     ["Fridge freezer", "C1", "refrigerator", 1, None, "Kitchen", None],

@@ -51,7 +51,7 @@ class Load:
     leg: tuple[str, ...]  # line conductors, e.g. ("L1",) or ("L1", "L2")
     leg_text: str
     room: str | None
-    fixed: bool
+    stays: bool  # the Stays column (formerly Fixed): the planner never moves it
     note: str | None
     row: int
     waveform: str | None = None  # the Waveform column; None = the catalogue's (or sine)

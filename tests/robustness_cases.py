@@ -533,7 +533,7 @@ def contract_sheets(rng: random.Random) -> Sheets:
         "Power": lambda c: rng.choice([None, 60, "1.2 kW"]),
         "Leg": lambda c: rng.choice(LEGS[systems[c]]),
         "Room": lambda c: rng.choice(ROOMS),
-        "Fixed": lambda c: rng.choice(["yes", "no", None]),
+        "Stays": lambda c: rng.choice(["yes", "no", None]),
         "Note": lambda c: rng.choice([None, "+44 20 7946 0000", "@home"]),
     }
     sheets: Sheets = {

@@ -20,7 +20,7 @@ from leakbudget.workbook.read import read_project
 
 runner = CliRunner()
 CIRCUITS = ["Circuit", "Device", "Voltage", "Frequency", "System", "Rating", "Rooms"]
-LOADS = ["Load", "Circuit", "Appliance", "Leakage", "Current", "Room", "Fixed"]
+LOADS = ["Load", "Circuit", "Appliance", "Leakage", "Current", "Room", "Stays"]
 BUDGET_MA = 1.8  # UL 943 Class A trips at 6 mA; 30 % of it (BS 7671:2018 reg. 531.3.2, by analogy)
 LIMIT_A = 16.0  # 0.8 × 20 A (the Load factor setting's default, common practice for continuous load)
 MARGIN_MA = 1e-4  # the planner keeps 0.1 µA below every budget, so a sum exactly at 1.8 mA is refused
@@ -259,7 +259,7 @@ def test_split_writes_the_sheet_and_leaves_loads(make_workbook, tmp_path: Path):
     assert f"Plan written to {out} (sheet 'Split plan'); the Loads sheet is unchanged" in text
     book = python_calamine.CalamineWorkbook.from_path(str(out))
     grid = book.get_sheet_by_name("Split plan").to_python()
-    assert grid[0][:7] == ["Load", "Row", "Room", "Fixed", "From", "To", "Change"]
+    assert grid[0][:7] == ["Load", "Row", "Room", "Stays", "From", "To", "Change"]
     assert [r[:7] for r in grid[1:3]] == [
         ["A", 2, "Kitchen", "", "K1", "NEW-1", "moved"],
         ["B", 3, "Kitchen", "", "K1", "K1", "stays"],
@@ -279,7 +279,7 @@ def test_split_json_document(make_workbook):
         "load": "B",
         "row": 3,
         "room": "Kitchen",
-        "fixed": False,
+        "stays": False,
         "from": None,
         "to": "K1",
         "moved": False,

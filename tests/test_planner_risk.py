@@ -67,7 +67,7 @@ def test_plain_plan_leaves_circuit_above_cap_and_capped_plan_brings_it_under(mak
 
 
 def test_cap_no_plan_meets_is_named_with_exit_1(make_workbook: Any) -> None:
-    path = workbook(make_workbook, fixed=True)  # both dishwashers Fixed on K-1: no budget can move them
+    path = workbook(make_workbook, fixed=True)  # both dishwashers marked Stays on K-1: no budget can move them
     result = runner.invoke(app, ["split", str(path), "--no-write", "--json", "--max-trip-likelihood", "5 %"])
     assert result.exit_code == 1, result.output
     doc = json.loads(result.stdout)

@@ -54,7 +54,7 @@ def load(
         leg=parse_leg(leg, "three"),
         leg_text=leg,
         room=room,
-        fixed=False,
+        stays=False,
         note=None,
         row=2,
     )
@@ -115,7 +115,7 @@ def test_a_valid_plan_verifies(make_workbook):
     [
         (
             lambda loads: loads.__setitem__(1, dataclasses.replace(loads[1], circuit_id="K2")),
-            "fixed load 'B' was moved",
+            "load 'B' marked Stays was moved",
         ),
         (lambda loads: loads.__setitem__(0, dataclasses.replace(loads[0], circuit_id="K1")), "K1 is over-budget"),
         (

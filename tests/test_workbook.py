@@ -27,6 +27,30 @@ def test_sheet_and_column_names_match_loosely(make_workbook):
     assert p.circuits[0].voltage_v == 120.0
 
 
+def test_the_former_column_name_fixed_reads_as_stays_with_a_warning(make_workbook):
+    sheets = basic_sheets()
+    sheets["Loads"][0] = [*sheets["Loads"][0], "Fixed"]
+    sheets["Loads"][1] = [*sheets["Loads"][1], "yes"]
+    p = read_project(make_workbook(sheets))
+    assert p.loads[0].stays and not p.loads[1].stays
+    assert p.warnings == [
+        "plan.xlsx, sheet 'Loads': the column 'Fixed' is now called 'Stays' and was read as such; rename its header "
+        "to 'Stays'"
+    ]
+    assert read_project(make_workbook()).warnings == []
+
+
+def test_the_former_and_the_current_name_together_are_refused(make_workbook):
+    sheets = basic_sheets()
+    sheets["Loads"][0] = [*sheets["Loads"][0], "Stays", "Fixed"]  # columns J and K
+    with pytest.raises(WorkbookError) as caught:
+        read_project(make_workbook(sheets))
+    message = str(caught.value)
+    assert "sheet 'Loads'" in message and "cell K1" in message
+    assert "the column 'Fixed' (column K) is the former name of 'Stays', which is there too (column J)" in message
+    assert "keep one of them, named 'Stays'" in message
+
+
 def _broken(mutate):
     sheets = copy.deepcopy(basic_sheets())
     mutate(sheets)

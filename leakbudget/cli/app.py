@@ -132,7 +132,7 @@ def review(
 SPLIT_HELP = (
     "Plan the fewest changes that bring every protected circuit within its leakage budget and current limit, "
     "and write a 'Split plan' sheet (the Loads sheet is not changed).\n\n"
-    "Loads go only on protected circuits that serve their room (when both say); Fixed loads stay; unplaced loads "
+    "Loads go only on protected circuits that serve their room (when both say); loads marked Stays stay; unplaced loads "
     "are placed. The plan has the fewest new circuits (NEW-1, ...), then the fewest moved loads, then the most "
     "headroom on the tightest circuit; the current limit is rating × the Load factor setting (default 0.8). "
     "Small plans are solved exactly (a MILP, HiGHS), large ones by a heuristic with a lower bound and gap.\n\n"

@@ -24,6 +24,7 @@ class Column:
     unit: str | None  # default unit for bare numbers (a pint unit string), None for text/flags
     required: bool
     help: str
+    old_names: tuple[str, ...] = ()  # former names, still read (with a warning naming the new one)
 
 
 @dataclass(frozen=True, slots=True)
@@ -38,6 +39,13 @@ class Sheet:
             if normalise(c.name) == normalise(name):
                 return c
         raise KeyError(name)
+
+    def renamed(self, name: str) -> Column | None:
+        """The column whose former name is ``name``, or None."""
+        for c in self.columns:
+            if any(normalise(old) == normalise(name) for old in c.old_names):
+                return c
+        return None
 
 
 CIRCUITS = Sheet(
@@ -120,7 +128,14 @@ LOADS = Sheet(
             "network or three-phase circuit defaults to L1-L2).",
         ),
         Column("Room", None, False, "Room the load is in."),
-        Column("Fixed", None, False, "yes if the load must stay on its circuit."),
+        Column(
+            "Stays",
+            None,
+            False,
+            "yes if the load stays on its circuit: `leakbudget split` never moves it (the former name Fixed is still "
+            "read; it never meant hard-wired, see Connection).",
+            old_names=("Fixed",),
+        ),
         Column(
             "Connection",
             None,

@@ -135,6 +135,7 @@ class RawTable:
     columns: dict[str, int]  # normalised column name -> 0-based column index
     typed_names: dict[str, str]  # normalised column name -> the name as the user typed it
     rows: list[Row] = field(default_factory=list)  # (1-based row number, cell values), in file order
+    renamed: dict[str, str] = field(default_factory=dict)  # a former column name as typed -> the current name
     # Whole columns, computed on first access and indexed by row number: column as asked -> cell values, …
     _values: dict[str, list[Any]] = field(default_factory=dict, repr=False)
     _texts: dict[str, list[str | Unreadable | None]] = field(default_factory=dict, repr=False)
@@ -173,9 +174,27 @@ class RawTable:
             )
         columns: dict[str, int] = {}
         typed: dict[str, str] = {}
+        renamed: dict[str, str] = {}
         for j, value in enumerate(grid[header_index]):
             if isinstance(value, str) and value.strip():
                 name = normalise(value)
+                new = spec.renamed(name)
+                if new is not None:
+                    name = normalise(new.name)
+                if name in columns and (new is not None or typed[name] in renamed):
+                    old, current = (value.strip(), j) if new is not None else (typed[name], columns[name])
+                    other = columns[name] if new is not None else j
+                    raise WorkbookError(
+                        f"the column '{old}' (column {column_letter(current)}) is the former name of "
+                        f"'{spec.column(name).name}', which is there too (column {column_letter(other)})",
+                        path=path,
+                        sheet=sheet_name,
+                        row=header_index + 1,
+                        cell=f"{column_letter(current)}{header_index + 1}",
+                        hint=f"keep one of them, named '{spec.column(name).name}'",
+                    )
+                if new is not None:
+                    renamed[value.strip()] = new.name
                 if name in columns:
                     raise WorkbookError(
                         f"the column '{value.strip()}' appears twice (also column {column_letter(columns[name])})",
@@ -204,7 +223,7 @@ class RawTable:
         if merged:
             _spread_merged(grid, merged, header_index, contract, kept)
         rows = [(i + 1, grid[i]) for i in sorted(kept)]
-        return cls(path, sheet_name, header_index + 1, columns, typed, rows)
+        return cls(path, sheet_name, header_index + 1, columns, typed, rows, renamed=renamed)
 
     def has(self, column: str) -> bool:
         return normalise(column) in self.columns

@@ -187,7 +187,7 @@ def load_dict(r: LoadResult) -> dict[str, Any]:
         "frequency_hz": r.frequency_hz,
         "leg": load.leg_text if load else None,
         "room": load.room if load else None,
-        "fixed": load.fixed if load else None,
+        "stays": load.stays if load else None,
         "row": load.row if load else None,
         "model": load.model if load else None,
         "measured_on": r.measured_on,

@@ -31,7 +31,7 @@ def assignment_dict(a: Any) -> dict[str, Any]:
         "load": load.name,
         "row": load.row,
         "room": load.room,
-        "fixed": load.fixed,
+        "stays": load.stays,
         "from": a.from_id,
         "to": a.to_id,
         "moved": a.moved,
@@ -173,7 +173,7 @@ def to_json(plan: SplitPlan) -> dict[str, Any]:
 
 
 # One table for the loads, then one for the circuits in the same columns: column 7 is always mA, 8 always A.
-LOAD_HEADER = ("Load", "Row", "Room", "Fixed", "From", "To", "Change", "Leakage (mA)", "Current (A)", "Current source")
+LOAD_HEADER = ("Load", "Row", "Room", "Stays", "From", "To", "Change", "Leakage (mA)", "Current (A)", "Current source")
 CIRCUIT_HEADER = (
     "Circuit",
     "Device",
@@ -206,7 +206,7 @@ def split_sheet(plan: SplitPlan) -> SheetData:
                 a["load"],
                 a["row"],
                 a["room"],
-                "yes" if a["fixed"] else None,
+                "yes" if a["stays"] else None,
                 a["from"],
                 a["to"],
                 a["change"],

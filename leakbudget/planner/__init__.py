@@ -2,7 +2,7 @@
 
 From a workbook's project it proposes where each load goes so that, on every protected circuit, the standing
 leakage is within budget and the load current within rating × load factor, with loads only on circuits that
-serve their room, fixed loads left alone and unplaced loads placed (the rules: :mod:`leakbudget.planner.rules`).
+serve their room, loads marked Stays left alone and unplaced loads placed (the rules: :mod:`leakbudget.planner.rules`).
 Objective, in order: fewest new circuits, fewest moved loads, most headroom on the tightest circuit.
 
 How:

@@ -1,6 +1,6 @@
 """From a project to the split planner's packings: what stays, what may move, new-circuit kinds, room groups.
 
-1. Loads that stay: fixed loads, loads on unprotected circuits. A protected circuit whose staying loads and cable
+1. Loads that stay: loads marked Stays, loads on unprotected circuits. A protected circuit whose staying loads and cable
    already break its budget or current limit is frozen (reported by name, left as it is, with all its loads).
 2. Loads that fit on no circuit they may use, even alone on a new one, stay too (reported by name); that may
    freeze their circuit, so 1 and 2 repeat until nothing changes.
@@ -232,7 +232,7 @@ def build(
     cable = [cable_ma(c, project) for c in circuits]
     on = [index[ld.circuit_id.lower()] if ld.circuit_id else -1 for ld in loads]
     stays = [
-        ld.circuit_id is not None and (ld.fixed or not circuits[on[i]].device.protected) for i, ld in enumerate(loads)
+        ld.circuit_id is not None and (ld.stays or not circuits[on[i]].device.protected) for i, ld in enumerate(loads)
     ]
     protected = [j for j, c in enumerate(circuits) if c.device.protected]
     all_protected = Eligibility(circuits, protected)
@@ -301,7 +301,7 @@ def build(
     left_alone = {
         ld.row
         for i, ld in enumerate(loads)
-        if (stays[i] and not ld.fixed and (on[i] < 0 or circuits[on[i]].device.protected)) or on[i] in frozen
+        if (stays[i] and not ld.stays and (on[i] < 0 or circuits[on[i]].device.protected)) or on[i] in frozen
     }
     return Setup(groups, blockers + stuck_messages, frozen, left_alone, figures)
 

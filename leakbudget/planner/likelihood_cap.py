@@ -99,7 +99,7 @@ def _sums(plan: SplitPlan, circuit_id: str) -> tuple[float, float]:
     stuck = {name for b in plan.blockers for name in b.loads}
     on = [a for a in plan.assignments if a.to_id == circuit_id]
     total = sum(a.leakage_ma for a in on)
-    movable = sum(a.leakage_ma for a in on if not a.load.fixed and a.load.name not in stuck)
+    movable = sum(a.leakage_ma for a in on if not a.load.stays and a.load.name not in stuck)
     circuit = next(c.circuit for c in plan.after.circuits if c.circuit.circuit_id == circuit_id)
     return cable_ma(circuit, plan.after.project) + total, movable
 
@@ -117,7 +117,7 @@ def _tighten(
         total, movable = _sums(plan, cid)
         target = max(TIGHTEN * total, total - movable + 2 * MARGIN_MA)
         if cid in blocked or target >= total:
-            why[cid] = "only loads that must stay are on it (fixed, or left as they are)"
+            why[cid] = "only loads that must stay are on it (marked Stays, or left as they are)"
             continue
         key = kind_limit_key(new[cid].room_key) if cid in new else circuit_limit_key(cid)
         tighter[key] = min(tighter.get(key, target), target)

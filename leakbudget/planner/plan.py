@@ -412,9 +412,9 @@ def _notes(project: Project, assignments: list[Assignment], planned: Project) ->
     no_rating = [c.circuit_id for c in planned.circuits if c.device.protected and not c.rating_a]
     if no_rating:
         notes.append(f"No rating for {', '.join(no_rating)}: their current is not limited.")
-    fixed_unplaced = [ld.name for ld in project.loads if ld.fixed and ld.circuit_id is None]
+    fixed_unplaced = [ld.name for ld in project.loads if ld.stays and ld.circuit_id is None]
     if fixed_unplaced:
-        notes.append(f"{', '.join(fixed_unplaced)} marked Fixed but on no circuit: placed like any other load.")
+        notes.append(f"{', '.join(fixed_unplaced)} marked Stays but on no circuit: placed like any other load.")
     if len(planned.circuits) > len(project.circuits):
         notes.append(
             "New circuits are assumed to have the cable run of the circuit they copy; correct the run "

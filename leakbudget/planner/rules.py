@@ -9,7 +9,7 @@
   many conductors it uses (conservative for split- and three-phase circuits).
 - Rooms: a load goes only on a circuit that serves its room when both say.
 - Legs: a load's leg (L1, L1-L2 …) must exist on the circuit's system.
-- Fixed loads, loads on unprotected circuits and loads on circuits no plan can fix stay where they are.
+- Loads marked Stays, loads on unprotected circuits and loads on circuits no plan can fix stay where they are.
 
 :func:`verify_plan` re-checks a finished plan from the planned project alone, without any solver state.
 """
@@ -183,8 +183,8 @@ def verify_plan(before: Project, after: CheckResult, blocked: set[str], left_alo
         if load.circuit_id == prev.circuit_id:
             continue
         if prev.circuit_id is not None:
-            if load.fixed:
-                problems.append(f"fixed load '{load.name}' was moved")
+            if load.stays:
+                problems.append(f"load '{load.name}' marked Stays was moved")
             if not circuits[prev.circuit_id].device.protected:
                 problems.append(f"'{load.name}' was moved off unprotected circuit {prev.circuit_id}")
             if prev.circuit_id in blocked or load.row in left_alone:

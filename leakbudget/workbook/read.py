@@ -562,7 +562,7 @@ def read_loads(
                 leg=legs,
                 leg_text="-".join(legs),
                 room=table.text(row, "Room"),
-                fixed=bool(table.flag(row, "Fixed")),
+                stays=bool(table.flag(row, "Stays")),
                 note=table.text(row, "Note"),
                 row=row[0],
                 waveform=table.choice(row, "Waveform", cat.WAVEFORMS),
@@ -656,6 +656,12 @@ def read_project(path: str | Path, progress: Progress | None = None) -> Project:
     report(2)
     loads = read_loads(loads_table, circuits, catalogue, shared)
     _link_load_devices(protection_table, shared, circuits, loads_table, loads)
+    for table in (t for t in (circuits_table, loads_table, protection_table) if t is not None):
+        for former, current in table.renamed.items():
+            warnings.append(
+                f"{path.name}, sheet '{table.sheet}': the column '{former}' is now called '{current}' and was read "
+                f"as such; rename its header to '{current}'"
+            )
     report(3)
     readings_table = _table(grids, READINGS, path)
     readings = read_readings(readings_table, circuits, defaults_used) if readings_table is not None else []
