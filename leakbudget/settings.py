@@ -42,6 +42,7 @@ BY_DEVICE = "by device: 120 V 60 Hz for UL devices (common practice), 230 V 50 H
 # The wiring codes `leakbudget review` knows, by key; leakbudget.compliance.codes defines each (and checks it defines
 # exactly these). Named here so the Code setting is refused at reading time, like every other setting.
 CODE_KEYS = ("nec-2020", "nec-2023", "iec-60364", "bs-7671")
+OCCUPANCIES = ("dwelling", "other")  # the review's rules for dwellings (NEC 210.8(A)) or other occupancies (210.8(B))
 
 # --- The trip-likelihood model's settings (leakbudget.risk), each default with its source ---------------------------------------------------------------------
 METER_ACCURACY_DEFAULT = 0.05
@@ -275,6 +276,14 @@ SETTING_SPECS: tuple[SettingSpec, ...] = (
         Source(Kind.DEFAULT, "default by supply frequency"),
         f"Wiring code `leakbudget review` checks against: {', '.join(CODE_KEYS)} (default nec-2023 for a "
         "60 Hz plan, iec-60364 for a 50 Hz plan).",
+    ),
+    SettingSpec(
+        "Occupancy",
+        _choice(*OCCUPANCIES),
+        "dwelling",
+        Source(Kind.DEFAULT, "a dwelling unless set"),
+        "What the premises are for `leakbudget review`: dwelling (default) or other (a shop, an office, a commercial "
+        "kitchen: NEC 210.8(B) instead of 210.8(A); no dwelling-only rules).",
     ),
     SettingSpec(
         "Meter accuracy",

@@ -249,6 +249,55 @@ def test_room_unclassified_is_reported_and_a_locations_row_cures_it(plan):
     assert found(plan(circuits, loads, locations=[["snug", "dry"]]), "room-unclassified") == []
 
 
+# --------------------------------------------------------------------------------------------- occupancy
+
+
+def test_occupancy_other_uses_nec_210_8_B_and_drops_the_dwelling_only_rules(plan):
+    # NEC 2023 210.8(B) (other than dwelling units, list from memory): a shop's bathroom receptacles need GFCI, as
+    # in a dwelling, but 210.8(F) (outdoor outlets of dwellings) and BS 7671 reg. 411.3.4 (domestic premises) do not
+    # apply.
+    circuits = [
+        circuit("B1", "none", "Staff washroom"),
+        circuit("HP", "none", "Back yard", system="split", rating=30),
+        circuit("D1", "none", "Stockroom"),
+    ]
+    loads = [
+        load("Hand dryer", "B1", "hair-dryer"),
+        load("Heat pump", "HP", "heat-pump-inverter"),
+        load("Dishwasher", "D1", "dishwasher"),
+    ]
+    shop = plan(circuits, loads, settings=[["Occupancy", "other"]])
+    hit, outdoors = found(shop, "location", "nec-2023")  # the washroom (plug: error), the yard (fixed: a note)
+    assert (hit.severity, outdoors.severity) == (Severity.ERROR, Severity.INFO)
+    assert hit.circuit == "B1" and str(hit.source).startswith("NEC 2023 210.8(B)") and "210.8(B)" in hit.message
+    assert hit.source.kind is Kind.FROM_MEMORY
+    assert found(shop, "outdoor-outlet", "nec-2023") == []
+    assert found(shop, "appliance-outlet", "nec-2020") == []  # NEC 2020 210.8(D): dwelling-unit dishwashers only
+    assert [f.load for f in found(shop, "appliance-outlet", "nec-2023")] == ["Dishwasher"]
+    assert found(shop, "room-unclassified", "nec-2023") == []  # stockroom and washroom are in the room table
+    home = plan(circuits, loads)  # the default: a dwelling
+    assert str(found(home, "location", "nec-2023")[0].source) == "NEC 2023 210.8(A)"
+    assert len(found(home, "outdoor-outlet", "nec-2023")) == 1
+    lights = [circuit("L1", "none", "Shop floor", us=False, rating=6, purpose="lighting")]
+    lamps = [load("Downlights", "L1", None, "0.5 mA")]
+    assert found(plan(lights, lamps, settings=[["Occupancy", "other"]]), "lighting", "bs-7671") == []
+    assert len(found(plan(lights, lamps), "lighting", "bs-7671")) == 1
+
+
+def test_occupancy_setting_takes_dwelling_or_other(plan):
+    with pytest.raises(WorkbookError, match="'hotel' is not one of dwelling, other"):
+        plan(
+            [circuit("B1", "none", "Main bath")], [load("Fan", "B1", None, "0.2 mA")], settings=[["Occupancy", "hotel"]]
+        )
+
+
+@pytest.mark.parametrize(
+    "room", ["Print room", "Comms room", "Meeting room", "Shop floor", "Store room", "Office", "Commercial kitchen"]
+)
+def test_rooms_of_other_occupancies_are_classified(room):
+    assert classify_room(room).classified
+
+
 # --------------------------------------------------------------------------------------------- appliance outlets
 
 

@@ -1,8 +1,8 @@
 """The wiring codes the review checks against, as data: where each requires ground-fault protection for people,
 which appliance outlets it names, and which devices provide that protection.
 
-The requirements are paraphrased for design review and cover dwellings only; the code in force, as adopted
-locally, always decides. Every rule carries its source; clauses not confirmed here say "from memory".
+The requirements are paraphrased for design review, for dwellings and (NEC 210.8(B), with the Occupancy setting)
+other premises; the code in force, as adopted locally, always decides. Every rule carries its source; clauses not confirmed here say "from memory".
 """
 
 from __future__ import annotations
@@ -53,6 +53,9 @@ class Code:
     appliance_source: Source | None = None
     appliance_outlet_sources: dict[str, Source] = field(default_factory=dict)  # a key's own clause, if not the above
     outdoor_source: Source | None = None  # NEC 210.8(F): outdoor outlets of dwellings, hard-wired ones included
+    other_location_source: Source | None = None  # NEC 210.8(B): other than dwelling units
+    other_locations: dict[str, LocationRule] = field(default_factory=dict)
+    dwelling_only_outlets: tuple[str, ...] = ()  # appliance keys whose outlet rule covers dwelling units only
     ev_source: Source | None = None
     socket_source: Source | None = None  # IEC / BS: socket-outlets need additional protection wherever they are
     lighting_source: Source | None = None  # BS 7671 411.3.4: circuits supplying luminaires in domestic premises
@@ -75,6 +78,13 @@ class Code:
             f"fit an RCD to IEC 61008-1 / IEC 61009-1 of IΔn {ADDITIONAL_PROTECTION_MAX_MA:g} mA or less "
             f"(rcd-30 or rcd-10)"
         )
+
+    def location_rules(self, occupancy: str) -> tuple[Source, dict[str, LocationRule]]:
+        """The location clause and its rules for ``occupancy`` ("dwelling" or "other"); a code without rules of its
+        own for other occupancies keeps its dwelling rules."""
+        if occupancy == "other" and self.other_location_source is not None:
+            return self.other_location_source, self.other_locations
+        return self.location_source, self.locations
 
     def satisfied_by(self, device: Device) -> bool:
         """Whether ``device`` is the kind of protection this code's location and outlet rules require."""
@@ -110,6 +120,28 @@ def _nec(
         wet,
     )
     locations["kitchen"] = LocationRule(kitchen, where)
+    # 210.8(B), other than dwelling units: receptacles up to 250 V on single-phase circuits up to 150 V to ground
+    # and 50 A in bathrooms, kitchens and food-preparation areas with a sink, rooftops, outdoors, within 1.8 m of a
+    # sink, indoor damp or wet locations, locker rooms with showers, garages and service bays, crawl spaces,
+    # unfinished basements, laundry areas, near bathtubs and showers (from memory for the list).
+    other_where = Source.from_memory(f"NEC {year} 210.8(B) (other than dwelling units), list from memory")
+    other_wet = LocationRule(Scope.RECEPTACLES, other_where)
+    other_locations = dict.fromkeys(
+        (
+            "bathroom",
+            "half-bath",
+            "kitchen",
+            "sink-area",
+            "outdoor",
+            "damp",
+            "garage",
+            "accessory-building",
+            "crawl-space",
+            "basement",
+            "laundry",
+        ),
+        other_wet,
+    )
     return Code(
         key=f"nec-{year}",
         label=f"NEC {year} (NFPA 70), dwelling units",
@@ -120,6 +152,9 @@ def _nec(
         appliance_source=appliance_source,
         appliance_outlet_sources=appliance_outlet_sources,
         outdoor_source=outdoor_source,
+        other_location_source=other_where,
+        other_locations=other_locations,
+        dwelling_only_outlets=("dishwasher",) if year == 2020 else (),
         ev_source=Source.published(f"NEC {year} 625.54"),
     )
 

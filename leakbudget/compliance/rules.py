@@ -297,13 +297,20 @@ EVIDENCE_NOTE = {
 }
 
 
+def _occupancy(result: CheckResult) -> str:
+    """The Occupancy setting: "dwelling" (default) or "other"."""
+    return str(result.project.settings["Occupancy"] or "dwelling")
+
+
 def rule_location(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
-    """Rooms where the code requires protection for people (NEC 210.8(A); IEC 60364-7-701 / BS 7671 701)."""
+    """Rooms where the code requires protection for people (NEC 210.8(A), or 210.8(B) for other than dwelling units;
+    IEC 60364-7-701 / BS 7671 701)."""
+    _, locations = code.location_rules(_occupancy(result))
     for v in views:
         if v.satisfied(code):
             continue
         hits: list[tuple[str, str, LocationRule]] = [
-            (c.room, kind, code.locations[kind]) for c in v.rooms for kind in c.kinds if kind in code.locations
+            (c.room, kind, locations[kind]) for c in v.rooms for kind in c.kinds if kind in locations
         ]
         if not hits:
             continue
@@ -327,6 +334,7 @@ def rule_location(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
 
 def rule_room_unclassified(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
     """Rooms the room table could not classify, so their location rules went unchecked."""
+    location_source, _ = code.location_rules(_occupancy(result))
     for v in views:
         for c in v.rooms:
             if c.classified:
@@ -335,7 +343,7 @@ def rule_room_unclassified(views: list[_Circuit], code: Code, result: CheckResul
             yield Finding(
                 Severity.INFO if protected else Severity.WARNING,
                 "room-unclassified",
-                code.location_source,
+                location_source,
                 v.cid,
                 None,
                 f"Room '{c.room}' on {v.cid} is not in the room table, so the location rules were not checked for "
@@ -348,12 +356,13 @@ def rule_appliance_outlet(views: list[_Circuit], code: Code, result: CheckResult
     """Appliance outlets the code names (NEC 2023 210.8(D); NEC 2020 210.8(D) dishwashers)."""
     if code.appliance_source is None:
         return
+    dwelling = _occupancy(result) == "dwelling"
     for v in views:
         if v.satisfied(code):
             continue
         for r in v.loads:
             key = r.appliance.key if r.appliance is not None else None
-            if key in code.appliance_outlets:
+            if key in code.appliance_outlets and (dwelling or key not in code.dwelling_only_outlets):
                 source = code.appliance_outlet_sources.get(key, code.appliance_source)
                 yield Finding(
                     Severity.ERROR,
@@ -370,7 +379,7 @@ def rule_appliance_outlet(views: list[_Circuit], code: Code, result: CheckResult
 def rule_outdoor_outlet(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
     """Hard-wired outdoor equipment of a dwelling without GFCI protection (NEC 210.8(F): every outdoor outlet on a
     single-phase circuit up to 150 V to ground and 50 A, lighting outlets excepted)."""
-    if code.outdoor_source is None:
+    if code.outdoor_source is None or _occupancy(result) != "dwelling":
         return
     year = int(code.key.rsplit("-", 1)[1])
     for v in views:
@@ -465,7 +474,7 @@ def rule_socket_outlets(views: list[_Circuit], code: Code, result: CheckResult) 
 def rule_lighting(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
     """A lighting circuit of a dwelling (Purpose lighting, or a circuit with luminaires) without 30 mA RCD
     additional protection (BS 7671:2018 reg. 411.3.4)."""
-    if code.lighting_source is None:
+    if code.lighting_source is None or _occupancy(result) != "dwelling":
         return
     for v in views:
         if v.satisfied(code):
