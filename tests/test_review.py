@@ -494,7 +494,7 @@ def test_lighting_bs_7671_411_3_4_not_raised_with_an_rcd_or_under_other_codes(pl
         ("AC", "pulsating-dc", Severity.ERROR),
         ("A", "pulsating-dc", None),
         ("AC", "high-frequency", Severity.ERROR),
-        ("A", "high-frequency", Severity.WARNING),
+        ("A", "high-frequency", Severity.INFO),  # 1 mA of a switch-mode load, within the 9 mA budget: a note
         ("F", "high-frequency", None),
         ("F", "smooth-dc", Severity.WARNING),
         ("B", "smooth-dc", None),
@@ -540,6 +540,28 @@ def test_waveform_unknown_device_type_is_info(plan):
 def test_waveform_column_rejects_unknown_values(plan):
     with pytest.raises(WorkbookError, match=r"sheet 'Loads', row 2, column 'Waveform', cell H2: 'square' is not one"):
         plan([circuit("C1", "rcd-30", "Office", us=False)], [load("X", "C1", "kettle", waveform="square")])
+
+
+def test_waveform_one_finding_per_circuit_and_waveform_in_words_that_match_the_physics(plan):
+    # IEC 60755 / IEC 62423: a Type AC device sees sine only; high-frequency leakage is under- or over-read, smooth
+    # DC blinds; several loads of one waveform on one circuit give one finding naming them all.
+    drives = [load(f"Drive {i}", "C1", None, "1 mA", waveform="high-frequency") for i in (1, 2, 3)]
+    charger = [load("Charger", "C1", None, "2 mA", waveform="smooth-dc")]
+    p = plan([circuit("C1", "rcd-30", "Office", us=False, rcd_type="AC")], drives + charger)
+    hf, dc, blinding = found(p, "waveform")  # the third: the circuit's smooth DC beyond what Type AC operates with
+    assert blinding.load is None and "smooth DC" in blinding.message
+    assert (hf.load, dc.load) == (None, "Charger") and hf.severity is dc.severity is Severity.ERROR
+    assert "high-frequency leakage (3.00 mA) of Drive 1 (Waveform column), Drive 2" in hf.message
+    assert "under-reads or over-reads" in hf.message and "blinded" not in hf.message
+    assert "blinded by smooth DC" in dc.message
+    # Type A: high-frequency switch-mode leakage within the budget (9 mA) is a note, above it a warning
+    small = plan([circuit("C1", "rcd-30", "Office", us=False, rcd_type="A")], drives)
+    assert [(f.severity, f.source.kind) for f in found(small, "waveform")] == [(Severity.INFO, Kind.DEFAULT)]
+    big = plan(
+        [circuit("C1", "rcd-30", "Office", us=False, rcd_type="A", rating=32)],
+        [load("Drives", "C1", None, "10 mA", waveform="high-frequency")],
+    )
+    assert [f.severity for f in found(big, "waveform")] == [Severity.WARNING]
 
 
 # --------------------------------------------------------------------------------------------- fault sign

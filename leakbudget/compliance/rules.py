@@ -513,27 +513,55 @@ def _types_seeing(wave: str) -> str:
     return "Type " + (" or ".join(types) if len(types) < 3 else ", ".join(types[:-1]) + " or " + types[-1])
 
 
+# What a device type that cannot see a waveform does with it, in words that match the physics: high-frequency
+# leakage is under-read or over-read (a device's sensitivity changes with frequency); pulsating DC is not seen by
+# Type AC; smooth DC saturates (blinds) the core of a Type AC, A or F device.
+WAVEFORM_EFFECT = {
+    "pulsating-dc": "may not see pulsating DC residual current, so it may not trip on a fault with such a current",
+    "high-frequency": (
+        "under-reads or over-reads high-frequency leakage (its sensitivity changes with frequency), so it may trip "
+        "late on a fault or trip without one"
+    ),
+    "smooth-dc": "can be blinded by smooth DC leakage (its core saturates), so it may not trip on a fault",
+}
+# A modelling choice: high-frequency leakage of switch-mode loads on a Type A device is only a note while it is
+# small, i.e. within the circuit's budget; above it, a warning.
+SMALL_HF_SOURCE = Source(
+    Kind.DEFAULT,
+    "modelling choice: high-frequency leakage within the circuit's budget on a Type A device is a note; "
+    "IEC 60755 / IEC 62423 (RCD types)",
+)
+
+
 def rule_waveform(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
-    """Loads whose leakage waveform the RCD type cannot see (IEC 60755 / IEC 62423; IEC 62955 DC detection)."""
+    """Leakage whose waveform the RCD type cannot see, one finding per circuit and waveform (IEC 60755 / IEC 62423;
+    IEC 62955 DC detection)."""
     for v in views:
         if not v.circuit.device.protected:
             continue
         rcd_type = v.circuit.rcd_type
+        groups: dict[str, list[tuple[LoadResult, str]]] = {}
         for r in v.loads:
             wave, origin = effective_waveform(r)
             if wave == "sine" or (rcd_type is not None and WAVEFORM_ORDER.index(wave) < RCD_TYPE_DETECTS[rcd_type]):
                 continue
+            groups.setdefault(wave, []).append((r, origin))
+        for wave in (w for w in WAVEFORM_ORDER if w in groups):
+            members = groups[wave]
+            total_ma = sum(r.leakage_ma for r, _ in members)
+            named = ", ".join(f"{r.name} ({origin})" for r, origin in members[:4]) + (", …" if len(members) > 4 else "")
+            one = members[0][0].name if len(members) == 1 else None
             source = SMOOTH_DC_SOURCE if wave == "smooth-dc" else code.waveform_source
+            leak = f"{wave} leakage ({_ma(total_ma)}) of {named}"
             if rcd_type is None:
                 yield Finding(
                     Severity.INFO,
                     "waveform",
                     source,
                     v.cid,
-                    r.name,
-                    f"The leakage of {r.name} is {wave} ({origin}) and the device type (AC, A, F or B) of "
-                    f"{v.cid} is not given; {_types_seeing(wave)} sees it: check the device's datasheet "
-                    f"and give its type in the RCD type column.",
+                    one,
+                    f"{v.cid} carries {leak}, and its device type (AC, A, F or B) is not given; {_types_seeing(wave)} "
+                    f"sees it: check the device's datasheet and give its type in the RCD type column.",
                 )
                 continue
             cure = f"fit a {_types_seeing(wave)} device of the same IΔn"
@@ -543,14 +571,20 @@ def rule_waveform(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
                     "built in: check the datasheet); a Type A still trips with up to 6 mA smooth DC, a Type F "
                     "up to 10 mA"
                 )
+            severity = Severity.ERROR if rcd_type == "AC" else Severity.WARNING
+            if wave == "high-frequency" and rcd_type == "A" and total_ma <= v.result.budget_ma:
+                severity, source = Severity.INFO, SMALL_HF_SOURCE
+                cure = (
+                    "small switch-mode loads like these are usual on a Type A device; measure the circuit's "
+                    f"leakage, and if it trips without a fault, {cure}"
+                )
             yield Finding(
-                Severity.ERROR if rcd_type == "AC" else Severity.WARNING,
+                severity,
                 "waveform",
                 source,
                 v.cid,
-                r.name,
-                f"The leakage of {r.name} is {wave} ({origin}) and {v.cid} has a Type {rcd_type} device, "
-                f"which cannot reliably see it and can be blinded by it: {cure}.",
+                one,
+                f"{v.cid} carries {leak}, and its Type {rcd_type} device {WAVEFORM_EFFECT[wave]}: {cure}.",
             )
         if v.result.dc_blinded and rcd_type is not None:
             limit, limit_source = smooth_dc_limit(rcd_type)
