@@ -249,6 +249,41 @@ def test_room_unclassified_is_reported_and_a_locations_row_cures_it(plan):
     assert found(plan(circuits, loads, locations=[["snug", "dry"]]), "room-unclassified") == []
 
 
+# --------------------------------------------------------------------------------------------- pools and spas
+
+
+def test_pool_spa_nec_680_pump_hot_tub_and_hydromassage_tub_need_gfci(plan):
+    # NEC 2023 680.21(C) pool pump motors (up to 150 V to ground, 60 A), 680.44 spas and hot tubs, 680.71
+    # hydromassage bathtubs; clauses from memory.
+    p = plan(
+        [
+            circuit("PP", "none", "Pool house", system="split", rating=30),
+            circuit("HT", "none", "Deck", system="split", rating=50),
+            circuit("WT", "none", "Main bath"),
+        ],
+        [
+            load("Pool pump", "PP", "pool-pump"),
+            load("Spa", "HT", "hot-tub"),
+            load("Jets", "WT", "whirlpool-tub-pump"),
+        ],
+    )
+    hits = found(p, "pool-spa", "nec-2023")
+    assert [(h.load, str(h.source).split(" (")[0]) for h in hits] == [
+        ("Pool pump", "NEC 2023 680.21(C)"),
+        ("Spa", "NEC 2023 680.44"),
+        ("Jets", "NEC 2023 680.71"),
+    ]
+    assert all(h.severity is Severity.ERROR and h.source.kind is Kind.FROM_MEMORY for h in hits)
+    assert found(p, "pool-spa", "bs-7671") == []
+
+
+def test_pool_spa_nec_680_not_raised_with_a_gfci_or_above_60_a(plan):
+    ok = plan([circuit("PP", "gfci-a", "Pool house", system="split", rating=30)], [load("Pump", "PP", "pool-pump")])
+    assert found(ok, "pool-spa") == []
+    big = plan([circuit("PP", "none", "Pool house", system="split", rating=70)], [load("Pump", "PP", "pool-pump")])
+    assert found(big, "pool-spa") == []  # 680.21(C) covers circuits up to 60 A
+
+
 # --------------------------------------------------------------------------------------------- occupancy
 
 
@@ -806,6 +841,7 @@ def everything(plan):
             load("Cord set", "D1", "ev-charger-level-1"),
             load("Dryer", "T1", "dryer", bond="yes"),
             load("Heat pump", "HP", "heat-pump-inverter"),
+            load("Pool pump", "HP", "pool-pump"),
         ],
     )
     iec = plan(

@@ -54,6 +54,7 @@ class Code:
     appliance_outlet_sources: dict[str, Source] = field(default_factory=dict)  # a key's own clause, if not the above
     outdoor_source: Source | None = None  # NEC 210.8(F): outdoor outlets of dwellings, hard-wired ones included
     other_location_source: Source | None = None  # NEC 210.8(B): other than dwelling units
+    pool_spa: dict[str, tuple[str, Source]] = field(default_factory=dict)  # NEC 680: appliance key → (what, clause)
     other_locations: dict[str, LocationRule] = field(default_factory=dict)
     dwelling_only_outlets: tuple[str, ...] = ()  # appliance keys whose outlet rule covers dwelling units only
     ev_source: Source | None = None
@@ -153,10 +154,36 @@ def _nec(
         appliance_outlet_sources=appliance_outlet_sources,
         outdoor_source=outdoor_source,
         other_location_source=other_where,
+        pool_spa=_nec_680(year),
         other_locations=other_locations,
         dwelling_only_outlets=("dishwasher",) if year == 2020 else (),
         ev_source=Source.published(f"NEC {year} 625.54"),
     )
+
+
+# NEC 680 (pools, spas, hot tubs, hydromassage bathtubs), clauses from memory: 680.21(C) GFCI for outlets supplying
+# pool pump motors on circuits up to 150 V to ground and 60 A; 680.44 the outlets of a spa or hot tub; 680.71 a
+# hydromassage bathtub and its components on an individual branch circuit with a readily accessible GFCI.
+POOL_PUMP_MAX_V_TO_GROUND = 150.0
+POOL_PUMP_MAX_A = 60.0
+POOL_PUMP_KEYS = ("pool-pump", "pool-pump-vfd")
+
+
+def _nec_680(year: int) -> dict[str, tuple[str, Source]]:
+    pump = Source.from_memory(
+        f"NEC {year} 680.21(C) (outlets supplying pool pump motors, up to 150 V to ground and 60 A), from memory"
+    )
+    spa = Source.from_memory(f"NEC {year} 680.44 (outlets supplying a spa or hot tub), from memory")
+    tub = Source.from_memory(
+        f"NEC {year} 680.71 (hydromassage bathtubs: an individual branch circuit and a readily accessible GFCI), "
+        "from memory"
+    )
+    return {
+        "pool-pump": ("pool pump motors", pump),
+        "pool-pump-vfd": ("pool pump motors", pump),
+        "hot-tub": ("spas and hot tubs", spa),
+        "whirlpool-tub-pump": ("hydromassage bathtubs", tub),
+    }
 
 
 def _iec(key: str, label: str, *, bath: str, ev: str, sockets: Source, **extra: Any) -> Code:

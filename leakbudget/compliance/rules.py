@@ -5,7 +5,7 @@ Each :class:`Finding` has a severity (error / warning / info), the rule it comes
 is wrong and what to do. The advice is always to split, measure, repair, relocate or fit the kind of device the
 code asks for; never to remove protection or raise its rated residual current.
 
-Rules (ids in :data:`RULES`): location, appliance-outlet, outdoor-outlet, ev-charging, socket-outlets,
+Rules (ids in :data:`RULES`): location, appliance-outlet, outdoor-outlet, pool-spa, ev-charging, socket-outlets,
 lighting, room-unclassified, waveform, fault-sign, high-leakage, shared-neutral, neutral-earth, long-run,
 switch-on, budget, and the protection tree's. The codes' requirements are data in
 :mod:`leakbudget.compliance.codes`; room names are classified by :mod:`leakbudget.locations`.
@@ -27,6 +27,9 @@ from leakbudget.compliance.codes import (
     HVAC_KEYS,
     OUTDOOR_MAX_A,
     OUTDOOR_MAX_V_TO_GROUND,
+    POOL_PUMP_KEYS,
+    POOL_PUMP_MAX_A,
+    POOL_PUMP_MAX_V_TO_GROUND,
     SOCKET_OUTLET_MAX_A,
     Code,
     LocationRule,
@@ -417,6 +420,35 @@ def rule_outdoor_outlet(views: list[_Circuit], code: Code, result: CheckResult) 
             f"on a single-phase circuit up to {OUTDOOR_MAX_V_TO_GROUND:g} V to ground and {OUTDOOR_MAX_A:g} A, "
             f"hard-wired equipment included{note}; {_missing(v)}: {code.remedy}.",
         )
+
+
+def rule_pool_spa(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """Pool pumps, spas and hot tubs, hydromassage bathtubs without a Class A GFCI (NEC 680.21(C), 680.44,
+    680.71)."""
+    if not code.pool_spa:
+        return
+    for v in views:
+        c = v.circuit
+        if v.satisfied(code):
+            continue
+        for r in v.loads:
+            key = r.appliance.key if r.appliance is not None else None
+            if key not in code.pool_spa:
+                continue
+            if key in POOL_PUMP_KEYS and (
+                c.voltage_v > POOL_PUMP_MAX_V_TO_GROUND or (c.rating_a is not None and c.rating_a > POOL_PUMP_MAX_A)
+            ):
+                continue
+            what, source = code.pool_spa[key]
+            yield Finding(
+                Severity.ERROR,
+                "pool-spa",
+                source,
+                v.cid,
+                r.name,
+                f"{r.name} ({key}) is on {v.cid}: {_clause(source)} requires {code.requirement} for {what}, "
+                f"hard-wired or not; {_missing(v)}: {code.remedy}.",
+            )
 
 
 def rule_ev_charging(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
@@ -1020,6 +1052,7 @@ RULES: dict[str, RuleFunc] = {
     "location": rule_location,
     "appliance-outlet": rule_appliance_outlet,
     "outdoor-outlet": rule_outdoor_outlet,
+    "pool-spa": rule_pool_spa,
     "ev-charging": rule_ev_charging,
     "socket-outlets": rule_socket_outlets,
     "lighting": rule_lighting,
