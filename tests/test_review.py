@@ -519,6 +519,24 @@ def test_lighting_bs_7671_411_3_4_not_raised_with_an_rcd_or_under_other_codes(pl
     assert found(sockets, "lighting", "bs-7671") == []
 
 
+# --------------------------------------------------------------------------------------------- Type AC
+
+
+def test_type_ac_bs_7671_a2_531_3_3_only_for_fixed_equipment(plan):
+    # BS 7671:2018+A2:2022 reg. 531.3.3 (from memory): Type AC only for fixed equipment known to have no DC
+    # component; in front of socket-outlets (a plug-connected kettle) it is an error, of unknown loads a warning.
+    def hits(rcd_type, loads, code="bs-7671"):
+        return found(plan([circuit("C1", "rcd-30", "Lounge", us=False, rcd_type=rcd_type)], loads), "type-ac", code)
+
+    (hit,) = hits("AC", [load("Kettle", "C1", "kettle")])
+    assert hit.severity is Severity.ERROR and str(hit.source).startswith("BS 7671:2018+A2:2022 reg. 531.3.3")
+    assert hit.source.kind is Kind.FROM_MEMORY and "fit a Type A" in hit.message
+    assert [h.severity for h in hits("AC", [load("Thing", "C1", None, "0.2 mA")])] == [Severity.WARNING]
+    assert hits("AC", [load("Heater", "C1", "storage-water-heater")]) == []  # fixed equipment
+    assert hits("A", [load("Kettle", "C1", "kettle")]) == []
+    assert hits("AC", [load("Kettle", "C1", "kettle")], "iec-60364") == []
+
+
 # --------------------------------------------------------------------------------------------- waveform
 
 

@@ -54,6 +54,7 @@ class Code:
     appliance_outlet_sources: dict[str, Source] = field(default_factory=dict)  # a key's own clause, if not the above
     outdoor_source: Source | None = None  # NEC 210.8(F): outdoor outlets of dwellings, hard-wired ones included
     other_location_source: Source | None = None  # NEC 210.8(B): other than dwelling units
+    type_ac_source: Source | None = None  # BS 7671:2018+A2:2022 reg. 531.3.3: Type AC for fixed equipment only
     pool_spa: dict[str, tuple[str, Source]] = field(default_factory=dict)  # NEC 680: appliance key → (what, clause)
     other_locations: dict[str, LocationRule] = field(default_factory=dict)
     dwelling_only_outlets: tuple[str, ...] = ()  # appliance keys whose outlet rule covers dwelling units only
@@ -282,6 +283,10 @@ CODES: dict[str, Code] = {
             "protection by an RCD of IΔn 30 mA or less)"
         ),
         waveform_source=Source.published("BS 7671:2018 reg. 531.3.3; IEC 62423 (RCD types AC, A, F, B)"),
+        type_ac_source=Source.from_memory(
+            "BS 7671:2018+A2:2022 reg. 531.3.3 (Type AC only for fixed equipment known to have no DC component), "
+            "from memory"
+        ),
         budget_is_regulation=True,
     ),
 }

@@ -6,7 +6,7 @@ is wrong and what to do. The advice is always to split, measure, repair, relocat
 code asks for; never to remove protection or raise its rated residual current.
 
 Rules (ids in :data:`RULES`): location, appliance-outlet, outdoor-outlet, pool-spa, ev-charging, socket-outlets,
-lighting, room-unclassified, waveform, fault-sign, high-leakage, shared-neutral, neutral-earth, long-run,
+lighting, type-ac, room-unclassified, waveform, fault-sign, high-leakage, shared-neutral, neutral-earth, long-run,
 switch-on, budget, and the protection tree's. The codes' requirements are data in
 :mod:`leakbudget.compliance.codes`; room names are classified by :mod:`leakbudget.locations`.
 """
@@ -500,6 +500,35 @@ def rule_socket_outlets(views: list[_Circuit], code: Code, result: CheckResult) 
             None,
             f"{v.cid} feeds {what} through socket-outlets up to {SOCKET_OUTLET_MAX_A:g} A: "
             f"{_clause(code.socket_source)} requires {code.requirement}; {_missing(v)}: {code.remedy}.",
+        )
+
+
+def rule_type_ac(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
+    """A Type AC RCD in front of socket-outlets or loads not known to be fixed equipment (BS 7671:2018+A2:2022
+    reg. 531.3.3: Type AC only for fixed equipment known to have no DC component)."""
+    if code.type_ac_source is None:
+        return
+    for v in views:
+        c = v.circuit
+        if c.device.protected:
+            name, rcd_type = f"its {c.device.key}", c.rcd_type
+        elif v.above:
+            name, rcd_type = v.above[0].device_id, v.above[0].rcd_type
+        else:
+            continue
+        evidence = v.outlets()
+        if rcd_type != "AC" or evidence == "fixed":
+            continue
+        what = "plug-connected loads" if evidence == "plug" else "loads not known to be fixed equipment"
+        yield Finding(
+            Severity.ERROR if evidence == "plug" else Severity.WARNING,
+            "type-ac",
+            code.type_ac_source,
+            v.cid,
+            None,
+            f"{v.cid} feeds {what} through {name}, a Type AC RCD: {_clause(code.type_ac_source)} allows Type AC "
+            "only for fixed equipment known to have no DC component in its residual current; fit a Type A (or F "
+            "or B, as the loads need) device of the same IΔn.",
         )
 
 
@@ -1056,6 +1085,7 @@ RULES: dict[str, RuleFunc] = {
     "ev-charging": rule_ev_charging,
     "socket-outlets": rule_socket_outlets,
     "lighting": rule_lighting,
+    "type-ac": rule_type_ac,
     "room-unclassified": rule_room_unclassified,
     "waveform": rule_waveform,
     "fault-sign": rule_fault_sign,
