@@ -122,6 +122,8 @@ LOADS = [
 
 # The garage refrigerator is the same model as the kitchen one: the kitchen unit's reading stands for it.
 MODELS = {"Refrigerator": "FR-240", "Garage refrigerator": "FR-240"}
+# The range and the dryer are connected four-wire, their bonding straps out (checked on site).
+BONDS = {"Range elements": "no", "Dryer": "no"}
 
 READINGS = [
     ["Circuit", "Reading", "Conditions", "Date", "Calibrate", "Note"],
@@ -133,8 +135,10 @@ READINGS = [
 
 
 def with_models(rows: list[list[object]]) -> list[list[object]]:
-    """The Loads rows with a Model column added."""
-    return [rows[0] + ["Model"]] + [row + [MODELS.get(str(row[0]))] for row in rows[1:]]
+    """The Loads rows with the Model and Neutral-earth bond columns added."""
+    return [rows[0] + ["Model", "Neutral-earth bond"]] + [
+        row + [MODELS.get(str(row[0])), BONDS.get(str(row[0]))] for row in rows[1:]
+    ]
 
 
 SETTINGS = [

@@ -53,6 +53,7 @@ class Appliance:
     rated_voltage_v: float | None = None  # the voltage typical_power_w is rated at (None: the reference voltage)
     leakage_per: str = "line"  # a line-line row's figures: "line" (each line to earth) or "total" (both lines)
     line_neutral_ma: float = 0.0  # typical leakage of a line-line row's line-to-neutral parts, on L1 [mA]
+    often_bonded: bool = False  # often supplied with neutral bonded to frame (a strap for three-wire connection)
 
     @property
     def line_to_line(self) -> bool:
@@ -141,6 +142,7 @@ def appliances_from_table(table: RawTable, origin_prefix: str | None = None) -> 
                 nature=table.choice(row, "Nature", NATURES, "capacitive") or "capacitive",
                 waveform=table.choice(row, "Waveform", WAVEFORMS, "sine") or "sine",
                 heating=bool(table.flag(row, "Heating")),
+                often_bonded=bool(table.flag(row, "Often bonded")),
                 typical_ma=typical,
                 upper_ma=upper,
                 reference_voltage_v=table.number(row, "Reference voltage", "V", positive=True, plausible=VOLTAGE_V)

@@ -57,7 +57,9 @@ class Load:
     waveform: str | None = None  # the Waveform column; None = the catalogue's (or sine)
     model: str | None = None  # model reference; a Leakage reading on one unit stands for units of the same model
     protected_by: str | None = None  # Id of a device inside its circuit that protects it (Protection sheet)
-    neutral_earth_bond: bool = False  # its neutral tied to earth (a bonding strap left in, a bonded generator)
+    neutral_earth_bond: bool | None = (
+        None  # its neutral tied to earth (a strap left in, a bonded generator); None=blank
+    )
     connection: str | None = None  # the Connection column, "plug" or "fixed" (hard-wired); None = the catalogue's
 
 

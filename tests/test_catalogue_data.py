@@ -26,6 +26,7 @@ APPLIANCE_HEADER = [
     "Key", "Description", "Category", "Class", "Connection", "Nature", "Waveform", "Heating",
     "Typical leakage", "Upper leakage", "Reference voltage", "Reference frequency", "Typical power",
     "Wiring", "Rated voltage", "Leakage per", "Line-neutral leakage", "Typical source", "Upper source",
+    "Often bonded",
 ]  # fmt: skip
 CABLE_HEADER = ["Key", "Description", "Capacitance", "Source"]
 
@@ -36,6 +37,7 @@ ENUMERATIONS = {
     "Nature": {"capacitive", "resistive", "mixed"},
     "Waveform": {"sine", "pulsating-dc", "high-frequency", "smooth-dc"},
     "Heating": {"yes", "no"},
+    "Often bonded": {"yes", "no"},
     "Wiring": {"", "line-neutral", "line-line"},
     "Leakage per": {"", "line", "total"},
 }

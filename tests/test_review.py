@@ -718,7 +718,8 @@ def test_neutral_earth_bond_of_a_three_wire_dryer_under_a_gfci_ul_943(plan):
     assert hit.severity is Severity.ERROR and hit.load == "Dryer" and hit.source.kind is Kind.PUBLISHED
     assert "UL 943" in str(hit.source) and "four-wire" in hit.message and "bonding strap out" in hit.message
     # no bond, or no device to sense it: no finding
-    assert found(plan([circuit("D1", "gfci-a", "Laundry")], [load("Dryer", "D1", "dryer")]), "neutral-earth") == []
+    no_bond = plan([circuit("D1", "gfci-a", "Laundry")], [load("Dryer", "D1", "dryer", bond="no")])
+    assert found(no_bond, "neutral-earth") == []
     unprotected = plan([circuit("D1", "none", "Laundry")], [load("Dryer", "D1", "dryer", bond="yes")])
     assert found(unprotected, "neutral-earth") == []
 
@@ -771,6 +772,17 @@ def test_neutral_earth_bond_under_a_shared_or_an_inside_device(make_workbook):
     assert [(f.circuit, f.load) for f in hits] == [("K1", "Generator"), ("K2", "Inverter")]  # Welder is above GR1
     assert "RCD1" in hits[0].message and "switches the neutral" in hits[0].message
     assert "GR1" in hits[1].message and "UL 943" in str(hits[1].source)
+
+
+def test_neutral_earth_often_bonded_catalogue_rows_ask_for_the_column(plan):
+    # common practice: ranges and dryers often come with a bonding strap; with the column blank the review asks,
+    # with yes it is the UL 943 error, with no it says nothing.
+    circuits = [circuit("D1", "gfci-a", "Laundry", system="split")]
+    (note,) = found(plan(circuits, [load("Dryer", "D1", "dryer")]), "neutral-earth")
+    assert note.severity is Severity.INFO and note.source.kind is Kind.COMMON_PRACTICE
+    assert "bonding strap is out" in note.message and "Neutral-earth bond column" in note.message
+    assert found(plan(circuits, [load("Dryer", "D1", "dryer", bond="no")]), "neutral-earth") == []
+    assert found(plan(circuits, [load("Kettle", "D1", "kettle")]), "neutral-earth") == []  # not often bonded
 
 
 def test_neutral_earth_bond_column_takes_yes_or_no(plan):

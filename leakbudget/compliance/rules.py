@@ -98,8 +98,10 @@ NEUTRAL_EARTH_SOURCE = Source.common_practice(
     "a load-side neutral-to-earth connection returns part of the neutral current through earth, which the device "
     "sees as residual current, and most devices also sense the connection itself (common practice)"
 )
-# Catalogue rows of appliances that may be connected three-wire with a neutral-to-frame bonding strap.
-BONDING_STRAP_KEYS = ("dryer", "range-electric")
+# Catalogue rows marked Often bonded (ranges, dryers) may be connected three-wire with a neutral-to-frame strap.
+BONDING_STRAP_SOURCE = Source.common_practice(
+    "ranges and dryers often come with a neutral-to-frame bonding strap for a three-wire connection (common practice)"
+)
 SMOOTH_DC_SOURCE = Source.published("IEC 62423 (Type B); IEC 62955 (6 mA DC detection for EV charging)")
 
 # What each RCD type detects (IEC 60755 / IEC 62423): AC sine only; A adds pulsating DC; F adds the composite
@@ -761,7 +763,8 @@ def _neutral_earth_source(device: Device) -> Source:
 
 def rule_neutral_earth(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
     """A neutral tied to earth on the load side of a GFCI/RCD (the Neutral-earth bond column): the device trips at
-    once or at random, whatever the leakage budget says (UL 943 Class A grounded-neutral detection)."""
+    once or at random, whatever the leakage budget says (UL 943 Class A grounded-neutral detection); a note for an
+    Often bonded catalogue row (a range, a dryer) whose column is blank."""
     for v in views:
         c = v.circuit
         board = [(f"{v.cid}'s {c.device.key}", c.device)] + [(d.device_id, d.device) for d in v.above]
@@ -783,7 +786,7 @@ def rule_neutral_earth(views: list[_Circuit], code: Code, result: CheckResult) -
                     "a generator or inverter with a bonded neutral, use a transfer switch that switches the neutral.",
                 )
         for r in v.loads:
-            if r.load is None or not r.load.neutral_earth_bond:
+            if r.load is None:
                 continue
             own = [(d.device_id, d.device) for d in v.inside if d.device_id == r.load.protected_by]
             hit = _sensing(own + board)
@@ -791,7 +794,21 @@ def rule_neutral_earth(views: list[_Circuit], code: Code, result: CheckResult) -
                 continue
             name, dev = hit
             key = r.appliance.key if r.appliance is not None else None
-            if key in BONDING_STRAP_KEYS:
+            if r.load.neutral_earth_bond is None and r.appliance is not None and r.appliance.often_bonded:
+                yield Finding(
+                    Severity.INFO,
+                    "neutral-earth",
+                    BONDING_STRAP_SOURCE,
+                    v.cid,
+                    r.name,
+                    f"{r.name} ({key}) often comes with its neutral bonded to its frame for a three-wire "
+                    f"connection, which makes {name} ({dev.label}) trip: check that the bonding strap is out and it "
+                    "is connected four-wire, and say yes or no in the Loads sheet's Neutral-earth bond column.",
+                )
+                continue
+            if not r.load.neutral_earth_bond:
+                continue
+            if r.appliance is not None and r.appliance.often_bonded:
                 cure = (
                     "take the bonding strap out of its terminal block and connect it four-wire (separate neutral "
                     "and equipment grounding conductors), as its instructions say"

@@ -264,6 +264,13 @@ APPLIANCES = Sheet(
         ),
         Column("Typical source", None, False, "Where the typical value comes from."),
         Column("Upper source", None, False, "Where the upper value comes from."),
+        Column(
+            "Often bonded",
+            None,
+            False,
+            "yes if the appliance often comes with its neutral bonded to its frame (a bonding strap for a "
+            "three-wire connection), so the review asks for the Loads sheet's Neutral-earth bond.",
+        ),
     ),
 )
 

@@ -568,7 +568,7 @@ def read_loads(
                 waveform=table.choice(row, "Waveform", cat.WAVEFORMS),
                 model=table.text(row, "Model"),
                 protected_by=_protected_by(table, row, shared, board_level=False) if shared else None,
-                neutral_earth_bond=bool(table.flag(row, "Neutral-earth bond")),
+                neutral_earth_bond=table.flag(row, "Neutral-earth bond"),
                 connection=_connection(table, row),
             )
         )
