@@ -385,6 +385,7 @@ def test_outdoor_outlet_nec_2023_210_8_F_hard_wired_heat_pump_and_pool_pump(plan
     assert hit.severity is Severity.ERROR and hit.source.kind is Kind.PUBLISHED
     assert str(hit.source).startswith("NEC 2023 210.8(F)") and "1 September 2026" in str(hit.source)
     assert "Heat pump, Pool pump" in hit.message and "ran out on 1 September 2026" in hit.message
+    assert found(p, "location", "nec-2023") == []  # no 210.8(A) receptacle note beside the 210.8(F) error
     # NEC 2020 210.8(F) (from memory)
     (old,) = found(p, "outdoor-outlet", "nec-2020")
     assert old.source.kind is Kind.FROM_MEMORY and "1 January 2023" in old.message

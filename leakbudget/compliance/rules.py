@@ -323,6 +323,12 @@ def rule_location(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
         scope = min((rule.scope for _, _, rule in hits), key=SCOPE_STRENGTH.index)
         rule = next(r for _, _, r in hits if r.scope is scope)
         severity = Severity.ERROR if scope is Scope.ALL_CIRCUITS else SCOPE_SEVERITY[(scope, evidence)]
+        if (
+            severity is Severity.INFO
+            and {kind for _, kind, _ in hits} == {"outdoor"}
+            and _outdoor_outlets(v, code, result)
+        ):
+            continue  # hard-wired outdoor equipment: the outdoor-outlet rule (NEC 210.8(F)) gives the finding
         rooms = ", ".join(dict.fromkeys(f"{room} ({kind})" for room, kind, _ in hits))
         covers = "every circuit serving it" if scope is Scope.ALL_CIRCUITS else f"{scope.value} there"
         note = "" if scope is Scope.ALL_CIRCUITS else EVIDENCE_NOTE[evidence]
@@ -381,6 +387,27 @@ def rule_appliance_outlet(views: list[_Circuit], code: Code, result: CheckResult
                 )
 
 
+def _outdoor_outlets(v: _Circuit, code: Code, result: CheckResult) -> list[LoadResult]:
+    """The loads of an unprotected circuit that NEC 210.8(F) covers: outdoor equipment that is not plug-connected
+    (receptacles outdoors are the location rule's), not a luminaire, on a single-phase circuit up to 150 V to
+    ground and 50 A; empty when the code has no such rule or the premises are not a dwelling."""
+    c = v.circuit
+    if code.outdoor_source is None or _occupancy(result) != "dwelling":
+        return []
+    if v.satisfied(code) or c.purpose == "lighting" or c.system == "three":
+        return []
+    if c.voltage_v > OUTDOOR_MAX_V_TO_GROUND or (c.rating_a is not None and c.rating_a > OUTDOOR_MAX_A):
+        return []
+    outdoor_room = any("outdoor" in room.kinds for room in v.rooms)
+    return [
+        r
+        for r in v.loads
+        if connection(r) != "plug"
+        and not is_lighting(r.appliance.key if r.appliance is not None else None)
+        and (outdoor_room or (r.appliance is not None and r.appliance.category == "outdoor"))
+    ]
+
+
 def rule_outdoor_outlet(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
     """Hard-wired outdoor equipment of a dwelling without GFCI protection (NEC 210.8(F): every outdoor outlet on a
     single-phase circuit up to 150 V to ground and 50 A, lighting outlets excepted)."""
@@ -389,18 +416,7 @@ def rule_outdoor_outlet(views: list[_Circuit], code: Code, result: CheckResult) 
     year = int(code.key.rsplit("-", 1)[1])
     for v in views:
         c = v.circuit
-        if v.satisfied(code) or c.purpose == "lighting" or c.system == "three":
-            continue
-        if c.voltage_v > OUTDOOR_MAX_V_TO_GROUND or (c.rating_a is not None and c.rating_a > OUTDOOR_MAX_A):
-            continue
-        outdoor_room = any("outdoor" in room.kinds for room in v.rooms)
-        hits = [
-            r
-            for r in v.loads
-            if connection(r) != "plug"  # receptacles outdoors: the location rule (210.8(A))
-            and not is_lighting(r.appliance.key if r.appliance is not None else None)
-            and (outdoor_room or (r.appliance is not None and r.appliance.category == "outdoor"))
-        ]
+        hits = _outdoor_outlets(v, code, result)
         if not hits:
             continue
         names = ", ".join(r.name for r in hits[:4]) + (", …" if len(hits) > 4 else "")
