@@ -298,7 +298,7 @@ def report(
         rv.check,
         findings=rv.findings,
         generated=generated,
-        review_basis=f"{rv.code.label} ({rv.code_source})",
+        review_basis=f"{rv.label} ({rv.code_source})",
         plan=_plan_document(plan),
     )
     written = write_report(content, path, html, pdf)

@@ -310,7 +310,9 @@ def test_occupancy_other_uses_nec_210_8_B_and_drops_the_dwelling_only_rules(plan
     assert found(shop, "appliance-outlet", "nec-2020") == []  # NEC 2020 210.8(D): dwelling-unit dishwashers only
     assert [f.load for f in found(shop, "appliance-outlet", "nec-2023")] == ["Dishwasher"]
     assert found(shop, "room-unclassified", "nec-2023") == []  # stockroom and washroom are in the room table
+    assert review(shop, "nec-2023").label == "NEC 2023 (NFPA 70), other than dwelling units"
     home = plan(circuits, loads)  # the default: a dwelling
+    assert review(home, "nec-2023").label == "NEC 2023 (NFPA 70), dwelling units"
     assert str(found(home, "location", "nec-2023")[0].source) == "NEC 2023 210.8(A)"
     assert len(found(home, "outdoor-outlet", "nec-2023")) == 1
     lights = [circuit("L1", "none", "Shop floor", us=False, rating=6, purpose="lighting")]

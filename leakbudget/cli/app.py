@@ -240,7 +240,7 @@ def report(
         f"{len(rv.check.circuits)} circuit(s), {over} over budget. {job.report.verdict.text}", highlight=False
     )
     out_console.print(
-        f"Reviewed against {rv.code.label}: {rv.count(Severity.ERROR)} error(s), "
+        f"Reviewed against {rv.label}: {rv.count(Severity.ERROR)} error(s), "
         f"{rv.count(Severity.WARNING)} warning(s), {rv.count(Severity.INFO)} info.",
         highlight=False,
     )

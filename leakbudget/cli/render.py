@@ -387,7 +387,7 @@ def render_review(job: Any) -> None:
 
     rv = job.review
     project = rv.check.project
-    out_console.print(f"Review of {project.path.name} against {rv.code.label}.", highlight=False)
+    out_console.print(f"Review of {project.path.name} against {rv.label}.", highlight=False)
     out_console.print(f"Code: {rv.code_source}.", highlight=False)
     for f in rv.findings:
         where = " / ".join(x for x in (f.circuit, f.load) if x)

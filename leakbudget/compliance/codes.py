@@ -146,7 +146,7 @@ def _nec(
     )
     return Code(
         key=f"nec-{year}",
-        label=f"NEC {year} (NFPA 70), dwelling units",
+        label=f"NEC {year} (NFPA 70)",
         family="nec",
         location_source=where,
         locations=locations,

@@ -156,6 +156,14 @@ class Review:
     findings: list[Finding]
 
     @property
+    def label(self) -> str:
+        """The code's name with the occupancy its rules were read for: "NEC 2023 (NFPA 70), dwelling units"."""
+        if self.code.family != "nec":
+            return self.code.label
+        dwelling = _occupancy(self.check) == "dwelling"
+        return f"{self.code.label}, {'dwelling units' if dwelling else 'other than dwelling units'}"
+
+    @property
     def errors(self) -> list[Finding]:
         return [f for f in self.findings if f.severity is Severity.ERROR]
 

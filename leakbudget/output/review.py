@@ -19,7 +19,7 @@ def to_json(rv: Review) -> dict[str, Any]:
         "tool": f"leakbudget {__version__}",
         "file": str(project.path),
         "code": rv.code.key,
-        "code_label": rv.code.label,
+        "code_label": rv.label,
         "code_source": str(rv.code_source),
         "counts": {s.value: rv.count(s) for s in Severity},
         "findings": [f.to_dict() for f in rv.findings],
@@ -38,7 +38,7 @@ def findings_rows(rv: Review) -> list[list[Any]]:
     ]
     blank: list[Any] = [None] * len(FINDING_COLUMNS)
     footer = [
-        f"Reviewed against {rv.code.label}: {rv.code_source}.",
+        f"Reviewed against {rv.label}: {rv.code_source}.",
         f"{rv.count(Severity.ERROR)} error(s), {rv.count(Severity.WARNING)} warning(s), "
         f"{rv.count(Severity.INFO)} info.",
         f"Written by leakbudget {__version__}; this sheet is replaced on every run.",
