@@ -369,6 +369,14 @@ def test_appliance_outlet_nec_2023_table_210_8_D_vending_machine_and_pressure_wa
     assert "high-pressure spray washers" in hits[1].message
     old = found(p, "appliance-outlet", "nec-2020")
     assert [h.load for h in old] == ["Vending", "Washer"] and "NEC 2020 422.5(A)" in str(old[0].source)
+    machines = [
+        load("Cooler", "S1", "drinking-water-cooler"),
+        load("Air", "S1", "tire-inflation-machine"),
+        load("Vac", "S1", "automotive-vacuum-machine"),
+    ]
+    forecourt = plan([circuit("S1", "none", "Shop")], machines)
+    for code in ("nec-2023", "nec-2020"):
+        assert [h.load for h in found(forecourt, "appliance-outlet", code)] == ["Cooler", "Air", "Vac"]
     ok = plan([circuit("S1", "gfci-a", "Shop")], [load("Vending", "S1", "vending-machine")])
     assert found(ok, "appliance-outlet") == []
 

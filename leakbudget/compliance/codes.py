@@ -216,9 +216,12 @@ NEC_2023_APPLIANCES = {
     "sump-pump": "sump pumps",
     "vending-machine": "vending machines",
     "pressure-washer": "high-pressure spray washers",
+    "drinking-water-cooler": "drinking-water coolers and bottle fill stations",
+    "tire-inflation-machine": "tire inflation machines",
+    "automotive-vacuum-machine": "automotive vacuum machines",
 }
 # The items NEC 2023 moved into Table 210.8(D) from 422.5(A) (NEC 2020): vending machines, high-pressure spray
-# washers, drinking-water coolers, tire inflation and automotive vacuum machines (the catalogue has the first two).
+# washers, drinking-water coolers, tire inflation and automotive vacuum machines.
 NEC_2023_TABLE_ITEMS = Source.from_memory(
     "NEC 2023 Table 210.8(D) (vending machines, high-pressure spray washers, drinking-water coolers, tire "
     "inflation and automotive vacuum machines), from memory"
@@ -227,7 +230,13 @@ NEC_2020_422_5_A = Source.from_memory(
     "NEC 2020 422.5(A) (GFCI for vending machines, cord-and-plug-connected high-pressure spray washing machines, "
     "drinking water coolers, tire inflation and automotive vacuum machines), from memory"
 )
-NEC_422_5_KEYS = {"vending-machine": "vending machines", "pressure-washer": "high-pressure spray washing machines"}
+NEC_422_5_KEYS = {
+    "vending-machine": "vending machines",
+    "pressure-washer": "high-pressure spray washing machines",
+    "drinking-water-cooler": "drinking water coolers and bottle fill stations",
+    "tire-inflation-machine": "tire inflation machines",
+    "automotive-vacuum-machine": "automotive vacuum machines",
+}
 
 # NEC 210.8(F): every outdoor outlet of a dwelling (a receptacle or the point where hard-wired equipment connects),
 # on a single-phase branch circuit of at most 150 V to ground and 50 A, needs GFCI protection; lighting outlets are
