@@ -456,13 +456,19 @@ def test_line_line_rows_are_the_240_v_loads():
     }  # fmt: skip
 
 
-def test_line_line_columns_are_filled_only_for_line_line_rows():
+def test_every_row_says_its_wiring_and_rated_voltage():
+    # Issue 11: every row says how it connects and the voltage its typical power is rated at; a line-neutral row is
+    # rated at its line-to-neutral (reference) voltage; the per-line columns belong to line-line rows only.
     def check(row):
-        filled = [c for c in LINE_LINE_COLUMNS if row[c]]
+        if row["Wiring"] not in ("line-neutral", "line-line") or not row["Rated voltage"]:
+            return f"wiring {row['Wiring']!r}, rated voltage {row['Rated voltage']!r}"
         if line_line(row):
-            missing = sorted(set(LINE_LINE_COLUMNS) - set(filled))
+            missing = [c for c in LINE_LINE_COLUMNS if not row[c]]
             return f"missing {missing}" if missing else None
-        return f"a line-neutral row with {filled}" if filled else None
+        if number(row, "Rated voltage") != pytest.approx(number(row, "Reference voltage")):
+            return f"a line-neutral row rated at {row['Rated voltage']} V, referenced at {row['Reference voltage']} V"
+        extra = [c for c in LINE_LINE_COLUMNS[1:] if row[c]]
+        return f"a line-neutral row with {extra}" if extra else None
 
     assert_rows(check, appliances())
 
