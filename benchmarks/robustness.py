@@ -1,6 +1,6 @@
 """How many bad inputs leakbudget handles: the named bad files of tests/robustness_cases.py plus random damage.
 
-Run from the worktree root:  /work/venv/bin/python benchmarks/robustness.py [--random 1000] [--workers 2]
+Run from the worktree root:  python benchmarks/robustness.py [--random 1000] [--workers 2]
 
 Each input goes through ``leakbudget check`` the way a user runs it (tests.robustness_cases.judge): handled means
 exit code 0, 1 or 2, no traceback, the input's bytes unchanged, an error that is one sentence naming the file

@@ -1,6 +1,6 @@
 """Benchmark of the split planner on random houses and buildings (invented, seeded, reproducible).
 
-    PYTHONPATH=. /work/venv/bin/python benchmarks/split.py [--quick]
+    PYTHONPATH=. python benchmarks/split.py [--quick]
 
 Instances:
 - house-50: one dwelling, 6-8 rooms (some circuits serve two rooms), 50 loads drawn from the appliance catalogue's

@@ -162,19 +162,15 @@ ABOUT = [
 ]
 
 
-def build(path: Path) -> Path:
+def write_example(path: Path, about: list[str], sheets: list[tuple[str, list[list[object]]]]) -> Path:
+    """Write an example workbook: an About sheet of ``about`` lines, then each (name, rows) sheet, header bold."""
     book = xlsxwriter.Workbook(str(path))
     bold = book.add_format({"bold": True})
-    about = book.add_worksheet("About")
-    about.set_column(0, 0, 100)
-    for i, line in enumerate(ABOUT):
-        about.write_string(i, 0, line, bold if i == 0 else None)
-    for name, rows in (
-        ("Circuits", CIRCUITS),
-        ("Loads", with_models(LOADS)),
-        ("Settings", SETTINGS),
-        ("Readings", READINGS),
-    ):
+    cover = book.add_worksheet("About")
+    cover.set_column(0, 0, 100)
+    for i, line in enumerate(about):
+        cover.write_string(i, 0, line, bold if i == 0 else None)
+    for name, rows in sheets:
         ws = book.add_worksheet(name)
         for i, row in enumerate(rows):
             for j, value in enumerate(row):
@@ -189,6 +185,14 @@ def build(path: Path) -> Path:
         ws.set_column(0, len(rows[0]) - 1, 16)
     book.close()
     return path
+
+
+def build(path: Path) -> Path:
+    return write_example(
+        path,
+        ABOUT,
+        [("Circuits", CIRCUITS), ("Loads", with_models(LOADS)), ("Settings", SETTINGS), ("Readings", READINGS)],
+    )
 
 
 if __name__ == "__main__":

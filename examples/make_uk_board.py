@@ -6,9 +6,11 @@ Every street, room and person here is invented. Run `python examples/make_uk_boa
 
 from __future__ import annotations
 
+import sys
 from pathlib import Path
 
-import xlsxwriter
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from make_demo import write_example  # noqa: E402  (the one writer of example workbooks)
 
 HERE = Path(__file__).resolve().parent
 
@@ -165,27 +167,8 @@ ABOUT = [
 def build(path: Path) -> Path:
     for row in CIRCUITS[1:]:
         row[-1] = row[-1] or NOTES.get(str(row[0]))
-    book = xlsxwriter.Workbook(str(path))
-    bold = book.add_format({"bold": True})
-    about = book.add_worksheet("About")
-    about.set_column(0, 0, 100)
-    for i, line in enumerate(ABOUT):
-        about.write_string(i, 0, line, bold if i == 0 else None)
-    for name, rows in (("Circuits", CIRCUITS), ("Loads", LOADS), ("Protection", PROTECTION), ("Settings", SETTINGS)):
-        ws = book.add_worksheet(name)
-        for i, row in enumerate(rows):
-            for j, value in enumerate(row):
-                if value is None:
-                    continue
-                fmt = bold if i == 0 else None
-                if isinstance(value, str):
-                    ws.write_string(i, j, value, fmt)
-                else:
-                    ws.write_number(i, j, value, fmt)
-        ws.freeze_panes(1, 0)
-        ws.set_column(0, len(rows[0]) - 1, 16)
-    book.close()
-    return path
+    sheets = [("Circuits", CIRCUITS), ("Loads", LOADS), ("Protection", PROTECTION), ("Settings", SETTINGS)]
+    return write_example(path, ABOUT, sheets)
 
 
 if __name__ == "__main__":

@@ -317,7 +317,7 @@ REMEMBERED_LIMITS = [
     Limit("IEC 60974-1 arc welding power sources 10 mA (from memory)",
           r"^IEC 60974-1 \(arc welding power sources\), limit from memory\b", CLASS_I, BOTH, IEC_SUPPLY,
           _constant(10.0)),
-    # IEC 62368-1 (audio/video, IT and communication equipment), from memory: 3.5 mA for pluggable equipment type A.
+    # IEC 62368-1 (audio, information and communication technology equipment), from memory: 3.5 mA for pluggable equipment type A.
     Limit("IEC 62368-1 pluggable equipment type A 3.5 mA (from memory)",
           r"^IEC 62368-1 \(pluggable equipment type A\), limit and clause from memory\b", CLASS_I, CORD, IEC_SUPPLY,
           _constant(3.5)),

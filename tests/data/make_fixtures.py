@@ -1,6 +1,6 @@
 """Make the real-program .xlsx fixtures used by tests/test_xlsx_package.py.
 
-Run from the worktree root:  /work/venv/bin/python tests/data/make_fixtures.py
+Run from the worktree root:  python tests/data/make_fixtures.py
 Needs LibreOffice (``soffice``) and Gnumeric (``ssconvert``) on PATH.
 
 1. A source workbook is written with XlsxWriter (only as an input format): an invented two-sheet panel schedule
