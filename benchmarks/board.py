@@ -73,7 +73,7 @@ def board(seed: int) -> Project:
                 leg=("L1",),
                 leg_text="L1",
                 room=None,
-                fixed=True,
+                stays=True,
                 note=None,
                 row=j + 2,
             )

@@ -108,7 +108,7 @@ def _load(
         leg=parse_leg("L1", "single"),
         leg_text="L1",
         room=room,
-        fixed=fixed,
+        stays=fixed,
         note=None,
         row=row,
     )
