@@ -186,7 +186,7 @@ def _assess(
     if not rows:
         return
     params = risk.RiskParameters.from_settings(result.project.settings)
-    distributions = [risk.distribution(r, params) for r in placed]
+    distributions = risk.distributions(placed, params)
     groups = [i for _, i, _ in rows]
     loads = [distributions[k]._replace(coefficient=distributions[k].coefficient * f) for k, _, f in rows]
     levels = [(d.shared.device.no_trip_ma, d.shared.device.trip_ma) for d in devices]

@@ -819,6 +819,11 @@ def _distributions(d: _Described, trip_weight: np.ndarray | float = 1.0) -> list
     ]
 
 
+def distributions(results: Sequence[LoadResult], params: RiskParameters) -> list[LeakageDistribution]:
+    """:func:`distribution` of many loads at once (vectorised), in their order, without trip weights."""
+    return _distributions(_describe(list(results), params))
+
+
 def circuit_distributions(result: Estimate, params: RiskParameters) -> tuple[list[int], list[LeakageDistribution]]:
     """Circuit index and distribution of every placed load and cable run, in the check's order, each in its
     circuit's phasor frame weighted by how much its waveform counts towards its device's trip point, as the check

@@ -356,3 +356,9 @@ def test_random_number_rows_do_not_depend_on_how_many_are_drawn():
     small_u, small_z = risk._streams(4, 3, 3000)
     large_u, large_z = risk._streams(4, 2000, 3000)  # 2048 × 3000 > STREAM_CACHE_ELEMENTS: drawn afresh
     assert np.array_equal(small_u, large_u[:3]) and np.array_equal(small_z, large_z[:3])
+
+
+def test_vectorised_distributions_equal_one_at_a_time(make_workbook):
+    result = check(_project(make_workbook))
+    params = risk.RiskParameters.from_settings(result.project.settings)
+    assert risk.distributions(result.loads, params) == [risk.distribution(r, params) for r in result.loads]
