@@ -185,8 +185,15 @@ def _assess(
     weighted by its operating bands), with the check's samples and seed."""
     if not rows:
         return
-    params = risk.RiskParameters.from_settings(result.project.settings)
-    distributions = risk.distributions(placed, params)
+    project = result.project
+    params = risk.RiskParameters.from_settings(project.settings)
+    index = project.circuit_index()
+    circuit_of = [index[r.circuit_id.lower()] for r in placed]  # type: ignore[union-attr]
+    keys = risk.circuit_streams(project)
+    # Each row as its circuit's check drew it (stream, positions), so every device sums its circuits' own draws.
+    distributions = risk.with_circuit_draws(
+        circuit_of, [d._replace(stream=int(keys[c])) for c, d in zip(circuit_of, risk.distributions(placed, params))]
+    )
     groups = [i for _, i, _ in rows]
     loads = [distributions[k]._replace(coefficient=distributions[k].coefficient * f) for k, _, f in rows]
     levels = [(d.shared.device.no_trip_ma, d.shared.device.trip_ma) for d in devices]

@@ -145,8 +145,10 @@ def _calibrate(result: _CheckedEstimate, reading: Reading) -> tuple[Calibration 
     probability = None
     if dev.protected:
         loads = []
+        circuit = circuit_result.circuit
+        key = risk.stream_key(circuit.circuit_id) if circuit.protected_by else 0  # the draws its check used
         for r in mine:
-            d = risk.distribution(r, params)
+            d = risk.distribution(r, params)._replace(stream=key)
             if r.basis == CATALOGUE:
                 d = d._replace(
                     shape=risk.UNIFORM, centre_ma=k * r.leakage_ma, spread=params.meter_accuracy, cap=math.inf

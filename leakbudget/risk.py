@@ -53,13 +53,21 @@ Model (every choice is a setting or a named constant, with its source):
   circuit's loads reproduces what ``check`` printed for it. Estimates of different circuits share draws, so they
   are correlated with one another; each one alone is unbiased with the stated standard error.
 
+* A circuit under a shared device (a Protection-sheet RCD) draws from streams of its own instead, keyed by its
+  name (:func:`stream_key`; the same three matrices, a child of the seed's ``SeedSequence`` that the common
+  streams never use), at the same positions. Its result still depends only on its own loads, their order, its
+  name and the seed, and the draws of circuits under one device are independent of one another, so the device
+  sums the very draws its circuits were judged on: one draw per load feeds every device above it
+  (:mod:`leakbudget.protection`), and the device's likelihood agrees with its circuits'.
+
 All arrays are numpy; work is vectorised over loads and samples, in blocks of bounded size.
 """
 
 from __future__ import annotations
 
+import hashlib
 import math
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field, fields
 from functools import lru_cache
 from statistics import NormalDist
@@ -120,6 +128,12 @@ class LeakageDistribution(NamedTuple):
     share ``coefficient`` was computed at (the ``Line imbalance`` setting), which also sets the mean imbalance of
     the draws [dimensionless]; ``angle_spread_deg`` is the half-width of the uniform turn δ about ``coefficient``'s
     direction (45 for a mixed-nature row, 0 for a fixed angle) [degrees].
+
+    Which draws it takes (see the module's text; defaults: the common streams, at its place among its group's
+    rows): ``stream`` is the key of its circuit's own streams (:func:`stream_key`; 0 = the common streams);
+    ``position`` its row in the magnitude streams and ``direction_position`` in the direction stream (-1 = its
+    place among its group's sampled rows). A device that sums several circuits gives each row the stream and
+    positions it has in its circuit (:func:`with_circuit_draws`), so that it sums the circuits' own draws.
     """
 
     shape: str
@@ -131,6 +145,9 @@ class LeakageDistribution(NamedTuple):
     imbalance: complex = 0j
     line_share: float = 0.5
     angle_spread_deg: float = 0.0
+    stream: int = 0
+    position: int = -1
+    direction_position: int = -1
 
 
 class TripProbability(NamedTuple):
@@ -218,54 +235,76 @@ def auto_samples(random_rows: int) -> int:
     return int(min(SAMPLES_MAX, max(SAMPLES_MIN, ELEMENT_BUDGET // random_rows // 100 * 100)))
 
 
-def _streams(seed: int, positions: int, samples: int) -> tuple[np.ndarray, np.ndarray]:
-    """Uniform and standard-normal draws, ``positions × samples`` each, from two independent seeded streams.
+KEYED_STREAMS = 3  # spawn_key (3, key) of the seed's SeedSequence: a circuit's own streams (0-2 are the common ones)
+
+
+def stream_key(circuit_id: str) -> int:
+    """The 64-bit key of a circuit's own streams: from its name (case-insensitive), so that it never depends on
+    the other circuits or on the sheet's order."""
+    return int.from_bytes(hashlib.blake2b(circuit_id.lower().encode(), digest_size=8).digest(), "little") or 1
+
+
+def _capacity(positions: int, least: int = 16) -> int:
+    return max(least, 1 << (positions - 1).bit_length())
+
+
+def _streams(seed: int, positions: int, samples: int, key: int = 0) -> tuple[np.ndarray, np.ndarray]:
+    """Uniform and standard-normal draws, ``positions × samples`` each, from two independent seeded streams (the
+    common ones for ``key`` 0, else a circuit's own, :func:`stream_key`).
 
     numpy fills the matrices row by row, so the first k rows are the same whatever ``positions`` is; small
     requests are served as slices of a cached larger matrix (the split planner calls this many times).
     """
-    capacity = max(16, 1 << (positions - 1).bit_length())
+    capacity = _capacity(positions, 16 if key == 0 else 4)
     if capacity * samples <= STREAM_CACHE_ELEMENTS:
-        uniform, normal = _cached_streams(seed, capacity, samples)
+        uniform, normal = _cached_streams(seed, capacity, samples, key)
         return uniform[:positions], normal[:positions]
-    return _draw_streams(seed, positions, samples)
+    return _draw_streams(seed, positions, samples, key)
 
 
-def _draw_streams(seed: int, positions: int, samples: int) -> tuple[np.ndarray, np.ndarray]:
-    uniform_seq, normal_seq = np.random.SeedSequence(seed).spawn(2)
+def _sequences(seed: int, key: int) -> list[np.random.SeedSequence]:
+    """The three child sequences (uniform, normal, directions): the seed's own children for the common streams,
+    the children of spawn key (KEYED_STREAMS, key) for a circuit's."""
+    if key == 0:
+        return np.random.SeedSequence(seed).spawn(3)
+    return np.random.SeedSequence(seed, spawn_key=(KEYED_STREAMS, key)).spawn(3)
+
+
+def _draw_streams(seed: int, positions: int, samples: int, key: int = 0) -> tuple[np.ndarray, np.ndarray]:
+    uniform_seq, normal_seq, _ = _sequences(seed, key)
     uniform = np.random.Generator(np.random.PCG64(uniform_seq)).random((positions, samples), dtype=np.float32)
     normal = np.random.Generator(np.random.PCG64(normal_seq)).standard_normal((positions, samples), dtype=np.float32)
     return uniform, normal
 
 
-@lru_cache(maxsize=4)
-def _cached_streams(seed: int, positions: int, samples: int) -> tuple[np.ndarray, np.ndarray]:
-    uniform, normal = _draw_streams(seed, positions, samples)
+@lru_cache(maxsize=64)
+def _cached_streams(seed: int, positions: int, samples: int, key: int = 0) -> tuple[np.ndarray, np.ndarray]:
+    uniform, normal = _draw_streams(seed, positions, samples, key)
     uniform.flags.writeable = False
     normal.flags.writeable = False
     return uniform, normal
 
 
-def _direction_stream(seed: int, positions: int, samples: int) -> np.ndarray:
+def _direction_stream(seed: int, positions: int, samples: int, key: int = 0) -> np.ndarray:
     """Uniform draws for the directions, ``positions × 2 × samples`` ([k, 0] a turn, [k, 1] a line share).
 
-    The third child of the seed's ``SeedSequence`` (the first two feed :func:`_streams`, which it leaves as they
+    The third child sequence (:func:`_sequences`; the first two feed :func:`_streams`, which it leaves as they
     were); filled position by position, so the first k positions are the same whatever ``positions`` is.
     """
-    capacity = max(16, 1 << (positions - 1).bit_length())
+    capacity = _capacity(positions, 16 if key == 0 else 4)
     if 2 * capacity * samples <= STREAM_CACHE_ELEMENTS:
-        return _cached_direction_stream(seed, capacity, samples)[:positions]
-    return _draw_direction_stream(seed, positions, samples)
+        return _cached_direction_stream(seed, capacity, samples, key)[:positions]
+    return _draw_direction_stream(seed, positions, samples, key)
 
 
-def _draw_direction_stream(seed: int, positions: int, samples: int) -> np.ndarray:
-    sequence = np.random.SeedSequence(seed).spawn(3)[2]
+def _draw_direction_stream(seed: int, positions: int, samples: int, key: int = 0) -> np.ndarray:
+    sequence = _sequences(seed, key)[2]
     return np.random.Generator(np.random.PCG64(sequence)).random((positions, 2, samples), dtype=np.float32)
 
 
-@lru_cache(maxsize=4)
-def _cached_direction_stream(seed: int, positions: int, samples: int) -> np.ndarray:
-    turns = _draw_direction_stream(seed, positions, samples)
+@lru_cache(maxsize=64)
+def _cached_direction_stream(seed: int, positions: int, samples: int, key: int = 0) -> np.ndarray:
+    turns = _draw_direction_stream(seed, positions, samples, key)
     turns.flags.writeable = False
     return turns
 
@@ -284,6 +323,9 @@ class _Rows:
     imbalance: np.ndarray  # complex, (∂coefficient / ∂(first line's share)) / coefficient
     share: np.ndarray  # the first line's share the coefficient was computed at
     turn: np.ndarray  # half-width of the uniform turn about the nominal direction [rad]
+    stream: np.ndarray  # uint64 key of the row's streams (0 = the common ones)
+    pos: np.ndarray  # int64 row in the magnitude streams (-1 = its place among its group's sampled rows)
+    dpos: np.ndarray  # int64 row in the direction stream (-1 = likewise)
 
     @classmethod
     def from_arrays(
@@ -298,15 +340,21 @@ class _Rows:
         imbalance: np.ndarray | None = None,
         share: np.ndarray | None = None,
         turn: np.ndarray | None = None,
+        stream: np.ndarray | None = None,
+        pos: np.ndarray | None = None,
+        dpos: np.ndarray | None = None,
     ) -> _Rows:
         """Sort by group (stable) and mark rows without spread, or with nothing to spread, as fixed."""
         n = len(group)
         imbalance = np.zeros(n, dtype=complex) if imbalance is None else imbalance
         share = np.full(n, 0.5) if share is None else share
         turn = np.zeros(n) if turn is None else turn
+        stream = np.zeros(n, dtype=np.uint64) if stream is None else stream.astype(np.uint64)
+        pos = np.full(n, -1, dtype=np.int64) if pos is None else pos.astype(np.int64)
+        dpos = np.full(n, -1, dtype=np.int64) if dpos is None else dpos.astype(np.int64)
         shape = np.where((spread <= 0.0) | (centre <= 0.0), 0, shape).astype(np.int8)
         order = np.argsort(group, kind="stable")
-        columns = (group, shape, centre, spread, coefficient, factor, cap, imbalance, share, turn)
+        columns = (group, shape, centre, spread, coefficient, factor, cap, imbalance, share, turn, stream, pos, dpos)
         return cls(*(column[order] for column in columns))
 
     @classmethod
@@ -324,6 +372,9 @@ class _Rows:
             np.asarray(columns[6], dtype=complex),
             np.asarray(columns[7], dtype=float),
             np.radians(np.asarray(columns[8], dtype=float)),
+            np.asarray(columns[9], dtype=np.uint64),
+            np.asarray(columns[10], dtype=np.int64),
+            np.asarray(columns[11], dtype=np.int64),
         )
 
     def subset(self, keep: np.ndarray) -> _Rows:
@@ -370,26 +421,26 @@ def _draw(
     shape: np.ndarray,
     centre: np.ndarray,
     spread: np.ndarray,
-    pos: np.ndarray,
-    uniform: np.ndarray,
-    normal: np.ndarray,
     cap: np.ndarray,
+    pick: Callable[[int, np.ndarray], np.ndarray],
+    samples: int,
 ) -> np.ndarray:
     """Leakage draws [mA], one row per sampled load: centre × (1 + a(2U − 1)) or centre × min(exp(σZ), cap);
-    a fixed magnitude (a row sampled for its direction only) is its centre."""
+    a fixed magnitude (a row sampled for its direction only) is its centre. ``pick(0, rows)`` gives the uniform
+    draws of the selected rows, ``pick(1, rows)`` their normal draws (fresh float32 arrays)."""
     with np.errstate(divide="ignore", invalid="ignore"):
         z_cap = np.where(spread > 0.0, np.log(cap) / np.where(spread > 0.0, spread, 1.0), np.inf)
 
-    def lognormal(rows: np.ndarray | slice) -> np.ndarray:
-        z = normal[pos[rows]]
+    def lognormal(rows: np.ndarray) -> np.ndarray:
+        z = pick(1, rows)
         np.minimum(z, z_cap[rows, None].astype(np.float32), out=z)
         z *= spread[rows, None].astype(np.float32)
         np.exp(z, out=z)
         z *= centre[rows, None].astype(np.float32)
         return z
 
-    def uniform_(rows: np.ndarray | slice) -> np.ndarray:
-        u = uniform[pos[rows]]
+    def uniform_(rows: np.ndarray) -> np.ndarray:
+        u = pick(0, rows)
         u *= (2.0 * spread[rows] * centre[rows])[:, None].astype(np.float32)
         u += ((1.0 - spread[rows]) * centre[rows])[:, None].astype(np.float32)
         return u
@@ -397,10 +448,10 @@ def _draw(
     uni, fixed = shape == 1, shape == 0
     if not fixed.any():
         if not uni.any():
-            return lognormal(slice(None))
+            return lognormal(np.ones(len(shape), dtype=bool))
         if uni.all():
-            return uniform_(slice(None))
-    values = np.empty((len(pos), uniform.shape[1]), dtype=np.float32)
+            return uniform_(uni)
+    values = np.empty((len(shape), samples), dtype=np.float32)
     values[fixed] = centre[fixed, None]
     if uni.any():
         values[uni] = uniform_(uni)
@@ -408,6 +459,34 @@ def _draw(
     if logn.any():
         values[logn] = lognormal(logn)
     return values
+
+
+def _gather(matrices: dict[int, np.ndarray], key: np.ndarray, pos: np.ndarray) -> np.ndarray:
+    """Rows ``pos`` of the stream matrices ``matrices[key]``, one per selected row, as a fresh array."""
+    if len(matrices) == 1:
+        (only,) = matrices.values()
+        return only[pos]
+    out = np.empty((len(pos), *next(iter(matrices.values())).shape[1:]), dtype=np.float32)
+    for k in np.unique(key).tolist():
+        at = key == k
+        out[at] = matrices[int(k)][pos[at]]
+    return out
+
+
+def _places(group: np.ndarray, explicit: np.ndarray, chosen: np.ndarray) -> np.ndarray:
+    """Each chosen row's stream row: its explicit position, else its place among its group's chosen rows."""
+    pos = np.zeros(len(group), dtype=np.int64)
+    pos[chosen] = _positions(group[chosen])
+    given = chosen & (explicit >= 0)
+    pos[given] = explicit[given]
+    return pos
+
+
+def _stream_matrices(
+    draw: Callable[[int, int, int, int], Any], seed: int, keys: np.ndarray, pos: np.ndarray, samples: int
+) -> dict[int, Any]:
+    """The stream matrices of every key among the rows, each as deep as its rows need."""
+    return {int(k): draw(seed, int(pos[keys == k].max()) + 1, samples, int(k)) for k in np.unique(keys).tolist()}
 
 
 def _share_offsets(u: np.ndarray, share: np.ndarray) -> np.ndarray:
@@ -531,21 +610,35 @@ def _random_sums(
     weights = sampled.weights(sum_rule)
     n = len(group)
     magnitude = shape != 0
-    pos = np.zeros(n, dtype=np.int64)
-    pos[magnitude] = _positions(group[magnitude])
-    uniform, normal = _streams(seed, int(pos.max()) + 1, samples)
+    key = sampled.stream
+    pos = _places(group, sampled.pos, magnitude)
+    any_magnitude = bool(magnitude.any())
+    streams = _stream_matrices(
+        _streams,
+        seed,
+        key[magnitude] if any_magnitude else np.zeros(1, dtype=np.uint64),
+        pos[magnitude] if any_magnitude else np.zeros(1, dtype=np.int64),
+        samples,
+    )
+    uniforms = {k: v[0] for k, v in streams.items()}
+    normals = {k: v[1] for k, v in streams.items()}
     directed = sampled.directed() if sum_rule == "phasor" else np.zeros(n, dtype=bool)
     if directed.any():
-        d_pos = np.zeros(n, dtype=np.int64)
-        d_pos[directed] = _positions(group[directed])
-        turns = _direction_stream(seed, int(d_pos.max()) + 1, samples)
+        d_pos = _places(group, sampled.dpos, directed)
+        d_rank = _places(group, np.full(n, -1, dtype=np.int64), directed)  # place in its group: one scatter per rank
+        turns = _stream_matrices(_direction_stream, seed, key[directed], d_pos[directed], samples)
         extra = sampled.factor - 1.0
     step = max(1, block_elements // samples)
     carry_group: int | None = None
     carry: np.ndarray | None = None
     for i in range(0, n, step):
         j = min(n, i + step)
-        values = _draw(shape[i:j], centre[i:j], spread[i:j], pos[i:j], uniform, normal, cap[i:j])
+        block_key, block_pos = key[i:j], pos[i:j]
+
+        def pick(which: int, chosen: np.ndarray, block_key: np.ndarray = block_key, block_pos: np.ndarray = block_pos):
+            return _gather(normals if which else uniforms, block_key[chosen], block_pos[chosen])
+
+        values = _draw(shape[i:j], centre[i:j], spread[i:j], cap[i:j], pick, samples)
         segs, sums = _segment_sums(values, group[i:j], weights[:, i:j])
         if directed[i:j].any():
             d = np.flatnonzero(directed[i:j]) + i
@@ -555,9 +648,9 @@ def _random_sums(
                 sampled.imbalance[d],
                 sampled.share[d],
                 sampled.turn[d],
-                turns[d_pos[d]],
+                _gather(turns, key[d], d_pos[d]),
             )
-            _add_directed(sums, np.searchsorted(segs, group[d]), d_pos[d], extra[d], change)
+            _add_directed(sums, np.searchsorted(segs, group[d]), d_rank[d], extra[d], change)
         if carry is not None:
             if segs[0] == carry_group:
                 sums[0] += carry
@@ -662,6 +755,23 @@ def trip_probability(
     )[0]
     assert result is not None
     return result
+
+
+def phasor_samples(
+    loads: Sequence[LeakageDistribution],
+    *,
+    samples: int = SAMPLES_MAX,
+    seed: int = SEED_DEFAULT,
+) -> tuple[np.ndarray, np.ndarray]:
+    """One group's phasor sum per sample, dry and at switch-on [mA, complex]: the values whose magnitudes the
+    likelihood integrates over (a group of loads of several circuits, with their draws, sums exactly their
+    circuits' samples)."""
+    rows = _Rows.build([0] * len(loads), loads)
+    fixed = _fixed_sums(rows, "phasor", 1)[0].astype(float)
+    sums = np.broadcast_to(fixed[:, None], (4, samples)).copy()
+    for _, random_sums in _random_sums(rows, "phasor", samples, seed):
+        sums += random_sums[0]
+    return sums[0] + 1j * sums[1], (sums[0] + sums[2]) + 1j * (sums[1] + sums[3])
 
 
 def leakage_quantiles(
@@ -824,14 +934,43 @@ def distributions(results: Sequence[LoadResult], params: RiskParameters) -> list
     return _distributions(_describe(list(results), params))
 
 
+def circuit_streams(project: Any) -> np.ndarray:
+    """Each circuit's stream key, in sheet order: its own (:func:`stream_key`) under a shared device, else 0."""
+    return np.array(
+        [stream_key(c.circuit_id) if c.protected_by else 0 for c in project.circuits], dtype=np.uint64
+    ).reshape(-1)
+
+
 def circuit_distributions(result: Estimate, params: RiskParameters) -> tuple[list[int], list[LeakageDistribution]]:
     """Circuit index and distribution of every placed load and cable run, in the check's order, each in its
-    circuit's phasor frame weighted by how much its waveform counts towards its device's trip point, as the check
-    computes them (:func:`_check_rows`)."""
+    circuit's phasor frame weighted by how much its waveform counts towards its device's trip point, with its
+    circuit's stream, as the check computes them (:func:`_check_rows`)."""
     index = result.project.circuit_index()
     placed = [r for r in result.loads if r.circuit_id is not None]
     circuits = [index[r.circuit_id.lower()] for r in result.loads if r.circuit_id is not None]
-    return circuits, _distributions(_describe(placed, params), trip_weights(result.project, placed))
+    keys = circuit_streams(result.project)
+    loads = _distributions(_describe(placed, params), trip_weights(result.project, placed))
+    return circuits, [d._replace(stream=int(keys[c])) for c, d in zip(circuits, loads)]
+
+
+def with_circuit_draws(circuits: Sequence[int], loads: Sequence[LeakageDistribution]) -> list[LeakageDistribution]:
+    """The loads with the positions they have in their circuits' draws (``circuits[i]`` is the circuit of
+    ``loads[i]``, in the check's order), so that a group that mixes circuits (a shared device) takes the draws
+    each row has in its circuit: its magnitude among the circuit's rows with a random magnitude, its direction
+    among those with a drawn direction (:meth:`_Rows.random`, :meth:`_Rows.directed`)."""
+    if not loads:
+        return []
+    rows = _Rows.build(list(range(len(loads))), loads)  # one group per row: original order kept
+    group = np.asarray(circuits, dtype=np.int64)
+    order = np.argsort(group, kind="stable")
+    out = list(loads)
+    for chosen, field_name in ((rows.shape != 0, "position"), (rows.directed(), "direction_position")):
+        sorted_chosen = chosen[order]
+        places = np.full(len(loads), -1, dtype=np.int64)
+        places[order[sorted_chosen]] = _positions(group[order][sorted_chosen])
+        for i in np.flatnonzero(chosen).tolist():
+            out[i] = out[i]._replace(**{field_name: int(places[i])})
+    return out
 
 
 def _check_rows(result: Estimate, params: RiskParameters) -> _Rows:
@@ -846,6 +985,7 @@ def _check_rows(result: Estimate, params: RiskParameters) -> _Rows:
     )
     d = _describe(placed, params)
     weight = trip_weights(result.project, placed)
+    keys = circuit_streams(result.project)
     return _Rows.from_arrays(
         group,
         d.shape,
@@ -857,6 +997,7 @@ def _check_rows(result: Estimate, params: RiskParameters) -> _Rows:
         d.imbalance,
         d.share,
         np.radians(d.angle_spread_deg),
+        keys[group] if len(keys) else np.zeros(len(group), dtype=np.uint64),
     )
 
 

@@ -292,3 +292,49 @@ def test_the_report_has_a_section_per_shared_device(make_workbook, tmp_path):
     assert "Shared device RCD1" in html and 'id="device-RCD1"' in html
     assert "12.300" in html  # RCD1's total, as check computes it (4.0 + 3.5 + 1.8 + 3.0 mA)
     assert job.report.sections and any(s.title == "Shared device RCD1" for s in job.report.sections)
+
+
+def test_a_device_sums_the_very_draws_its_circuits_were_judged_on(make_workbook):
+    # Two rings with RCBOs of their own and a cooker circuit with none, all under RCD1. Independent reconstruction
+    # with numpy: each circuit's Monte Carlo samples (risk.phasor_samples on that circuit's own loads, as check
+    # drew them), summed sample by sample, must give the device's likelihood exactly (trip point uniform on
+    # 15-30 mA, IEC 61008-1 for a 30 mA RCD), and two rings with identical loads must not share draws.
+    import numpy as np
+
+    from leakbudget import risk
+
+    circuits = [
+        ["Ring A", "rcd-30", 230, 50, "single", 32, "Kitchen", "RCD1", None, "sockets"],
+        ["Ring B", "rcd-30", 230, 50, "single", 32, "Lounge", "RCD1", None, "sockets"],
+        ["Cooker", "none", 230, 50, "single", 32, "Kitchen", "RCD1", None, "dedicated"],
+    ]
+    loads = [
+        ["Vending A", "Ring A", "vending-machine", 4, None, None, "Kitchen", None],
+        ["Vending B", "Ring B", "vending-machine", 4, None, None, "Lounge", None],
+        ["Ovens", "Cooker", "wall-oven", 2, None, None, "Kitchen", None],
+    ]
+    result = check(read_project(uk_flat(make_workbook, circuits=circuits, loads=loads)))
+    (rcd1,) = result.devices
+    assert result.risk is not None and rcd1.risk is not None
+    samples, seed = result.risk.samples, result.risk.seed
+    params = risk.RiskParameters.from_settings(result.project.settings)
+    groups, distributions = risk.circuit_distributions(result, params)
+    per_circuit = [
+        risk.phasor_samples([d for g, d in zip(groups, distributions) if g == k], samples=samples, seed=seed)
+        for k in range(3)
+    ]
+    dry = sum(s[0] for s in per_circuit)
+    switch_on = sum(s[1] for s in per_circuit)
+    assert rcd1.risk.dry == pytest.approx(float(np.mean(risk.trip_point_cdf(np.abs(dry), 15.0, 30.0))), abs=1e-6)
+    assert rcd1.risk.switch_on == pytest.approx(
+        float(np.mean(risk.trip_point_cdf(np.abs(switch_on), 15.0, 30.0))), abs=1e-6
+    )
+    assert 0.01 < rcd1.risk.dry < 0.99  # a figure that tests something
+    # each ring's own figure is its own samples against its own RCBO
+    ring_a = result.circuits[0].risk
+    assert ring_a is not None
+    expected_a = float(np.mean(risk.trip_point_cdf(np.abs(per_circuit[0][0]), 15.0, 30.0)))
+    assert ring_a.dry == pytest.approx(expected_a, abs=1e-6)
+    # identical loads on two circuits under one device: independent draws (correlation 0 ± 1/√N), not shared ones
+    correlation = np.corrcoef(np.abs(per_circuit[0][0]), np.abs(per_circuit[1][0]))[0, 1]
+    assert abs(correlation) < 5 / math.sqrt(samples)
