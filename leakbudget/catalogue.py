@@ -54,6 +54,7 @@ class Appliance:
     leakage_per: str = "line"  # a line-line row's figures: "line" (each line to earth) or "total" (both lines)
     line_neutral_ma: float = 0.0  # typical leakage of a line-line row's line-to-neutral parts, on L1 [mA]
     often_bonded: bool = False  # often supplied with neutral bonded to frame (a strap for three-wire connection)
+    luminaire: bool = False  # a luminaire or its driver (split: lighting or mixed circuits only)
 
     @property
     def line_to_line(self) -> bool:
@@ -143,6 +144,7 @@ def appliances_from_table(table: RawTable, origin_prefix: str | None = None) -> 
                 waveform=table.choice(row, "Waveform", WAVEFORMS, "sine") or "sine",
                 heating=bool(table.flag(row, "Heating")),
                 often_bonded=bool(table.flag(row, "Often bonded")),
+                luminaire=bool(table.flag(row, "Luminaire")),
                 typical_ma=typical,
                 upper_ma=upper,
                 reference_voltage_v=table.number(row, "Reference voltage", "V", positive=True, plausible=VOLTAGE_V)

@@ -61,6 +61,7 @@ class Load:
         None  # its neutral tied to earth (a strap left in, a bonded generator); None=blank
     )
     connection: str | None = None  # the Connection column, "plug" or "fixed" (hard-wired); None = the catalogue's
+    group: str | None = None  # the Group column: loads of one group move together (split)
 
 
 PURPOSES = ("sockets", "lighting", "dedicated", "mixed")

@@ -36,6 +36,16 @@ SWITCH_ON_LIMIT_SOURCE = Source(
     Kind.DEFAULT, "modelling choice: 1 % switch-on trip likelihood, above which a circuit within budget is marginal"
 )
 LOAD_FACTOR_DEFAULT = 0.8  # continuous load at 80 % of rating, common practice (cf. NEC 210.19/210.20)
+# How `split` judges a circuit's current (leakbudget.planner.current): "diversity" (the largest load in full, the
+# others at the Diversity share), "all-on" (every load at once within rating × Load factor) or "strict" (all-on, and
+# a limit no plan can meet makes the plan fail). Limits the loads that must stay break are warnings unless strict.
+CURRENT_RULES = ("diversity", "all-on", "strict")
+CURRENT_RULE_DEFAULT = "diversity"
+DIVERSITY_DEFAULT = 0.4
+DIVERSITY_SOURCE = Source.common_practice(
+    "the largest load in full and 40 % of the others, in the manner of the diversity allowances designers use for "
+    "final circuits (figure from memory)"
+)
 BY_DEVICE = "by device: 120 V 60 Hz for UL devices (common practice), 230 V 50 Hz for RCDs (IEC 60038)"
 
 
@@ -260,6 +270,23 @@ SETTING_SPECS: tuple[SettingSpec, ...] = (
         LOAD_FACTOR_DEFAULT,
         Source.common_practice("80 % of rating for continuous load"),
         "Share of a circuit's rating the split planner may load it to (default 0.8).",
+    ),
+    SettingSpec(
+        "Current rule",
+        _choice(*CURRENT_RULES),
+        CURRENT_RULE_DEFAULT,
+        Source.common_practice("diversity: the largest load in full, the others at the Diversity share"),
+        "How `leakbudget split` judges a circuit's current: diversity (default: the largest load in full, the others "
+        "at the Diversity share, within the rating), all-on (every load at once within rating × Load factor) or "
+        "strict (all-on, and a current limit no plan can meet fails the plan, exit 1).",
+    ),
+    SettingSpec(
+        "Diversity",
+        _fraction,
+        DIVERSITY_DEFAULT,
+        DIVERSITY_SOURCE,
+        "Share of every load but the largest that counts towards a circuit's current under the diversity rule "
+        "(default 0.4).",
     ),
     SettingSpec(
         "Max trip likelihood",

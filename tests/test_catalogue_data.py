@@ -27,6 +27,7 @@ APPLIANCE_HEADER = [
     "Typical leakage", "Upper leakage", "Reference voltage", "Reference frequency", "Typical power",
     "Wiring", "Rated voltage", "Leakage per", "Line-neutral leakage", "Typical source", "Upper source",
     "Often bonded",
+    "Luminaire",
 ]  # fmt: skip
 CABLE_HEADER = ["Key", "Description", "Capacitance", "Source"]
 
@@ -38,6 +39,7 @@ ENUMERATIONS = {
     "Waveform": {"sine", "pulsating-dc", "high-frequency", "smooth-dc"},
     "Heating": {"yes", "no"},
     "Often bonded": {"yes", "no"},
+    "Luminaire": {"yes", "no"},
     "Wiring": {"", "line-neutral", "line-line"},
     "Leakage per": {"", "line", "total"},
 }

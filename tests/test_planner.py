@@ -29,9 +29,10 @@ MARGIN_MA = 1e-4  # the planner keeps 0.1 µA below every budget, so a sum exact
 def sheets(
     circuits: list[list[Any]], loads: list[list[Any]], settings: list[list[Any]] | None = None
 ) -> dict[str, list[list[Any]]]:
+    # every load on at once within 0.8 × rating, a limit every plan must meet (the strict current rule), the rule
+    # the exhaustive search uses
     out = {"Circuits": [CIRCUITS, *circuits], "Loads": [LOADS, *loads]}
-    if settings:
-        out["Settings"] = [["Setting", "Value"], *settings]
+    out["Settings"] = [["Setting", "Value"], *(settings or []), ["Current rule", "strict"]]
     return out
 
 
@@ -280,6 +281,7 @@ def test_split_json_document(make_workbook):
         "row": 3,
         "room": "Kitchen",
         "stays": False,
+        "group": None,
         "from": None,
         "to": "K1",
         "moved": False,

@@ -135,14 +135,15 @@ def test_the_verifier_catches_broken_plans(make_workbook, change, problem):
 def test_the_verifier_catches_current_and_rooms(make_workbook):
     project, plan = planned(make_workbook)
     loads = list(plan.after.project.loads)
-    loads[2] = dataclasses.replace(loads[2], current_a=10.0, circuit_id="K1")  # 12 A + 10 A on K1
+    # the strict current rule (these sheets): every load at once within 0.8 × 20 A = 16 A; 12 A + 10 A on K1 is above
+    loads[2] = dataclasses.replace(loads[2], current_a=10.0, circuit_id="K1")
     broken = check(dataclasses.replace(plan.after.project, loads=loads))
-    assert any(p.startswith("K1 carries 22.000 A, above 16.000 A") for p in verify_plan(project, broken, set(), set()))
+    assert "K1 draws 22.000 A by the strict current rule, above 16.000 A" in verify_plan(project, broken, set(), set())
     assert [a.to_id for a in plan.assignments] == ["K2", "K1", "K2"]  # A had to leave K1 (1.0 + 1.0 > 1.8 mA)
     circuits = [
         dataclasses.replace(c, rooms=("Bath",)) if c.circuit_id == "K2" else c for c in plan.after.project.circuits
     ]
     broken = check(dataclasses.replace(plan.after.project, circuits=circuits))
-    assert "'A' was put on K2, which does not serve its room, lacks its leg or is unprotected" in verify_plan(
+    assert "'A' was put on K2: K2 does not serve room 'Kitchen'" in verify_plan(
         project, broken, set(), set()
     )

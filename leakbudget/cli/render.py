@@ -473,9 +473,10 @@ def render_split(job: Any) -> None:
         if d["before_status"] not in (None, d["status"]):
             status = f"{d['before_status']}→{status}"
         current = f"{fmt(d['current_a'], 1)}{limit}"
-        if d["current_limit_a"] is not None and d["current_a"] is not None and d["current_a"] > d["current_limit_a"]:
-            current = f"[bold red]{current}[/]"
-            status += ", [bold red]over current[/]"
+        if d["current_warnings"]:
+            style = "bold red" if plan.current_rule.strict else "yellow"
+            current = f"[{style}]{current}[/]"
+            status += f", [{style}]current[/]"
         table.add_row(d["circuit"] + (" (new)" if d["new"] else ""), loads, total, used, current, status)
     out_console.print(table)
     for n in plan.new_circuits:
@@ -488,10 +489,13 @@ def render_split(job: Any) -> None:
     gate = "phasor" if project.settings.sum_rule == "phasor" else "arithmetic"
     out_console.print(
         f"Limits: budget = {project.settings.budget_fraction:g} × trip level on the arithmetic sum "
-        f"(check gates on the {gate} sum); current ≤ {plan.load_factor:g} × rating, from "
-        f"{project.settings.sources['Load factor']}.",
+        f"(check gates on the {gate} sum). {plan.current_rule.describe()}",
         highlight=False,
     )
+    for texts in plan.current_warnings.values():
+        for text in texts:
+            label = "[bold red]Current:[/]" if plan.current_rule.strict else "[yellow]Current (warning):[/]"
+            out_console.print(f"{label} {text}.", highlight=False)
     if plan.likelihood_cap is not None:
         out_console.print(f"Trip likelihood: {likelihood_line(plan)}", highlight=False)
     for b in plan.blockers:

@@ -137,6 +137,13 @@ LOADS = Sheet(
             old_names=("Fixed",),
         ),
         Column(
+            "Group",
+            None,
+            False,
+            "A name shared by loads that belong together (a desk, a workstation, a bench): `leakbudget split` moves "
+            "them together or not at all.",
+        ),
+        Column(
             "Connection",
             None,
             False,
@@ -270,6 +277,12 @@ APPLIANCES = Sheet(
             False,
             "yes if the appliance often comes with its neutral bonded to its frame (a bonding strap for a "
             "three-wire connection), so the review asks for the Loads sheet's Neutral-earth bond.",
+        ),
+        Column(
+            "Luminaire",
+            None,
+            False,
+            "yes for a luminaire or its driver: `split` puts it only on lighting or mixed circuits.",
         ),
     ),
 )

@@ -32,6 +32,7 @@ def assignment_dict(a: Any) -> dict[str, Any]:
         "row": load.row,
         "room": load.room,
         "stays": load.stays,
+        "group": load.group,
         "from": a.from_id,
         "to": a.to_id,
         "moved": a.moved,
@@ -59,6 +60,7 @@ def circuits_list(plan: SplitPlan) -> list[dict[str, Any]]:
         d.update(
             {
                 "new": cid in new,
+                "purpose": c.circuit.purpose,
                 "template": new[cid].template if cid in new else None,
                 "before_load_count": b.load_count if b else None,
                 "before_leakage_ma": _num(b.leakage_ma) if b else None,
@@ -68,6 +70,7 @@ def circuits_list(plan: SplitPlan) -> list[dict[str, Any]]:
                 "current_a": _num(plan.current_after_a.get(cid)),
                 "before_current_a": _num(plan.current_before_a.get(cid)) if b else None,
                 "current_limit_a": _capacity(plan.capacity_a.get(cid)),
+                "current_warnings": plan.current_warnings.get(cid, []),
                 "tightened_budget_ma": _num(plan.tightened_budget_ma.get(cid)),
                 "within_likelihood_cap": (
                     None if plan.likelihood_cap is None or c.risk is None else c.risk.switch_on <= plan.likelihood_cap
@@ -76,6 +79,16 @@ def circuits_list(plan: SplitPlan) -> list[dict[str, Any]]:
         )
         out.append(d)
     return out
+
+
+def current_limit_words(plan: SplitPlan, purpose: str | None) -> str:
+    """What a circuit's current limit is, in a few words: "rating, diversity 40 %" or "0.8 × rating"."""
+    rule = plan.current_rule
+    if rule.all_on and purpose != "dedicated":
+        return f"{rule.load_factor:g} × rating, every load on"
+    if rule.all_on:
+        return "rating, dedicated"
+    return f"rating, the largest load and {rule.diversity:.0%} of the others"
 
 
 def summary(plan: SplitPlan) -> str:
@@ -137,6 +150,12 @@ def to_json(plan: SplitPlan) -> dict[str, Any]:
         "planned_on": "arithmetic sum",
         "load_factor": plan.load_factor,
         "load_factor_source": str(project.settings.sources["Load factor"]),
+        "current_rule": plan.current_rule.rule,
+        "current_rule_text": plan.current_rule.describe(),
+        "diversity": plan.current_rule.diversity,
+        "current_warnings": [
+            {"circuit": cid, "message": text} for cid, texts in plan.current_warnings.items() for text in texts
+        ],
         "likelihood_cap": plan.likelihood_cap,
         "likelihood_cap_source": plan.likelihood_cap_source,
         "likelihood_capped_scenario": "switch-on" if plan.likelihood_cap is not None else None,
@@ -154,6 +173,7 @@ def to_json(plan: SplitPlan) -> dict[str, Any]:
                 "rating_a": n.circuit.rating_a,
                 "voltage_v": n.circuit.voltage_v,
                 "system": n.circuit.system,
+                "purpose": n.circuit.purpose,
                 "rooms": list(n.circuit.rooms),
             }
             for n in plan.new_circuits
@@ -220,7 +240,7 @@ def split_sheet(plan: SplitPlan) -> SheetData:
     for c in doc["circuits"]:
         limits = f"budget {c['budget_ma']:.3f} mA" if c["budget_ma"] is not None else "unprotected"
         if c["current_limit_a"] is not None:
-            limits += f"; {c['current_limit_a']:.1f} A ({plan.load_factor:g} × rating)"
+            limits += f"; {c['current_limit_a']:.1f} A ({current_limit_words(plan, c['purpose'])})"
         if c["template"]:
             limits += f"; new, {c['template']}"
         rows.append(
@@ -255,6 +275,8 @@ def split_sheet(plan: SplitPlan) -> SheetData:
         *([f"Trip likelihood: {likelihood_line(plan)}"] if plan.likelihood_cap is not None else []),
         "Nothing else in the workbook was changed: move the loads in the Loads sheet yourself, then check again.",
         *(f"No plan can meet every limit: {b['message']}." for b in doc["blocked"]),
+        f"Current: {doc['current_rule_text']}",
+        *(f"Current warning: {w['message']}." for w in doc["current_warnings"]),
         *(f"Note: {n}" for n in doc["notes"]),
         *(f"Warning: {w}" for w in doc["warnings"]),
         f"Caution: {CAUTION}",

@@ -13,8 +13,14 @@ new devices, then circuits moved. Constraints, on the arithmetic sum (the conser
   least two of them (BS 7671:2018 reg. 314.1; common practice on dual-RCD boards);
 * an RCBO of its own only for a circuit within that RCBO's budget (the shared device's kind).
 
-Exact: a small MILP (scipy's HiGHS), proven optimal. A device's rated current and the likelihood cap are not yet
-constraints of the board plan (the load plan's current limits still hold on every circuit).
+* every shared device with a ``Rating`` within it by the current rule (:mod:`leakbudget.planner.current`): under
+  ``diversity`` the largest circuit's current (itself after diversity) in full and the Diversity share of the
+  others, in the sufficient linear form Σ I ≤ (rating − (1 − d) × I_max) / d; under ``all-on`` and ``strict`` every
+  load at once within rating × Load factor; a device may keep what it carries today, except under ``strict``;
+* under a trip-likelihood cap, a device's budget lowered where a plan left it above the cap
+  (:mod:`leakbudget.planner.likelihood_cap`).
+
+Exact: a small MILP (scipy's HiGHS), proven optimal.
 """
 
 from __future__ import annotations
@@ -29,6 +35,9 @@ from leakbudget.devices import budget_ma, device, smooth_dc_limit_ma
 from leakbudget.estimate import load_waveform
 from leakbudget.leakage import LEG_ANGLES_DEG
 from leakbudget.model import Circuit, Project, SharedDevice
+from leakbudget.planner.current import CURRENT_TOLERANCE_A, CurrentRule
+from leakbudget.planner.rules import load_current_a
+from leakbudget.protection import DeviceResult
 
 NEW_DEVICE_COST = 1000  # one new device outweighs any number of moves
 
@@ -71,12 +80,36 @@ def _may_hang_under(circuit: Circuit, d: SharedDevice) -> bool:
     return circuit.system != "single" or circuit.phase in LEG_ANGLES_DEG[d.system]
 
 
-def plan_board(project: Project, result: CheckResult) -> BoardPlan | None:
-    """The board plan for ``result`` (a check of ``project``), or None when every shared device is within budget."""
-    over = [d for d in result.devices if d.shared.circuit_id is None and d.gate_ma > d.budget_ma]
+def device_limit_key(device_id: str) -> tuple[str, str | None]:
+    """Key of a shared device in the planner's lowered budgets (the trip-likelihood cap)."""
+    return "device", device_id.lower()
+
+
+def circuit_current_a(project: Project, circuit: Circuit, rule: CurrentRule) -> float:
+    """A circuit's current as a device above it counts it [A]: its own current by the rule (after diversity)."""
+    currents = [
+        load_current_a(ld, project.catalogue.appliances.get(ld.appliance_key or ""), circuit)[0]
+        for ld in project.loads
+        if ld.circuit_id == circuit.circuit_id
+    ]
+    return rule.demand_a(currents)
+
+
+def plan_board(
+    project: Project, result: CheckResult, limits_ma: dict[tuple[str, str | None], float] | None = None
+) -> BoardPlan | None:
+    """The board plan for ``result`` (a check of ``project``), or None when every shared device is within budget
+    (``limits_ma``: budgets lowered by the trip-likelihood cap, :func:`device_limit_key`)."""
+    limits_ma = limits_ma or {}
+
+    def budget_of(d: DeviceResult) -> float:
+        return min(d.budget_ma, limits_ma.get(device_limit_key(d.device_id), d.budget_ma))
+
+    over = [d for d in result.devices if d.shared.circuit_id is None and d.gate_ma > budget_of(d)]
     if not over:
         return None
     settings = project.settings
+    rule = CurrentRule.from_settings(settings)
     fraction, of = settings.budget_fraction, settings.budget_of
     devices = {d.device_id: d for d in result.devices if d.shared.circuit_id is None}
     circuits = {c.circuit.circuit_id: c for c in result.circuits}
@@ -94,13 +127,16 @@ def plan_board(project: Project, result: CheckResult) -> BoardPlan | None:
         fixed = np.array([d.gate_ma for d in members])  # what each device carries now …
         for k, c in enumerate(movable):
             fixed[ids.index(c.protected_by or "")] -= load[k]  # … less the movable circuits under it
-        budget = np.array([d.budget_ma for d in members])
+        budget = np.array([budget_of(d) for d in members])
         allowed = np.array(
             [
                 [_may_hang_under(c, d.shared) and _dc_fits(smooth[c.circuit_id], d.shared) for d in members]
                 for c in movable
             ]
-        )
+        ).reshape(len(movable), m)
+        current = [ids.index(c.protected_by) for c in movable]  # type: ignore[arg-type]
+        amps = np.array([circuit_current_a(project, c, rule) for c in movable])
+        capacity = _current_capacity(members, allowed, amps, current, rule)
         own_budget = np.array([budget_ma(devices[c.protected_by].shared.device, fraction, of) for c in movable])  # type: ignore[index]
         rcbo_ok = load <= own_budget
         lighting = [k for k, c in enumerate(movable) if c.purpose == "lighting"]
@@ -110,13 +146,16 @@ def plan_board(project: Project, result: CheckResult) -> BoardPlan | None:
             budget,
             allowed,
             rcbo_ok,
-            [ids.index(c.protected_by) for c in movable],  # type: ignore[arg-type]
+            current,
             lighting if m >= 2 and len(lighting) >= 2 else [],
+            amps,
+            capacity,
         )
         if solved is None:
             problems.append(
                 f"board '{board or 'main'}': no arrangement of its circuits under {', '.join(ids)}, even with "
-                "RCBOs for circuits within their own budget, keeps every device within its budget"
+                "RCBOs for circuits within their own budget, keeps every device within its budget and its rated "
+                "current"
             )
             optimal = False
             continue
@@ -128,6 +167,28 @@ def plan_board(project: Project, result: CheckResult) -> BoardPlan | None:
             else:
                 moves.append(CircuitMove(c.circuit_id, c.protected_by, ids[to]))
     return BoardPlan(moves, not problems, optimal, problems)
+
+
+def _current_capacity(
+    members: list[DeviceResult], allowed: np.ndarray, amps: np.ndarray, current: list[int], rule: CurrentRule
+) -> np.ndarray:
+    """The most circuit current each device may carry [A] (infinite without a Rating): the rule's linear form
+    with the largest circuit that may hang under it, or what it carries today (not under the strict rule)."""
+    out = np.full(len(members), np.inf)
+    on = np.asarray(current, dtype=np.int64)
+    for k, d in enumerate(members):
+        rating = d.shared.rating_a
+        if not rating:
+            continue
+        if rule.all_on:
+            linear = rating * rule.load_factor
+        else:
+            could = amps[allowed[:, k]] if len(amps) else np.zeros(0)
+            biggest = float(could.max()) if could.size else 0.0
+            linear = max((rating - (1.0 - rule.diversity) * biggest) / rule.diversity, 0.0)
+        today = 0.0 if rule.strict else float(amps[on == k].sum()) if len(amps) else 0.0
+        out[k] = max(linear, today) + CURRENT_TOLERANCE_A / 2
+    return out
 
 
 def _smooth_dc(result: CheckResult) -> dict[str, float]:
@@ -159,6 +220,8 @@ def _solve(
     rcbo_ok: np.ndarray,
     current: list[int],
     lighting: list[int],
+    amps: np.ndarray | None = None,
+    capacity: np.ndarray | None = None,
 ) -> list[tuple[int, bool]] | None:
     """Exact MILP: x[c, d] (circuit c under device d), r[c] (an RCBO of its own), y[d] (d carries lighting).
     Minimise NEW_DEVICE_COST × Σr + Σ moves; None when infeasible."""
@@ -189,6 +252,13 @@ def _solve(
         for c in range(n):
             a[x(c, d)] = load[c]
         _add(rows, lo, hi, a, -np.inf, budget[d] - fixed[d])
+    if amps is not None and capacity is not None:  # every device with a rating within it
+        for d in range(m):
+            if np.isfinite(capacity[d]):
+                a = np.zeros(size)
+                for c in range(n):
+                    a[x(c, d)] = amps[c]
+                _add(rows, lo, hi, a, -np.inf, float(capacity[d]))
     if lighting:  # lighting over at least two devices
         for d in range(m):
             a = np.zeros(size)

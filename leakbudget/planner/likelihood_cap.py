@@ -24,10 +24,12 @@ from __future__ import annotations
 
 from leakbudget.estimate import CircuitResult
 from leakbudget.model import Project
+from leakbudget.planner.board import device_limit_key
 from leakbudget.planner.build import Blocker, cable_ma, circuit_limit_key, kind_limit_key
 from leakbudget.planner.packing.problem import MARGIN_MA
 from leakbudget.planner.plan import SplitOptions, SplitPlan, plan_once
 from leakbudget.progress import Progress
+from leakbudget.protection import DeviceResult
 from leakbudget.risk import likelihood_text
 from leakbudget.settings import Settings
 
@@ -44,8 +46,18 @@ def likelihood_cap(settings: Settings, options: SplitOptions) -> tuple[float, st
 
 
 def over_cap(plan: SplitPlan, cap: float) -> list[CircuitResult]:
-    """Protected circuits whose switch-on likelihood after the plan is above ``cap``."""
-    return [c for c in plan.after.circuits if c.risk is not None and c.risk.switch_on > cap]
+    """Protected circuits with a device of their own whose switch-on likelihood after the plan is above ``cap``
+    (a circuit under a shared device only has that device's likelihood: :func:`devices_over_cap`)."""
+    return [
+        c for c in plan.after.circuits if c.risk is not None and c.circuit.device.protected and c.risk.switch_on > cap
+    ]
+
+
+def devices_over_cap(plan: SplitPlan, cap: float) -> list[DeviceResult]:
+    """Shared devices of a board whose switch-on likelihood after the plan is above ``cap``."""
+    return [
+        d for d in plan.after.devices if d.shared.circuit_id is None and d.risk is not None and d.risk.switch_on > cap
+    ]
 
 
 def plan_within_cap(project: Project, options: SplitOptions, progress: Progress | None = None) -> SplitPlan:
@@ -59,17 +71,25 @@ def plan_within_cap(project: Project, options: SplitOptions, progress: Progress 
     plan = plan_once(project, options, progress)
     plans = 1
     why: dict[str, str] = {}
-    while over := [c for c in over_cap(plan, cap) if c.circuit.circuit_id not in why]:
+    while True:
+        over = [c for c in over_cap(plan, cap) if c.circuit.circuit_id not in why]
+        devices = [d for d in devices_over_cap(plan, cap) if d.device_id not in why]
+        if not over and not devices:
+            break
         tighter, stuck = _tighten(plan, over, limits)
+        for d in devices:  # a shared device: a lower budget for the board plan
+            key = device_limit_key(d.device_id)
+            tighter[key] = min(tighter.get(key, TIGHTEN * d.leakage_ma), TIGHTEN * d.leakage_ma)
         why.update(stuck)
+        names = [c.circuit.circuit_id for c in over] + [d.device_id for d in devices]
         if tighter == limits:
             break
         if plans >= MAX_PLANS:
             why.update(
                 {
-                    c.circuit.circuit_id: f"{MAX_PLANS} plans with ever tighter budgets did not bring it under"
-                    for c in over
-                    if c.circuit.circuit_id not in why
+                    n: f"{MAX_PLANS} plans with ever tighter budgets did not bring it under"
+                    for n in names
+                    if n not in why
                 }
             )
             break
@@ -78,9 +98,9 @@ def plan_within_cap(project: Project, options: SplitOptions, progress: Progress 
         if len(candidate.blockers) > len(plan.blockers):
             why.update(
                 {
-                    c.circuit.circuit_id: "a tighter budget leaves loads with no circuit that may take them"
-                    for c in over
-                    if c.circuit.circuit_id not in why
+                    n: "a tighter budget leaves loads or circuits with nowhere that may take them"
+                    for n in names
+                    if n not in why
                 }
             )
             break
@@ -90,6 +110,17 @@ def plan_within_cap(project: Project, options: SplitOptions, progress: Progress 
     plan.blockers.extend(
         _blocker(plan, c, cap, source, why.get(c.circuit.circuit_id, "its budget could not be tightened further"))
         for c in over_cap(plan, cap)
+    )
+    plan.blockers.extend(
+        Blocker(
+            None,
+            (),
+            f"{d.device_id}: its switch-on trip likelihood {likelihood_text(d.risk, switch_on=True)} is above the cap "
+            f"of {100 * cap:g} % ({source}) and "
+            f"{why.get(d.device_id, 'no board plan with a tighter budget brings it under')}; measure its circuits "
+            "(the estimate may be pessimistic) or move a circuit to another device or an RCBO of its own",
+        )
+        for d in devices_over_cap(plan, cap)
     )
     return plan
 
@@ -119,7 +150,8 @@ def _tighten(
         if cid in blocked or target >= total:
             why[cid] = "only loads that must stay are on it (marked Stays, or left as they are)"
             continue
-        key = kind_limit_key(new[cid].room_key) if cid in new else circuit_limit_key(cid)
+        kind_key = new[cid].kind_key if cid in new else None
+        key = kind_limit_key(kind_key) if kind_key is not None else circuit_limit_key(cid)
         tighter[key] = min(tighter.get(key, target), target)
     return tighter, why
 
@@ -130,7 +162,7 @@ def _tightened(plan: SplitPlan, limits: dict[LimitKey, float]) -> dict[str, floa
     for c in plan.after.circuits:
         cid = c.circuit.circuit_id
         key = next(
-            (kind_limit_key(n.room_key) for n in plan.new_circuits if n.circuit.circuit_id == cid),
+            (kind_limit_key(n.kind_key) for n in plan.new_circuits if n.circuit.circuit_id == cid and n.kind_key),
             circuit_limit_key(cid),
         )
         if key in limits and c.budget_ma is not None and limits[key] < c.budget_ma:

@@ -19,10 +19,11 @@ from leakbudget.errors import LeakbudgetError
 from leakbudget.model import Circuit, Load, Project
 from leakbudget.planner.board import BoardPlan, apply_board, plan_board
 from leakbudget.planner.build import Blocker, Figures, RoomGroup, build
+from leakbudget.planner.current import CurrentRule
 from leakbudget.planner.packing.bounds import packing_bound
 from leakbudget.planner.packing.heuristic import Unplaceable, improve
 from leakbudget.planner.packing.problem import Packing
-from leakbudget.planner.rules import current_capacity_a, load_current_a, verify_plan
+from leakbudget.planner.rules import load_current_a, load_kind, verify_plan
 from leakbudget.progress import Progress
 
 NEW_PREFIX = "NEW-"
@@ -49,6 +50,8 @@ class SplitOptions:
     new_rating_a: float | None = None  # rating of new circuits [A] (default: copy the room's circuits)
     exact_max_items: int = EXACT_MAX_ITEMS
     max_trip_likelihood: float | None = None  # cap on switch-on likelihood (default: the setting) [fraction]
+    keep: tuple[str, ...] = ()  # names of loads that stay where they are (--keep), as typed
+    avoid: tuple[str, ...] = ()  # ids of circuits that take no new load (--avoid), as typed
 
 
 @dataclass(slots=True)
@@ -73,7 +76,7 @@ class Assignment:
 class NewCircuit:
     circuit: Circuit
     template: str  # in words: what it copies
-    room_key: str | None = None  # the room whose new-circuit kind it is
+    kind_key: tuple[str | None, str] | None = None  # (room key, purpose) of the new-circuit kind it is
 
 
 @dataclass
@@ -93,7 +96,9 @@ class SplitPlan:
     load_factor: float
     current_before_a: dict[str, float] = field(default_factory=dict)  # Σ load current per circuit id [A]
     current_after_a: dict[str, float] = field(default_factory=dict)
-    capacity_a: dict[str, float] = field(default_factory=dict)  # rating × load factor per circuit id [A]
+    capacity_a: dict[str, float] = field(default_factory=dict)  # the current rule's limit per circuit id [A]
+    current_rule: CurrentRule = field(default_factory=CurrentRule)
+    current_warnings: dict[str, list[str]] = field(default_factory=dict)  # limits broken after the plan, per circuit
     notes: list[str] = field(default_factory=list)
     likelihood_cap: float | None = None  # cap on each protected circuit's switch-on trip likelihood [fraction]
     likelihood_cap_source: str | None = None
@@ -157,6 +162,8 @@ def plan_once(
         options.new_device.strip().lower() if options.new_device else None,
         options.new_rating_a,
         limits_ma,
+        keep=frozenset(k.strip().lower() for k in options.keep),
+        avoid=frozenset(a.strip().lower() for a in options.avoid),
     )
     loads, circuits = project.loads, project.circuits
     groups = setup.groups
@@ -166,27 +173,27 @@ def plan_once(
     blocked_ids = {circuits[j].circuit_id for j in setup.frozen}
     for g in groups:
         if g.solution is None:
-            names = [f"'{loads[i].name}'" for i in g.items]
+            names = [f"'{loads[i].name}'" for m in g.members for i in m]
             shown = ", ".join(names[:6]) + (f" and {len(names) - 6} more" if len(names) > 6 else "")
             where = ", ".join(circuits[j].circuit_id for j in g.bins) or "any circuit"
             blockers.append(
                 Blocker(
                     None,
-                    tuple(loads[i].name for i in g.items),
+                    tuple(loads[i].name for m in g.members for i in m),
                     f"the loads {shown} cannot all be placed on {where}, and no new circuit that "
                     f"may take them can take the rest",
                 )
             )
-            left_alone |= {loads[i].row for i in g.items}
+            left_alone |= {loads[i].row for m in g.members for i in m}
             blocked_ids |= {circuits[j].circuit_id for j in g.bins}
     if progress is not None:
         progress(STAGE_CHECK, 0, 1)
     planned, new_circuits = _apply(project, groups, loads, circuits)
     after = check(planned)
-    problems = verify_plan(project, after, blocked_ids, left_alone)
+    problems = verify_plan(project, after, blocked_ids, left_alone, frozenset(a.strip().lower() for a in options.avoid))
     if problems:
         raise RuntimeError("the split planner produced a plan that breaks a limit (a bug): " + "; ".join(problems))
-    board = plan_board(planned, after) if planned.protection else None
+    board = plan_board(planned, after, limits_ma) if planned.protection else None
     if board is not None:
         planned = apply_board(planned, board)
         after = check(planned)
@@ -205,6 +212,8 @@ def plan_once(
         progress(STAGE_CHECK, 1, 1)
     assignments = _assignments(project, planned, setup.figures)
     factor = float(project.settings["Load factor"])
+    rule = CurrentRule.from_settings(project.settings)
+    current_after = _currents(planned, setup.figures, rule)
     unplaced_movable = sum(int((g.packing.start < 0).sum()) for g in groups if g.solution is not None)
     return SplitPlan(
         before=before,
@@ -220,21 +229,40 @@ def plan_once(
         exact_groups=sum(g.exact for g in groups),
         elapsed_s=time.monotonic() - started,
         load_factor=factor,
-        current_before_a=_currents(project, setup.figures),
-        current_after_a=_currents(planned, setup.figures),
-        capacity_a={c.circuit_id: current_capacity_a(c, factor) for c in planned.circuits},
+        current_before_a=_currents(project, setup.figures, rule),
+        current_after_a=current_after,
+        capacity_a={c.circuit_id: rule.limit_a(c) for c in planned.circuits},
+        current_rule=rule,
+        current_warnings=_current_warnings(planned, setup.figures, rule),
         notes=_notes(project, assignments, planned),
         board=board,
     )
 
 
-def _currents(project: Project, figures: Figures) -> dict[str, float]:
-    """Σ load current per circuit id [A] (the planner's current rule)."""
+def _circuit_loads(project: Project, figures: Figures) -> dict[str, list[tuple[str, float, str]]]:
+    """Every circuit's loads as (name, current [A], kind), by circuit id."""
     circuits = {c.circuit_id: c for c in project.circuits}
-    out = dict.fromkeys(circuits, 0.0)
+    out: dict[str, list[tuple[str, float, str]]] = {cid: [] for cid in circuits}
     for load in project.loads:
         if load.circuit_id is not None:
-            out[load.circuit_id] += figures.amps_a(load, circuits[load.circuit_id])
+            circuit = circuits[load.circuit_id]
+            appliance = figures.appliance(load)
+            out[load.circuit_id].append((load.name, figures.amps_a(load, circuit), load_kind(load, appliance, circuit)))
+    return out
+
+
+def _currents(project: Project, figures: Figures, rule: CurrentRule) -> dict[str, float]:
+    """Each circuit's current by the current rule [A], by circuit id."""
+    return {cid: rule.demand_a([a for _, a, _ in on]) for cid, on in _circuit_loads(project, figures).items()}
+
+
+def _current_warnings(project: Project, figures: Figures, rule: CurrentRule) -> dict[str, list[str]]:
+    """The limits of the current rule each circuit with a rating breaks after the plan, in words, by circuit id."""
+    circuits = {c.circuit_id: c for c in project.circuits}
+    out = {}
+    for cid, on in _circuit_loads(project, figures).items():
+        if found := rule.findings(circuits[cid], on):
+            out[cid] = found
     return out
 
 
@@ -356,21 +384,25 @@ def _apply(
             names.append(f"{NEW_PREFIX}{counter}")
             kind = g.kinds[type_index]
             rooms: list[str] = []
-            for r in np.flatnonzero(sol.bin_of == p.n_existing + k).tolist():
-                room = loads[g.items[r]].room
+            on_it = [i for r in np.flatnonzero(sol.bin_of == p.n_existing + k).tolist() for i in g.members[r]]
+            for i in on_it:
+                room = loads[i].room
                 if room and room.strip().lower() not in {x.lower() for x in rooms}:
                     rooms.append(room.strip())
+            # hard-wired equipment alone on its new circuit: a dedicated circuit
+            purpose = "dedicated" if kind.key[1] == "mixed" and len(on_it) == 1 else kind.prototype.purpose
             circuit = dataclasses.replace(
                 kind.prototype,
                 circuit_id=names[-1],
                 rooms=tuple(rooms) or kind.prototype.rooms,
                 note=f"new circuit proposed by leakbudget split ({kind.template})",
                 row=0,
+                purpose=purpose,
             )
             new_circuits.append(NewCircuit(circuit, kind.template, kind.key))
         for r, b in enumerate(sol.bin_of.tolist()):
-            i = g.items[r]
-            target[i] = circuits[g.bins[b]].circuit_id if b < p.n_existing else names[b - p.n_existing]
+            for i in g.members[r]:
+                target[i] = circuits[g.bins[b]].circuit_id if b < p.n_existing else names[b - p.n_existing]
     planned_loads = [dataclasses.replace(ld, circuit_id=target.get(i, ld.circuit_id)) for i, ld in enumerate(loads)]
     planned = dataclasses.replace(
         project,

@@ -570,6 +570,7 @@ def read_loads(
                 protected_by=_protected_by(table, row, shared, board_level=False) if shared else None,
                 neutral_earth_bond=table.flag(row, "Neutral-earth bond"),
                 connection=_connection(table, row),
+                group=table.text(row, "Group"),
             )
         )
     return loads
