@@ -144,6 +144,4 @@ def test_the_verifier_catches_current_and_rooms(make_workbook):
         dataclasses.replace(c, rooms=("Bath",)) if c.circuit_id == "K2" else c for c in plan.after.project.circuits
     ]
     broken = check(dataclasses.replace(plan.after.project, circuits=circuits))
-    assert "'A' was put on K2: K2 does not serve room 'Kitchen'" in verify_plan(
-        project, broken, set(), set()
-    )
+    assert "'A' was put on K2: K2 does not serve room 'Kitchen'" in verify_plan(project, broken, set(), set())

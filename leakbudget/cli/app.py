@@ -132,15 +132,20 @@ def review(
 SPLIT_HELP = (
     "Plan the fewest changes that bring every protected circuit within its leakage budget and current limit, "
     "and write a 'Split plan' sheet (the Loads sheet is not changed).\n\n"
-    "Loads go only on protected circuits that serve their room (when both say); loads marked Stays stay; unplaced loads "
-    "are placed. The plan has the fewest new circuits (NEW-1, ...), then the fewest moved loads, then the most "
-    "headroom on the tightest circuit; the current limit is rating × the Load factor setting (default 0.8). "
+    "Loads go only on protected circuits that serve their room (when both say) and take their kind of load (a "
+    "circuit's Purpose: plug loads on sockets or mixed circuits, luminaires on lighting or mixed, nothing onto a "
+    "dedicated circuit); loads of one Group move together; loads marked Stays (or named in --keep) stay; unplaced "
+    "loads are placed. The plan has the fewest new circuits (NEW-1, ...), then the fewest moved loads, then the most "
+    "headroom on the tightest circuit. Current is judged by the Current rule setting: diversity (default: the "
+    "largest load in full, 40 % of the others, within the rating), all-on, or strict; a single plug load at most "
+    "80 % of the rating. "
     "Small plans are solved exactly (a MILP, HiGHS), large ones by a heuristic with a lower bound and gap.\n\n"
     "With --max-trip-likelihood (or the Max trip likelihood setting) every protected circuit's switch-on trip "
     "likelihood must also stay within that cap: circuits above it get tighter budgets and the plan is made "
     "again.\n\n"
-    "Exit code 0 when a plan within every limit was found, 1 when none exists (the circuits and loads that "
-    "prevent it are named), 2 on bad input."
+    "Exit code 0 when a plan within every leakage limit was found (a current limit broken by loads that must stay "
+    "is a warning, a failure only under the strict rule), 1 when none exists (the circuits and loads that prevent "
+    "it are named), 2 on bad input."
 )
 
 
@@ -166,15 +171,48 @@ MaxLikelihoodOpt = Annotated[
 ]
 
 
+KeepOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--keep",
+        metavar="LOAD,...",
+        help="Loads that stay where they are for this plan (names as in the Load column, comma-separated); the "
+        "workbook is not changed.",
+    ),
+]
+AvoidOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--avoid",
+        metavar="CIRCUIT,...",
+        help="Circuits that take no new load in this plan (ids as in the Circuit column, comma-separated).",
+    ),
+]
+
+
+def _names(text: str | None) -> tuple[str, ...]:
+    return tuple(n.strip() for n in (text or "").split(",") if n.strip())
+
+
 def _split_options(
-    time_limit: float, new_device: str | None, new_rating: float | None, max_likelihood: str | None
+    time_limit: float,
+    new_device: str | None,
+    new_rating: float | None,
+    max_likelihood: str | None,
+    keep: str | None = None,
+    avoid: str | None = None,
 ) -> Any:
     from leakbudget.planner.plan import SplitOptions
     from leakbudget.planner.split import likelihood_cap_option
 
     cap = likelihood_cap_option(max_likelihood) if max_likelihood is not None else None
     return SplitOptions(
-        time_limit_s=time_limit, new_device=new_device, new_rating_a=new_rating, max_trip_likelihood=cap
+        time_limit_s=time_limit,
+        new_device=new_device,
+        new_rating_a=new_rating,
+        max_trip_likelihood=cap,
+        keep=_names(keep),
+        avoid=_names(avoid),
     )
 
 
@@ -188,10 +226,12 @@ def split(
     new_device: NewDeviceOpt = None,
     new_rating: NewRatingOpt = None,
     max_likelihood: MaxLikelihoodOpt = None,
+    keep: KeepOpt = None,
+    avoid: AvoidOpt = None,
 ) -> None:
     from leakbudget import api
 
-    options = _split_options(time_limit, new_device, new_rating, max_likelihood)
+    options = _split_options(time_limit, new_device, new_rating, max_likelihood, keep, avoid)
     with progress_bar(as_json) as progress:
         job = api.split(path, options, write=not no_write, out=None if no_write else out, progress=progress)
     if as_json:
@@ -219,17 +259,19 @@ def report(
     new_device: NewDeviceOpt = None,
     new_rating: NewRatingOpt = None,
     max_likelihood: MaxLikelihoodOpt = None,
+    keep: KeepOpt = None,
+    avoid: AvoidOpt = None,
 ) -> None:
     """Write a hand-over report: job, cautions, settings, a chart per circuit, tables with sources, findings.
 
     Runs the check and the review (against --code), with --split the split planner too (--time-limit,
-    --new-device, --new-rating and --max-trip-likelihood apply to it), and lays them out; the workbook is only read. Exit code 0 when
+    --new-device, --new-rating, --max-trip-likelihood, --keep and --avoid apply to it), and lays them out; the workbook is only read. Exit code 0 when
     the report was written (whatever the circuits' status), 2 on bad input.
     """
     from leakbudget import api
     from leakbudget.compliance.rules import Severity
 
-    options = _split_options(time_limit, new_device, new_rating, max_likelihood) if split else None
+    options = _split_options(time_limit, new_device, new_rating, max_likelihood, keep, avoid) if split else None
     job = api.report(path, html, pdf, code, options)
     rv = job.review
     counts = job.report.status_counts

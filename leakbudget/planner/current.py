@@ -5,7 +5,8 @@ Leakage is this tool's job; current is a limit a plan must not break. The parts:
 
 * **A single cord-and-plug load** at most ``PLUG_SHARE`` (80 %) of its circuit's rating: NEC 2023 210.23(A)(1)
   for 15 and 20 A branch circuits (from memory); the same share for other ratings is from memory too (a UK 32 A
-  ring takes 13 A plugs, far below it). A plug load above it may not be moved onto the circuit.
+  ring takes 13 A plugs, far below it). A plug load above it may not be moved onto the circuit. It does not apply
+  on a dedicated circuit, whose one appliance (a corded range on its 50 A circuit) is judged by the next part.
 * **A dedicated circuit's one appliance** within the circuit's rating (NEC 2023 210.23 and 422.10 size the branch
   circuit to the appliance; from memory): a 50 A range on a 50 A circuit is as designed. A dedicated circuit keeps
   its appliance and takes nothing else.
@@ -140,7 +141,7 @@ class CurrentRule:
             out.append(f"{circuit.circuit_id} draws {how}")
         plug_limit = self.plug_limit_a(circuit)
         for name, amps, kind in loads:
-            if kind == PLUG and amps > plug_limit + CURRENT_TOLERANCE_A:
+            if kind == PLUG and amps > plug_limit + CURRENT_TOLERANCE_A and circuit.purpose != "dedicated":
                 out.append(
                     f"'{name}' draws {amps:.1f} A, above {PLUG_SHARE:.0%} of {circuit.circuit_id}'s {rating:g} A "
                     f"rating ({plug_limit:.1f} A) for one plug load ({PLUG_SOURCE})"

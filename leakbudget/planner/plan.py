@@ -214,6 +214,14 @@ def plan_once(
     factor = float(project.settings["Load factor"])
     rule = CurrentRule.from_settings(project.settings)
     current_after = _currents(planned, setup.figures, rule)
+    current_warnings = _current_warnings(planned, setup.figures, rule)
+    if rule.strict:  # a current limit the plan leaves broken fails it (once per circuit, beside any blocker it has)
+        named = {b.circuit_id for b in blockers}
+        blockers += [
+            Blocker(cid, (), f"{'; '.join(texts)} (Current rule strict)")
+            for cid, texts in current_warnings.items()
+            if cid not in named
+        ]
     unplaced_movable = sum(int((g.packing.start < 0).sum()) for g in groups if g.solution is not None)
     return SplitPlan(
         before=before,
@@ -233,7 +241,7 @@ def plan_once(
         current_after_a=current_after,
         capacity_a={c.circuit_id: rule.limit_a(c) for c in planned.circuits},
         current_rule=rule,
-        current_warnings=_current_warnings(planned, setup.figures, rule),
+        current_warnings=current_warnings,
         notes=_notes(project, assignments, planned),
         board=board,
     )

@@ -285,7 +285,8 @@ def verify_plan(
                 problems.append(f"'{load.name}' was moved off dedicated circuit {prev.circuit_id}")
             if prev.circuit_id in blocked or load.row in left_alone:
                 problems.append(f"'{load.name}' was moved although it was to stay")
-        if not may_go_on(load, circuit, kind) or circuit.circuit_id.lower() in avoid:
+        built_for = circuit.circuit_id not in circuits_before and circuit.purpose == "dedicated" and kind == HARD_WIRED
+        if (not may_go_on(load, circuit, kind) and not built_for) or circuit.circuit_id.lower() in avoid:
             problems.append(
                 f"'{load.name}' was put on {circuit.circuit_id}: "
                 f"{why_not(load, circuit, kind, circuit.circuit_id.lower() in avoid) or 'not allowed'}"

@@ -583,8 +583,8 @@ def _plan_section(plan: Mapping[str, Any] | None) -> Section:
                 ("Lower bound on new circuits", Cell(_text(plan.get("lower_bound_new_circuits")))),
                 ("Solution", Cell("proven optimal" if plan.get("optimal") else "not proven optimal")),
                 *(
-                    (("Current limit", Cell(f"rating × {plan['load_factor']:g}", note=plan.get("load_factor_source"))),)
-                    if plan.get("load_factor") is not None
+                    (("Current", Cell(str(plan["current_rule"]), note=plan.get("current_rule_text"))),)
+                    if plan.get("current_rule") is not None
                     else ()
                 ),
             ]
@@ -592,6 +592,8 @@ def _plan_section(plan: Mapping[str, Any] | None) -> Section:
     )
     for blocked in plan.get("blocked", []):
         blocks.append(Paragraph(f"Cannot be planned: {blocked['message']}.", "trip-risk"))
+    for warning in plan.get("current_warnings", []):
+        blocks.append(Paragraph(f"Current (warning): {warning['message']}.", "warning"))
     if changes:
         blocks.append(
             Table(
@@ -616,20 +618,21 @@ def _plan_section(plan: Mapping[str, Any] | None) -> Section:
     if details:
         blocks.append(
             Table(
-                ("New circuit", "Device", "Rating (A)", "Rooms", "Copies"),
+                ("New circuit", "Device", "Rating (A)", "Rooms", "Purpose", "What it copies"),
                 [
                     [
                         Cell(n["circuit"]),
                         Cell(n["device"]),
                         Cell(_text(n.get("rating_a"))),
                         Cell(", ".join(n.get("rooms") or []) or "-"),
-                        Cell(_text(n.get("copies"))),
+                        Cell(_text(n.get("purpose"))),
+                        Cell(_text(n.get("template"))),
                     ]
                     for n in details
                 ],
                 "New circuits",
                 "split-new",
-                (1, 1, 0.8, 1.4, 2.4),
+                (1, 1, 0.8, 1.2, 0.9, 2.2),
             )
         )
     after = plan.get("circuits") or []
@@ -662,7 +665,7 @@ def _plan_section(plan: Mapping[str, Any] | None) -> Section:
 
 
 def _current(c: Mapping[str, Any]) -> Cell:
-    """A circuit's load current after a plan [A], with its limit (rating × load factor) beneath."""
+    """A circuit's current after a plan by the current rule [A], with its limit beneath."""
     current, limit = c.get("current_a"), c.get("current_limit_a")
     return Cell(
         "-" if current is None else f"{current:.1f}",
