@@ -157,7 +157,7 @@ def _tighten(
 
 
 def _tightened(plan: SplitPlan, limits: dict[LimitKey, float]) -> dict[str, float]:
-    """The lowered budget of every circuit of the plan that one applies to [mA], by circuit id."""
+    """The lowered budget of every circuit and shared device of the plan that one applies to [mA], by id."""
     out = {}
     for c in plan.after.circuits:
         cid = c.circuit.circuit_id
@@ -167,6 +167,10 @@ def _tightened(plan: SplitPlan, limits: dict[LimitKey, float]) -> dict[str, floa
         )
         if key in limits and c.budget_ma is not None and limits[key] < c.budget_ma:
             out[cid] = limits[key]
+    for d in plan.after.devices:
+        key = device_limit_key(d.device_id)
+        if key in limits and limits[key] < d.budget_ma:
+            out[d.device_id] = limits[key]
     return out
 
 
