@@ -23,16 +23,22 @@ from leakbudget.input.table import RawTable, shipped_table
 LOCATION_KINDS: dict[str, str] = {
     "bathroom": "a room with a bath or shower",
     "half-bath": "a room with a basin and a toilet but no bath or shower (powder room, cloakroom)",
+    "locker-room": "a locker or changing room, with showers or not (the rules ask for showers)",
     "kitchen": "a kitchen",
-    "sink-area": "an area with a sink used for food or drink preparation, or a utility sink (wet bar)",
+    "sink-area": (
+        "an area with a sink: food or drink preparation (break room, tea point), a utility or mop sink, a wet bar"
+    ),
     "laundry": "a laundry area",
-    "garage": "a garage",
+    "garage": "a garage, service bay or vehicle repair area",
     "accessory-building": "an outbuilding: shed, workshop, barn",
     "outdoor": "outdoors: patio, porch, deck, yard, garden, pool area",
+    "rooftop": "a roof, rooftop plant area or roof terrace",
     "crawl-space": "a crawl space",
     "basement": "a basement or cellar",
+    "unfinished-basement": "an unfinished part of a basement (storage or work area, not habitable space)",
     "boathouse": "a boathouse",
-    "damp": "an indoor damp or wet location",
+    "aquarium": "beside an aquarium, bait well or similar open tank of water",
+    "damp": "an indoor damp or wet location (wash bay, cold room)",
     "dry": "an ordinary dry room with no special requirement (bedroom, living room, office, hall)",
 }
 BUILT_IN_ORIGIN = "built-in room table"

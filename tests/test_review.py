@@ -221,14 +221,20 @@ def test_location_kitchen_nec_2020_countertop_only_versus_nec_2023_all_receptacl
 
 
 def test_location_iec_701_every_circuit_of_a_bathroom_needs_30ma_rcd(plan):
-    # IEC 60364-7-701 / BS 7671:2018 701.411.3.3 (from memory): all circuits of a room with a bath or shower.
+    # BS 7671:2018+A2:2022 reg. 701.411.3.3: every circuit serving a location with a bath or shower on a 30 mA RCD;
+    # IEC 60364-7-701 numbers the same requirement 701.415.1 (edition 2006; not confirmed for 2019, from memory).
     fan = [load("Towel warmer", "B1", "towel-warmer")]  # fixed-wired: still covered
     for device, expected in (("none", 1), ("rcd-100", 1), ("rcd-30", 0), ("rcd-10", 0)):
         p = plan([circuit("B1", device, "En suite", us=False)], fan)
         hits = found(p, "location", "bs-7671")
         assert len(hits) == expected, device
-        assert all(h.severity is Severity.ERROR and "701.411.3.3" in str(h.source) for h in hits)
-        assert all(h.source.kind is Kind.FROM_MEMORY for h in hits)
+        assert all(h.severity is Severity.ERROR for h in hits)
+        assert all(str(h.source).startswith("BS 7671:2018+A2:2022 reg. 701.411.3.3") for h in hits)
+        assert all(h.source.kind is Kind.PUBLISHED for h in hits)
+        iec = found(p, "location", "iec-60364")
+        assert len(iec) == expected, device
+        assert all(str(h.source).startswith("IEC 60364-7-701:2019 701.415.1") for h in iec)
+        assert all(h.source.kind is Kind.FROM_MEMORY for h in iec)
 
 
 def test_location_dry_room_needs_nothing(plan):
@@ -274,7 +280,41 @@ def test_pool_spa_nec_680_pump_hot_tub_and_hydromassage_tub_need_gfci(plan):
         ("Jets", "NEC 2023 680.71"),
     ]
     assert all(h.severity is Severity.ERROR and h.source.kind is Kind.FROM_MEMORY for h in hits)
-    assert found(p, "pool-spa", "bs-7671") == []
+    assert sorted(h.load for h in found(p, "pool-spa", "bs-7671")) == ["Pool pump", "Spa"]  # 702; the tub is 701's
+
+
+def test_pool_spa_iec_60364_7_702_pool_pump_and_hot_tub_need_a_30_ma_rcd(plan):
+    # IEC 60364-7-702:2010 702.410.3.4 / 702.55.4 (clause numbers from memory): equipment in zones 1 and 2 of a pool
+    # basin on an RCD of IΔn 30 mA or less. A pump may stand in a plant room outside the zones: a warning that says
+    # so; a hot tub's equipment belongs to its basin: an error.
+    p = plan(
+        [
+            circuit("PP", "none", "Plant room", us=False, rating=16),
+            circuit("HT", "rcd-100", "Garden", us=False, rating=32),
+        ],
+        [load("Pool pump", "PP", "pool-pump-vfd"), load("Spa", "HT", "hot-tub")],
+    )
+    pump, spa = sorted(found(p, "pool-spa", "iec-60364"), key=lambda f: f.load or "")
+    assert (pump.load, pump.severity, spa.load, spa.severity) == (
+        "Pool pump",
+        Severity.WARNING,
+        "Spa",
+        Severity.ERROR,
+    )
+    assert "zone 1 or 2" in pump.message and "rcd-100" in spa.message
+    assert str(pump.source).startswith("IEC 60364-7-702:2010 702.410.3.4 and 702.55.4")
+    assert all(f.source.kind is Kind.FROM_MEMORY for f in (pump, spa))
+    assert str(found(p, "pool-spa", "bs-7671")[0].source).startswith(
+        "BS 7671:2018 regs. 702.410.3.4 and 702.55.4 (Section 702"
+    )
+
+
+def test_pool_spa_iec_60364_7_702_not_raised_with_a_30_ma_rcd(plan):
+    ok = plan(
+        [circuit("PP", "rcd-30", "Plant room", us=False, rcd_type="F"), circuit("HT", "rcd-10", "Garden", us=False)],
+        [load("Pool pump", "PP", "pool-pump-vfd"), load("Spa", "HT", "hot-tub")],
+    )
+    assert found(ok, "pool-spa", "iec-60364") == [] and found(ok, "pool-spa", "bs-7671") == []
 
 
 def test_pool_spa_nec_680_not_raised_with_a_gfci_or_above_60_a(plan):
@@ -305,9 +345,10 @@ def test_occupancy_other_uses_nec_210_8_B_and_drops_the_dwelling_only_rules(plan
     hit, outdoors = found(shop, "location", "nec-2023")  # the washroom (plug: error), the yard (fixed: a note)
     assert (hit.severity, outdoors.severity) == (Severity.ERROR, Severity.INFO)
     assert hit.circuit == "B1" and str(hit.source).startswith("NEC 2023 210.8(B)") and "210.8(B)" in hit.message
-    assert hit.source.kind is Kind.FROM_MEMORY
+    assert hit.source.kind is Kind.PUBLISHED
     assert found(shop, "outdoor-outlet", "nec-2023") == []
-    assert found(shop, "appliance-outlet", "nec-2020") == []  # NEC 2020 210.8(D): dwelling-unit dishwashers only
+    # NEC 2020 422.5(A)(7) and NEC 2023 210.8(D)(7): dishwashers of every occupancy, not only of dwelling units
+    assert [f.load for f in found(shop, "appliance-outlet", "nec-2020")] == ["Dishwasher"]
     assert [f.load for f in found(shop, "appliance-outlet", "nec-2023")] == ["Dishwasher"]
     assert found(shop, "room-unclassified", "nec-2023") == []  # stockroom and washroom are in the room table
     assert review(shop, "nec-2023").label == "NEC 2023 (NFPA 70), other than dwelling units"
@@ -335,20 +376,112 @@ def test_rooms_of_other_occupancies_are_classified(room):
     assert classify_room(room).classified
 
 
+@pytest.mark.parametrize(
+    "room, kinds",
+    [
+        # words people use for the locations NEC 2023 210.8(B) lists, and for the rooms around them
+        ("Roof plant", ("rooftop",)),
+        ("Rooftop", ("rooftop",)),
+        ("Roof space", ("dry",)),  # a loft, indoors
+        ("Staff locker room", ("locker-room",)),
+        ("Changing rooms", ("locker-room",)),
+        ("Service bay 2", ("garage",)),
+        ("Repair bay", ("garage",)),
+        ("Car showroom", ("dry",)),  # vehicle showrooms are outside 210.8(B)'s garages item
+        ("Unfinished basement", ("unfinished-basement",)),
+        ("Basement, unfinished", ("unfinished-basement",)),
+        ("Break room", ("sink-area",)),
+        ("Janitor closet", ("sink-area",)),
+        ("Sluice room", ("sink-area",)),
+        ("Wash bay", ("damp",)),
+        ("Walk-in cooler", ("damp",)),
+        ("Laundromat", ("laundry",)),
+        ("Fish room", ("aquarium",)),
+        ("Bait well", ("aquarium",)),
+        ("Boat shed", ("boathouse",)),
+        ("Airing cupboard", ("dry",)),
+        ("Plant room", ("dry",)),
+    ],
+)
+def test_room_words_for_other_occupancies(room, kinds):
+    assert classify_room(room).kinds == kinds
+
+
+OTHER = [["Occupancy", "other"]]
+
+
+@pytest.mark.parametrize(
+    "room, settings, code, severity",
+    [
+        # NEC 2023 210.8(B) (other than dwelling units): receptacles in these locations need a Class A GFCI.
+        ("Rooftop", OTHER, "nec-2023", Severity.ERROR),  # rooftops
+        ("Service bay 2", OTHER, "nec-2023", Severity.ERROR),  # garages, service bays
+        ("Crawl space", OTHER, "nec-2023", Severity.ERROR),  # crawl spaces at or below grade
+        ("Unfinished basement", OTHER, "nec-2023", Severity.ERROR),  # unfinished areas of basements
+        ("Basement store", OTHER, "nec-2023", Severity.WARNING),  # only its unfinished areas: the room may be finished
+        ("Break room", OTHER, "nec-2023", Severity.ERROR),  # sinks, food or beverage preparation
+        ("Wash bay", OTHER, "nec-2023", Severity.ERROR),  # indoor damp and wet locations
+        ("Laundromat", OTHER, "nec-2023", Severity.ERROR),  # laundry areas
+        ("Staff locker room", OTHER, "nec-2023", Severity.WARNING),  # locker rooms *with showering facilities*
+        ("Locker room showers", OTHER, "nec-2023", Severity.ERROR),  # ... and it has them (a bathroom too)
+        ("Fish room", OTHER, "nec-2023", Severity.ERROR),  # aquariums and bait wells: new in NEC 2023, item (13)
+        ("Fish room", OTHER, "nec-2020", None),  # not in NEC 2020 210.8(B)
+        ("Fish room", None, "nec-2023", None),  # not in 210.8(A) for dwelling units
+        ("Basement store", None, "nec-2023", Severity.ERROR),  # NEC 2023 210.8(A): every basement of a dwelling
+        ("Roof deck", None, "nec-2023", Severity.ERROR),  # 210.8(A): outdoors, and a rooftop is outdoors
+        ("Boat shed", None, "nec-2023", Severity.ERROR),  # 210.8(A): boathouses
+        ("Car showroom", OTHER, "nec-2023", None),  # vehicle showrooms are excepted from the garages item
+        ("Changing room", None, "bs-7671", Severity.WARNING),  # BS 7671 701: a location with showers, if it has them
+        ("Changing room showers", None, "bs-7671", Severity.ERROR),
+    ],
+)
+def test_location_room_kinds_of_nec_210_8_B_and_their_conditions(plan, room, settings, code, severity):
+    us = code.startswith("nec")
+    kettle = [load("Kettle", "R1", "kettle")]  # plug-connected: the circuit feeds receptacles
+    p = plan([circuit("R1", "none", room, us=us)], kettle, settings=settings)
+    hits = found(p, "location", code)
+    assert [h.severity for h in hits] == ([severity] if severity else [])
+    assert found(p, "room-unclassified", code) == []
+    if severity is Severity.WARNING:
+        assert "if it has showers" in hits[0].message or "unfinished" in hits[0].message
+    if hits and settings:
+        assert str(hits[0].source).startswith(f"NEC {code[-4:]} 210.8(B) (") and hits[0].source.kind is Kind.PUBLISHED
+    device = "gfci-a" if us else "rcd-30"
+    protected = plan([circuit("R1", device, room, us=us)], kettle, settings=settings)
+    assert found(protected, "location", code) == []  # the non-triggering case: the device the code asks for
+
+
+def test_outdoor_outlet_nec_2023_210_8_F_rooftop_equipment_of_a_dwelling(plan):
+    # NEC 2023 210.8(F): every outdoor outlet of a dwelling, hard-wired included; a rooftop is outdoors.
+    roof = plan(
+        [circuit("HP", "none", "Rooftop", system="split", rating=30)], [load("Heat pump", "HP", "heat-pump-inverter")]
+    )
+    (hit,) = found(roof, "outdoor-outlet", "nec-2023")
+    assert hit.severity is Severity.ERROR and found(roof, "location", "nec-2023") == []
+    loft = plan(
+        [circuit("HP", "none", "Roof space", system="split", rating=30)], [load("Fan", "HP", "bath-exhaust-fan")]
+    )
+    assert found(loft, "outdoor-outlet", "nec-2023") == []  # a roof space is indoors
+
+
 # --------------------------------------------------------------------------------------------- appliance outlets
 
 
 def test_appliance_outlet_nec_2023_210_8_D_microwave_and_dishwasher(plan):
+    # NEC 2023 210.8(D)(12) microwave ovens, (7) dishwashers; NEC 2020 210.8(D) sends the reader to 422.5(A), whose
+    # list has dishwashers, item (7), but no microwave ovens.
     p = plan(
         [circuit("D1", "none", "Dining room")],
         [load("Microwave", "D1", "microwave"), load("Dishwasher", "D1", "dishwasher"), load("Lamp", "D1", "monitor")],
     )
     assert [(f.load, str(f.source)) for f in found(p, "appliance-outlet", "nec-2023")] == [
-        ("Microwave", "NEC 2023 210.8(D)"),
-        ("Dishwasher", "NEC 2023 210.8(D)"),
+        ("Microwave", "NEC 2023 210.8(D)(12) (microwave ovens)"),
+        ("Dishwasher", "NEC 2023 210.8(D)(7) (dishwashers)"),
     ]
-    # NEC 2020 210.8(D) covers dishwasher outlets only (from memory).
-    assert [f.load for f in found(p, "appliance-outlet", "nec-2020")] == ["Dishwasher"]
+    assert all(f.source.kind is Kind.PUBLISHED for f in found(p, "appliance-outlet", "nec-2023"))
+    assert [(f.load, str(f.source)) for f in found(p, "appliance-outlet", "nec-2020")] == [
+        ("Dishwasher", "NEC 2020 210.8(D) and 422.5(A)(7) (dishwashers)")
+    ]
     assert found(p, "appliance-outlet", "bs-7671") == []
 
 
@@ -357,18 +490,27 @@ def test_appliance_outlet_satisfied_by_gfci(plan):
     assert found(p, "appliance-outlet") == []
 
 
-def test_appliance_outlet_nec_2023_table_210_8_D_vending_machine_and_pressure_washer(plan):
-    # NEC 2023 Table 210.8(D) lists them (from memory); NEC 2020 has them in 422.5(A) (from memory).
+def test_appliance_outlet_nec_2023_210_8_D_list_vending_machine_and_pressure_washer(plan):
+    # NEC 2023 210.8(D) is a numbered list (not a table): (5) vending machines, (3) high-pressure spray washing
+    # machines; NEC 2020 has them in 422.5(A)(5) and (3), and 422.5(B)(3)-(5) accept a GFCI in the appliance's plug,
+    # cord or the appliance itself.
     p = plan(
         [circuit("S1", "none", "Shop")],
         [load("Vending", "S1", "vending-machine"), load("Washer", "S1", "pressure-washer")],
     )
     hits = found(p, "appliance-outlet", "nec-2023")
-    assert [h.load for h in hits] == ["Vending", "Washer"]
-    assert all("NEC 2023 Table 210.8(D)" in str(h.source) and h.source.kind is Kind.FROM_MEMORY for h in hits)
-    assert "high-pressure spray washers" in hits[1].message
+    assert [(h.load, str(h.source).split(" (")[0]) for h in hits] == [
+        ("Vending", "NEC 2023 210.8(D)(5)"),
+        ("Washer", "NEC 2023 210.8(D)(3)"),
+    ]
+    assert all(h.source.kind is Kind.PUBLISHED for h in hits)
+    assert "high-pressure spray washing machines" in hits[1].message and "branch circuit or outlet" in hits[1].message
     old = found(p, "appliance-outlet", "nec-2020")
-    assert [h.load for h in old] == ["Vending", "Washer"] and "NEC 2020 422.5(A)" in str(old[0].source)
+    assert [(h.load, str(h.source).split(" (")[0]) for h in old] == [
+        ("Vending", "NEC 2020 210.8(D) and 422.5(A)(5)"),
+        ("Washer", "NEC 2020 210.8(D) and 422.5(A)(3)"),
+    ]
+    assert all("422.5(B)(3)-(5)" in h.message for h in old)
     machines = [
         load("Cooler", "S1", "drinking-water-cooler"),
         load("Air", "S1", "tire-inflation-machine"),
@@ -379,6 +521,48 @@ def test_appliance_outlet_nec_2023_table_210_8_D_vending_machine_and_pressure_wa
         assert [h.load for h in found(forecourt, "appliance-outlet", code)] == ["Cooler", "Air", "Vac"]
     ok = plan([circuit("S1", "gfci-a", "Shop")], [load("Vending", "S1", "vending-machine")])
     assert found(ok, "appliance-outlet") == []
+
+
+def test_appliance_outlet_nec_2020_spray_washers_cord_and_plug_only_nec_2023_hard_wired_too(plan):
+    # NEC 2020 422.5(A)(3): cord-and-plug-connected high-pressure spray washing machines; NEC 2023 210.8(D)(3): the
+    # branch circuit or outlet supplying them, hard-wired or not.
+    def hits(connection, code):
+        washer = [load("Washer", "S1", "pressure-washer", connection=connection)]
+        return found(plan([circuit("S1", "none", "Yard")], washer), "appliance-outlet", code)
+
+    assert hits("hard-wired", "nec-2020") == []
+    assert [h.severity for h in hits("plug", "nec-2020")] == [Severity.ERROR]
+    assert [h.severity for h in hits("hard-wired", "nec-2023")] == [Severity.ERROR]
+
+
+def test_appliance_outlet_nec_2020_422_5_A_sump_pumps_and_commercial_dishwashers(plan):
+    # NEC 2020 422.5(A)(6) sump pumps and (7) dishwashers (a commercial one too); NEC 2023 210.8(D)(6) and (7).
+    p = plan(
+        [circuit("S1", "none", "Stockroom")],
+        [load("Sump", "S1", "sump-pump"), load("Glasswasher", "S1", "commercial-dishwasher")],
+        settings=OTHER,
+    )
+    for code, items in (("nec-2020", ("422.5(A)(6)", "422.5(A)(7)")), ("nec-2023", ("210.8(D)(6)", "210.8(D)(7)"))):
+        hits = found(p, "appliance-outlet", code)
+        assert [h.load for h in hits] == ["Sump", "Glasswasher"]
+        assert all(item in str(h.source) for item, h in zip(items, hits, strict=True))
+
+
+@pytest.mark.parametrize(
+    "voltage, rating, expected",
+    [
+        # NEC 2023 210.8(D): appliances rated 150 V or less to ground and 60 A or less.
+        (120, 50, 1),
+        (120, 60, 1),
+        (120, 70, 0),  # above 60 A
+        (277, 30, 0),  # above 150 V to ground
+    ],
+)
+def test_appliance_outlet_nec_2023_210_8_D_limits(plan, voltage, rating, expected):
+    row = circuit("R1", "none", "Kitchen", system="split", rating=rating)
+    row[3] = voltage
+    hits = found(plan([row], [load("Range", "R1", "range-electric")]), "appliance-outlet", "nec-2023")
+    assert len(hits) == expected
 
 
 # --------------------------------------------------------------------------------------------- outdoor outlets
@@ -467,10 +651,11 @@ def test_ev_charging_nec_625_54_covers_receptacles(plan):
 
 
 def test_ev_charging_iec_722_needs_an_rcd(plan):
-    # IEC 60364-7-722 722.531.2.101 (from memory): each charging point on an RCD of 30 mA or less.
+    # IEC 60364-7-722:2018 722.531.3.101 (clause from memory): each charging point on an RCD of 30 mA or less.
     loads = [load("Wallbox", "E1", "ev-charger-wallbox-230v")]
     (hit,) = found(plan([circuit("E1", "none", "Garage", us=False, rating=40)], loads), "ev-charging", "iec-60364")
-    assert "722.531.2.101" in str(hit.source) and hit.severity is Severity.ERROR
+    assert str(hit.source).startswith("IEC 60364-7-722:2018 722.531.3.101") and hit.severity is Severity.ERROR
+    assert hit.source.kind is Kind.FROM_MEMORY
     assert (
         found(
             plan([circuit("E1", "rcd-30", "Garage", us=False, rcd_type="B", rating=40)], loads),
@@ -481,14 +666,58 @@ def test_ev_charging_iec_722_needs_an_rcd(plan):
     )
 
 
+def test_ev_charging_bs_7671_a2_722_531_3_101_each_point_individually_on_type_a_f_or_b(plan, make_workbook):
+    # BS 7671:2018+A2:2022 reg. 722.531.3.101: each charging point protected individually by an RCD of Type A, F or
+    # B, IΔn 30 mA or less.
+    loads = [load("Wallbox", "E1", "ev-charger-wallbox-230v")]
+
+    def ev(rcd_type, quantity=1):
+        wallbox = [load("Wallbox", "E1", "ev-charger-wallbox-230v", quantity=quantity)]
+        p = plan([circuit("E1", "rcd-30", "Garage", us=False, rcd_type=rcd_type, rating=40)], wallbox)
+        return found(p, "ev-charging", "bs-7671")
+
+    assert ev("A") == []
+    (ac,) = ev("AC")
+    assert ac.severity is Severity.ERROR and "Type AC" in ac.message
+    assert str(ac.source).startswith("BS 7671:2018+A2:2022 reg. 722.531.3.101") and ac.source.kind is Kind.PUBLISHED
+    (two,) = ev("A", quantity=2)
+    assert "2 charging points share" in two.message
+    from tests.test_protection import CIRCUITS as TREE_CIRCUITS
+    from tests.test_protection import LOADS as TREE_LOADS
+    from tests.test_protection import PROTECTION
+
+    board = make_workbook(
+        {
+            "Protection": [PROTECTION, ["RCD1", "rcd-30", "A", None, 63, "Consumer unit", "single", None]],
+            "Circuits": [
+                TREE_CIRCUITS,
+                ["E1", "none", 230, 50, "single", 32, "Garage", "RCD1", None, "dedicated"],
+                ["S1", "none", 230, 50, "single", 32, "Lounge", "RCD1", None, "sockets"],
+            ],
+            "Loads": [
+                TREE_LOADS,
+                ["Wallbox", "E1", "ev-charger-wallbox-230v", 1, None, None, "Garage", None],
+                ["Lamp", "S1", None, 1, "0.2 mA", None, "Lounge", None],
+            ],
+        },
+        "ev-board.xlsx",
+    )
+    (shared,) = [f for f in review(read_project(board), "bs-7671").findings if f.rule == "ev-charging"]
+    assert shared.severity is Severity.ERROR and "together with other circuits (S1), not individually" in shared.message
+    assert found(plan([circuit("E1", "none", "Garage", us=False, rating=40)], loads), "ev-charging", "nec-2023") == []
+
+
 # --------------------------------------------------------------------------------------------- socket-outlets
 
 
 def test_socket_outlets_bs_7671_411_3_3(plan):
-    # BS 7671:2018 reg. 411.3.3 / 415.1.1: socket-outlets up to 32 A need an RCD of IΔn ≤ 30 mA.
+    # BS 7671:2018+A2:2022 reg. 411.3.3 / 415.1.1: socket-outlets up to 32 A need an RCD of IΔn ≤ 30 mA (A2 changed
+    # 411.3.3, so it is cited with the amendment).
     kettle = [load("Kettle", "C1", "kettle")]
     (hit,) = found(plan([circuit("C1", "none", "Kitchen", us=False)], kettle), "socket-outlets", "bs-7671")
-    assert (hit.severity, str(hit.source)) == (Severity.ERROR, "BS 7671:2018 reg. 411.3.3 and 415.1.1")
+    assert hit.severity is Severity.ERROR and hit.source.kind is Kind.PUBLISHED
+    assert str(hit.source).startswith("BS 7671:2018+A2:2022 reg. 411.3.3 and 415.1.1 (")
+    assert "BS 7671:2018+A2:2022 reg. 411.3.3 and 415.1.1 requires" in hit.message
     assert found(plan([circuit("C1", "rcd-30", "Kitchen", us=False)], kettle), "socket-outlets", "bs-7671") == []
     assert (
         found(plan([circuit("C1", "none", "Kitchen", us=False, rating=40)], kettle), "socket-outlets", "bs-7671") == []
@@ -534,14 +763,14 @@ def test_lighting_bs_7671_411_3_4_not_raised_with_an_rcd_or_under_other_codes(pl
 
 
 def test_type_ac_bs_7671_a2_531_3_3_only_for_fixed_equipment(plan):
-    # BS 7671:2018+A2:2022 reg. 531.3.3 (from memory): Type AC only for fixed equipment known to have no DC
-    # component; in front of socket-outlets (a plug-connected kettle) it is an error, of unknown loads a warning.
+    # BS 7671:2018+A2:2022 reg. 531.3.3: Type AC only for fixed equipment known to have no DC component in its load
+    # current; in front of socket-outlets (a plug-connected kettle) it is an error, of unknown loads a warning.
     def hits(rcd_type, loads, code="bs-7671"):
         return found(plan([circuit("C1", "rcd-30", "Lounge", us=False, rcd_type=rcd_type)], loads), "type-ac", code)
 
     (hit,) = hits("AC", [load("Kettle", "C1", "kettle")])
     assert hit.severity is Severity.ERROR and str(hit.source).startswith("BS 7671:2018+A2:2022 reg. 531.3.3")
-    assert hit.source.kind is Kind.FROM_MEMORY and "fit a Type A" in hit.message
+    assert hit.source.kind is Kind.PUBLISHED and "fit a Type A" in hit.message
     assert [h.severity for h in hits("AC", [load("Thing", "C1", None, "0.2 mA")])] == [Severity.WARNING]
     assert hits("AC", [load("Heater", "C1", "storage-water-heater")]) == []  # fixed equipment
     assert hits("A", [load("Kettle", "C1", "kettle")]) == []
@@ -856,6 +1085,22 @@ def test_budget_findings_follow_the_check(plan, measured, code, severity):
     assert [h.severity for h in hits] == ([severity] if severity else [])
     if severity is Severity.ERROR and measured == "16 mA":
         assert "IEC 61008-1" in str(hits[0].source)
+
+
+def test_bs_7671_review_cites_the_a2_text_of_the_regulations_the_check_cites_as_2018(plan):
+    # BS 7671:2018+A2:2022 reg. 531.3.2(iii): the 30 % rule (A2 added an item before it); reg. 531.3.3: A2 changed it.
+    # The check cites both as first published in 2018; the review under bs-7671 cites the amendment, and says in its
+    # label which amendment its rules follow.
+    rack = plan([circuit("C1", "rcd-30", "Office", us=False, rating=40)], [load("Rack", "C1", None, "10 mA")])
+    (bs,) = found(rack, "budget", "bs-7671")
+    (iec,) = found(rack, "budget", "iec-60364")
+    assert str(bs.source).startswith("BS 7671:2018+A2:2022 reg. 531.3.2(iii)") and bs.source.kind is Kind.PUBLISHED
+    assert str(iec.source) == "BS 7671:2018 reg. 531.3.2 (30 % of IΔn)"  # the check's own citation, unchanged
+    charger = [load("Charger", "C1", None, "7 mA", waveform="smooth-dc")]
+    blinded = plan([circuit("C1", "rcd-30", "Garage", us=False, rcd_type="A", rating=40)], charger)
+    limits = [f for f in found(blinded, "waveform", "bs-7671") if "operates with" in f.message]
+    assert [str(f.source).split(" (")[0] for f in limits] == ["BS 7671:2018+A2:2022 reg. 531.3.3"]
+    assert review(rack, "bs-7671").label == "BS 7671:2018+A2:2022 (IET Wiring Regulations)"
 
 
 # --------------------------------------------------------------------------------------------- every rule

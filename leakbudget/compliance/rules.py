@@ -20,11 +20,15 @@ from typing import Any
 
 from leakbudget.checking import CheckResult, check
 from leakbudget.compliance.codes import (
+    ADDITIONAL_PROTECTION_MAX_MA,
+    APPLIANCE_MAX_A,
+    APPLIANCE_MAX_V_TO_GROUND,
     CODE_KEYS,
     CODES,
     DEFAULT_CODE_BY_FREQUENCY_HZ,
     HVAC_EXCEPTION_EXPIRED,
     HVAC_KEYS,
+    OUTDOOR_KINDS,
     OUTDOOR_MAX_A,
     OUTDOOR_MAX_V_TO_GROUND,
     POOL_PUMP_KEYS,
@@ -279,7 +283,7 @@ def _missing(view: _Circuit) -> str:
 
 
 def _clause(source: Source) -> str:
-    """A citation without its parenthesised gloss: "NEC 2023 210.8(A)", "BS 7671:2018 reg. 411.3.3 and 415.1.1"."""
+    """A citation without its parenthesised gloss: "NEC 2023 210.8(A)", "BS 7671:2018+A2:2022 reg. 411.3.3 and 415.1.1"."""
     return source.text.split(" (")[0]
 
 
@@ -317,7 +321,8 @@ def _occupancy(result: CheckResult) -> str:
 
 def rule_location(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
     """Rooms where the code requires protection for people (NEC 210.8(A), or 210.8(B) for other than dwelling units;
-    IEC 60364-7-701 / BS 7671 701)."""
+    IEC 60364-7-701 / BS 7671 701); a room whose clause has a condition its name cannot show (a locker room with
+    showers, an unfinished basement) gets at most a warning that says it."""
     _, locations = code.location_rules(_occupancy(result))
     for v in views:
         if v.satisfied(code):
@@ -328,17 +333,22 @@ def rule_location(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
         if not hits:
             continue
         evidence = v.outlets()
-        scope = min((rule.scope for _, _, rule in hits), key=SCOPE_STRENGTH.index)
-        rule = next(r for _, _, r in hits if r.scope is scope)
+        # the strongest scope speaks, a rule without a proviso before one with (a room named both ways)
+        rule = min((r for _, _, r in hits), key=lambda r: (SCOPE_STRENGTH.index(r.scope), r.proviso is not None))
+        scope = rule.scope
         severity = Severity.ERROR if scope is Scope.ALL_CIRCUITS else SCOPE_SEVERITY[(scope, evidence)]
+        if rule.proviso is not None and severity is Severity.ERROR:
+            severity = Severity.WARNING  # the clause's condition is not known from the room name
         if (
             severity is Severity.INFO
-            and {kind for _, kind, _ in hits} == {"outdoor"}
+            and {kind for _, kind, _ in hits} <= set(OUTDOOR_KINDS)
             and _outdoor_outlets(v, code, result)
         ):
             continue  # hard-wired outdoor equipment: the outdoor-outlet rule (NEC 210.8(F)) gives the finding
         rooms = ", ".join(dict.fromkeys(f"{room} ({kind})" for room, kind, _ in hits))
         covers = "every circuit serving it" if scope is Scope.ALL_CIRCUITS else f"{scope.value} there"
+        if rule.proviso is not None:
+            covers += f" {rule.proviso}"
         note = "" if scope is Scope.ALL_CIRCUITS else EVIDENCE_NOTE[evidence]
         yield Finding(
             severity,
@@ -372,27 +382,42 @@ def rule_room_unclassified(views: list[_Circuit], code: Code, result: CheckResul
 
 
 def rule_appliance_outlet(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
-    """Appliance outlets the code names (NEC 2023 210.8(D); NEC 2020 210.8(D) dishwashers)."""
-    if code.appliance_source is None:
+    """Appliances the code names, on a circuit without a Class A GFCI, up to 150 V to ground and 60 A (NEC 2023
+    210.8(D)(1)-(12), hard-wired or not; NEC 2020 210.8(D) and 422.5(A)(1)-(7), spray washers only when
+    cord-and-plug-connected)."""
+    if not code.appliance_outlets:
         return
-    dwelling = _occupancy(result) == "dwelling"
     for v in views:
+        c = v.circuit
         if v.satisfied(code):
+            continue
+        if c.voltage_v > APPLIANCE_MAX_V_TO_GROUND or (c.rating_a is not None and c.rating_a > APPLIANCE_MAX_A):
             continue
         for r in v.loads:
             key = r.appliance.key if r.appliance is not None else None
-            if key in code.appliance_outlets and (dwelling or key not in code.dwelling_only_outlets):
-                source = code.appliance_outlet_sources.get(key, code.appliance_source)
-                yield Finding(
-                    Severity.ERROR,
-                    "appliance-outlet",
-                    source,
-                    v.cid,
-                    r.name,
-                    f"{r.name} ({key}) is on {v.cid}: {_clause(source)} requires GFCI "
-                    f"protection for outlets supplying {code.appliance_outlets[key]}; {_missing(v)}: "
-                    f"{code.remedy}.",
-                )
+            rule = code.appliance_outlets.get(key) if key is not None else None
+            if rule is None:
+                continue
+            how = connection(r)
+            if rule.plug_only and how == "fixed":
+                continue
+            unknown = rule.plug_only and how is None
+            note = (
+                f" It applies if {r.name} is cord-and-plug-connected (say plug or hard-wired in the Loads sheet's "
+                "Connection column)."
+                if unknown
+                else ""
+            )
+            yield Finding(
+                Severity.WARNING if unknown else Severity.ERROR,
+                "appliance-outlet",
+                rule.source,
+                v.cid,
+                r.name,
+                f"{r.name} ({key}) is on {v.cid}: {_clause(rule.source)} requires GFCI protection for "
+                f"{code.appliance_scope.format(what=rule.what)}; {_missing(v)}: {code.remedy}.{code.appliance_note}"
+                f"{note}",
+            )
 
 
 def _outdoor_outlets(v: _Circuit, code: Code, result: CheckResult) -> list[LoadResult]:
@@ -406,7 +431,7 @@ def _outdoor_outlets(v: _Circuit, code: Code, result: CheckResult) -> list[LoadR
         return []
     if c.voltage_v > OUTDOOR_MAX_V_TO_GROUND or (c.rating_a is not None and c.rating_a > OUTDOOR_MAX_A):
         return []
-    outdoor_room = any("outdoor" in room.kinds for room in v.rooms)
+    outdoor_room = any(kind in OUTDOOR_KINDS for room in v.rooms for kind in room.kinds)
     return [
         r
         for r in v.loads
@@ -449,8 +474,9 @@ def rule_outdoor_outlet(views: list[_Circuit], code: Code, result: CheckResult) 
 
 
 def rule_pool_spa(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
-    """Pool pumps, spas and hot tubs, hydromassage bathtubs without a Class A GFCI (NEC 680.21(C), 680.44,
-    680.71)."""
+    """Pool pumps, spas and hot tubs, hydromassage bathtubs without the protection the code asks for, hard-wired or
+    not (NEC 680.21(C), 680.44, 680.71: a Class A GFCI; IEC 60364-7-702 / BS 7671 702: a 30 mA RCD for
+    equipment in zones 1 and 2 of the basin)."""
     if not code.pool_spa:
         return
     for v in views:
@@ -459,44 +485,90 @@ def rule_pool_spa(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
             continue
         for r in v.loads:
             key = r.appliance.key if r.appliance is not None else None
-            if key not in code.pool_spa:
+            rule = code.pool_spa.get(key) if key is not None else None
+            if rule is None:
                 continue
-            if key in POOL_PUMP_KEYS and (
-                c.voltage_v > POOL_PUMP_MAX_V_TO_GROUND or (c.rating_a is not None and c.rating_a > POOL_PUMP_MAX_A)
+            if (
+                code.family == "nec"
+                and key in POOL_PUMP_KEYS
+                and (
+                    c.voltage_v > POOL_PUMP_MAX_V_TO_GROUND or (c.rating_a is not None and c.rating_a > POOL_PUMP_MAX_A)
+                )
             ):
                 continue
-            what, source = code.pool_spa[key]
+            where = f", {rule.proviso}" if rule.proviso is not None else ""
             yield Finding(
-                Severity.ERROR,
+                Severity.WARNING if rule.proviso is not None else Severity.ERROR,
                 "pool-spa",
-                source,
+                rule.source,
                 v.cid,
                 r.name,
-                f"{r.name} ({key}) is on {v.cid}: {_clause(source)} requires {code.requirement} for {what}, "
-                f"hard-wired or not; {_missing(v)}: {code.remedy}.",
+                f"{r.name} ({key}) is on {v.cid}: {_clause(rule.source)} requires {code.requirement} for "
+                f"{rule.what}, hard-wired or not{where}; {_missing(v)}: {code.remedy}.",
             )
 
 
+def _ev_not_individual(v: _Circuit, code: Code, result: CheckResult, chargers: int) -> str | None:
+    """Why a protected EV circuit still falls short of "each charging point protected individually by an RCD of
+    Type A, F or B" (IEC / BS 722.531.3.101), in words; None when it does not."""
+    c = v.circuit
+    if code.satisfied_by(c.device):
+        name, rcd_type, shared = f"its {c.device.key}", c.rcd_type, 1
+    else:
+        above = next((d for d in v.above if code.satisfied_by(d.device)), None)
+        if above is None:
+            return None  # protected by a device inside the circuit: not judged here
+        circuits = next((d.circuits for d in result.devices if d.device_id == above.device_id), [v.cid])
+        name, rcd_type, shared = above.device_id, above.rcd_type, len(circuits)
+        if shared > 1:
+            others = ", ".join(x for x in circuits if x != v.cid)
+            return (
+                f"it is protected by {name} together with other circuits ({others}), not individually: give "
+                f"{v.cid} an RCD of its own (an RCBO, rcd-30, of Type A, F or B as the charger needs)"
+            )
+    if rcd_type == "AC":
+        return f"{name} is a Type AC RCD: fit a Type A (or F or B, as the charger needs) device of the same IΔn"
+    if chargers > 1:
+        return f"{chargers} charging points share {name}: give each its own circuit and RCD"
+    return None
+
+
 def rule_ev_charging(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
-    """EV charging: NEC 625.54 (receptacles for EV charging need GFCI for personnel); IEC / BS 722 (an RCD)."""
+    """EV charging: NEC 625.54 (receptacles for EV charging need GFCI for personnel); IEC / BS 722.531.3.101 (each
+    charging point protected individually by a 30 mA RCD of Type A, F or B)."""
     if code.ev_source is None:
         return
     for v in views:
-        if v.satisfied(code):
+        evs = [r for r in v.loads if r.appliance is not None and is_ev_charger(r.appliance.key)]
+        if code.family == "nec":
+            evs = [r for r in evs if connection(r) == "plug"]  # 625.54 covers receptacles; fixed units carry their own
+        if not evs:
             continue
-        for r in v.loads:
-            a = r.appliance
-            if a is None or not is_ev_charger(a.key):
+        if v.satisfied(code):
+            if not code.ev_individual:
                 continue
-            if code.family == "nec" and connection(r) != "plug":
-                continue  # 625.54 covers receptacles; fixed equipment carries its own personnel protection
+            why = _ev_not_individual(v, code, result, sum(r.load.quantity for r in evs if r.load is not None))
+            if why is not None:
+                yield Finding(
+                    Severity.ERROR,
+                    "ev-charging",
+                    code.ev_source,
+                    v.cid,
+                    evs[0].name,
+                    f"{', '.join(r.name for r in evs)} on {v.cid}: {_clause(code.ev_source)} asks for each charging "
+                    f"point to be protected individually by an RCD of Type A, F or B of IΔn "
+                    f"{ADDITIONAL_PROTECTION_MAX_MA:g} mA or less; {why}.",
+                )
+            continue
+        for r in evs:
+            assert r.appliance is not None
             yield Finding(
                 Severity.ERROR,
                 "ev-charging",
                 code.ev_source,
                 v.cid,
                 r.name,
-                f"{r.name} ({a.key}) is EV charging equipment on {v.cid}: {_clause(code.ev_source)} "
+                f"{r.name} ({r.appliance.key}) is EV charging equipment on {v.cid}: {_clause(code.ev_source)} "
                 f"requires {code.requirement}; {_missing(v)}: {code.remedy}.",
             )
 
@@ -678,7 +750,7 @@ def rule_waveform(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
             yield Finding(
                 Severity.ERROR,
                 "waveform",
-                limit_source,
+                code.cite(limit_source),
                 v.cid,
                 None,
                 f"{v.cid} carries {_ma(v.result.smooth_dc_ma)} of smooth DC leakage, more than the "
@@ -932,7 +1004,8 @@ def rule_switch_on(views: list[_Circuit], code: Code, result: CheckResult) -> It
 
 
 def rule_budget(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
-    """The check's verdict: over budget (BS 7671:2018 reg. 531.3.2) or at the no-trip level."""
+    """The check's verdict: over budget (BS 7671 reg. 531.3.2, in BS 7671:2018+A2:2022 item (iii)) or at the no-trip
+    level."""
     for v in views:
         c = v.result
         dev = c.circuit.device
@@ -959,7 +1032,7 @@ def rule_budget(views: list[_Circuit], code: Code, result: CheckResult) -> Itera
             yield Finding(
                 Severity.ERROR if regulation else Severity.WARNING,
                 "budget",
-                c.budget_source,
+                code.cite(c.budget_source),
                 v.cid,
                 None,
                 f"{v.cid}'s standing leakage {_ma(c.gate_ma)} is over its budget {_ma(c.budget_ma)} (below "
@@ -1039,7 +1112,7 @@ def rule_selectivity(views: list[_Circuit], code: Code, result: CheckResult) -> 
 
 def rule_device_budget(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
     """A shared device whose accumulated protective conductor current is over its budget or reaches its no-trip
-    level (BS 7671:2018 reg. 531.3.2 applies to the total downstream of an RCD)."""
+    level (BS 7671 reg. 531.3.2 applies to the total downstream of an RCD)."""
     for d in result.devices:
         dev = d.shared.device
         if d.status not in (Status.OVER_BUDGET, Status.TRIP_RISK):
@@ -1049,7 +1122,7 @@ def rule_device_budget(views: list[_Circuit], code: Code, result: CheckResult) -
         yield Finding(
             severity,
             "device-budget",
-            dev.no_trip_source if d.status is Status.TRIP_RISK else d.budget_source,
+            code.cite(dev.no_trip_source if d.status is Status.TRIP_RISK else d.budget_source),
             None,
             None,
             f"{d.device_id} ({dev.label}) carries {_ma(d.gate_ma)} from everything below it "
@@ -1101,7 +1174,7 @@ def rule_division(views: list[_Circuit], code: Code, result: CheckResult) -> Ite
 
 
 def rule_device_waveform(views: list[_Circuit], code: Code, result: CheckResult) -> Iterator[Finding]:
-    """A shared device that the smooth DC of everything below it blinds (BS 7671:2018 reg. 531.3.3 notes)."""
+    """A shared device that the smooth DC of everything below it blinds (BS 7671 reg. 531.3.3)."""
     for d in result.devices:
         if not d.dc_blinded or d.shared.rcd_type is None:
             continue
@@ -1109,7 +1182,7 @@ def rule_device_waveform(views: list[_Circuit], code: Code, result: CheckResult)
         yield Finding(
             Severity.ERROR,
             "device-waveform",
-            source,
+            code.cite(source),
             None,
             None,
             f"{d.device_id} (Type {d.shared.rcd_type}) sees {_ma(d.smooth_dc_ma)} of smooth DC leakage from below "
