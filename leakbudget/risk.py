@@ -969,7 +969,12 @@ def with_circuit_draws(circuits: Sequence[int], loads: Sequence[LeakageDistribut
         places = np.full(len(loads), -1, dtype=np.int64)
         places[order[sorted_chosen]] = _positions(group[order][sorted_chosen])
         for i in np.flatnonzero(chosen).tolist():
-            out[i] = out[i]._replace(**{field_name: int(places[i])})
+            place = int(places[i])
+            out[i] = (
+                out[i]._replace(position=place)
+                if field_name == "position"
+                else out[i]._replace(direction_position=place)
+            )
     return out
 
 
