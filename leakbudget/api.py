@@ -327,6 +327,11 @@ def refuse_apply_target(source: Path, out: Path) -> None:
             f"{out.name}: this is the workbook the plan is made from, and a plan is applied only to a new copy "
             f"(the workbook itself is never changed); give the copy another name, e.g. {suggestion}."
         )
+    if not out.parent.is_dir():
+        raise WriteBackError(
+            f"{out.parent}: there is no such folder for the planned copy {out.name}; create it or choose another "
+            "folder."
+        )
     if out.suffix.lower() != source.suffix.lower():
         raise WriteBackError(
             f"{out.name}: the planned copy is a workbook of the same kind as {source.name}, so its name must end in "

@@ -373,8 +373,8 @@ def workbook_with(path: Path, merged: bool = False, formula_row: int | None = No
         ),
         (
             ["--out", "SOURCE"],
-            "kitchen.xlsx: this is the workbook the plan is made from, and a plan is applied only "
-            "to a new copy (the workbook itself is never changed); give the copy another name, e.g. kitchen-planned.xlsx.",
+            "kitchen.xlsx: this is the workbook the plan is made from, and a plan is applied only to a new copy "
+            "(the workbook itself is never changed); give the copy another name, e.g. kitchen-planned.xlsx.",
         ),
         (
             ["--out", "copy.xlsx", "--no-write"],
@@ -395,6 +395,17 @@ def test_option_errors_exit_2_with_one_sentence(make_workbook, tmp_path: Path, a
     assert result.exit_code == 2
     assert " ".join(result.output.split()) == f"Error: {message}"
     assert source.read_bytes() == before and sorted(p.name for p in tmp_path.iterdir()) == ["kitchen.xlsx"]
+
+
+def test_a_copy_in_a_missing_folder_is_refused_before_planning(make_workbook, tmp_path: Path) -> None:
+    source = make_workbook(kitchen_sheets(), "kitchen.xlsx")
+    result = apply(source, tmp_path / "nowhere" / "copy.xlsx")
+    assert result.exit_code == 2
+    text = " ".join(result.output.split())
+    assert (
+        text == f"Error: {tmp_path / 'nowhere'}: there is no such folder for the planned copy copy.xlsx; create it "
+        "or choose another folder."
+    )
 
 
 def test_the_source_by_another_path_is_refused(make_workbook, tmp_path: Path, monkeypatch) -> None:

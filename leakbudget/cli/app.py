@@ -198,7 +198,8 @@ def split(
         bool,
         typer.Option(
             "--apply",
-            help="Write the plan into a copy of the workbook (--out NEW.xlsx) and check that copy; PATH is not changed.",
+            help="Write the plan into a copy of the workbook (--out NEW.xlsx) and check that copy; PATH is not "
+            "changed.",
         ),
     ] = False,
 ) -> None:
