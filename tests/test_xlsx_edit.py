@@ -2,8 +2,8 @@
 
 Independent references: python-calamine reads the cells back (and the grid every edit should give is computed
 here from the original grid, cell by cell), Gnumeric's ssconvert re-opens the edited files, zipfile compares the
-other parts byte by byte, and ECMA-376 Part 1 (§18.3.1.73 rows ascend in sheetData, §18.3.1.4 cells ascend in a
-row, §18.3.1.35 dimension) is checked by hand on the edited XML.
+other parts byte by byte, and ECMA-376 Part 1 (rows ascend in sheetData, ``row`` §18.3.1.73 from memory;
+§18.3.1.4 cells ascend in a row; §18.3.1.35 dimension) is checked by hand on the edited XML.
 """
 
 from __future__ import annotations
@@ -99,7 +99,8 @@ def test_cells_change_and_every_other_part_is_byte_identical(fixture_copy: Path,
 
 
 def test_rows_and_cells_stay_in_ascending_order(fixture_copy: Path, tmp_path: Path) -> None:
-    """ECMA-376 Part 1 §18.3.1.73 and §18.3.1.4: rows ascend in sheetData, cells ascend within a row."""
+    """ECMA-376 Part 1 ``row`` (§18.3.1.73, from memory) and §18.3.1.4: rows ascend in sheetData, cells ascend
+    within a row."""
     out = tmp_path / "edited.xlsx"
     cells = {(r, c): CellWrite(f"r{r}c{c}") for r in (1, 4, 9, 12, 30) for c in (0, 3, 7, 6)}
     edit_sheets(fixture_copy, [SheetEdit("Loads", cells)], out)
@@ -143,7 +144,8 @@ def test_text_stays_text(tmp_path: Path) -> None:
 
 
 def test_a_prefixed_namespace_and_implicit_positions_are_followed(tmp_path: Path) -> None:
-    """Some writers use <x:row>/<x:c> and leave out r (§18.3.1.73, §18.3.1.4: a missing r follows the one before)."""
+    """Some writers use <x:row>/<x:c> and leave out r (``row`` and §18.3.1.4 ``c``: a missing r follows the one
+    before)."""
     path = write_workbook(tmp_path / "in.xlsx", {"Data": [["a", "b", "c"], ["d", "e", "f"]]})
     main = b"http://schemas.openxmlformats.org/spreadsheetml/2006/main"
     source = tmp_path / "prefixed.xlsx"
@@ -177,7 +179,7 @@ def test_an_empty_row_element_and_clearing_a_cell(tmp_path: Path) -> None:
     out = tmp_path / "out.xlsx"
     edit_sheets(source, [SheetEdit("Data", {(3, 2): CellWrite("x"), (1, 1): CellWrite(None)})], out)
     assert grid(out, "Data") == [["a", "", ""], ["c", "d", ""], ["", "", "x"], ["e", "", ""]]
-    assert b'<row r="3" spans="1:3"><c r="C3"' in entries(out)[SHEET]  # the spans hint widened (§18.3.1.73)
+    assert b'<row r="3" spans="1:3"><c r="C3"' in entries(out)[SHEET]  # the row's spans hint widened
 
 
 def test_a_dtd_in_the_sheet_is_refused(tmp_path: Path) -> None:

@@ -7,10 +7,10 @@ Each edited worksheet part is scanned once with expat for the byte offsets of th
 defusedxml has refused a DTD, the one place entities could be declared), then edited by byte splices:
 
 * a changed cell is replaced whole, keeping its style index ``s`` (its formatting);
-* a missing cell is inserted in column order, a missing row in row order (ECMA-376 Part 1 §18.3.1.73 ``row`` and
-  §18.3.1.4 ``c``: rows ascend in ``sheetData``, cells ascend in a row), taking the style of the cell its
-  :class:`CellWrite` names (so a new row looks like the row above it);
-* ``<dimension>`` (§18.3.1.35) and a row's ``spans`` hint (§18.3.1.73) are widened to cover the new cells.
+* a missing cell is inserted in column order, a missing row in row order (ECMA-376 Part 1 §18.3.1.4 ``c`` and
+  the ``row`` element, §18.3.1.73 from memory: rows ascend in ``sheetData``, cells ascend in a row), taking the
+  style of the cell its :class:`CellWrite` names (so a new row looks like the row above it);
+* ``<dimension>`` (§18.3.1.35) and a row's ``spans`` hint are widened to cover the new cells.
 
 Every other byte of the part, and every other part (shared strings, styles, the workbook's registration parts
 included), stays as it was. Text is written as an inline string (``t="inlineStr"``, §18.3.1.53 ``is``), escaped as
@@ -42,7 +42,7 @@ from leakbudget.xlsx.package import DOC_REL_NS, MAIN_NS, REL_TYPE_WORKSHEET, WOR
 from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER, escape_text
 from leakbudget.xlsx.xml_text import BadXmlError, UnsafeXmlError, start_tag_end
 
-# The largest row and column of a worksheet (ECMA-376 Part 1 §18.3.1.73 and §18.3.1.4; Microsoft, "Excel
+# The largest row and column of a worksheet (ECMA-376 Part 1, ``row`` and ``c``; Microsoft, "Excel
 # specifications and limits": 1,048,576 rows by 16,384 columns).
 MAX_ROW = 1_048_576
 MAX_COLUMN = 16_384
@@ -352,8 +352,8 @@ def _refuse_dtd(data: bytes) -> None:
 
 def _scan(data: bytes, wanted: set[int]) -> _Scan:
     """Where things are: sheetData and dimension, the rows in ``wanted`` with their cells, and where each wanted
-    row that does not exist would go. Rows and cells without an ``r`` attribute follow the one before
-    (§18.3.1.73, §18.3.1.4). The fast path finds the rows by their start tags and parses only the wanted ones; a
+    row that does not exist would go. Rows and cells without an ``r`` attribute follow the one before (§18.3.1.4;
+    §18.3.1.73 from memory). The fast path finds the rows by their start tags and parses only the wanted ones; a
     part with comments, CDATA sections or processing instructions (where ``<row`` could be text) is parsed
     whole."""
     return _fast_scan(data, wanted) or _parsed_scan(data, wanted)
