@@ -15,8 +15,10 @@ device after installation, and never remove or up-rate protection to cure nuisan
 
 from __future__ import annotations
 
+import dataclasses
 import gc
 import shutil
+import tempfile
 from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
@@ -27,7 +29,7 @@ from typing import TYPE_CHECKING, Any
 
 from leakbudget.checking import CheckResult
 from leakbudget.checking import check as check_project
-from leakbudget.errors import WorkbookError
+from leakbudget.errors import WorkbookError, WriteBackError
 from leakbudget.model import Project
 from leakbudget.progress import Progress
 from leakbudget.workbook.read import read_project
@@ -39,8 +41,20 @@ if TYPE_CHECKING:
     from leakbudget.compliance.rules import Review
     from leakbudget.planner.plan import SplitOptions, SplitPlan
     from leakbudget.reporting.document import Report
+    from leakbudget.workbook.apply import PlannedChanges, PlannedCopy
 
-__all__ = ["CheckJob", "ReportJob", "ReviewJob", "SplitJob", "check", "read_project", "report", "review", "split"]
+__all__ = [
+    "AppliedCopy",
+    "CheckJob",
+    "ReportJob",
+    "ReviewJob",
+    "SplitJob",
+    "check",
+    "read_project",
+    "report",
+    "review",
+    "split",
+]
 
 
 def _frame(records: Sequence[dict[str, Any]]) -> pd.DataFrame:
@@ -201,10 +215,12 @@ def review(
 
 @dataclass
 class SplitJob:
-    """What :func:`split` gives: the plan (with the checks before and after it) and where its sheet was written."""
+    """What :func:`split` gives: the plan (with the checks before and after it), where its sheet was written, and
+    the planned copy once :meth:`apply` (or ``split(..., apply_to=…)``) wrote one."""
 
     plan: SplitPlan
     written: WriteResult | None
+    applied: AppliedCopy | None = None
 
     @property
     def feasible(self) -> bool:
@@ -218,8 +234,18 @@ class SplitJob:
         return _with_written(to_json(self.plan), self.written)
 
     def document(self) -> dict[str, Any]:
-        """The document ``leakbudget split --json`` prints."""
-        return self._document
+        """The document ``leakbudget split --json`` prints (with ``--apply``, an ``applied`` object too)."""
+        if self.applied is None:
+            return self._document
+        from leakbudget.output.split import applied_dict
+
+        a = self.applied
+        return {**self._document, "applied": applied_dict(self.plan, a.cells, a.check.result, a.check.written)}
+
+    def apply(self, out: str | Path, progress: Progress | None = None) -> AppliedCopy:
+        """Write the plan into a copy of the workbook at ``out`` and check that copy (see :func:`apply_plan`)."""
+        self.applied = apply_plan(self.plan, out, progress)
+        return self.applied
 
     def assignments_frame(self) -> pd.DataFrame:
         """One row per load: where it is and where the plan puts it (the ``assignments`` records)."""
@@ -237,12 +263,15 @@ def split(
     write: bool = False,
     out: str | Path | None = None,
     progress: Progress | None = None,
+    apply_to: str | Path | None = None,
 ) -> SplitJob:
     """Plan the fewest changes that bring every protected circuit within its budget and current limit
     (:func:`leakbudget.planner.split.plan_split`). Writes the ``Split plan`` sheet only when ``write`` is True or
-    into ``out``; the Loads sheet itself is never changed.
+    into ``out``; the workbook's own sheets are never changed.
 
-    ``progress`` (see :mod:`leakbudget.progress`) hears of reading, each planning stage and the rows written.
+    With ``apply_to`` (a new file, not with ``write`` or ``out``) the plan is written into a copy there and that
+    copy is checked (:func:`apply_plan`); ``path`` is only read. ``progress`` (see :mod:`leakbudget.progress`)
+    hears of reading, each planning stage and the rows written.
     """
     from leakbudget.output.split import split_sheet
     from leakbudget.planner.plan import SplitOptions
@@ -251,10 +280,156 @@ def split(
 
     path = Path(path)
     writing = _writes(write, out)
+    if apply_to is not None:
+        if writing:
+            raise WriteBackError(
+                f"{path.name}: a plan applied to a new copy writes nothing into the workbook; leave write and out "
+                "unset with apply_to."
+            )
+        refuse_apply_target(path, Path(apply_to))
     with bulk_work():
-        plan = plan_split(_read_for_writing(path, out, writing, progress), options or SplitOptions(), progress)
+        # with apply_to, a copy open in a spreadsheet program is refused before the work
+        project = _read_for_writing(path, apply_to or out, writing or apply_to is not None, progress)
+        plan = plan_split(project, options or SplitOptions(), progress)
         written = write_sheets(path, [split_sheet(plan)], _out_path(path, out), progress) if writing else None
-    return SplitJob(plan, written)
+    job = SplitJob(plan, written)
+    if apply_to is not None:
+        job.apply(apply_to, progress)
+    return job
+
+
+STAGE_APPLY = "Writing the planned copy"
+
+
+@dataclass
+class AppliedCopy:
+    """What :meth:`SplitJob.apply` gives: the planned copy, the cells written into it, and the check of the copy
+    (its result sheets written into it)."""
+
+    path: Path
+    source: Path  # the workbook the plan was made from; never changed
+    cells: PlannedCopy
+    check: CheckJob
+
+    @property
+    def all_ok(self) -> bool:
+        """The copy passes ``check`` (every protected circuit and shared device within budget, none marginal)."""
+        return self.check.all_ok
+
+
+def refuse_apply_target(source: Path, out: Path) -> None:
+    """A planned copy goes into a new file of the same kind as ``source``, never into ``source`` itself."""
+    from leakbudget.xlsx.files import same_file
+
+    suggestion = f"{source.stem}-planned{source.suffix}"
+    if same_file(out, source) or out.resolve() == source.resolve():
+        raise WriteBackError(
+            f"{out.name}: this is the workbook the plan is made from, and a plan is applied only to a new copy "
+            f"(the workbook itself is never changed); give the copy another name, e.g. {suggestion}."
+        )
+    if not out.parent.is_dir():
+        raise WriteBackError(
+            f"{out.parent}: there is no such folder for the planned copy {out.name}; create it or choose another "
+            "folder."
+        )
+    if out.suffix.lower() != source.suffix.lower():
+        raise WriteBackError(
+            f"{out.name}: the planned copy is a workbook of the same kind as {source.name}, so its name must end in "
+            f"{source.suffix}; name it e.g. {suggestion}."
+        )
+
+
+def apply_plan(plan: SplitPlan, out: str | Path, progress: Progress | None = None) -> AppliedCopy:
+    """Write ``plan`` into a copy of the workbook it was made from, at ``out``, then check the copy.
+
+    The copy is the workbook with each moved or placed load's ``Circuit`` cell changed, every new circuit appended
+    to Circuits (its Note marks it proposed), and the circuits the board plan moves given their new ``Protected
+    by`` (and ``Device``, for an RCBO of their own) (:mod:`leakbudget.workbook.apply`); every other cell, sheet
+    and part stays byte for byte. The copy is read back, compared with the plan, checked, and the ``Split plan``
+    and check result sheets are written into it; the source is only read. A plan that does not meet every limit
+    is applied as far as it goes (the check of the copy shows what is left).
+
+    Raises :class:`WriteBackError` when ``out`` is the source, of another kind or open in a spreadsheet program,
+    and :class:`WorkbookError` when a cell to change is merged or holds a formula; nothing is written then.
+    """
+    from leakbudget.output.check import result_sheets
+    from leakbudget.output.split import split_sheet
+    from leakbudget.workbook.apply import write_planned_copy
+    from leakbudget.xlsx.files import refuse_if_open
+    from leakbudget.xlsx.package import write_sheets
+
+    source, out = plan.before.project.path, Path(out)
+    refuse_apply_target(source, out)
+    refuse_if_open(out)
+    with tempfile.TemporaryDirectory(prefix="leakbudget-apply-") as folder:
+        staged = Path(folder) / out.name  # the same name, so every message about the copy names it as the user will
+        if progress is not None:
+            progress(STAGE_APPLY, 0, 1)
+        cells = write_planned_copy(source, planned_changes(plan), staged)
+        if progress is not None:
+            progress(STAGE_APPLY, 1, 1)
+        with bulk_work():
+            project = dataclasses.replace(read_project(staged, progress), path=out)
+            _verify_copy(plan.after.project, project)
+            result = check_project(project)
+            sheets = [split_sheet(plan, applied_from=source.name), *result_sheets(result)]
+            written = write_sheets(staged, sheets, out, progress)
+    return AppliedCopy(out, source, dataclasses.replace(cells, path=out), CheckJob(result, written))
+
+
+def planned_changes(plan: SplitPlan) -> PlannedChanges:
+    """The plan as plain data for :mod:`leakbudget.workbook.apply`: each moved or placed load's sheet row and
+    circuit, the new circuits as planned (after the board plan), and the existing circuits the board plan moves."""
+    from leakbudget.workbook.apply import CircuitUpdate, PlannedChanges
+
+    after = {c.circuit_id: c for c in plan.after.project.circuits}
+    new_ids = [n.circuit.circuit_id for n in plan.new_circuits]
+    updates = []
+    for move in plan.board.moves if plan.board is not None else []:
+        if move.moved and move.circuit not in new_ids:
+            c = after[move.circuit]
+            own = move.own_device is not None
+            updates.append(
+                CircuitUpdate(c.circuit_id, c.protected_by, c.device.key if own else None, c.rcd_type if own else None)
+            )
+    return PlannedChanges(
+        {a.load.row: a.to_id for a in plan.assignments if a.moved or a.placed},
+        [after[cid] for cid in new_ids],
+        updates,
+    )
+
+
+def _verify_copy(planned: Project, copy: Project) -> None:
+    """The copy must read back as the planned project: every load on its planned circuit, every circuit as planned
+    (a mismatch is a bug in the writer, not in the user's file)."""
+
+    def rooms(c: Any) -> tuple[str, ...]:  # as a comma-separated cell reads back
+        return tuple(r.strip().lower() for r in ", ".join(c.rooms).split(",") if r.strip())
+
+    def key(c: Any) -> tuple[Any, ...]:
+        length = None if c.cable_length_m is None else round(c.cable_length_m, 6)
+        return (
+            *(c.device.key, c.rcd_type, round(c.voltage_v, 9), round(c.frequency_hz, 9), c.system, c.rating_a),
+            *(length, c.cable_key, rooms(c), c.shared_neutral, c.note, c.protected_by, c.phase, c.purpose),
+            c.neutral_earth_bond,
+        )
+
+    problems = [
+        f"'{a.name}' (row {a.row}) reads {b.circuit_id} instead of {a.circuit_id}"
+        for a, b in zip(planned.loads, copy.loads)
+        if a.circuit_id != b.circuit_id
+    ]
+    if len(planned.loads) != len(copy.loads):
+        problems.append(f"{len(copy.loads)} loads read instead of {len(planned.loads)}")
+    read = {c.circuit_id: c for c in copy.circuits}
+    problems += [
+        f"circuit {c.circuit_id} reads {key(read[c.circuit_id]) if c.circuit_id in read else 'as missing'} "
+        f"instead of {key(c)}"
+        for c in planned.circuits
+        if c.circuit_id not in read or key(read[c.circuit_id]) != key(c)
+    ]
+    if problems:
+        raise RuntimeError("the planned copy does not read back as the plan (a bug): " + "; ".join(problems[:5]))
 
 
 @dataclass

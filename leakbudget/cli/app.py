@@ -17,6 +17,7 @@ from leakbudget.cli.render import (
     out_console,
     print_json,
     progress_bar,
+    render_applied,
     render_check,
     render_review,
     render_split,
@@ -145,7 +146,12 @@ SPLIT_HELP = (
     "again.\n\n"
     "Exit code 0 when a plan within every leakage limit was found (a current limit broken by loads that must stay "
     "is a warning, a failure only under the strict rule), 1 when none exists (the circuits and loads that prevent "
-    "it are named), 2 on bad input."
+    "it are named), 2 on bad input.\n\n"
+    "With --apply --out NEW.xlsx the plan is written into a copy: each moved or placed load's Circuit cell, the new "
+    "circuits as rows appended to Circuits (marked proposed in their Note), the circuits the board plan moves with "
+    "their new Protected by; then the copy is checked and its result sheets written into it. PATH is never "
+    "changed. A plan that cannot meet every limit is applied as far as it goes. Exit code 0 when the plan meets "
+    "every limit and the copy passes check, 1 otherwise."
 )
 
 
@@ -228,17 +234,49 @@ def split(
     max_likelihood: MaxLikelihoodOpt = None,
     keep: KeepOpt = None,
     avoid: AvoidOpt = None,
+    apply: Annotated[
+        bool,
+        typer.Option(
+            "--apply",
+            help="Write the plan into a copy of the workbook (--out NEW.xlsx) and check that copy; PATH is not "
+            "changed.",
+        ),
+    ] = False,
 ) -> None:
     from leakbudget import api
 
+    if apply:
+        _refuse_apply_options(path, out, no_write)
     options = _split_options(time_limit, new_device, new_rating, max_likelihood, keep, avoid)
+    plan_only = no_write or apply  # with --apply, --out names the copy: nothing goes into PATH
     with progress_bar(as_json) as progress:
-        job = api.split(path, options, write=not no_write, out=None if no_write else out, progress=progress)
+        job = api.split(
+            path,
+            options,
+            write=not plan_only,
+            out=None if plan_only else out,
+            progress=progress,
+            apply_to=out if apply else None,
+        )
     if as_json:
         print_json(job.document())
+    elif job.applied is not None:
+        render_applied(job)
     else:
         render_split(job)
-    raise typer.Exit(0 if job.plan.feasible else 1)
+    raise typer.Exit(0 if job.plan.feasible and (job.applied is None or job.applied.all_ok) else 1)
+
+
+def _refuse_apply_options(path: Path, out: Path | None, no_write: bool) -> None:
+    if no_write:
+        raise LeakbudgetError(
+            f"{path.name}: --apply writes a planned copy and --no-write writes nothing; give one of them, not both."
+        )
+    if out is None:
+        raise LeakbudgetError(
+            f"{path.name}: --apply writes the plan into a new copy and never into {path.name}; name the copy with "
+            f"--out, e.g. --out {path.stem}-planned{path.suffix}."
+        )
 
 
 @app.command()

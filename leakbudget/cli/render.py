@@ -515,3 +515,107 @@ def render_split(job: Any) -> None:
         "move the loads there yourself, then check again.",
     )
     caution()
+
+
+def render_applied(job: Any) -> None:
+    """``split --apply``: the plan in one line, the rows written into the copy, the check of the copy, and that the
+    source was not changed."""
+    from leakbudget.output.split import summary
+
+    plan, applied = job.plan, job.applied
+    cells, result = applied.cells, applied.check.result
+    name = applied.path.name
+    out_console.print(f"Split plan for {applied.source.name}: {summary(plan)}", highlight=False)
+    changed = [a for a in plan.assignments if a.load.row in cells.load_cells]
+    if changed:
+        column = cells.load_cells[changed[0].load.row].column
+        out_console.print(f"Written into {name}, sheet '{cells.loads_sheet}', column '{column}':", highlight=False)
+        rows = Table(box=box.SIMPLE_HEAD, pad_edge=False, padding=(0, 1, 0, 0))
+        for header in ("Row", "Cell", "Load", "Circuit"):
+            rows.add_column(header, justify="right" if header == "Row" else "left", overflow="fold")
+        for a in changed:
+            cell = cells.load_cells[a.load.row]
+            rows.add_row(str(a.load.row), cell.cell, a.load.name, f"{a.from_id or '(unplaced)'} → {a.to_id or '-'}")
+        out_console.print(rows)
+    else:
+        out_console.print(f"No load moves: the Loads sheet of {name} is as in {applied.source.name}.", highlight=False)
+    new = {n.circuit.circuit_id: n for n in plan.new_circuits}
+    for cid, row in cells.new_circuit_rows.items():
+        template = f", {new[cid].template}" if cid in new else ""
+        out_console.print(
+            f"{cid} appended to sheet '{cells.circuits_sheet}' as row {row}{template}; its Note marks it proposed.",
+            highlight=False,
+        )
+    for m in plan.board.moves if plan.board is not None else []:
+        written = cells.updated_cells.get(m.circuit)
+        if written:
+            to = f"an RCBO of its own ({m.own_device})" if m.own_device else (m.to_id or "-")
+            what = ", ".join(f"{c.column} {c.value or '(blank)'} in {c.cell}" for c in written)
+            out_console.print(
+                f"{m.circuit} moves from {m.from_id or '-'} to {to} (board plan): sheet '{cells.circuits_sheet}', "
+                f"row {written[0].row}, {what}.",
+                highlight=False,
+            )
+    for cell in cells.added_columns:
+        out_console.print(f"Column '{cell.value}' added to sheet '{cell.sheet}' (cell {cell.cell}).", highlight=False)
+    for b in plan.blockers:
+        out_console.print(f"[bold red]Cannot fix:[/] {b.message}.", highlight=False)
+    if plan.blockers:
+        out_console.print(
+            "[bold]The plan does not meet every limit.[/] The copy holds the changes it could make; its check "
+            "below shows what is left for your decision."
+        )
+    table = Table(
+        title=f"Check of {name}", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False, padding=(0, 1, 0, 0)
+    )
+    table.add_column("Circuit", overflow="fold", min_width=6)
+    for header in ("Loads", "Sum mA", "Budget", "Used", "Status"):
+        table.add_column(header, justify="left" if header == "Status" else "right", no_wrap=header != "Status")
+    from leakbudget.output.check import circuit_dict
+
+    shown = _circuits_to_show(result.circuits)
+    for c in shown:
+        d = circuit_dict(c)
+        used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"
+        status = f"[{STATUS_STYLE[d['status']]}]{d['status']}[/]"
+        cid = d["circuit"] + (" (new)" if d["circuit"] in new else "")
+        table.add_row(cid, str(d["load_count"]), fmt(d["leakage_ma"], 2), fmt(d["budget_ma"], 2), used, status)
+    out_console.print(table)
+    if len(shown) < len(result.circuits):
+        out_console.print(
+            f"Showing {len(shown)} of {len(result.circuits):,} circuits; every circuit is in its 'Circuit results' "
+            "sheet.",
+            highlight=False,
+        )
+    for d in result.devices:
+        if d.shared.circuit_id is None:
+            out_console.print(
+                f"{d.device_id}: {fmt(d.gate_ma, 2)} mA of its {fmt(d.budget_ma, 2)} mA budget, {d.status.value}.",
+                highlight=False,
+            )
+    for line in result.project.warnings:
+        err_console.print(f"[yellow]Warning:[/] {line}", highlight=False)
+    bad = [c.circuit.circuit_id for c in result.circuits if c.status.value in ("over-budget", "trip-risk")]
+    bad += [d.device_id for d in result.devices if d.status.value in ("over-budget", "trip-risk")]
+    marginal = [c.circuit.circuit_id for c in result.circuits if c.status.value == "marginal"]
+    marginal += [d.device_id for d in result.devices if d.status.value == "marginal"]
+    if applied.all_ok:
+        verdict = "every protected circuit and shared device is within its budget"
+    else:
+        parts = [f"{len(bad)} over budget ({', '.join(bad)})"] if bad else []
+        parts += [f"{len(marginal)} marginal ({', '.join(marginal)})"] if marginal else []
+        verdict = " and ".join(parts) + f"; `leakbudget check {name}` shows why"
+        if marginal:
+            verdict += " (marginal: within budget, but its switch-on trip likelihood is above the Switch-on limit)"
+    out_console.print(f"Check of {name}: {verdict}.", highlight=False)
+    written = applied.check.written
+    if written is not None:
+        out_console.print(
+            f"Results written to {written.path} (sheets: {', '.join(written.replaced + written.added)}).",
+            highlight=False,
+        )
+    out_console.print(
+        f"{applied.source.name} was not changed: --apply writes only the new file, no result sheets either.",
+        highlight=False,
+    )
+    caution()

@@ -7,13 +7,16 @@ with the figures before the plan beside them.
 from __future__ import annotations
 
 import math
+from collections import Counter
 from typing import Any
 
 from leakbudget.about import CAUTION, __version__
+from leakbudget.checking import CheckResult
 from leakbudget.input.schema import SPLIT_PLAN
 from leakbudget.output.check import _num, circuit_dict, device_dict
 from leakbudget.planner.plan import SplitPlan
-from leakbudget.xlsx.package import SheetData
+from leakbudget.workbook.apply import PlannedCopy, WrittenCell
+from leakbudget.xlsx.package import SheetData, WriteResult
 
 
 def change(a: Any) -> str:
@@ -216,8 +219,10 @@ def _percent(value: float | None) -> str | None:
     return None if value is None else f"{100 * value:.0f}%"
 
 
-def split_sheet(plan: SplitPlan) -> SheetData:
-    """The ``Split plan`` sheet: every load's assignment, then every circuit before → after, then the summary."""
+def split_sheet(plan: SplitPlan, applied_from: str | None = None) -> SheetData:
+    """The ``Split plan`` sheet: every load's assignment, then every circuit before → after, then the summary.
+
+    ``applied_from`` names the source workbook when the sheet goes into the planned copy (``split --apply``)."""
     doc = to_json(plan)
     rows: list[list[Any]] = []
     for a in doc["assignments"]:
@@ -273,7 +278,13 @@ def split_sheet(plan: SplitPlan) -> SheetData:
         f"Written by leakbudget {__version__}; this sheet is replaced on every run of `leakbudget split`.",
         f"Plan: {doc['summary']}",
         *([f"Trip likelihood: {likelihood_line(plan)}"] if plan.likelihood_cap is not None else []),
-        "Nothing else in the workbook was changed: move the loads in the Loads sheet yourself, then check again.",
+        (
+            f"This is the planned copy of {applied_from} (leakbudget split --apply): its Loads and Circuits sheets "
+            f"hold the plan, new circuits are marked proposed in their Note; {applied_from} was not changed."
+            if applied_from is not None
+            else "Nothing else in the workbook was changed: move the loads in the Loads sheet yourself, then check "
+            "again."
+        ),
         *(f"No plan can meet every limit: {b['message']}." for b in doc["blocked"]),
         f"Current: {doc['current_rule_text']}",
         *(f"Current warning: {w['message']}." for w in doc["current_warnings"]),
@@ -290,3 +301,61 @@ def split_sheet(plan: SplitPlan) -> SheetData:
         number_formats={1: "0", 7: "0.000", 8: "0.00"},
         column_widths={0: 24.0, 1: 8.0, 2: 16.0, 3: 8.0, 4: 14.0, 5: 14.0, 6: 24.0, 7: 14.0, 8: 14.0, 9: 60.0},
     )
+
+
+def _cell_dict(cell: WrittenCell) -> dict[str, Any]:
+    return {"sheet": cell.sheet, "row": cell.row, "column": cell.column, "cell": cell.cell, "value": cell.value}
+
+
+def applied_dict(
+    plan: SplitPlan, copy: PlannedCopy, result: CheckResult, written: WriteResult | None
+) -> dict[str, Any]:
+    """The ``applied`` object of ``leakbudget split --apply --json``: the copy, what was written into it, and the
+    check of it."""
+    new = {n.circuit.circuit_id: n for n in plan.new_circuits}
+    fine = ("ok", "unprotected")
+    return {
+        "path": str(copy.path),
+        "source": str(plan.before.project.path),
+        "source_changed": False,
+        "plan_feasible": plan.feasible,
+        "moved_rows": [
+            {
+                "sheet": copy.loads_sheet,
+                "row": a.load.row,
+                "cell": copy.load_cells[a.load.row].cell,
+                "load": a.load.name,
+                "from": a.from_id,
+                "to": a.to_id,
+                "change": change(a),
+            }
+            for a in plan.assignments
+            if a.load.row in copy.load_cells
+        ],
+        "new_circuits": [
+            {
+                "circuit": cid,
+                "sheet": copy.circuits_sheet,
+                "row": row,
+                "template": new[cid].template if cid in new else None,
+            }
+            for cid, row in copy.new_circuit_rows.items()
+        ],
+        "circuit_cells": [
+            {"circuit": cid, **_cell_dict(c)} for cid, cells in copy.updated_cells.items() for c in cells
+        ],
+        "added_columns": [_cell_dict(c) for c in copy.added_columns],
+        "sheets_written": list(written.replaced + written.added) if written is not None else [],
+        "check": {
+            "all_ok": result.all_ok,
+            "status_counts": dict(sorted(Counter(c.status.value for c in result.circuits).items())),
+            "not_ok": [
+                {"circuit": c.circuit.circuit_id, "status": c.status.value}
+                for c in result.circuits
+                if c.status.value not in fine
+            ],
+            "devices_not_ok": [
+                {"device": d.device_id, "status": d.status.value} for d in result.devices if d.status.value not in fine
+            ],
+        },
+    }

@@ -52,6 +52,7 @@ from leakbudget.xlsx.guard import CellNote, GuardedPackage
 
 WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
 RCD_TYPES = ("AC", "A", "F", "B")
+TYPED_SUPPLY = Source.measured("Circuits sheet (your value)")  # a circuit whose Voltage and Frequency are typed
 
 
 def open_grids(path: Path) -> SheetGrids:
@@ -286,7 +287,7 @@ def read_circuits(
         v = table.number(row, "Voltage", "V", positive=True, plausible=VOLTAGE_V)
         f = table.number(row, "Frequency", "Hz", positive=True, plausible=FREQUENCY_HZ)
         if v is not None and f is not None:
-            supply_source = Source.measured("Circuits sheet (your value)")
+            supply_source = TYPED_SUPPLY
         elif v is None or f is None:
             parts = []
             if v is None:

@@ -160,6 +160,15 @@ class XmlPart:
         self._edits.append((start, end, text))
 
 
+def start_tag_end(data: bytes, begin: int) -> tuple[int, bool]:
+    """Offset just after the start tag that begins at ``begin`` (its ``<``), and whether it is an empty-element
+    tag (``<c …/>``). Attribute values may hold ``>``, so the tag is matched, not searched for."""
+    match = _START_TAG.match(data, begin)
+    if match is None:  # expat accepted the tag, so this only happens on a bug in _START_TAG
+        raise BadXmlError(f"cannot locate the start tag at byte {begin}")
+    return match.end(), bool(match.group(1))
+
+
 def _spans(data: bytes, max_depth: int) -> list[Span]:
     """Offsets of every element at depth <= ``max_depth``, from expat's byte positions."""
     parser = expat.ParserCreate()
@@ -172,11 +181,8 @@ def _spans(data: bytes, max_depth: int) -> list[Span]:
             open_spans.append(None)
             return
         begin = parser.CurrentByteIndex
-        match = _START_TAG.match(data, begin)
-        if match is None:  # expat accepted it, so this only happens on a bug in _START_TAG
-            raise BadXmlError(f"cannot locate the start tag of <{name}>")
-        empty = bool(match.group(1))
-        span = Span(name, depth, begin, match.end(), match.end(), empty, dict(attrs))
+        tag_end, empty = start_tag_end(data, begin)
+        span = Span(name, depth, begin, tag_end, tag_end, empty, dict(attrs))
         spans.append(span)
         open_spans.append(span)
 
