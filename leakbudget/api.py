@@ -124,7 +124,12 @@ def _writes(write: bool, out: str | Path | None) -> bool:
 
 
 def check(
-    path: str | Path, *, write: bool = False, out: str | Path | None = None, progress: Progress | None = None
+    path: str | Path,
+    *,
+    write: bool = False,
+    out: str | Path | None = None,
+    progress: Progress | None = None,
+    force: bool = False,
 ) -> CheckJob:
     """Check a workbook: estimate every load, judge every circuit, the trip likelihood and any readings.
 
@@ -139,25 +144,37 @@ def check(
     path = Path(path)
     writing = _writes(write, out)
     with bulk_work():
-        project = _read_for_writing(path, out, writing, progress)
+        project = _read_for_writing(path, out, writing, progress, force)
         if progress is not None:
             progress("Estimating", 0, 1)
         result = check_project(project)
         sheets = result_sheets(result) if writing else []
         if progress is not None:
             progress("Estimating", 1, 1)
-        written = write_sheets(path, sheets, _out_path(path, out), progress) if writing else None
+        written = write_sheets(path, sheets, _out_path(path, out), progress, force) if writing else None
     return CheckJob(result, written)
 
 
-def _read_for_writing(path: Path, out: str | Path | None, write: bool, progress: Progress | None = None) -> Project:
+def _read_for_writing(
+    path: Path, out: str | Path | None, write: bool, progress: Progress | None = None, force: bool = False
+) -> Project:
     """Read the workbook; when results are to be written, first (before any work) refuse a destination that a
-    spreadsheet program holds open. A source open there is read as last saved, and a warning says so."""
-    from leakbudget.xlsx.files import lock_file, refuse_if_open
+    spreadsheet program holds open (beside a symbolic link and beside its target), that is read-only or has other
+    names (hard links), or an existing ``out`` without ``force``. A source open there is read as last saved, and a
+    warning says so."""
+    from leakbudget.xlsx.files import lock_file, refuse_existing_out, refuse_if_open, refuse_if_unsafe_target
 
     if write:
         destination = _out_path(path, out)
-        refuse_if_open(destination if destination is not None else path.resolve() if path.is_symlink() else path)
+        if destination is None:
+            refuse_if_open(path)
+            target = path.resolve() if path.is_symlink() else path
+            refuse_if_open(target)
+            if target.exists():
+                refuse_if_unsafe_target(target)
+        else:
+            refuse_if_open(destination)
+            refuse_existing_out(destination, force)
     project = read_project(path, progress)
     lock = lock_file(path)
     if lock is not None:
@@ -197,7 +214,12 @@ class ReviewJob:
 
 
 def review(
-    path: str | Path, code: str | None = None, *, write: bool = False, out: str | Path | None = None
+    path: str | Path,
+    code: str | None = None,
+    *,
+    write: bool = False,
+    out: str | Path | None = None,
+    force: bool = False,
 ) -> ReviewJob:
     """Check a workbook and review it against ``code`` (nec-2020, nec-2023, iec-60364, bs-7671; default: the Code
     setting, else by supply frequency). Writes the ``Review findings`` sheet only when ``write`` is True or into
@@ -208,8 +230,8 @@ def review(
 
     path = Path(path)
     writing = _writes(write, out)
-    rv = review_project(_read_for_writing(path, out, writing), code)
-    written = write_sheets(path, [findings_sheet(rv)], _out_path(path, out)) if writing else None
+    rv = review_project(_read_for_writing(path, out, writing, force=force), code)
+    written = write_sheets(path, [findings_sheet(rv)], _out_path(path, out), force=force) if writing else None
     return ReviewJob(rv, written)
 
 
@@ -242,9 +264,9 @@ class SplitJob:
         a = self.applied
         return {**self._document, "applied": applied_dict(self.plan, a.cells, a.check.result, a.check.written)}
 
-    def apply(self, out: str | Path, progress: Progress | None = None) -> AppliedCopy:
+    def apply(self, out: str | Path, progress: Progress | None = None, force: bool = False) -> AppliedCopy:
         """Write the plan into a copy of the workbook at ``out`` and check that copy (see :func:`apply_plan`)."""
-        self.applied = apply_plan(self.plan, out, progress)
+        self.applied = apply_plan(self.plan, out, progress, force)
         return self.applied
 
     def assignments_frame(self) -> pd.DataFrame:
@@ -264,6 +286,7 @@ def split(
     out: str | Path | None = None,
     progress: Progress | None = None,
     apply_to: str | Path | None = None,
+    force: bool = False,
 ) -> SplitJob:
     """Plan the fewest changes that bring every protected circuit within its budget and current limit
     (:func:`leakbudget.planner.split.plan_split`). Writes the ``Split plan`` sheet only when ``write`` is True or
@@ -289,12 +312,12 @@ def split(
         refuse_apply_target(path, Path(apply_to))
     with bulk_work():
         # with apply_to, a copy open in a spreadsheet program is refused before the work
-        project = _read_for_writing(path, apply_to or out, writing or apply_to is not None, progress)
+        project = _read_for_writing(path, apply_to or out, writing or apply_to is not None, progress, force)
         plan = plan_split(project, options or SplitOptions(), progress)
-        written = write_sheets(path, [split_sheet(plan)], _out_path(path, out), progress) if writing else None
+        written = write_sheets(path, [split_sheet(plan)], _out_path(path, out), progress, force) if writing else None
     job = SplitJob(plan, written)
     if apply_to is not None:
-        job.apply(apply_to, progress)
+        job.apply(apply_to, progress, force)
     return job
 
 
@@ -339,7 +362,7 @@ def refuse_apply_target(source: Path, out: Path) -> None:
         )
 
 
-def apply_plan(plan: SplitPlan, out: str | Path, progress: Progress | None = None) -> AppliedCopy:
+def apply_plan(plan: SplitPlan, out: str | Path, progress: Progress | None = None, force: bool = False) -> AppliedCopy:
     """Write ``plan`` into a copy of the workbook it was made from, at ``out``, then check the copy.
 
     The copy is the workbook with each moved or placed load's ``Circuit`` cell changed, every new circuit appended
@@ -355,12 +378,13 @@ def apply_plan(plan: SplitPlan, out: str | Path, progress: Progress | None = Non
     from leakbudget.output.check import result_sheets
     from leakbudget.output.split import split_sheet
     from leakbudget.workbook.apply import write_planned_copy
-    from leakbudget.xlsx.files import refuse_if_open
+    from leakbudget.xlsx.files import refuse_existing_out, refuse_if_open
     from leakbudget.xlsx.package import write_sheets
 
     source, out = plan.before.project.path, Path(out)
     refuse_apply_target(source, out)
     refuse_if_open(out)
+    refuse_existing_out(out, force)
     with tempfile.TemporaryDirectory(prefix="leakbudget-apply-") as folder:
         staged = Path(folder) / out.name  # the same name, so every message about the copy names it as the user will
         if progress is not None:
@@ -373,7 +397,7 @@ def apply_plan(plan: SplitPlan, out: str | Path, progress: Progress | None = Non
             _verify_copy(plan.after.project, project)
             result = check_project(project)
             sheets = [split_sheet(plan, applied_from=source.name), *result_sheets(result)]
-            written = write_sheets(staged, sheets, out, progress)
+            written = write_sheets(staged, sheets, out, progress, force=True)  # an existing out was refused above
     return AppliedCopy(out, source, dataclasses.replace(cells, path=out), CheckJob(result, written))
 
 

@@ -31,6 +31,7 @@ from hypothesis import strategies as st
 from python_calamine import CalamineWorkbook
 
 from leakbudget.errors import WriteBackError
+from leakbudget.xlsx import files
 from leakbudget.xlsx import package as xlsx_package
 from leakbudget.xlsx.package import (
     MAX_COMPRESSION_RATIO,
@@ -226,6 +227,7 @@ def test_any_text_and_float_round_trips(tmp_path: Path, texts: list[str], number
     path = tmp_path / "prop.xlsx"
     shutil.copyfile(DATA / "gnumeric.xlsx", path)
     out = tmp_path / "prop-out.xlsx"
+    out.unlink(missing_ok=True)  # hypothesis runs this body many times in one folder
     write_sheets(
         path,
         [SheetData("P", ["text"], [[t] for t in texts]), SheetData("Q", ["number"], [[x] for x in numbers])],
@@ -388,10 +390,25 @@ def test_backup_keeps_the_previous_version_and_mode_is_kept(tmp_path: Path) -> N
     assert result.backup == tmp_path / "gnumeric.before-leakbudget.xlsx"
     assert result.backup.read_bytes() == original
     first = path.read_bytes()
-    write_sheets(path, [circuit_sheet(CIRCUIT_ROWS[:2])])
-    assert result.backup.read_bytes() == first  # one backup, replaced each run
+    second = write_sheets(path, [circuit_sheet(CIRCUIT_ROWS[:2])])
+    # the version before the first write is never replaced; the next ones are numbered
+    assert result.backup.read_bytes() == original
+    assert second.backup == tmp_path / "gnumeric.before-leakbudget-2.xlsx" and second.backup.read_bytes() == first
     assert stat.S_IMODE(path.stat().st_mode) == 0o640
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["gnumeric.before-leakbudget.xlsx", "gnumeric.xlsx"]
+    assert sorted(p.name for p in tmp_path.iterdir()) == [
+        "gnumeric.before-leakbudget-2.xlsx",
+        "gnumeric.before-leakbudget.xlsx",
+        "gnumeric.xlsx",
+    ]
+    # at most BACKUP_GENERATIONS numbered ones: no version between the newest of them and now is lost
+    versions = [path.read_bytes()]
+    for k in range(files.BACKUP_GENERATIONS + 2):
+        write_sheets(path, [circuit_sheet(CIRCUIT_ROWS[: 1 + k % 3])])
+        versions.append(path.read_bytes())
+    numbered = sorted(tmp_path.glob("gnumeric.before-leakbudget-*.xlsx"), key=lambda q: int(q.stem.rsplit("-", 1)[1]))
+    assert len(numbered) == files.BACKUP_GENERATIONS
+    assert [q.read_bytes() for q in numbered] == versions[-files.BACKUP_GENERATIONS - 1 : -1]
+    assert result.backup.read_bytes() == original
 
 
 def test_a_version_saved_meanwhile_is_neither_overwritten_nor_backed_up(tmp_path: Path, monkeypatch) -> None:

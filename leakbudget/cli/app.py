@@ -67,6 +67,12 @@ OutOpt = Annotated[
     typer.Option("--out", "-o", help="Write the results into this new file and leave PATH untouched."),
 ]
 JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON document to stdout instead of tables.")]
+ForceOpt = Annotated[
+    bool,
+    typer.Option(
+        "--force", help="Let --out replace a file that exists (its current version is kept as a backup beside it)."
+    ),
+]
 
 
 @app.command()
@@ -75,6 +81,7 @@ def check(
     out: OutOpt = None,
     as_json: JsonOpt = False,
     no_write: Annotated[bool, typer.Option("--no-write", help="Check only; write nothing.")] = False,
+    force: ForceOpt = False,
 ) -> None:
     """Estimate standing leakage per protected circuit and shared device; write 'Circuit results', 'Load results'
     and, with a Protection sheet, 'Device results'.
@@ -85,7 +92,7 @@ def check(
     from leakbudget import api
 
     with progress_bar(as_json) as progress:
-        job = api.check(path, write=not no_write, out=None if no_write else out, progress=progress)
+        job = api.check(path, write=not no_write, out=None if no_write else out, progress=progress, force=force)
     if as_json:
         print_json(job.document())
     else:
@@ -119,10 +126,11 @@ def review(
     out: OutOpt = None,
     as_json: JsonOpt = False,
     no_write: Annotated[bool, typer.Option("--no-write", help="Review only; write nothing.")] = False,
+    force: ForceOpt = False,
 ) -> None:
     from leakbudget import api
 
-    job = api.review(path, code, write=not no_write, out=None if no_write else out)
+    job = api.review(path, code, write=not no_write, out=None if no_write else out, force=force)
     if as_json:
         print_json(job.document())
     else:
@@ -242,6 +250,7 @@ def split(
             "changed.",
         ),
     ] = False,
+    force: ForceOpt = False,
 ) -> None:
     from leakbudget import api
 
@@ -257,6 +266,7 @@ def split(
             out=None if plan_only else out,
             progress=progress,
             apply_to=out if apply else None,
+            force=force,
         )
     if as_json:
         print_json(job.document())
@@ -352,6 +362,16 @@ def demo(
 
     if example not in EXAMPLES:
         raise LeakbudgetError(f"--example '{example}' is not a shipped example; use one of {', '.join(EXAMPLES)}.")
+    if folder.exists() and not folder.is_dir():
+        raise LeakbudgetError(f"--folder {folder}: this is a file, not a folder; give a folder for the example.")
+    if not folder.exists():
+        try:
+            folder.mkdir(parents=True)
+        except OSError as exc:
+            raise LeakbudgetError(
+                f"--folder {folder}: cannot create the folder ({exc.strerror}); give another."
+            ) from None
+        out_console.print(f"Created the folder {folder}.", highlight=False)
     dest = api.copy_example(folder, f"{example}.xlsx")
     out_console.print(f"Copied the example workbook to {dest}.", highlight=False)
     job = api.check(dest, write=True)

@@ -75,7 +75,12 @@ def open_grids(path: Path) -> SheetGrids:
         )
     package = GuardedPackage(path)
     try:
-        book = python_calamine.CalamineWorkbook.from_path(str(path))
+        if package.encoded_targets:  # calamine looks parts up by the literal target: give it decoded targets
+            import io
+
+            book = python_calamine.CalamineWorkbook.from_filelike(io.BytesIO(package.decoded_copy()))
+        else:
+            book = python_calamine.CalamineWorkbook.from_path(str(path))
         names = list(book.sheet_names)
     except python_calamine.PasswordError:
         raise WorkbookError(

@@ -105,7 +105,31 @@ def zip_problem(infos: list[zipfile.ZipInfo]) -> str | None:
             return f"entry {info.filename} is encrypted"
     if len({i.filename.casefold() for i in infos}) != len(infos):
         return "two zip entries share one part name"
+    for info in infos:
+        if unsafe_entry_name(info.filename):
+            return f"entry {info.filename!r} has an absolute name or a '..' segment, which no workbook part has"
     return None
+
+
+def unsafe_entry_name(name: str) -> bool:
+    """A zip entry name no package part has: absolute (``/x``, ``\\x``, ``C:x``) or with a ``..`` segment
+    (ECMA-376 Part 2 §6.2.2.2: part names are relative, with no ``.`` or ``..`` segments)."""
+    if name.startswith(("/", "\\")) or (len(name) > 1 and name[1] == ":"):
+        return True
+    return any(segment == ".." for segment in name.replace("\\", "/").split("/"))
+
+
+def decoded(part: str) -> str:
+    """A relationship target's part name with its percent-encoding decoded (``sheet%201.xml`` → ``sheet 1.xml``;
+    ECMA-376 Part 2 §6.2.2.1: part names are IRIs, stored percent-encoded in relationship targets)."""
+    from urllib.parse import unquote
+
+    return unquote(part) if "%" in part else part
+
+
+def quoteattr_value(text: str) -> bytes:
+    """``text`` escaped for a double-quoted XML attribute value, UTF-8."""
+    return text.replace("&", "&amp;").replace("<", "&lt;").replace('"', "&quot;").encode("utf-8")
 
 
 def _size(n_bytes: int) -> str:
@@ -227,6 +251,7 @@ class GuardedPackage:
                 hint="check it is the workbook you meant and re-save it in a spreadsheet program",
             )
         self._names = {info.filename.casefold(): info for info in self.infos}
+        self.encoded_targets = False  # a worksheet is reached through a percent-encoded relationship target
         try:
             with self._damage():
                 self._check_kind()
@@ -326,9 +351,34 @@ class GuardedPackage:
                 continue  # matched by local name: transitional and strict ECMA-376 namespaces alike
             rel_id = next((v for k, v in sheet.attrib.items() if k.endswith("}id") and "relationships" in k), "")
             part = targets.get(rel_id)
+            if part is not None and part.casefold() not in self._names and decoded(part).casefold() in self._names:
+                part = decoded(part)
+                self.encoded_targets = True
             if part is not None and part.casefold() in self._names:
                 parts[sheet.get("name", "")] = self._names[part.casefold()].filename
         return parts
+
+    def decoded_copy(self) -> bytes:
+        """The package with its workbook relationships' percent-encoded targets written decoded, for a reader that
+        looks parts up by the literal target (python-calamine): every other entry copied as it is."""
+        import io
+        import re
+
+        buffer = io.BytesIO()
+        rels = self._names[WORKBOOK_RELS.casefold()].filename if WORKBOOK_RELS.casefold() in self._names else None
+        with zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as out:
+            for info in self.infos:
+                data = self.archive.read(info)
+                if info.filename == rels:
+                    data = re.sub(
+                        rb'Target="([^"]*%[^"]*)"',
+                        lambda m: b'Target="%s"' % quoteattr_value(decoded(m.group(1).decode("utf-8"))),
+                        data,
+                    )
+                entry = zipfile.ZipInfo(info.filename, info.date_time)  # writestr changes the ZipInfo it is given
+                entry.compress_type, entry.external_attr = info.compress_type, info.external_attr
+                out.writestr(entry, data)
+        return buffer.getvalue()
 
     def scan_sheet(self, name: str) -> SheetScan:
         """Check the part of sheet ``name`` (size, DTD, cell rectangle) and return what calamine would miss."""

@@ -42,11 +42,12 @@ from leakbudget.xlsx.guard import (  # noqa: F401 (the limits are part of this m
     MAX_COMPRESSION_RATIO,
     MAX_UNCOMPRESSED_BYTES,
     MAX_ZIP_ENTRIES,
+    decoded,
     zip_problem,
 )
-from leakbudget.xlsx.rows import SAMPLE_ROW, SheetXml, with_rows
+from leakbudget.xlsx.rows import QUOTE_ROW, SAMPLE_ROW, SheetXml, with_rows
 from leakbudget.xlsx.styles import merge_styles, remap_cell_styles
-from leakbudget.xlsx.xml_text import BadXmlError, Span, UnsafeXmlError, XmlPart, quoteattr
+from leakbudget.xlsx.xml_text import BadXmlError, Span, UnsafeXmlError, XmlPart, local_name, parse, quoteattr
 
 # zipfile must know before streaming an entry whether it may pass 2 GiB (ZIP64); a sheet of more rows than this
 # could, at 10 KB a row, so it gets ZIP64 sizes (APPNOTE.TXT 4.5.3; Excel, LibreOffice and calamine read them).
@@ -113,14 +114,20 @@ class WriteResult:
 
 
 def write_sheets(
-    source: Path, sheets: Sequence[SheetData], out: Path | None = None, progress: Progress | None = None
+    source: Path,
+    sheets: Sequence[SheetData],
+    out: Path | None = None,
+    progress: Progress | None = None,
+    force: bool = False,
 ) -> WriteResult:
     """Write ``sheets`` into the workbook ``source`` (or into a copy at ``out``), keeping everything else.
 
     Text is always written as text (a cell reading ``=1+2`` is not a formula); None and NaN give empty cells;
     ±inf and numbers beyond ``EXCEL_MAX_NUMBER`` are written as text (``inf``, ``-inf``, ``1.5e+308``).
     With ``out=None`` the file is replaced atomically and its previous version kept as
-    ``<stem>.before-leakbudget<suffix>``; with ``out`` the source is only read. A symbolic link is followed.
+    ``<stem>.before-leakbudget<suffix>`` (the first time; later ones numbered, see
+    :func:`leakbudget.xlsx.files.next_backup_path`); with ``out`` the source is only read, and an existing ``out``
+    is replaced only with ``force``. A symbolic link is followed.
 
     Raises :class:`WriteBackError` (nothing changed) when the destination is open in a spreadsheet program, the
     source is not a readable .xlsx package, it exceeds the zip limits above, an XML part it needs declares a DTD
@@ -142,7 +149,7 @@ def write_sheets(
         with package:  # closing the ZipFile leaves ``original`` open
             return _graft(package, sheets, dest, source, progress)
 
-    written = rewrite(source, Path(out) if out is not None else None, build)
+    written = rewrite(source, Path(out) if out is not None else None, build, force)
     replaced, added = written.value
     return WriteResult(written.path, written.backup, replaced, added)
 
@@ -166,7 +173,9 @@ class _Package:
         self._names = {info.filename.casefold(): info.filename for info in self.infos}
 
     def actual(self, name: str) -> str | None:
-        return self._names.get(name.casefold())
+        """The entry's name as stored, for a part name (case-insensitive; a percent-encoded target decoded)."""
+        found = self._names.get(name.casefold())
+        return found if found is not None or "%" not in name else self._names.get(decoded(name).casefold())
 
     def read(self, name: str) -> bytes:
         actual = self.actual(name)
@@ -221,7 +230,7 @@ def _graft_checked(
                 "and run again."
             )
     graft = _Graft(user, _Package(zipfile.ZipFile(BytesIO(_render(sheets))), Path("scratch.xlsx")))
-    destinations = [graft.make_room(sheet.name) for sheet in sheets]
+    destinations = [graft.make_room(sheet.name, sheet.header) for sheet in sheets]
     graft.merge_styles()
     # the scratch package's first sheet is the placeholder that holds the tab selection
     for sheet, scratch_part, destination in zip(sheets, _worksheet_parts(graft.scratch)[1:], destinations):
@@ -271,8 +280,12 @@ class _Graft:
         kept = {info.filename.casefold() for info in self.user.infos if info.filename not in self.removed}
         return kept | {name.casefold() for name in self.writes}
 
-    def make_room(self, name: str) -> str | None:
-        """For a sheet that exists already: mark what of the old one goes, return its part. None for a new one."""
+    def make_room(self, name: str, header: Sequence[str] = ()) -> str | None:
+        """For a sheet that exists already: mark what of the old one goes, return its part. None for a new one.
+
+        A same-named sheet is replaced only when it is one leakbudget wrote: its first row starts with the first
+        ``OWNED_HEADER_CELLS`` names of ``header`` (the sheet's own header, which a spreadsheet program keeps when
+        it re-saves the file); any other is the user's, and the write is refused naming it."""
         found = self.existing.get(name.casefold())
         if found is None:
             return None
@@ -283,10 +296,24 @@ class _Graft:
                 f"{self.user.path.name}: sheet '{name_in_file}' is not a worksheet leakbudget wrote (it is a chart "
                 "sheet or is missing); rename or delete that sheet and run again."
             )
-        if not _is_ours(part) and _FORMULA.search(self.user.read(part)):
+        content = self.user.read(part)
+        if not _is_ours(part) and _FORMULA.search(content):
             raise WriteBackError(
                 f"{self.user.path.name}: sheet '{name_in_file}' holds formulas typed by hand, and leakbudget "
                 "replaces that sheet on every run; rename it and run again."
+            )
+        first = _first_row_texts(self.user, content)
+        if (
+            first is not None
+            and header
+            and [t.strip().casefold() for t in first[:OWNED_HEADER_CELLS]]
+            != [str(h).casefold() for h in header[:OWNED_HEADER_CELLS]]
+        ):
+            raise WriteBackError(
+                f"{self.user.path.name}: sheet '{name_in_file}' is a sheet of yours, not one leakbudget wrote (its "
+                f"first row starts {', '.join(repr(t) for t in first[:OWNED_HEADER_CELLS]) or 'empty'}, not "
+                f"{', '.join(repr(str(h)) for h in header[:OWNED_HEADER_CELLS])}); nothing was written; rename your "
+                "sheet and run again."
             )
         gone = _parts_only_used_by(part, self.graph)
         self.removed |= {actual for p in gone if (actual := self.user.actual(p)) is not None}
@@ -457,6 +484,59 @@ def _parts_only_used_by(sheet_part: str, children: dict[str, set[tuple[str, str]
         reach -= shared
 
 
+OWNED_HEADER_CELLS = 2  # a result sheet is recognised by the first cells of its header row
+_PREFIX = re.compile(rb"<(/?)[A-Za-z_][\w.-]*:")
+_FIRST_ROW = re.compile(rb"<(?:[A-Za-z_][\w.-]*:)?row[\s>].*?</(?:[A-Za-z_][\w.-]*:)?row>", re.S)
+
+
+def _first_row_texts(package: _Package, sheet_xml: bytes) -> list[str] | None:
+    """The texts of a worksheet part's first row, in column order (shared strings resolved); None when the sheet
+    has no row (an empty sheet holds nothing to lose)."""
+    match = _FIRST_ROW.search(sheet_xml)
+    if match is None:
+        return None
+    snippet = _PREFIX.sub(rb"<\1", match.group(0))  # x:row, x:c … : the prefix is declared on the root, not here
+    try:
+        row = parse(snippet)
+    except (BadXmlError, UnsafeXmlError):
+        return []
+    shared: list[str] | None = None
+    texts = []
+    for cell in row:
+        if local_name(cell.tag) != "c":
+            continue
+        kind = cell.get("t", "")
+        value = ""
+        if kind == "inlineStr":
+            value = "".join(t.text or "" for t in cell.iter() if local_name(t.tag) == "t")
+        elif kind == "s":
+            v = next((e.text for e in cell if local_name(e.tag) == "v"), None)
+            if shared is None:
+                shared = _shared_strings(package)
+            if v is not None and v.strip().isdigit() and int(v) < len(shared):
+                value = shared[int(v)]
+        else:
+            value = next((e.text or "" for e in cell if local_name(e.tag) == "v"), "")
+        texts.append(value)
+    return texts
+
+
+def _shared_strings(package: _Package) -> list[str]:
+    """The workbook's shared strings, in order (empty when it has none)."""
+    part = package.actual("xl/sharedStrings.xml")
+    if part is None:
+        return []
+    try:
+        root = parse(package.read(part))
+    except (BadXmlError, UnsafeXmlError):
+        return []
+    return [
+        "".join(t.text or "" for t in item.iter() if local_name(t.tag) == "t")
+        for item in root
+        if local_name(item.tag) == "si"
+    ]
+
+
 def _is_ours(part: str) -> bool:
     return posixpath.basename(part).casefold().startswith(OUR_PART_PREFIX)
 
@@ -573,6 +653,7 @@ def _render(sheets: Sequence[SheetData]) -> bytes:
         book = xlsxwriter.Workbook(buffer, {"constant_memory": True, "tmpdir": scratch_folder})
         book.add_worksheet(placeholder).activate()  # so no grafted sheet is tabSelected (Excel would group them)
         bold = book.add_format({"bold": True})
+        quoted = book.add_format({"quote_prefix": True})
         for sheet in sheets:
             worksheet = book.add_worksheet(sheet.name)
             formats = {column: book.add_format({"num_format": code}) for column, code in sheet.number_formats.items()}
@@ -585,6 +666,7 @@ def _render(sheets: Sequence[SheetData]) -> bytes:
                 width = max(len(sheet.header), max(map(len, sheet.rows)), *(c + 1 for c in sheet.number_formats))
                 for column in range(width):
                     worksheet.write_number(SAMPLE_ROW - 1, column, 0, formats.get(column))
+                worksheet.write_number(QUOTE_ROW - 1, 0, 0, quoted)  # the quote-prefix style's sample cell
             if sheet.chart is not None and sheet.rows:
                 _add_chart(book, worksheet, sheet)
         book.close()

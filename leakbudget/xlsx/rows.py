@@ -25,6 +25,11 @@ EXCEL_MAX_NUMBER = 9.99999999999999e307
 # text is cut there, as XlsxWriter's write_string does.
 EXCEL_MAX_TEXT_UTF16 = 32767
 SAMPLE_ROW = 2  # 1-based row of the sample cells, right under the header
+QUOTE_ROW = SAMPLE_ROW + 1  # 1-based row of the one sample cell in the quote-prefix style (cell A)
+# A text that starts with one of these is a formula or a command to a spreadsheet program that re-reads it (on
+# editing the cell, or from a CSV export): such cells carry the quote-prefix style (ECMA-376 Part 1 §18.8.45,
+# xf quotePrefix), as a spreadsheet program marks text typed with a leading apostrophe.
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 ROWS_PER_CHUNK = 2000  # rows joined into one piece of output (and one progress report)
 
 Cell = str | float | int | bool | None
@@ -39,6 +44,7 @@ _CONTROL = re.compile("[\x00-\x08\x0b-\x1f]")
 _NOT_A_CHARACTER = re.compile("[\ud800-\udfff\ufffe\uffff]")
 _SAMPLE_CELL = re.compile(rb'<c r="([A-Z]+%d)"( s="\d+")?' % SAMPLE_ROW)
 _DIMENSION = re.compile(rb'<dimension ref="[^"]*"/>')
+_QUOTE_CELL = re.compile(rb'<c r="A%d"( s="\d+")?' % QUOTE_ROW)
 
 
 def escape_text(text: str) -> str:
@@ -104,11 +110,12 @@ def used_range(rows: Sequence[Sequence[Cell]], header_width: int) -> str:
 
 
 def rows_xml(
-    rows: Sequence[Sequence[Cell]], styles: Sequence[str], progress: RowProgress | None = None
+    rows: Sequence[Sequence[Cell]], styles: Sequence[str], progress: RowProgress | None = None, quoted: str = ""
 ) -> Iterator[bytes]:
     """``<row>`` elements for ``rows`` from row ``SAMPLE_ROW`` on, in UTF-8 pieces of ``ROWS_PER_CHUNK`` rows.
 
-    ``styles[column]`` is the cell's style attribute (``' s="3"'`` or ``""``). Rows with no cell are left out.
+    ``styles[column]`` is the cell's style attribute (``' s="3"'`` or ``""``); a text that starts like a formula
+    (:data:`FORMULA_STARTS`) takes ``quoted``, the quote-prefix style, when given. Rows with no cell are left out.
     """
     from xlsxwriter.utility import xl_col_to_name
 
@@ -125,6 +132,9 @@ def rows_xml(
                 body = texts.get(value)
                 if body is None:
                     body = texts[value] = text_cell(value)
+                if quoted and value.startswith(FORMULA_STARTS):
+                    cells.append(f'<c r="{letters[column]}{number}"{quoted}{body}')
+                    continue
             elif type(value) is float:
                 if value != value:
                     continue
@@ -160,10 +170,11 @@ class SheetXml:
     rows: Sequence[Sequence[Cell]]
     styles: tuple[str, ...]  # style attribute per column, from the sample row
     tail: bytes  # the frame from ``</sheetData>`` on
+    quoted: str = ""  # the quote-prefix style attribute, for text that starts like a formula
 
     def chunks(self, progress: RowProgress | None = None) -> Iterator[bytes]:
         yield self.head
-        yield from rows_xml(self.rows, self.styles, progress)
+        yield from rows_xml(self.rows, self.styles, progress, self.quoted)
         yield self.tail
 
 
@@ -179,6 +190,12 @@ def with_rows(frame: bytes, name: str, header: Sequence[str], rows: Sequence[Seq
     styles: dict[int, str] = {}
     for match in _SAMPLE_CELL.finditer(frame, start, end):
         styles[xl_cell_to_rowcol(match.group(1).decode())[1]] = (match.group(2) or b"").decode()
+    quoted = ""
+    if frame.startswith(b'<row r="%d"' % QUOTE_ROW, end):
+        quote_end = frame.index(b"</row>", end) + len(b"</row>")
+        found = _QUOTE_CELL.search(frame, end, quote_end)
+        quoted = (found.group(1) or b"").decode() if found else ""
+        end = quote_end
     head = _DIMENSION.sub(f'<dimension ref="{used_range(rows, len(header))}"/>'.encode(), frame[:start], count=1)
     width = max(styles) + 1 if styles else 0
-    return SheetXml(name, head, rows, tuple(styles.get(c, "") for c in range(width)), frame[end:])
+    return SheetXml(name, head, rows, tuple(styles.get(c, "") for c in range(width)), frame[end:], quoted)
