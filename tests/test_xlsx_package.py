@@ -604,3 +604,21 @@ def test_quoteattr_matches_the_standard_library(value):
 
     ours = quoteattr(value)
     assert ET.fromstring(f"<a v={ours}/>").get("v") == ET.fromstring(f"<a v={reference(value)}/>").get("v") == value
+
+
+def test_result_sheets_print_landscape_fitted_to_the_page_width(tmp_path: Path) -> None:
+    # ECMA-376 Part 1 §18.3.1.63 pageSetup (orientation, fitToWidth/fitToHeight) and §18.3.1.65 pageSetUpPr
+    # fitToPage: the sheet prints landscape, one page wide, as many pages long as needed, its header frozen
+    path = copy_fixture(tmp_path, "gnumeric")
+    write_sheets(path, [circuit_sheet()])
+    with zipfile.ZipFile(path) as archive:
+        workbook = archive.read("xl/workbook.xml").decode()
+        rels = archive.read("xl/_rels/workbook.xml.rels").decode()
+        rid = re.search(r'<sheet [^>]*name="Circuit results"[^>]*r:id="([^"]+)"', workbook)
+        assert rid is not None
+        rel = next(r for r in re.findall(r"<Relationship [^>]*>", rels) if f'Id="{rid.group(1)}"' in r)
+        target = re.search(r'Target="([^"]+)"', rel)
+        assert target is not None
+        ours = archive.read("xl/" + target.group(1).lstrip("/").removeprefix("xl/"))
+    assert b'orientation="landscape"' in ours and b'fitToHeight="0"' in ours and b'fitToPage="1"' in ours
+    assert b'state="frozen"' in ours

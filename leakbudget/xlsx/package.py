@@ -660,6 +660,8 @@ def _render(sheets: Sequence[SheetData]) -> bytes:
             for column, width in sheet.column_widths.items():
                 worksheet.set_column(column, column, width)
             worksheet.freeze_panes(1, 0)
+            worksheet.set_landscape()  # prints well: landscape, every column on the page's width, pages as long as needed
+            worksheet.fit_to_pages(1, 0)
             for column, title in enumerate(sheet.header):
                 _write_text(worksheet, 0, column, str(title), bold)
             if sheet.rows:
