@@ -3,7 +3,7 @@
 Measures CPU time (user + system of the child process, from os.wait4; wall time on the shared 2-core machine is
 noisier), median of R fresh processes (default 3), of:
 - the shipped demo (14 circuits): `check --no-write`, `report --html`, `report --pdf`;
-- two invented building floors (benchmarks/workbooks.py, about one circuit per five loads; default 100 and 200
+- two invented building floors (benchmarks/workbooks.py, about one circuit per five loads; default 50 and 200
   circuits): `check --no-write`, `report --html`, `report --pdf`, `report --html --pdf`, each as the command
   runs by default (detail pages only for circuits that are not ok) and with `--all-circuits` (a page for every
   circuit) when the command has that option;
@@ -91,7 +91,7 @@ def verdict(ratio: float, target: float) -> str:
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--runs", type=int, default=3, help="runs of each command (median shown)")
-    parser.add_argument("--sizes", type=int, nargs=2, default=(100, 200), help="circuits of the two floors")
+    parser.add_argument("--sizes", type=int, nargs=2, default=(50, 200), help="circuits of the two floors")
     parser.add_argument("--skip-big", action="store_true", help="the demo only")
     args = parser.parse_args()
     variants = [[], ["--all-circuits"]] if has_all_circuits_option() else [[]]  # --help ran once: bytecode compiled

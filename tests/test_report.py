@@ -25,9 +25,10 @@ from defusedxml import ElementTree
 from leakbudget.api import example_path, report
 from leakbudget.checking import check
 from leakbudget.cli.app import main
+from leakbudget.planner.plan import SplitOptions
 from leakbudget.reporting import charts
 from leakbudget.reporting.content import build_report
-from leakbudget.reporting.document import iter_tables
+from leakbudget.reporting.document import Paragraph, Table, iter_tables
 from leakbudget.reporting.html import render_html
 from leakbudget.reporting.pdf import render_pdf
 from leakbudget.workbook.read import read_project
@@ -669,3 +670,30 @@ def test_overview_is_split_so_each_chart_fits_a_page(tmp_path):
     assert [f.name for f in overviews] == ["overview-1", "overview-2"]
     assert [f.alt.count(" %") for f in overviews] == [OVERVIEW_ROWS, 30 - OVERVIEW_ROWS]
     assert all(f.chart.height_in < PAGE_H_IN - 2 * MARGIN_IN - FOOTER_IN - 0.5 for f in overviews)
+
+
+def test_summary_of_a_dual_rcd_board_names_the_device_not_the_circuits_it_carries(tmp_path):
+    from leakbudget.output.check import to_json
+    from leakbudget.output.split import to_json as split_json
+
+    # the UK example: RCD1 (30 mA) carries 14.1 mA from five circuits, over its 9 mA budget (BS 7671:2018 reg.
+    # 531.3.2, 30 % of IΔn); each circuit alone is within it, so the change is at the device
+    workbook = tmp_path / "tanners-row-flat.xlsx"
+    shutil.copyfile(example_path("tanners-row-flat.xlsx"), workbook)
+    job = report(workbook, html=tmp_path / "r.html", split=SplitOptions())
+    doc, plan = to_json(job.review.check), split_json(job.plan)
+    summary = next(s for s in job.report.sections if s.anchor == "summary")
+    tables = {b.name: b for b in summary.blocks if isinstance(b, Table)}
+    assert [row[0].text for row in tables["summary-devices"].rows] == [d["id"] for d in doc["devices"]]
+    rcd1 = next(d for d in doc["devices"] if d["id"] == "RCD1")
+    assert rcd1["status"] == "over-budget" and rcd1["budget_ma"] == pytest.approx(0.30 * 30)
+    texts = [b.text for b in summary.blocks if isinstance(b, Paragraph)]
+    line = next(t for t in texts if t.startswith("RCD1: "))
+    assert line.endswith(f"Circuits below it: {', '.join(rcd1['circuits'])}.")
+    carried = [c["circuit"] for c in doc["circuits"] if c.get("protected_by") == "RCD1"]
+    assert carried and all((c["headroom_used"] or 0) <= 1 for c in doc["circuits"] if c["circuit"] in carried)
+    assert not any(t.startswith(f"{cid}: ") for cid in carried for t in texts)
+    assert {row[1].text for row in tables["summary-circuits"].rows if row[0].text in carried} == {"behind RCD1"}
+    moved = [m for m in plan["circuit_assignments"] if m["moved"]]
+    plan_line = next(t for t in texts if t.startswith("The split plan"))
+    assert moved and all(f"circuit {m['circuit']} from {m['from']} to {m['to']}" in plan_line for m in moved)
