@@ -473,11 +473,13 @@ def report(
     code: str | None = None,
     split: SplitOptions | None = None,
     generated: date | None = None,
+    all_circuits: bool = False,
 ) -> ReportJob:
     """Check and review a workbook (writing nothing into it), plan a split when ``split`` options are given, and
     write the hand-over report as HTML and/or PDF (at least one).
 
-    ``code`` is the wiring code the review uses (as for :func:`review`); ``generated`` the report's date."""
+    ``code`` is the wiring code the review uses (as for :func:`review`); ``generated`` the report's date;
+    ``all_circuits`` gives every circuit and shared device a detail section (else only those not ok)."""
     from leakbudget.compliance.rules import review as review_project
     from leakbudget.reporting.content import build_report
     from leakbudget.reporting.write import check_outputs, write_report
@@ -499,6 +501,7 @@ def report(
         generated=generated,
         review_basis=f"{rv.label} ({rv.code_source})",
         plan=_plan_document(plan),
+        all_circuits=all_circuits,
     )
     written = write_report(content, path, html, pdf)
     return ReportJob(rv, content, written, plan)

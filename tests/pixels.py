@@ -1,6 +1,7 @@
 """Reading charts back as pixels: find the budget and no-trip lines and the bars by their colours.
 
-The PNG is decoded with matplotlib's reader (Pillow underneath), independent of how the chart was drawn.
+The pixels are a rendering of the PDF by poppler's pdftoppm (a PDF reader independent of the library that wrote
+the file), as a binary PPM (Netpbm P6) decoded here with numpy.
 """
 
 from __future__ import annotations
@@ -13,12 +14,17 @@ import numpy as np
 from leakbudget.reporting import charts
 
 
-def decode(png: bytes) -> np.ndarray:
-    """RGB pixels of a PNG as an (height, width, 3) integer array, 0-255."""
-    from matplotlib.image import imread
-
-    image = imread(io.BytesIO(png), format="png")
-    return np.rint(image[..., :3] * 255).astype(int)
+def decode(ppm: bytes) -> np.ndarray:
+    """RGB pixels of a binary PPM (P6, maxval 255) as an (height, width, 3) integer array, 0-255."""
+    stream = io.BytesIO(ppm)
+    fields: list[bytes] = []
+    while len(fields) < 4:  # magic, width, height, maxval, separated by white space (and # comments)
+        line = stream.readline()
+        fields += line.split(b"#")[0].split()
+    magic, width, height, maxval = fields[0], int(fields[1]), int(fields[2]), int(fields[3])
+    assert magic == b"P6" and maxval == 255
+    pixels = np.frombuffer(stream.read(width * height * 3), dtype=np.uint8)
+    return pixels.reshape(height, width, 3).astype(int)
 
 
 def mask(image: np.ndarray, colour: str, tolerance: int = 14) -> np.ndarray:

@@ -1,12 +1,12 @@
 """The hand-over report: it renders, holds every circuit, its numbers equal `check --json`, its charts show them.
 
 The shipped example and the small conftest workbook are reported through the real command line; the HTML is
-read back with the standard library's HTML parser and the embedded PNGs with matplotlib's image reader.
+read back with the standard library's HTML parser, its inline SVG charts with defusedxml (tests/svg.py), and the
+PDF with poppler's pdftotext and pdftoppm (a PDF reader independent of the library that wrote it).
 """
 
 from __future__ import annotations
 
-import base64
 import contextlib
 import datetime as dt
 import io
@@ -14,11 +14,13 @@ import json
 import math
 import re
 import shutil
+import subprocess
 import sys
 from dataclasses import dataclass
 from html.parser import HTMLParser
 
 import pytest
+from defusedxml import ElementTree
 
 from leakbudget.api import example_path, report
 from leakbudget.checking import check
@@ -26,12 +28,13 @@ from leakbudget.cli.app import main
 from leakbudget.planner.plan import SplitOptions
 from leakbudget.reporting import charts
 from leakbudget.reporting.content import build_report
-from leakbudget.reporting.document import iter_tables
+from leakbudget.reporting.document import Paragraph, Table, iter_tables
 from leakbudget.reporting.html import render_html
-from leakbudget.reporting.pdf import pdf_pages, render_pdf
+from leakbudget.reporting.pdf import render_pdf
 from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER, basic_sheets, write_workbook
 from tests.pixels import decode, line_column, stacked_bar
+from tests.svg import read_chart
 
 
 def run_cli(args: list[str], capsys, monkeypatch) -> tuple[int, str, str]:
@@ -61,8 +64,8 @@ class ReportReader(HTMLParser):
     def handle_starttag(self, tag, attrs):
         a = dict(attrs)
         self.tags.add(tag)
-        for name in ("src", "href"):
-            if a.get(name) and not a[name].startswith(("data:image/png;base64,", "#")):
+        for name in ("src", "href", "xlink:href"):
+            if a.get(name) and not a[name].startswith("#"):
                 self.links.append(a[name])
         if tag == "section":
             self.sections.append(a["id"])
@@ -80,13 +83,8 @@ class ReportReader(HTMLParser):
             self._cell["in_note"] = True
         elif tag == "figure":
             self._figure = a.get("data-figure")
-        elif tag == "img" and self._figure is not None:
-            self.figures[self._figure] = {
-                "png": base64.b64decode(a["src"].split(",", 1)[1]),
-                "alt": a["alt"],
-                "width": int(a["width"]),
-                "height": int(a["height"]),
-            }
+        elif tag == "svg" and self._figure is not None:
+            self.figures[self._figure] = {"alt": a["aria-label"], "width": int(a["width"]), "height": int(a["height"])}
 
     def handle_endtag(self, tag):
         if tag == "table":
@@ -103,10 +101,33 @@ class ReportReader(HTMLParser):
             self._cell["text"] += data
 
 
+FIGURE_SVG = re.compile(r'<figure id="[^"]*" data-figure="([^"]+)">(<svg .*?</svg>)', re.DOTALL)
+
+
 def read_html(text: str) -> ReportReader:
     reader = ReportReader()
     reader.feed(text)
+    for name, svg in FIGURE_SVG.findall(text):
+        reader.figures[name]["svg"] = svg
     return reader
+
+
+def pdf_words(path) -> list[tuple[float, float, list[tuple[float, float, float, float, str]]]]:
+    """Each page of a PDF as (width, height, words with their boxes [pt]), as poppler's pdftotext reads it."""
+    bbox = subprocess.run(["pdftotext", "-bbox", str(path), "-"], capture_output=True, check=True).stdout
+    root = ElementTree.fromstring(bbox)
+    ns = {"x": "http://www.w3.org/1999/xhtml"}
+    return [
+        (
+            float(page.get("width")),
+            float(page.get("height")),
+            [
+                (float(w.get("xMin")), float(w.get("yMin")), float(w.get("xMax")), float(w.get("yMax")), w.text or "")
+                for w in page.findall("x:word", ns)
+            ],
+        )
+        for page in root.iter("{http://www.w3.org/1999/xhtml}page")
+    ]
 
 
 @pytest.fixture(scope="module")
@@ -128,6 +149,8 @@ def demo_run(tmp_path_factory):
 
     html_path, pdf_path = folder / "report.html", folder / "report.pdf"
     report_run = run(["report", str(workbook), "--html", str(html_path), "--pdf", str(pdf_path), "--split"])
+    all_path = folder / "all-circuits.html"
+    all_run = run(["report", str(workbook), "--html", str(all_path), "--all-circuits"])
     split_run = run(["split", str(workbook), "--no-write", "--json"])
     check_run = run(["check", str(workbook), "--no-write", "--json"])
     review_run = run(["review", str(workbook), "--no-write", "--json"])
@@ -136,6 +159,8 @@ def demo_run(tmp_path_factory):
         "workbook": workbook,
         "unchanged": workbook.read_bytes() == before,
         "report": report_run,
+        "all_run": all_run,
+        "all": read_html(all_path.read_text(encoding="utf-8")),
         "check": json.loads(check_run[1]),
         "review": json.loads(review_run[1]),
         "split": json.loads(split_run[1]),
@@ -213,28 +238,59 @@ def test_bad_output_names_exit_2_with_one_sentence_and_write_nothing(args, messa
 
 
 def test_html_is_self_contained(demo_run):
-    html = demo_run["html"]
-    assert html.links == []  # every src/href is an embedded PNG or an in-page anchor
-    assert not {"script", "link", "iframe", "object"} & html.tags
-    assert "http://" not in demo_run["raw_html"] and "https://" not in demo_run["raw_html"]
-    assert demo_run["raw_html"].startswith("<!DOCTYPE html>")
+    for key in ("html", "all"):
+        html = demo_run[key]
+        assert html.links == []  # every src/href is an in-page anchor; charts are inline SVG, not files or URIs
+        assert not {"script", "link", "iframe", "object", "img", "image", "use"} & html.tags
+    raw = demo_run["raw_html"]
+    assert "http://" not in raw and "https://" not in raw and "data:" not in raw and "url(" not in raw
+    assert raw.startswith("<!DOCTYPE html>")
 
 
-def test_report_has_every_circuit_with_its_chart_and_load_table(demo_run):
-    doc, html = demo_run["check"], demo_run["html"]
+SECTIONS = ("summary", "job", "cautions", "supply", "circuits", "likelihood", "readings", "split", "findings", "method")
+
+
+def test_report_has_a_detail_section_for_each_circuit_not_ok_and_all_with_the_option(demo_run):
+    doc = demo_run["check"]
     ids = [c["circuit"] for c in doc["circuits"]]
-    assert len(ids) == len(set(ids)) > 10
-    assert [row[0]["text"] for row in html.tables["circuits"][1:]] == ids
-    for cid in ids:
-        assert f"circuit-{cid}" in html.sections
-        assert f"chart-{cid}" in html.figures
-        names = [row[0]["text"] for row in html.tables[f"loads-{cid}"][1:]]
-        assert names == [d["load"] for d in doc["loads"] if d["circuit"] == cid]
-    assert [row[0]["text"] for row in html.tables["loads-unplaced"][1:]] == [
-        d["load"] for d in doc["loads"] if d["kind"] == "load" and d["circuit"] is None
-    ]
-    for section in ("job", "cautions", "supply", "circuits", "likelihood", "readings", "split", "findings", "method"):
-        assert section in html.sections
+    not_ok = [c["circuit"] for c in doc["circuits"] if c["status"] != "ok"]
+    assert len(ids) == len(set(ids)) > 10 and 0 < len(not_ok) < len(ids)
+    for html, shown in ((demo_run["html"], not_ok), (demo_run["all"], ids)):
+        assert [row[0]["text"] for row in html.tables["circuits"][1:]] == ids  # the circuit table: every one
+        assert [s.removeprefix("circuit-") for s in html.sections if s.startswith("circuit-")] == shown
+        for cid in shown:
+            assert f"chart-{cid}" in html.figures
+            names = [row[0]["text"] for row in html.tables[f"loads-{cid}"][1:]]
+            assert names == [d["load"] for d in doc["loads"] if d["circuit"] == cid]
+        assert [row[0]["text"] for row in html.tables["loads-unplaced"][1:]] == [
+            d["load"] for d in doc["loads"] if d["kind"] == "load" and d["circuit"] is None
+        ]
+        assert set(SECTIONS) <= set(html.sections) and html.sections[0] == "summary"
+    assert demo_run["all_run"][0] == 0
+
+
+def test_summary_lists_every_protected_circuit_and_what_must_change(demo_run):
+    doc, html, raw = demo_run["check"], demo_run["html"], demo_run["raw_html"]
+    protected = [c for c in doc["circuits"] if c["status"] != "unprotected"]
+    rows = html.tables["summary-circuits"][1:]
+    assert [row[0]["text"] for row in rows] == [c["circuit"] for c in protected]
+    for c, row in zip(protected, rows, strict=True):
+        cells = _numbers(row)
+        assert float(cells["gate_ma"]["value"]) == c["gate_ma"] and cells["gate_ma"]["text"] == f"{c['gate_ma']:.3f}"
+        assert float(cells["budget_ma"]["value"]) == c["budget_ma"]
+        assert cells["headroom_used"]["text"] == f"{100 * c['headroom_used']:.0f} %"
+        assert row[5]["text"] == c["status"]
+    summary = raw[raw.index('<section id="summary">') : raw.index('<section id="job">')]
+    for c in doc["circuits"]:
+        if c["status"] == "over-budget":  # each named with its numbers
+            assert (
+                f"{c['circuit']}: {c['gate_ma']:.3f} mA against a {c['budget_ma']:.3f} mA budget "
+                f"({100 * c['headroom_used']:.0f} %), over budget"
+            ) in summary
+    assert "never remove or up-rate protection" in summary
+    moved = [a for a in demo_run["split"]["assignments"] if a["moved"]]
+    assert moved and all(f"{a['load']} from {a['from']} to {a['to']}" in summary for a in moved)
+    assert "Caution: leakbudget is a planning aid" in summary
 
 
 CIRCUIT_KEYS = ("load_count", "cable_leakage_ma", "leakage_ma", "phasor_ma", "budget_ma", "no_trip_ma", "headroom_used")
@@ -286,7 +342,7 @@ def test_trip_likelihood_and_readings_equal_check_json(demo_run):
 
 
 def test_load_numbers_equal_check_json_and_add_up_to_the_circuit(demo_run):
-    doc, html = demo_run["check"], demo_run["html"]
+    doc, html = demo_run["check"], demo_run["all"]
     for c in doc["circuits"]:
         loads = [d for d in doc["loads"] if d["circuit"] == c["circuit"]]
         rows = html.tables[f"loads-{c['circuit']}"][1:]
@@ -315,41 +371,91 @@ def test_every_load_shows_its_source_and_provenance_mark(demo_run):
 
 
 def test_embedded_charts_show_the_check_numbers(demo_run):
-    doc, html = demo_run["check"], demo_run["html"]
+    doc, html = demo_run["check"], demo_run["all"]
     by_id = {c["circuit"]: c for c in doc["circuits"]}
     for cid in ("P-OUT", "K-CTR2", "K-RANGE"):  # over budget, well within, near it
         figure = html.figures[f"chart-{cid}"]
-        image = decode(figure["png"])
-        assert image.shape[:2] == (figure["height"], figure["width"])
-        budget_col, _ = line_column(image, charts.BUDGET_COLOUR)
-        bar = stacked_bar(image)
+        chart = read_chart(figure["svg"])
         c = by_id[cid]
-        expected_px = c["leakage_ma"] / c["budget_ma"] * (budget_col + 1 - bar.left)
-        # ±4 px: a bar's ends are anti-aliased and edged in white, and its last segment (a short cable run) may
-        # be thinner than that
-        assert bar.right + 1 - bar.left == pytest.approx(expected_px, abs=4), cid
-        assert (bar.right > budget_col) == (c["status"] == "over-budget")
+        # read against the chart's own tick labels, the bar ends at the circuit's sum and the lines sit at its
+        # budget and no-trip level, to the shown digits
+        end = chart.value_at(max(x + w for x, _, w, _, _ in chart.rects("segment")))
+        assert end == pytest.approx(c["leakage_ma"], abs=5e-4), cid
+        assert chart.line_value("budget") == pytest.approx(c["budget_ma"], abs=5e-4)
+        assert chart.line_value("no-trip") == pytest.approx(c["no_trip_ma"], abs=5e-4)
+        assert (end > chart.line_value("budget")) == (c["status"] == "over-budget")
         assert f"{c['leakage_ma']:.3f} mA" in figure["alt"]
-    overview = decode(html.figures["overview"]["png"])
-    assert overview.shape[1] == 760
+        assert figure["width"] == 760
+    overview = read_chart(html.figures["overview"]["svg"])
+    protected = [c for c in doc["circuits"] if c["budget_ma"] is not None]
+    ends = [overview.value_at(x + w) for x, _, w, _, _ in overview.rects("used")]
+    assert ends == pytest.approx([100 * c["gate_ma"] / c["budget_ma"] for c in protected], abs=0.01)
     assert f"P-OUT {100 * by_id['P-OUT']['headroom_used']:.0f} %" in html.figures["overview"]["alt"]
 
 
-def test_pdf_has_every_circuit_and_its_text_stays_on_the_page(demo_run):
-    job = report(demo_run["workbook"], html=demo_run["html_path"].with_name("again.html"), split=SplitOptions())
-    pages = pdf_pages(job.report)  # the same report the command laid out, as figures
-    texts = []
-    for page in pages:
-        renderer = page.canvas.get_renderer()
-        width, height = page.bbox.width, page.bbox.height
-        for text in page.texts:
-            box = text.get_window_extent(renderer)
-            assert box.x0 >= 0 and box.y0 >= 0 and box.x1 <= width + 1 and box.y1 <= height + 1, text.get_text()
-            texts.append(text.get_text())
+def test_pdf_opens_names_every_circuit_and_its_text_stays_on_the_page(demo_run, tmp_path):
+    pdf = demo_run["pdf_path"]
+    pages = pdf_words(pdf)
+    info = subprocess.run(["pdfinfo", str(pdf)], capture_output=True, text=True, check=True).stdout
+    assert re.search(rf"^Pages:\s+{len(pages)}$", info, re.MULTILINE)
+    assert len(re.findall(rb"/Type\s*/Page\b(?!s)", pdf.read_bytes())) == len(pages)
+    assert len(pages) <= 15  # the demo's report was 20 pages before the summary and detail for not-ok only
+    fonts = subprocess.run(["pdffonts", str(pdf)], capture_output=True, text=True, check=True).stdout.splitlines()
+    assert [line.split()[0].split("+")[-1] for line in fonts[2:]] == ["DejaVuSans", "DejaVuSans-Bold"]
+    assert all(" yes yes yes " in line for line in fonts[2:])  # embedded, subset, with a Unicode map
+    words = []
+    for width, height, boxes in pages:
+        for x0, y0, x1, y1, text in boxes:
+            assert x0 >= 0 and y0 >= 0 and x1 <= width and y1 <= height, text
+        words.append([b[4] for b in boxes])
+    text = [" ".join(w) for w in words]
     for c in demo_run["check"]["circuits"]:
-        assert f"Circuit {c['circuit']}" in texts
-        assert f"{c['leakage_ma']:.3f}" in texts  # the circuit table row, same digits as check --json
-    assert len(re.findall(rb"/Type\s*/Page\b(?!s)", demo_run["pdf_path"].read_bytes())) == len(pages)
+        assert c["circuit"] in " ".join(words[0])  # the summary on page 1 names every circuit
+        assert f"{c['leakage_ma']:.3f}" in " ".join(text)
+    assert "Before installation" in text[0] and "Caution: leakbudget is a planning aid" in text[0]
+    assert "IΔn" in " ".join(text)  # the Greek letter survives (it is not in the PDF standard fonts)
+    # poppler renders every page
+    subprocess.run(["pdftoppm", "-r", "30", "-png", str(pdf), str(tmp_path / "page")], check=True)
+    assert len(list(tmp_path.glob("page-*.png"))) == len(pages)
+
+
+def test_pdf_chart_pixels_show_the_check_numbers(demo_run, tmp_path):
+    """P-OUT's chart as poppler rasterises it: bar length / budget line offset = sum / budget (within 2 %)."""
+    c = next(c for c in demo_run["check"]["circuits"] if c["circuit"] == "P-OUT")
+    page, top = next(  # the chart's headline: "P-OUT: 1.978 mA, 110 % of budget, over-budget"
+        (i + 1, boxes[k][1])
+        for i, (_, _, boxes) in enumerate(pdf_words(demo_run["pdf_path"]))
+        for k in range(len(boxes) - 3)
+        if [b[4] for b in boxes[k : k + 3]] == ["P-OUT:", f"{c['gate_ma']:.3f}", "mA,"]
+    )
+    dpi, height_in = 144, 1.9  # the title, bar and axis bands of a circuit chart, above its legend
+    crop = ["-x", "0", "-y", str(int(top / 72 * dpi) - 4), "-W", str(int(8.27 * dpi)), "-H", str(int(height_in * dpi))]
+    out = tmp_path / "chart"
+    subprocess.run(
+        [
+            "pdftoppm",
+            "-r",
+            str(dpi),
+            "-f",
+            str(page),
+            "-l",
+            str(page),
+            "-singlefile",
+            *crop,
+            str(demo_run["pdf_path"]),
+            str(out),
+        ],
+        check=True,
+    )
+    image = decode(out.with_suffix(".ppm").read_bytes())
+    budget_col, budget_px = line_column(image, charts.BUDGET_COLOUR)
+    no_trip_col, no_trip_px = line_column(image, charts.NO_TRIP_COLOUR)
+    bar = stacked_bar(image)
+    assert budget_px > 30 and no_trip_px > 50
+    offset = budget_col + 1 - bar.left
+    assert (bar.right + 1 - bar.left) / offset == pytest.approx(c["leakage_ma"] / c["budget_ma"], rel=0.02)
+    # UL 943 Class A: no trip below 4 mA, against the 1.8 mA budget
+    assert (no_trip_col + 1 - bar.left) / offset == pytest.approx(c["no_trip_ma"] / c["budget_ma"], rel=0.02)
 
 
 def test_findings_equal_review_json(demo_run):
@@ -385,7 +491,7 @@ def test_code_option_reaches_the_review(make_workbook, tmp_path, capsys, monkeyp
 
 
 def test_small_workbook_report_against_published_figures(make_workbook, tmp_path):
-    job = report(make_workbook(), html=tmp_path / "r.html", generated=dt.date(2026, 1, 5))
+    job = report(make_workbook(), html=tmp_path / "r.html", generated=dt.date(2026, 1, 5), all_circuits=True)
     html = read_html((tmp_path / "r.html").read_text(encoding="utf-8"))
     rows = {row[0]["text"]: _numbers(row) for row in html.tables["circuits"][1:]}
     # UL 943 Class A trips at 6 mA; 30 % of it by analogy with BS 7671:2018 reg. 531.3.2 = 1.8 mA.
@@ -424,7 +530,8 @@ def test_circuit_ids_with_spaces_give_working_links(tmp_path):
     sheets["Circuits"][1][0] = "Kitchen 1"
     sheets["Circuits"][2][0] = "Kitchen_1"
     sheets["Loads"][1][1], sheets["Loads"][2][1] = "Kitchen 1", "Kitchen_1"
-    text = render_html(build_report(check(read_project(write_workbook(tmp_path / "s.xlsx", sheets)))))
+    project = read_project(write_workbook(tmp_path / "s.xlsx", sheets))
+    text = render_html(build_report(check(project), all_circuits=True))
     assert {"circuit-Kitchen_1", "circuit-Kitchen_1-2"} <= set(read_html(text).sections)
     assert '<a href="#circuit-Kitchen_1">Circuit Kitchen 1</a>' in text
     assert '<a href="#circuit-Kitchen_1-2">Circuit Kitchen_1</a>' in text
@@ -563,3 +670,30 @@ def test_overview_is_split_so_each_chart_fits_a_page(tmp_path):
     assert [f.name for f in overviews] == ["overview-1", "overview-2"]
     assert [f.alt.count(" %") for f in overviews] == [OVERVIEW_ROWS, 30 - OVERVIEW_ROWS]
     assert all(f.chart.height_in < PAGE_H_IN - 2 * MARGIN_IN - FOOTER_IN - 0.5 for f in overviews)
+
+
+def test_summary_of_a_dual_rcd_board_names_the_device_not_the_circuits_it_carries(tmp_path):
+    from leakbudget.output.check import to_json
+    from leakbudget.output.split import to_json as split_json
+
+    # the UK example: RCD1 (30 mA) carries 14.1 mA from five circuits, over its 9 mA budget (BS 7671:2018 reg.
+    # 531.3.2, 30 % of IΔn); each circuit alone is within it, so the change is at the device
+    workbook = tmp_path / "tanners-row-flat.xlsx"
+    shutil.copyfile(example_path("tanners-row-flat.xlsx"), workbook)
+    job = report(workbook, html=tmp_path / "r.html", split=SplitOptions())
+    doc, plan = to_json(job.review.check), split_json(job.plan)
+    summary = next(s for s in job.report.sections if s.anchor == "summary")
+    tables = {b.name: b for b in summary.blocks if isinstance(b, Table)}
+    assert [row[0].text for row in tables["summary-devices"].rows] == [d["id"] for d in doc["devices"]]
+    rcd1 = next(d for d in doc["devices"] if d["id"] == "RCD1")
+    assert rcd1["status"] == "over-budget" and rcd1["budget_ma"] == pytest.approx(0.30 * 30)
+    texts = [b.text for b in summary.blocks if isinstance(b, Paragraph)]
+    line = next(t for t in texts if t.startswith("RCD1: "))
+    assert line.endswith(f"Circuits below it: {', '.join(rcd1['circuits'])}.")
+    carried = [c["circuit"] for c in doc["circuits"] if c.get("protected_by") == "RCD1"]
+    assert carried and all((c["headroom_used"] or 0) <= 1 for c in doc["circuits"] if c["circuit"] in carried)
+    assert not any(t.startswith(f"{cid}: ") for cid in carried for t in texts)
+    assert {row[1].text for row in tables["summary-circuits"].rows if row[0].text in carried} == {"behind RCD1"}
+    moved = [m for m in plan["circuit_assignments"] if m["moved"]]
+    plan_line = next(t for t in texts if t.startswith("The split plan"))
+    assert moved and all(f"circuit {m['circuit']} from {m['from']} to {m['to']}" in plan_line for m in moved)

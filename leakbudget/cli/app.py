@@ -295,7 +295,7 @@ def report(
     html: Annotated[
         Path | None,
         typer.Option(
-            "--html", help="Write the report as one self-contained HTML file (charts embedded, no external links)."
+            "--html", help="Write the report as one self-contained HTML file (charts inline, no external links)."
         ),
     ] = None,
     pdf: Annotated[Path | None, typer.Option("--pdf", help="Write the report as a PDF (A4 pages).")] = None,
@@ -309,8 +309,15 @@ def report(
     max_likelihood: MaxLikelihoodOpt = None,
     keep: KeepOpt = None,
     avoid: AvoidOpt = None,
+    all_circuits: Annotated[
+        bool,
+        typer.Option(
+            "--all-circuits", help="A detail page (chart and load table) for every circuit, not only those not ok."
+        ),
+    ] = False,
 ) -> None:
-    """Write a hand-over report: job, cautions, settings, a chart per circuit, tables with sources, findings.
+    """Write a hand-over report: a one-page summary, then job, cautions, settings, tables with sources, a chart and
+    load table per circuit that is not ok (every circuit with --all-circuits), findings.
 
     Runs the check and the review (against --code), with --split the split planner too (--time-limit,
     --new-device, --new-rating, --max-trip-likelihood, --keep and --avoid apply to it), and lays them out; the workbook is only read. Exit code 0 when
@@ -320,7 +327,7 @@ def report(
     from leakbudget.compliance.rules import Severity
 
     options = _split_options(time_limit, new_device, new_rating, max_likelihood, keep, avoid) if split else None
-    job = api.report(path, html, pdf, code, options)
+    job = api.report(path, html, pdf, code, options, all_circuits=all_circuits)
     rv = job.review
     counts = job.report.status_counts
     over = counts.get("over-budget", 0) + counts.get("trip-risk", 0)

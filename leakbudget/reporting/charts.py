@@ -1,18 +1,18 @@
-"""Pictures for the report: one gauge chart per circuit and an overview of budget used, as PNG bytes.
+"""Pictures for the report: one gauge chart per circuit (or shared device) and an overview of budget used.
 
-Drawn with matplotlib's object-oriented API on an Agg canvas (no pyplot, no global backend state); matplotlib is
-imported inside the functions, so importing this module costs nothing. Colours are defined once in
-:mod:`leakbudget.output.palette`, so the report's legend, the workbook's chart, the tests that read the pixels back
-and these charts agree.
+A chart is drawn once, as a list of vector shapes (rectangles, lines, polygons, text) in points from its top-left
+corner; :meth:`Chart.svg` writes them as SVG text for the HTML report and :mod:`leakbudget.reporting.pdf` draws
+the same shapes on its page. Text is placed with the report's typeface metrics
+(:mod:`leakbudget.reporting.typeface`). Colours are defined once in :mod:`leakbudget.output.palette`, so the
+report's legend, the workbook's chart, the tests and these charts agree.
 """
 
 from __future__ import annotations
 
-import io
+import html
 import math
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Any
 
 from leakbudget.output.palette import (
     BACKGROUND,
@@ -23,16 +23,193 @@ from leakbudget.output.palette import (
     SEGMENT_COLOURS,
     STATUS_COLOURS,
 )
+from leakbudget.reporting.typeface import ASCENT, fit, text_width_pt
 
-DPI = 100  # pixels per inch of the PNGs; the report shows them at this size
-WIDTH_IN = 7.6  # chart width [in] → 760 px, the width of the report's column
+PT_PER_IN = 72.0
+WIDTH_IN = 7.6  # chart width [in]: the width of the report's column
+SCREEN_PX_PER_IN = 100  # the HTML shows a chart 760 px wide (WIDTH_IN at 100 px an inch), shrinking to fit
 TITLE_IN, BAR_IN, AXIS_LABEL_IN = 0.55, 0.8, 0.42  # bands of a circuit chart, top to bottom [in]
 LEGEND_ROW_IN, BOTTOM_IN = 0.19, 0.1  # one row of the legend, and the margin under it [in]
+LEGEND_COLUMNS = 3
+LEFT, RIGHT = 0.03, 0.97  # the circuit chart's plot area, as shares of the width
+Y_LOW, Y_HIGH, BAR_HALF = -0.55, 0.75, 0.31  # the bar band's vertical range; the bar spans ±BAR_HALF round 0
+LEVEL_LINE_PT = 2.2  # width of the budget and no-trip lines [pt]
+BUDGET_DASH = (4 * LEVEL_LINE_PT, 2 * LEVEL_LINE_PT)  # dash and gap of the budget line [pt]
+HEADROOM = 1.12  # the axis runs to this many times the largest of the sums and the levels
+TICK_STEPS = (1.0, 2.0, 2.5, 5.0)  # axis steps: these times a power of ten
+MAX_TICKS = 7
+OVERVIEW_ROW_IN, OVERVIEW_FRAME_IN = 0.3, 0.9  # the overview: one row per circuit, plus title and axis [in]
+OVERVIEW_LEFT, OVERVIEW_WIDTH = 0.16, 0.8  # its plot area, as shares of the width
+OVERVIEW_TOP_IN, OVERVIEW_BOTTOM_IN = 0.3, 0.55
+
+
+# ---- the chart model -------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True)
+class Rect:
+    x: float
+    y: float
+    w: float
+    h: float
+    fill: str
+    role: str = ""  # what it shows ("segment", "used"); SVG class, so a reader's tools and the tests find it
+    stroke: str | None = None
+    stroke_width: float = 0.0
+
+
+@dataclass(frozen=True, slots=True)
+class Line:
+    x1: float
+    y1: float
+    x2: float
+    y2: float
+    colour: str
+    width: float
+    role: str = ""
+    dash: tuple[float, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class Polygon:
+    points: tuple[tuple[float, float], ...]
+    fill: str
+    role: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class Text:
+    """A line of text; ``y`` is its baseline, ``anchor`` start, middle or end (as SVG's ``text-anchor``)."""
+
+    x: float
+    y: float
+    text: str
+    size: float
+    colour: str = INK
+    bold: bool = False
+    anchor: str = "start"
+    role: str = ""
+
+
+Shape = Rect | Line | Polygon | Text
+
+
+@dataclass(frozen=True, slots=True)
+class Chart:
+    """A drawn chart: its size [pt] and its shapes, back to front, in points from the top-left corner."""
+
+    width_pt: float
+    height_pt: float
+    shapes: tuple[Shape, ...]
+
+    @property
+    def height_in(self) -> float:
+        return self.height_pt / PT_PER_IN
+
+    def svg(self, label: str = "") -> str:
+        """The chart as an ``<svg>`` element for inline use in HTML (no namespace declaration, no external
+        reference): shown :data:`SCREEN_PX_PER_IN` pixels an inch, scaled down to fit a narrower column."""
+        px = SCREEN_PX_PER_IN / PT_PER_IN
+        aria = f' role="img" aria-label="{_a(label)}"' if label else ""
+        parts = [
+            f'<svg class="chart" viewBox="0 0 {_n(self.width_pt)} {_n(self.height_pt)}" '
+            f'width="{round(self.width_pt * px)}" height="{round(self.height_pt * px)}"{aria}>',
+            f'<rect width="100%" height="100%" fill="{BACKGROUND}"/>',
+        ]
+        parts.extend(_svg(shape) for shape in self.shapes)
+        parts.append("</svg>")
+        return "".join(parts)
+
+
+def _n(value: float) -> str:
+    """A coordinate for SVG: two decimals, trailing zeros dropped."""
+    text = f"{value:.2f}".rstrip("0").rstrip(".")
+    return "0" if text == "-0" else text
+
+
+def _a(text: str) -> str:
+    return html.escape(text, quote=True)
+
+
+def _cls(role: str) -> str:
+    return f' class="{role}"' if role else ""
+
+
+def _svg(shape: Shape) -> str:
+    if isinstance(shape, Rect):
+        stroke = (
+            f' stroke="{shape.stroke}" stroke-width="{_n(shape.stroke_width)}"'
+            if shape.stroke and shape.stroke_width
+            else ""
+        )
+        return (
+            f'<rect{_cls(shape.role)} x="{_n(shape.x)}" y="{_n(shape.y)}" width="{_n(shape.w)}" '
+            f'height="{_n(shape.h)}" fill="{shape.fill}"{stroke}/>'
+        )
+    if isinstance(shape, Line):
+        dash = f' stroke-dasharray="{" ".join(_n(d) for d in shape.dash)}"' if shape.dash else ""
+        return (
+            f'<line{_cls(shape.role)} x1="{_n(shape.x1)}" y1="{_n(shape.y1)}" x2="{_n(shape.x2)}" '
+            f'y2="{_n(shape.y2)}" stroke="{shape.colour}" stroke-width="{_n(shape.width)}"{dash}/>'
+        )
+    if isinstance(shape, Polygon):
+        points = " ".join(f"{_n(x)},{_n(y)}" for x, y in shape.points)
+        return f'<polygon{_cls(shape.role)} points="{points}" fill="{shape.fill}"/>'
+    anchor = f' text-anchor="{shape.anchor}"' if shape.anchor != "start" else ""
+    weight = ' font-weight="bold"' if shape.bold else ""
+    return (
+        f'<text{_cls(shape.role)} x="{_n(shape.x)}" y="{_n(shape.y)}" font-size="{_n(shape.size)}" '
+        f'fill="{shape.colour}"{weight}{anchor}>{html.escape(shape.text, quote=False)}</text>'
+    )
+
+
+# ---- shared pieces ---------------------------------------------------------------------------------------------
+
+
+def nice_ticks(top: float) -> list[float]:
+    """Axis tick values from 0 up to ``top``: a step of 1, 2, 2.5 or 5 × 10^k giving at most MAX_TICKS ticks."""
+    if top <= 0:
+        return [0.0]
+    for exponent in range(math.floor(math.log10(top / MAX_TICKS)) - 1, 400):
+        for base in TICK_STEPS:
+            step = base * 10.0**exponent
+            if top / step <= MAX_TICKS - 1:
+                count = int(math.floor(top / step + 1e-9))
+                return [round(i * step, 12) for i in range(count + 1)]
+    return [0.0, top]
+
+
+def tick_label(value: float, ticks: Sequence[float]) -> str:
+    """A tick's text with as many decimals as the step needs (0.25 → 2, 0.5 → 1, 2 → 0)."""
+    step = ticks[1] - ticks[0] if len(ticks) > 1 else 1.0
+    decimals = 0
+    while decimals < 6 and abs(round(step, decimals) - step) > 1e-9:
+        decimals += 1
+    return f"{value:.{decimals}f}"
+
+
+def _axis(
+    shapes: list[Shape], x0: float, x1: float, top_y: float, bottom_y: float, scale_max: float, label: str
+) -> None:
+    """Grid lines, the x axis with its ticks and tick labels under the plot, and the axis label beneath."""
+    ticks = nice_ticks(scale_max)
+    for value in ticks:
+        x = x0 + (x1 - x0) * value / scale_max
+        shapes.append(Line(x, top_y, x, bottom_y, GRID, 0.8, "grid"))
+    shapes.append(Line(x0, bottom_y, x1, bottom_y, INK, 0.8, "axis"))
+    for value in ticks:
+        x = x0 + (x1 - x0) * value / scale_max
+        shapes.append(Line(x, bottom_y, x, bottom_y + 3.5, INK, 0.8, "tick"))
+        shapes.append(Text(x, bottom_y + 5 + 8 * ASCENT, tick_label(value, ticks), 8, anchor="middle", role="tick"))
+    shapes.append(Text((x0 + x1) / 2, bottom_y + 27, label, 8, anchor="middle", role="axis-label"))
+
+
+# ---- one circuit (or one shared device) ------------------------------------------------------------------------
 
 
 @dataclass(frozen=True, slots=True)
 class Segment:
-    """One load's (or a cable run's) share of a circuit's arithmetic sum."""
+    """One load's (or a cable run's, or a circuit's below a shared device) share of the arithmetic sum."""
 
     label: str
     leakage_ma: float
@@ -58,151 +235,101 @@ class CircuitBar:
         return self.budget_ma is not None and self.no_trip_ma is not None
 
 
-@dataclass(frozen=True, slots=True)
-class Chart:
-    """A chart ready to draw: its height [in] at any width near :data:`WIDTH_IN`, and the function that draws it
-    onto a matplotlib Figure or SubFigure of that size (all positions are fractions of that target)."""
-
-    height_in: float
-    draw: Callable[[Any], None]
-
-    def png(self) -> bytes:
-        """The chart as a PNG of WIDTH_IN × height_in at :data:`DPI`."""
-        fig = _figure(self.height_in)
-        self.draw(fig)
-        return _png(fig)
-
-
-def _plain(text: str) -> str:
-    """Text for matplotlib with ``$`` escaped, so a load name is never read as mathtext."""
-    return text.replace("$", r"\$")
-
-
-def _figure(height_in: float) -> Any:
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.figure import Figure
-
-    fig = Figure(figsize=(WIDTH_IN, height_in), dpi=DPI, facecolor=BACKGROUND)
-    FigureCanvasAgg(fig)
-    return fig
-
-
-def _png(fig: Any) -> bytes:
-    buffer = io.BytesIO()
-    fig.savefig(buffer, format="png", dpi=DPI, facecolor=BACKGROUND)
-    return buffer.getvalue()
-
-
-def _style_axis(ax: Any) -> None:
-    for side in ("top", "right", "left"):
-        ax.spines[side].set_visible(False)
-    ax.spines["bottom"].set_color(INK)
-    ax.tick_params(colors=INK, labelsize=8)
-    ax.xaxis.grid(True, color=GRID, linewidth=0.8)
-    ax.set_axisbelow(True)
-
-
-LEGEND_COLUMNS = 3
-
-
 def circuit_chart(bar: CircuitBar) -> Chart:
-    """A horizontal stacked bar of the circuit's leakage by load, with its budget and no-trip level as lines.
+    """A horizontal stacked bar of the circuit's leakage by load (largest first), with its budget (amber, dashed)
+    and no-trip level (crimson) as lines and a diamond at the phasor sum; a legend names each segment.
 
-    The bar's length is the arithmetic sum [mA]; a diamond marks the phasor sum. The x axis runs from 0 to a
-    little beyond the larger of the no-trip level and the sums, so both lines are always in view.
+    The bar's length is the arithmetic sum [mA]. The x axis runs from 0 to HEADROOM times the largest of the
+    no-trip level, the budget and the sums, so both lines are always in view.
     """
-    legend_in = LEGEND_ROW_IN * max(1, math.ceil((len(bar.segments) + 1) / LEGEND_COLUMNS))
-    height = TITLE_IN + BAR_IN + AXIS_LABEL_IN + legend_in + BOTTOM_IN
-    return Chart(height, lambda fig: _draw_circuit(fig, bar, height, legend_in))
-
-
-def circuit_chart_png(bar: CircuitBar) -> bytes:
-    """:func:`circuit_chart` as a PNG."""
-    return circuit_chart(bar).png()
-
-
-def _draw_circuit(fig: Any, bar: CircuitBar, height: float, legend_in: float) -> None:
+    width = WIDTH_IN * PT_PER_IN
     segments = sorted(bar.segments, key=lambda s: -s.leakage_ma)
-    ax = fig.add_axes((0.03, (BOTTOM_IN + legend_in + AXIS_LABEL_IN) / height, 0.94, BAR_IN / height))
-    _style_axis(ax)
+    legend_rows = max(1, math.ceil((len(segments) + 1) / LEGEND_COLUMNS))
+    height = (TITLE_IN + BAR_IN + AXIS_LABEL_IN + LEGEND_ROW_IN * legend_rows + BOTTOM_IN) * PT_PER_IN
+    x0, x1 = LEFT * width, RIGHT * width
+    band_top = TITLE_IN * PT_PER_IN
+    band_bottom = band_top + BAR_IN * PT_PER_IN
+    top = max(bar.leakage_ma, bar.phasor_ma, bar.no_trip_ma or 0.0, bar.budget_ma or 0.0)
+    scale_max = top * HEADROOM if top > 0 else 1.0
+
+    def x_of(ma: float) -> float:
+        return x0 + (x1 - x0) * ma / scale_max
+
+    def y_of(v: float) -> float:
+        return band_top + (Y_HIGH - v) / (Y_HIGH - Y_LOW) * (band_bottom - band_top)
+
+    shapes: list[Shape] = []
+    _axis(shapes, x0, x1, band_top, band_bottom, scale_max, "standing leakage (mA)")
     left = 0.0
-    handles = []
     for i, seg in enumerate(segments):
-        handles.append(
-            ax.barh(
-                0,
-                seg.leakage_ma,
-                left=left,
-                height=0.62,
-                color=SEGMENT_COLOURS[i % len(SEGMENT_COLOURS)],
-                edgecolor=BACKGROUND,
-                linewidth=0.8,
-                label=_plain(f"{seg.label}  {seg.leakage_ma:.3f} mA"),
-                zorder=2,
+        shapes.append(
+            Rect(
+                x_of(left),
+                y_of(BAR_HALF),
+                x_of(left + seg.leakage_ma) - x_of(left),
+                y_of(-BAR_HALF) - y_of(BAR_HALF),
+                SEGMENT_COLOURS[i % len(SEGMENT_COLOURS)],
+                "segment",
+                BACKGROUND,
+                0.8,
             )
         )
         left += seg.leakage_ma
-    top = max(bar.leakage_ma, bar.phasor_ma, bar.no_trip_ma or 0.0, bar.budget_ma or 0.0)
-    ax.set_xlim(0, top * 1.12 if top > 0 else 1.0)
-    ax.set_ylim(-0.55, 0.75)
-    ax.set_yticks([])
-    ax.set_xlabel("standing leakage (mA)", fontsize=8, color=INK, labelpad=2)
-    gate_word = "gates the budget" if bar.gate_is_phasor else "for information"
-    handles.append(
-        ax.plot(
-            [bar.phasor_ma],
-            [0],
-            marker="D",
-            markersize=6,
-            color=INK,
-            linestyle="none",
-            label=f"phasor sum {bar.phasor_ma:.3f} mA ({gate_word})",
-            zorder=4,
-        )[0]
-    )
     if bar.protected:
-        for level, colour, style, word in (
-            (bar.budget_ma, BUDGET_COLOUR, (0, (4, 2)), "budget"),
-            (bar.no_trip_ma, NO_TRIP_COLOUR, "solid", "no-trip"),
+        assert bar.budget_ma is not None and bar.no_trip_ma is not None
+        for level, colour, dash, word in (
+            (bar.budget_ma, BUDGET_COLOUR, BUDGET_DASH, "budget"),
+            (bar.no_trip_ma, NO_TRIP_COLOUR, (), "no-trip"),
         ):
-            ax.axvline(level, color=colour, linestyle=style, linewidth=2.2, zorder=3)
-            near_right = level > 0.75 * ax.get_xlim()[1]
-            ax.text(
-                level,
-                0.42,
-                f" {word} {level:.2f} mA ",
-                color=colour,
-                fontsize=8,
-                fontweight="bold",
-                ha="right" if near_right else "left",
-                va="bottom",
-                zorder=5,
+            x = x_of(level)
+            shapes.append(Line(x, band_top, x, band_bottom, colour, LEVEL_LINE_PT, word, dash))
+            near_right = level > 0.75 * scale_max
+            shapes.append(
+                Text(
+                    x - 3 if near_right else x + 3,
+                    y_of(0.42) - 1,
+                    f"{word} {level:.2f} mA",
+                    8,
+                    colour,
+                    True,
+                    "end" if near_right else "start",
+                    f"{word}-label",
+                )
             )
         used = f"{100 * bar.gate_ma / bar.budget_ma:.0f} % of budget" if bar.budget_ma else ""
         headline = f"{bar.circuit}: {bar.gate_ma:.3f} mA, {used}, {bar.status}"
     else:
         headline = f"{bar.circuit}: {bar.leakage_ma:.3f} mA, unprotected (no budget applies)"
-    fig.text(
-        0.03,
-        1 - 0.08 / height,
-        _plain(headline),
-        fontsize=10.5,
-        fontweight="bold",
-        color=STATUS_COLOURS.get(bar.status, INK),
-        va="top",
-    )
-    fig.text(0.03, 1 - 0.32 / height, _plain(bar.device_label), fontsize=8.5, color=INK, va="top")
-    fig.legend(
-        handles=handles,
-        loc="lower left",
-        bbox_to_anchor=(0.02, BOTTOM_IN / 2 / height),
-        ncols=LEGEND_COLUMNS,
-        fontsize=7.5,
-        frameon=False,
-        handlelength=1.2,
-        columnspacing=1.2,
-        labelcolor=INK,
-    )
+    xp, yp, r = x_of(bar.phasor_ma), y_of(0.0), 4.2
+    shapes.append(Polygon(((xp, yp - r), (xp + r, yp), (xp, yp + r), (xp - r, yp)), INK, "phasor"))
+    tone = STATUS_COLOURS.get(bar.status, INK)
+    title_y = 0.08 * PT_PER_IN + 10.5 * ASCENT
+    shapes.append(Text(x0, title_y, fit(headline, x1 - x0, 10.5, True), 10.5, tone, True, role="headline"))
+    shapes.append(Text(x0, 0.32 * PT_PER_IN + 8.5 * ASCENT, fit(bar.device_label, x1 - x0, 8.5), 8.5, role="device"))
+    gate_word = "gates the budget" if bar.gate_is_phasor else "for information"
+    entries: list[tuple[str, str | None]] = [
+        (f"{seg.label}  {seg.leakage_ma:.3f} mA", SEGMENT_COLOURS[i % len(SEGMENT_COLOURS)])
+        for i, seg in enumerate(segments)
+    ]
+    entries.append((f"phasor sum {bar.phasor_ma:.3f} mA ({gate_word})", None))
+    column_w = (x1 - x0) / LEGEND_COLUMNS
+    legend_top = band_bottom + AXIS_LABEL_IN * PT_PER_IN
+    row_h = LEGEND_ROW_IN * PT_PER_IN
+    for i, (label, swatch) in enumerate(entries):
+        row, column = divmod(i, LEGEND_COLUMNS)
+        lx, ly = x0 + column * column_w, legend_top + row * row_h
+        cx, cy = lx + 5, ly + row_h / 2
+        if swatch is None:
+            shapes.append(Polygon(((cx, cy - 3.5), (cx + 3.5, cy), (cx, cy + 3.5), (cx - 3.5, cy)), INK, "swatch"))
+        else:
+            shapes.append(Rect(lx, cy - 3.5, 10, 7, swatch, "swatch"))
+        shapes.append(
+            Text(lx + 14, ly + row_h / 2 + 7.5 * ASCENT / 2, fit(label, column_w - 18, 7.5), 7.5, role="legend")
+        )
+    return Chart(width, height, tuple(shapes))
+
+
+# ---- the overview: budget used per protected circuit ------------------------------------------------------------
 
 
 def overview_chart(bars: Sequence[CircuitBar]) -> Chart | None:
@@ -214,14 +341,37 @@ def overview_chart(bars: Sequence[CircuitBar]) -> Chart | None:
     rows = [b for b in bars if b.protected and b.budget_ma]
     if not rows:
         return None
-    height = 0.9 + 0.3 * len(rows)
-    return Chart(height, lambda fig: _draw_overview(fig, rows, height))
+    width = WIDTH_IN * PT_PER_IN
+    height = (OVERVIEW_FRAME_IN + OVERVIEW_ROW_IN * len(rows)) * PT_PER_IN
+    x0 = OVERVIEW_LEFT * width
+    x1 = x0 + OVERVIEW_WIDTH * width
+    plot_top = OVERVIEW_TOP_IN * PT_PER_IN
+    plot_bottom = height - OVERVIEW_BOTTOM_IN * PT_PER_IN
+    used = [_percent_of_budget(b.gate_ma, b.budget_ma) for b in rows]
+    no_trip = [_percent_of_budget(b.no_trip_ma, b.budget_ma) for b in rows]
+    scale_max = max(max(used), max(no_trip), 100.0) * HEADROOM
+    row_h = (plot_bottom - plot_top) / len(rows)
 
+    def x_of(percent: float) -> float:
+        return x0 + (x1 - x0) * percent / scale_max
 
-def overview_chart_png(bars: Sequence[CircuitBar]) -> bytes | None:
-    """:func:`overview_chart` as a PNG, None when no circuit is protected."""
-    chart = overview_chart(bars)
-    return chart.png() if chart is not None else None
+    shapes: list[Shape] = []
+    _axis(shapes, x0, x1, plot_top, plot_bottom, scale_max, "standing leakage as a share of the circuit's budget (%)")
+    for i, b in enumerate(rows):
+        centre = plot_top + (i + 0.5) * row_h
+        shapes.append(Rect(x0, centre - 0.3 * row_h, x_of(used[i]) - x0, 0.6 * row_h, STATUS_COLOURS[b.status], "used"))
+        shapes.append(Text(x_of(used[i]) + 3, centre + 8 * ASCENT / 2, f"{used[i]:.0f} %", 8, role="value"))
+        xt = x_of(no_trip[i])
+        shapes.append(Line(xt, centre - 7, xt, centre + 7, NO_TRIP_COLOUR, 2.4, "no-trip"))
+        shapes.append(
+            Text(x0 - 4, centre + 8.5 * ASCENT / 2, fit(b.circuit, x0 - 8, 8.5), 8.5, anchor="end", role="name")
+        )
+    x100 = x_of(100.0)
+    shapes.append(Line(x100, plot_top, x100, plot_bottom, BUDGET_COLOUR, LEVEL_LINE_PT, "budget", BUDGET_DASH))
+    title_y = 0.12 * PT_PER_IN + 10.5 * ASCENT
+    shapes.append(Text(x0, title_y, "Budget used per protected circuit", 10.5, bold=True, role="headline"))
+    shapes.append(Text(x1, title_y, "dashed: budget (100 %)   |  red tick: no-trip level", 8, anchor="end", role="key"))
+    return Chart(width, height, tuple(shapes))
 
 
 def _percent_of_budget(value_ma: float | None, budget_ma: float | None) -> float:
@@ -229,40 +379,8 @@ def _percent_of_budget(value_ma: float | None, budget_ma: float | None) -> float
     return 100 * value_ma / budget_ma
 
 
-def _draw_overview(fig: Any, rows: Sequence[CircuitBar], height: float) -> None:
-    ax = fig.add_axes((0.16, 0.55 / height, 0.8, (height - 0.85) / height))
-    _style_axis(ax)
-    names = [_plain(b.circuit) for b in rows][::-1]
-    used = [_percent_of_budget(b.gate_ma, b.budget_ma) for b in rows][::-1]
-    no_trip = [_percent_of_budget(b.no_trip_ma, b.budget_ma) for b in rows][::-1]
-    colours = [STATUS_COLOURS[b.status] for b in rows][::-1]
-    y = list(range(len(rows)))
-    ax.barh(y, used, height=0.6, color=colours, zorder=2)
-    ax.axvline(100, color=BUDGET_COLOUR, linestyle=(0, (4, 2)), linewidth=2.2, zorder=3)
-    ax.plot(
-        no_trip, y, marker="|", markersize=14, markeredgewidth=2.4, color=NO_TRIP_COLOUR, linestyle="none", zorder=4
-    )
-    for yi, value in zip(y, used):
-        ax.text(value, yi, f" {value:.0f} %", va="center", ha="left", fontsize=8, color=INK, zorder=5)
-    ax.set_yticks(y, names, fontsize=8.5, color=INK)
-    ax.set_ylim(-0.6, len(rows) - 0.4)
-    ax.set_xlim(0, max(max(used), max(no_trip), 100) * 1.12)
-    ax.set_xlabel("standing leakage as a share of the circuit's budget (%)", fontsize=8, color=INK, labelpad=2)
-    fig.text(
-        0.16,
-        1 - 0.12 / height,
-        "Budget used per protected circuit",
-        fontsize=10.5,
-        fontweight="bold",
-        color=INK,
-        va="top",
-    )
-    fig.text(
-        0.96,
-        1 - 0.12 / height,
-        "dashed: budget (100 %)   |  red tick: no-trip level",
-        fontsize=8,
-        color=INK,
-        va="top",
-        ha="right",
-    )
+def text_extent(text: Text) -> tuple[float, float]:
+    """Left and right x [pt] of a chart text, from its anchor and its measured width."""
+    width = text_width_pt(text.text, text.size, text.bold)
+    start = {"start": text.x, "middle": text.x - width / 2, "end": text.x - width}[text.anchor]
+    return start, start + width

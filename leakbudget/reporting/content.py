@@ -123,6 +123,175 @@ def _sourced(value: float | None, key: str, source: Source | None) -> Cell:
 # ---- sections --------------------------------------------------------------------------------------------------
 
 
+SUMMARY_LIST_ITEMS = 8  # changes named one by one in the summary; the rest are counted, with where they are
+
+
+def _name(x: Mapping[str, Any]) -> str:
+    """A shared device's id or a circuit's, from their JSON documents."""
+    return str(x["id"] if "id" in x else x["circuit"])
+
+
+def _used(value: float | None) -> str:
+    return "-" if value is None else f"{100 * value:.0f} %"
+
+
+def _summary_section(
+    doc: Mapping[str, Any],
+    findings: Sequence[FindingLike] | None,
+    plan: Mapping[str, Any] | None,
+    detailed: Sequence[str],
+    all_circuits: bool,
+) -> Section:
+    """The page a client or inspector reads first: every protected circuit and shared device with its status and
+    share of budget used, what must change before installation, and the caution."""
+    protected = [c for c in doc["circuits"] if c["status"] != "unprotected"]
+    blocks: list[Block] = []
+    if protected:
+        blocks.append(
+            Table(
+                ("Circuit", "Device", "Sum (mA)", "Budget (mA)", "Used", "Status", "Largest contributor"),
+                [
+                    [
+                        Cell(c["circuit"], tone=c["status"]),
+                        Cell(f"behind {c['protected_by']}" if c.get("protected_by") else c["device_label"]),
+                        _ma(c["gate_ma"], "gate_ma"),
+                        _ma(c["budget_ma"], "budget_ma"),
+                        _share(c["headroom_used"], "headroom_used"),
+                        Cell(c["status"], tone=c["status"]),
+                        Cell(
+                            f"{c['largest_contributor']} {c['largest_contributor_ma']:.3f} mA"
+                            if c["largest_contributor"]
+                            else "-"
+                        ),
+                    ]
+                    for c in protected
+                ],
+                "Every protected circuit: the sum compared with its budget",
+                "summary-circuits",
+                (0.9, 1.5, 0.7, 0.8, 0.6, 0.9, 1.8),
+            )
+        )
+    if doc["devices"]:
+        blocks.append(
+            Table(
+                ("Shared device", "Device", "Circuits below", "Sum (mA)", "Budget (mA)", "Used", "Status"),
+                [
+                    [
+                        Cell(d["id"], tone=d["status"]),
+                        Cell(d["device_label"]),
+                        Cell(", ".join(d["circuits"]) or "-"),
+                        _ma(d["gate_ma"], "gate_ma"),
+                        _ma(d["budget_ma"], "budget_ma"),
+                        _share(d["headroom_used"], "headroom_used"),
+                        Cell(d["status"], tone=d["status"]),
+                    ]
+                    for d in doc["devices"]
+                ],
+                "Every shared device: everything below it against its budget",
+                "summary-devices",
+                (0.9, 1.2, 1.6, 0.7, 0.8, 0.6, 0.9),
+            )
+        )
+    unprotected = [c["circuit"] for c in doc["circuits"] if c["status"] == "unprotected"]
+    if unprotected:
+        blocks.append(Paragraph(f"No ground-fault protection (no budget applies): {', '.join(unprotected)}.", "muted"))
+    blocks.append(Paragraph("Before installation", "heading"))
+    blocks.extend(_changes(doc, findings, plan))
+    blocks.append(Paragraph(f"Caution: {CAUTION}", "caution"))
+    if all_circuits:
+        scope = "Every circuit has a detail page (chart and load table) below."
+    elif detailed:
+        scope = (
+            f"Detail pages (chart and load table) follow for the {len(detailed)} circuit(s) and device(s) that are "
+            f"not ok: {', '.join(detailed)}. `leakbudget report --all-circuits` adds one for every circuit."
+        )
+    else:
+        scope = "Every circuit is ok, so no detail pages follow; `leakbudget report --all-circuits` adds them."
+    blocks.append(Paragraph(scope, "muted"))
+    return Section("summary", "Summary", blocks)
+
+
+def _changes(
+    doc: Mapping[str, Any], findings: Sequence[FindingLike] | None, plan: Mapping[str, Any] | None
+) -> list[Paragraph]:
+    """What must change before installation, most pressing first: circuits and devices over budget, marginal
+    ones, review errors, and the split plan's moves when the report has one."""
+    items: list[Paragraph] = []
+    over = [x for x in (*doc["devices"], *doc["circuits"]) if x["status"] in ("trip-risk", "over-budget")]
+    # a circuit within its own budget is over only through the shared device above it: the device's line names it
+    over = [x for x in over if not (x.get("protected_by") and (x["headroom_used"] or 0.0) <= 1.0)]
+    over.sort(key=lambda x: (x["status"] != "trip-risk", -(x["headroom_used"] or 0.0)))
+    for x in over[:SUMMARY_LIST_ITEMS]:
+        level = "at or above its no-trip level" if x["status"] == "trip-risk" else "over budget"
+        below = f" Circuits below it: {', '.join(x['circuits'])}." if x.get("circuits") else ""
+        items.append(
+            Paragraph(
+                f"{_name(x)}: {x['gate_ma']:.3f} mA against a {x['budget_ma']:.3f} mA budget "
+                f"({_used(x['headroom_used'])}), {level}; largest contributor {x['largest_contributor']} "
+                f"{x['largest_contributor_ma']:.3f} mA.{below}",
+                x["status"],
+            )
+        )
+    if len(over) > SUMMARY_LIST_ITEMS:
+        items.append(
+            Paragraph(
+                f"… and {len(over) - SUMMARY_LIST_ITEMS} more over budget: see the tables above and 'Circuits'.",
+                "over-budget",
+            )
+        )
+    if over:
+        items.append(
+            Paragraph(
+                "Cure: split loads across circuits, measure the largest contributors, and repair an appliance that "
+                "leaks far above its typical value; never remove or up-rate protection."
+            )
+        )
+    marginal = [_name(x) for x in (*doc["devices"], *doc["circuits"]) if x["status"] == "marginal"]
+    if marginal:
+        items.append(
+            Paragraph(
+                f"Marginal (within budget, likely to trip when cold heating elements switch on): "
+                f"{', '.join(marginal)}. Measure them, or give the heating loads circuits of their own.",
+                "marginal",
+            )
+        )
+    errors = [f for f in findings or () if _word(f.severity) == "error"]
+    for f in errors[:SUMMARY_LIST_ITEMS]:
+        where = " / ".join(x for x in (f.circuit, f.load) if x)
+        items.append(Paragraph(f"Review error{' on ' + where if where else ''}: {f.message}", "error"))
+    if len(errors) > SUMMARY_LIST_ITEMS:
+        items.append(
+            Paragraph(f"… and {len(errors) - SUMMARY_LIST_ITEMS} more review errors: see 'Review findings'.", "error")
+        )
+    if plan is not None and over:
+        moves = [
+            f"{a['load']} {'from ' + a['from'] + ' ' if a.get('from') else ''}to {a['to'] or 'no circuit'}"
+            for a in plan.get("assignments", [])
+            if a.get("moved") or a.get("placed")
+        ]
+        moves += [
+            f"circuit {m['circuit']} from {m['from']} to "
+            + (f"a device of its own ({m['own_device']})" if m.get("own_device") else str(m["to"]))
+            for m in plan.get("circuit_assignments", [])
+            if m.get("moved")
+        ]
+        named = "; ".join(moves[:SUMMARY_LIST_ITEMS])
+        more = f"; and {len(moves) - SUMMARY_LIST_ITEMS} more" if len(moves) > SUMMARY_LIST_ITEMS else ""
+        items.append(
+            Paragraph(
+                f"The split plan ({plan.get('new_circuits', 0)} new circuit(s)): {named}{more}. "
+                "Details under 'Split plan'."
+                if moves
+                else "The split plan moves nothing: see 'Split plan'."
+            )
+        )
+    if not items:
+        items.append(
+            Paragraph("Nothing must change: every protected circuit and shared device is within its budget.", "ok")
+        )
+    return items
+
+
 def _job_section(result: CheckResult, doc: Mapping[str, Any], generated: str) -> Section:
     settings = result.project.settings
     project = result.project
@@ -331,12 +500,13 @@ def _circuits_section(result: CheckResult, doc: Mapping[str, Any], bars: Sequenc
             [_circuit_row(c, o) for c, o in zip(doc["circuits"], result.circuits)],
             f"Circuits: standing leakage against budget ({gate} sum compared; catalogue basis {doc['basis']})",
             "circuits",
-            (0.95, 1.3, 1.15, 0.55, 0.6, 0.6, 0.7, 1.2, 1.05, 0.6, 1.1),
+            (0.8, 1.3, 1.9, 0.4, 0.5, 0.5, 0.6, 0.8, 0.8, 0.5, 1.0),
         )
     )
     blocks.append(
         Paragraph(
-            "Sums are computed from the loads listed under each circuit below; the sources of each device's budget, "
+            "Sums are computed from each circuit's loads (their tables follow in the circuit sections below, for "
+            "every circuit shown in detail); the sources of each device's budget, "
             "no-trip and trip levels are in the table 'Protective devices' and of each supply in 'Supplies', "
             "under 'Supply and settings used'.",
             "muted",
@@ -436,15 +606,17 @@ def _readings_section(doc: Mapping[str, Any]) -> Section | None:
 DEVICE_HEADERS = ("Circuit", "Own device", "Phase", "Purpose", "Sum (mA)", "Phasor (mA)")
 
 
-def _device_sections(doc: Mapping[str, Any]) -> list[Section]:
-    """One section per shared device: its circuits stacked against its budget and no-trip level (the protection
-    tree; BS 7671:2018 reg. 531.3.2 on the accumulated total)."""
+def _device_sections(doc: Mapping[str, Any], all_circuits: bool) -> list[Section]:
+    """One section per shared device (only those not ok unless ``all_circuits``): its circuits stacked against its
+    budget and no-trip level (the protection tree; BS 7671:2018 reg. 531.3.2 on the accumulated total)."""
     from leakbudget.reporting.charts import CircuitBar, Segment, circuit_chart
 
     circuits = {c["circuit"]: c for c in doc["circuits"]}
     sections = []
     used: set[str] = set()
     for d in doc["devices"]:
+        if not (all_circuits or d["status"] != "ok"):
+            continue
         below = [circuits[cid] for cid in d["circuits"]]
         bar = CircuitBar(
             circuit=d["id"],
@@ -502,14 +674,24 @@ def _device_sections(doc: Mapping[str, Any]) -> list[Section]:
     return sections
 
 
-def _detail_sections(result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any]) -> list[Section]:
+def _detail_sections(
+    result: CheckResult, doc: Mapping[str, Any], bars: Sequence[Any], all_circuits: bool
+) -> list[Section]:
+    """One section per circuit that is not ok (every circuit with ``all_circuits``): its chart and load table;
+    then the loads not yet placed."""
     from leakbudget.reporting.charts import circuit_chart
 
     pairs = list(zip(doc["loads"], result.loads))
+    by_circuit: dict[str, list[tuple[Mapping[str, Any], LoadResult]]] = {}
+    for d, r in pairs:
+        if d["circuit"] is not None:
+            by_circuit.setdefault(d["circuit"], []).append((d, r))
     sections = []
     used: set[str] = set()
     for c, bar in zip(doc["circuits"], bars):
-        rows = [_load_row(d, r, doc["basis"]) for d, r in pairs if d["circuit"] == c["circuit"]]
+        if not (all_circuits or c["status"] != "ok"):
+            continue
+        rows = [_load_row(d, r, doc["basis"]) for d, r in by_circuit.get(c["circuit"], ())]
         largest = (
             f"; largest: {c['largest_contributor']} {c['largest_contributor_ma']:.3f} mA"
             if c["largest_contributor"]
@@ -832,13 +1014,15 @@ def build_report(
     plan: Mapping[str, Any] | None = None,
     generated: dt.date | None = None,
     review_basis: str | None = None,
+    all_circuits: bool = False,
 ) -> Report:
     """Assemble the report's sections from a check result, the review findings and a split-plan document.
 
     ``findings`` are :func:`leakbudget.compliance.rules.review`'s, None when the review was not run (the section says so);
     ``review_basis`` says which code they were found against and why. ``plan`` is the document
     ``leakbudget split --json`` prints, or None when no plan was made. ``generated`` is the report date (today
-    when None).
+    when None). The summary heads the report; a detail section (chart and load table) follows for each circuit and
+    shared device that is not ok, or for every one with ``all_circuits``.
     """
     from leakbudget.output.check import to_json
 
@@ -849,14 +1033,16 @@ def build_report(
     for c in doc["circuits"]:
         counts[c["status"]] = counts.get(c["status"], 0) + 1
     bars = circuit_bars(result, doc)
+    detailed = [_name(x) for x in (*doc["devices"], *doc["circuits"]) if x["status"] != "ok"]
     sections = [
+        _summary_section(doc, findings, plan, detailed, all_circuits),
         _job_section(result, doc, date),
         _caution_section(result, doc),
         _settings_section(result, doc),
         _circuits_section(result, doc, bars),
-        *_device_sections(doc),
+        *_device_sections(doc, all_circuits),
         *(x for x in (_likelihood_section(doc), _readings_section(doc)) if x is not None),
-        *_detail_sections(result, doc, bars),
+        *_detail_sections(result, doc, bars, all_circuits),
         _plan_section(plan),
         _findings_section(findings, review_basis),
         _method_section(),

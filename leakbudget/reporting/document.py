@@ -30,7 +30,7 @@ class Cell:
 @dataclass(slots=True)
 class Paragraph:
     text: str
-    tone: str | None = None  # "caution", "muted", or a status word
+    tone: str | None = None  # "caution", "muted", "heading" (a sub-heading), or a status or severity word
 
 
 @dataclass(slots=True)
@@ -49,22 +49,15 @@ class Table:
     widths: tuple[float, ...] = ()  # relative column widths for paged layouts; empty = equal
 
 
-@dataclass
+@dataclass(slots=True)
 class Figure:
-    """A chart (a :class:`leakbudget.reporting.charts.Chart`): the HTML embeds its PNG, the PDF draws it as vectors."""
+    """A chart (a :class:`leakbudget.reporting.charts.Chart`, drawn once as vector shapes): the HTML writes it as
+    inline SVG, the PDF draws the same shapes on its page."""
 
     chart: Any
     alt: str
     caption: str
     name: str = ""
-    _png: bytes | None = None
-
-    @property
-    def png(self) -> bytes:
-        """The chart as PNG bytes, rendered on first use."""
-        if self._png is None:
-            self._png = self.chart.png()
-        return self._png
 
 
 Block = Paragraph | Facts | Table | Figure

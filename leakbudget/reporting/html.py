@@ -1,16 +1,14 @@
 """Lay a :class:`leakbudget.reporting.document.Report` out as one self-contained HTML document.
 
-Inline CSS, charts embedded as base64 PNG, no scripts and no external fetches: the file can be mailed, archived
+Inline CSS, charts as inline SVG (vector, text selectable), no scripts and no external fetches: the file can be mailed, archived
 and opened offline. Every text from the workbook is escaped. Number cells carry ``data-key`` (the ``check --json``
 key) and ``data-value`` (its value) so a reader's tools, and the tests, can compare them with the check.
 """
 
 from __future__ import annotations
 
-import base64
 import html
 import re
-import struct
 
 from leakbudget.reporting.document import Cell, Facts, Figure, Paragraph, Report, Section, Table
 
@@ -36,13 +34,14 @@ nav.toc ol { margin: 0; padding-left: 20px; }
 nav.toc a { color: var(--accent); text-decoration: none; }
 section { padding: 6px 0 10px; border-bottom: 1px solid var(--rule); }
 h2 { font-size: 20px; color: var(--accent); margin: 20px 0 8px; }
+h3 { font-size: 16px; color: var(--accent); margin: 16px 0 6px; }
 dl.facts { display: grid; grid-template-columns: max-content 1fr; gap: 4px 18px; margin: 8px 0 12px; }
 dl.facts dt { color: var(--soft); }
 dl.facts dd { margin: 0; }
 p.caution { background: #fff4e5; border-left: 5px solid var(--over); padding: 8px 12px; }
 p.muted { color: var(--soft); font-size: 14px; }
 figure { margin: 12px 0; }
-figure img { max-width: 100%; height: auto; border: 1px solid var(--rule); display: block; }
+figure svg.chart { max-width: 100%; height: auto; border: 1px solid var(--rule); display: block; }
 figcaption { font-size: 13px; color: var(--soft); margin-top: 4px; }
 .table-wrap { overflow-x: auto; margin: 8px 0 16px; }
 table { border-collapse: collapse; width: 100%; font-size: 13px; }
@@ -88,12 +87,6 @@ def _slug(text: str) -> str:
     return re.sub(r"[^a-z0-9]+", "-", text.lower()).strip("-")
 
 
-def png_size(png: bytes) -> tuple[int, int]:
-    """Width and height [px] of a PNG, from its IHDR chunk (PNG specification, section 11.2.2)."""
-    width, height = struct.unpack(">II", png[16:24])
-    return width, height
-
-
 def _badge(kind: str | None) -> str:
     return f'<span class="badge k-{_slug(kind)}">{_e(kind)}</span>' if kind else ""
 
@@ -132,16 +125,13 @@ def _table(table: Table) -> str:
 
 
 def _figure(fig: Figure) -> str:
-    width, height = png_size(fig.png)
-    data = base64.b64encode(fig.png).decode("ascii")
     ident = f' id="f-{_slug(fig.name)}" data-figure="{_e(fig.name)}"' if fig.name else ""
-    return (
-        f'<figure{ident}><img src="data:image/png;base64,{data}" width="{width}" height="{height}" '
-        f'alt="{_e(fig.alt)}"><figcaption>{_e(fig.caption)}</figcaption></figure>'
-    )
+    return f"<figure{ident}>{fig.chart.svg(fig.alt)}<figcaption>{_e(fig.caption)}</figcaption></figure>"
 
 
 def _paragraph(p: Paragraph) -> str:
+    if p.tone == "heading":
+        return f"<h3>{_e(p.text)}</h3>"
     cls = f' class="{p.tone if p.tone in ("caution", "muted") else "tone-" + p.tone}"' if p.tone in TONES else ""
     return f"<p{cls}>{_e(p.text)}</p>"
 

@@ -1,29 +1,30 @@
-"""Lay a :class:`leakbudget.reporting.document.Report` out as A4 PDF pages with matplotlib's PdfPages (no browser needed).
+"""Lay a :class:`leakbudget.reporting.document.Report` out as A4 PDF pages with reportlab (no browser needed).
 
-Each page is a matplotlib Figure the size of an A4 sheet; text is placed line by line at measured positions,
-tables are drawn row by row with wrapped cells and their header repeated on every page, charts are the same PNGs
-the HTML report embeds. The first page holds the cover, the job and the cautions; the settings, the circuit
-overview, the per-circuit details (flowing, a circuit kept on one page where it fits) and the closing sections
-each start a new page. Fonts are embedded as TrueType (``pdf.fonttype`` 42), so the text can be searched.
+A :class:`PageWriter` places blocks top to bottom on reportlab's canvas: text line by line at measured positions
+(the report's typeface, :mod:`leakbudget.reporting.typeface`, embedded as a TrueType subset so the text can be
+searched and copied), tables row by row with wrapped cells and their header repeated on every page, and each chart
+as the vector shapes :mod:`leakbudget.reporting.charts` drew once (the same shapes the HTML writes as SVG). The
+first page holds the cover and the one-page summary; the job, the settings, the circuit overview and the split plan
+each start a new page, the other sections flow (one kept on one page where it fits).
 """
 
 from __future__ import annotations
 
 import functools
 import io
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
-from leakbudget.reporting.charts import DPI, INK, STATUS_COLOURS, WIDTH_IN
-from leakbudget.reporting.document import Cell, Facts, Figure, Paragraph, Report, Section, Table
+from leakbudget.reporting.charts import INK, STATUS_COLOURS, WIDTH_IN, Chart, Line, Polygon, Rect, Text
+from leakbudget.reporting.document import Block, Cell, Facts, Figure, Paragraph, Report, Section, Table
+from leakbudget.reporting.typeface import ASCENT, font_name, text_width_pt
 
 PAGE_W_IN, PAGE_H_IN = 8.27, 11.69  # A4 (ISO 216: 210 mm × 297 mm)
 MARGIN_IN = 0.6
 CONTENT_W_IN = PAGE_W_IN - 2 * MARGIN_IN
 FOOTER_IN = 0.35
-MEASURE_DPI = 720  # resolution of the text measurements used for wrapping (0.1 pt steps)
-WRAP_SLACK = 0.95  # wrap to 95 % of a box: screen renderings hint glyphs up to ~4 % wider than the PDF draws
+WRAP_SLACK = 0.97  # wrap to 97 % of a box: room for a PDF viewer's rounding of glyph positions
 LINE_SPACING = 1.3  # line height as a multiple of the font size
 PT_PER_IN = 72.0
 ACCENT = "#1d5c63"
@@ -38,24 +39,19 @@ TONE_COLOURS = {
     "caution": STATUS_COLOURS["over-budget"],
     "muted": SOFT,
 }
-NEW_PAGE_SECTIONS = ("supply", "circuits", "split")  # these start a page; the sections after them flow
+NEW_PAGE_SECTIONS = ("job",)  # the summary has page 1 to itself; the other sections flow
+KEEP_TOGETHER = 0.4  # a section up to this share of a page moves whole to the next page rather than split
 
 
-@functools.cache
-def _renderer() -> Any:
-    from matplotlib.backends.backend_agg import RendererAgg
-
-    return RendererAgg(10, 10, MEASURE_DPI)
-
-
-@functools.lru_cache(maxsize=65536)
 def text_width_in(text: str, size_pt: float, bold: bool = False) -> float:
-    """Width [in] of ``text`` set in the default sans-serif font at ``size_pt``, as the PDF will draw it."""
-    from matplotlib.font_manager import FontProperties
+    """Width [in] of ``text`` set in the report's typeface at ``size_pt``, as the PDF draws it."""
+    return text_width_pt(text, size_pt, bold) / PT_PER_IN
 
-    prop = FontProperties(size=size_pt, weight="bold" if bold else "normal")
-    width_px, _, _ = _renderer().get_text_width_height_descent(text, prop, ismath=False)
-    return width_px / MEASURE_DPI
+
+@functools.lru_cache(maxsize=64)
+def _rgb(colour: str) -> tuple[float, float, float]:
+    """A ``#rrggbb`` colour as reportlab's 0-1 RGB triple."""
+    return int(colour[1:3], 16) / 255, int(colour[3:5], 16) / 255, int(colour[5:7], 16) / 255
 
 
 def _wrap(text: str, width_in: float, size_pt: float, bold: bool = False) -> list[str]:
@@ -88,34 +84,28 @@ def _wrap(text: str, width_in: float, size_pt: float, bold: bool = False) -> lis
     return lines
 
 
-def _plain(text: str) -> str:
-    return text.replace("$", r"\$")
-
-
 class PageWriter:
-    """Places blocks top to bottom on A4 figures, starting a new page when the next block does not fit."""
+    """Places blocks top to bottom on A4 pages of a reportlab canvas, starting a new page when the next block does
+    not fit. Positions are inches from the page's top-left corner; the canvas counts points from bottom-left."""
 
-    def __init__(self, report: Report, sink: Callable[[Any], None]) -> None:
+    def __init__(self, report: Report, canvas: Any) -> None:
         self.report = report
-        self.sink = sink  # receives each finished page, so only one page is held in memory
+        self.canvas = canvas
         self.count = 0
-        self.fig: Any = None
+        self.open = False  # a page has been started and not yet finished
         self.y = 0.0  # distance of the cursor from the page top [in]
         self.dry = False  # measuring: move the cursor, draw nothing, never break the page
+        self.fonts = {False: font_name(False), True: font_name(True)}
 
     # -- pages
     def finish(self) -> None:
-        if self.fig is not None:
-            self.sink(self.fig)
-            self.fig = None
+        if self.open:
+            self.canvas.showPage()
+            self.open = False
 
     def new_page(self) -> None:
-        from matplotlib.backends.backend_agg import FigureCanvasAgg
-        from matplotlib.figure import Figure as MplFigure
-
         self.finish()
-        self.fig = MplFigure(figsize=(PAGE_W_IN, PAGE_H_IN), dpi=DPI, facecolor="white")
-        FigureCanvasAgg(self.fig)
+        self.open = True
         self.count += 1
         self.y = MARGIN_IN
         footer = f"{self.report.title} · {self.report.generated} · {self.report.tool} · page {self.count}"
@@ -125,7 +115,7 @@ class PageWriter:
         return float("inf") if self.dry else PAGE_H_IN - MARGIN_IN - FOOTER_IN - self.y
 
     def ensure(self, height_in: float) -> None:
-        if self.fig is None or (height_in > self.room() and self.y > MARGIN_IN + 1e-9):
+        if not self.open or (height_in > self.room() and self.y > MARGIN_IN + 1e-9):
             self.new_page()
 
     def measure(self, section: Section) -> float:
@@ -138,35 +128,21 @@ class PageWriter:
             self.y, self.dry = y, False
 
     def keep_together(self, section: Section) -> None:
-        """Start a new page when the section would fit on one page but not in the room left on this one."""
+        """Start a new page when a short section (at most KEEP_TOGETHER of a page) would not fit in the room left;
+        a longer one flows on from here (its charts are never split, its tables repeat their header)."""
         height = self.measure(section)
-        if height <= PAGE_H_IN - 2 * MARGIN_IN - FOOTER_IN:
+        if height <= KEEP_TOGETHER * (PAGE_H_IN - 2 * MARGIN_IN - FOOTER_IN):
             self.ensure(height)
 
     # -- primitives (inches from the top-left corner)
-    def _text(
-        self,
-        x_in: float,
-        y_in: float,
-        text: str,
-        size: float,
-        colour: str = INK,
-        weight: str = "normal",
-        style: str = "normal",
-    ) -> None:
-        if self.dry:
+    def _text(self, x_in: float, y_in: float, text: str, size: float, colour: str = INK, bold: bool = False) -> None:
+        """A line of text whose top (the font's ascent) is at ``y_in``."""
+        if self.dry or not text:
             return
-        self.fig.text(
-            x_in / PAGE_W_IN,
-            1 - y_in / PAGE_H_IN,
-            _plain(text),
-            fontsize=size,
-            color=colour,
-            fontweight=weight,
-            fontstyle=style,
-            va="top",
-            ha="left",
-        )
+        c = self.canvas
+        c.setFillColorRGB(*_rgb(colour))
+        c.setFont(self.fonts[bold], size)
+        c.drawString(x_in * PT_PER_IN, (PAGE_H_IN - y_in) * PT_PER_IN - ASCENT * size, text)
 
     def _rule(
         self,
@@ -178,25 +154,24 @@ class PageWriter:
     ) -> None:
         if self.dry:
             return
-        from matplotlib.lines import Line2D
-
-        y = 1 - y_in / PAGE_H_IN
-        self.fig.add_artist(Line2D([x0 / PAGE_W_IN, x1 / PAGE_W_IN], [y, y], color=colour, linewidth=width))
+        c = self.canvas
+        c.setStrokeColorRGB(*_rgb(colour))
+        c.setLineWidth(width)
+        c.setDash()
+        y = (PAGE_H_IN - y_in) * PT_PER_IN
+        c.line(x0 * PT_PER_IN, y, x1 * PT_PER_IN, y)
 
     def _fill(self, x_in: float, y_in: float, w_in: float, h_in: float, colour: str) -> None:
         if self.dry:
             return
-        from matplotlib.patches import Rectangle
-
-        self.fig.add_artist(
-            Rectangle(
-                (x_in / PAGE_W_IN, 1 - (y_in + h_in) / PAGE_H_IN),
-                w_in / PAGE_W_IN,
-                h_in / PAGE_H_IN,
-                facecolor=colour,
-                edgecolor="none",
-                zorder=0,
-            )
+        self.canvas.setFillColorRGB(*_rgb(colour))
+        self.canvas.rect(
+            x_in * PT_PER_IN,
+            (PAGE_H_IN - y_in - h_in) * PT_PER_IN,
+            w_in * PT_PER_IN,
+            h_in * PT_PER_IN,
+            stroke=0,
+            fill=1,
         )
 
     def lines(
@@ -204,14 +179,13 @@ class PageWriter:
         lines: Sequence[str],
         size: float,
         colour: str = INK,
-        weight: str = "normal",
+        bold: bool = False,
         indent_in: float = 0.0,
-        style: str = "normal",
     ) -> None:
         step = size * LINE_SPACING / PT_PER_IN
         for line in lines:
             self.ensure(step)
-            self._text(MARGIN_IN + indent_in, self.y, line, size, colour, weight, style)
+            self._text(MARGIN_IN + indent_in, self.y, line, size, colour, bold)
             self.y += step
 
     # -- blocks
@@ -219,29 +193,36 @@ class PageWriter:
         r = self.report
         self.new_page()
         self._fill(0, 0, PAGE_W_IN, 0.18, ACCENT)
-        self._text(MARGIN_IN, self.y, "STANDING EARTH-LEAKAGE REPORT", 8.5, ACCENT, "bold")
+        self._text(MARGIN_IN, self.y, "STANDING EARTH-LEAKAGE REPORT", 8.5, ACCENT, True)
         self.y += 0.25
-        self.lines(_wrap(r.title, CONTENT_W_IN, 20, True), 20, weight="bold")
+        self.lines(_wrap(r.title, CONTENT_W_IN, 20, True), 20, bold=True)
         self.lines(_wrap(r.subtitle, CONTENT_W_IN, 10.5), 10.5, SOFT)
         self.y += 0.1
         tone = TONE_COLOURS.get(r.verdict.tone or "", INK)
-        self.lines(_wrap(r.verdict.text, CONTENT_W_IN - 0.2, 11, True), 11, tone, "bold", indent_in=0.15)
+        self.lines(_wrap(r.verdict.text, CONTENT_W_IN - 0.2, 11, True), 11, tone, True, indent_in=0.15)
         counts = "   ".join(f"{n} {status}" for status, n in sorted(r.status_counts.items()))
         self.lines([counts], 9.5, SOFT, indent_in=0.15)
         self.y += 0.1
         self._rule(self.y)
         self.y += 0.1
 
-    def heading(self, title: str) -> None:
-        self.ensure(0.9)  # a heading never ends a page
+    def heading(self, title: str, first: Block | None = None) -> None:
+        """A section's title, on the page where its first block starts (a heading never ends a page)."""
+        self.ensure(0.5 + min(self._height(first), 2.0) if first is not None else 0.9)
         self.y += 0.12
-        self.lines([title], 14, ACCENT, "bold")
+        self.lines([title], 14, ACCENT, True)
         self.y += 0.04
 
     def paragraph(self, p: Paragraph) -> None:
+        if p.tone == "heading":
+            self.ensure(0.7)  # a sub-heading never ends a page
+            self.y += 0.06
+            self.lines(_wrap(p.text, CONTENT_W_IN, 11, True), 11, ACCENT, True)
+            self.y += 0.03
+            return
         colour = TONE_COLOURS.get(p.tone or "", INK)
         bold = p.tone in STATUS_COLOURS
-        self.lines(_wrap(p.text, CONTENT_W_IN, 9, bold), 9, colour, "bold" if bold else "normal")
+        self.lines(_wrap(p.text, CONTENT_W_IN, 9, bold), 9, colour, bold)
         self.y += 0.08
 
     def facts(self, facts: Facts) -> None:
@@ -254,30 +235,74 @@ class PageWriter:
         self.y += 0.08
 
     def figure(self, fig: Figure) -> None:
-        """Draw the chart itself (vectors, not its PNG) in a sub-figure the chart's own height."""
-        width_in = min(CONTENT_W_IN, WIDTH_IN)
-        height_in = fig.chart.height_in
+        """Draw the chart's vector shapes, scaled to the content width when that is narrower than the chart."""
+        chart: Chart = fig.chart
+        scale = min(1.0, CONTENT_W_IN / WIDTH_IN)
+        height_in = chart.height_in * scale
         caption = _wrap(fig.caption, CONTENT_W_IN, 7.5)
         self.ensure(height_in + 0.1 + len(caption) * 7.5 * LINE_SPACING / PT_PER_IN)
-        # sub-figures take their place from a grid's width and height ratios (not its margins): a 3 × 3 grid
-        # whose middle cell is the chart's rectangle on the page
         if not self.dry:
-            grid = self.fig.add_gridspec(
-                3,
-                3,
-                width_ratios=(MARGIN_IN, width_in, PAGE_W_IN - MARGIN_IN - width_in),
-                height_ratios=(self.y, height_in, PAGE_H_IN - self.y - height_in),
-            )
-            fig.chart.draw(self.fig.add_subfigure(grid[1, 1]))
+            self._chart(chart, MARGIN_IN, self.y, scale)
         self.y += height_in + 0.05
         self.lines(caption, 7.5, SOFT)
         self.y += 0.1
+
+    def _chart(self, chart: Chart, x_in: float, y_in: float, scale: float) -> None:
+        c = self.canvas
+        c.saveState()
+        # chart points run from its top-left corner downwards: move there, scale, and flip the y axis
+        c.translate(x_in * PT_PER_IN, (PAGE_H_IN - y_in) * PT_PER_IN)
+        c.scale(scale, -scale)
+        for shape in chart.shapes:
+            if isinstance(shape, Rect):
+                c.setFillColorRGB(*_rgb(shape.fill))
+                stroke = 1 if shape.stroke and shape.stroke_width else 0
+                if stroke:
+                    c.setStrokeColorRGB(*_rgb(shape.stroke or INK))
+                    c.setLineWidth(shape.stroke_width)
+                    c.setDash()
+                c.rect(shape.x, shape.y, shape.w, shape.h, stroke=stroke, fill=1)
+            elif isinstance(shape, Line):
+                c.setStrokeColorRGB(*_rgb(shape.colour))
+                c.setLineWidth(shape.width)
+                if shape.dash:
+                    c.setDash(list(shape.dash))
+                else:
+                    c.setDash()
+                c.line(shape.x1, shape.y1, shape.x2, shape.y2)
+            elif isinstance(shape, Polygon):
+                c.setFillColorRGB(*_rgb(shape.fill))
+                path = c.beginPath()
+                path.moveTo(*shape.points[0])
+                for point in shape.points[1:]:
+                    path.lineTo(*point)
+                path.close()
+                c.drawPath(path, stroke=0, fill=1)
+            elif isinstance(shape, Text):
+                self._chart_text(shape)
+        c.restoreState()
+
+    def _chart_text(self, t: Text) -> None:
+        """Text in the flipped chart space: unflip round its baseline so the glyphs stand upright."""
+        c = self.canvas
+        c.saveState()
+        c.translate(t.x, t.y)
+        c.scale(1, -1)
+        c.setFillColorRGB(*_rgb(t.colour))
+        c.setFont(self.fonts[t.bold], t.size)
+        if t.anchor == "end":
+            c.drawRightString(0, 0, t.text)
+        elif t.anchor == "middle":
+            c.drawCentredString(0, 0, t.text)
+        else:
+            c.drawString(0, 0, t.text)
+        c.restoreState()
 
     def table(self, table: Table, size: float = 7.0) -> None:
         pad = 0.05
         widths = column_widths(table, size, pad)
         step = size * LINE_SPACING / PT_PER_IN
-        header = [PdfCell(_wrap(h, w - 2 * pad, size, True), [], ACCENT, "bold") for h, w in zip(table.headers, widths)]
+        header = [PdfCell(_wrap(h, w - 2 * pad, size, True), [], ACCENT, True) for h, w in zip(table.headers, widths)]
         rows = [[_pdf_cell(c, w - 2 * pad, size) for c, w in zip(row, widths)] for row in table.rows]
         header_h = max(len(c.lines) for c in header) * step + 2 * pad
 
@@ -292,7 +317,7 @@ class PageWriter:
 
         caption = _wrap(table.caption, CONTENT_W_IN, 8.5, True) if table.caption else []
         self.ensure(len(caption) * 8.5 * LINE_SPACING / PT_PER_IN + header_h + (height(rows[0]) if rows else 0))
-        self.lines(caption, 8.5, weight="bold")
+        self.lines(caption, 8.5, bold=True)
         draw_header()
         for row in rows:
             if height(row) > self.room():
@@ -304,26 +329,41 @@ class PageWriter:
         self.y += 0.15
 
     def _row(self, row: Sequence[PdfCell], widths: Sequence[float], size: float, pad: float) -> None:
+        if self.dry:
+            return
         x = MARGIN_IN
         step = size * LINE_SPACING / PT_PER_IN
         for cell, width in zip(row, widths):
             for i, line in enumerate(cell.lines):
-                self._text(x + pad, self.y + pad + i * step, line, size, cell.colour, cell.weight)
+                self._text(x + pad, self.y + pad + i * step, line, size, cell.colour, cell.bold)
             for i, line in enumerate(cell.notes, start=len(cell.lines)):
                 self._text(x + pad, self.y + pad + i * step, line, size, SOFT)
             x += width
 
+    def _height(self, block: Block) -> float:
+        """Height [in] of one block laid out without a page break (a dry run)."""
+        y, self.y, dry = self.y, 0.0, self.dry
+        self.dry = True
+        try:
+            self.block(block)
+            return self.y
+        finally:
+            self.y, self.dry = y, dry
+
+    def block(self, block: Block) -> None:
+        if isinstance(block, Table):
+            self.table(block)
+        elif isinstance(block, Figure):
+            self.figure(block)
+        elif isinstance(block, Facts):
+            self.facts(block)
+        else:
+            self.paragraph(block)
+
     def section(self, section: Section) -> None:
-        self.heading(section.title)
+        self.heading(section.title, section.blocks[0] if section.blocks else None)
         for block in section.blocks:
-            if isinstance(block, Table):
-                self.table(block)
-            elif isinstance(block, Figure):
-                self.figure(block)
-            elif isinstance(block, Facts):
-                self.facts(block)
-            else:
-                self.paragraph(block)
+            self.block(block)
 
 
 def column_widths(table: Table, size: float, pad: float) -> list[float]:
@@ -349,7 +389,7 @@ class PdfCell:
     lines: list[str]
     notes: list[str]
     colour: str = INK
-    weight: str = "normal"
+    bold: bool = False
 
 
 def _pdf_cell(cell: Cell, width_in: float, size: float) -> PdfCell:
@@ -361,7 +401,7 @@ def _pdf_cell(cell: Cell, width_in: float, size: float) -> PdfCell:
         _wrap(text, width_in, size, bold),
         _wrap(cell.note, width_in, size) if cell.note else [],
         TONE_COLOURS.get(cell.tone or "", INK),
-        "bold" if bold else "normal",
+        bold,
     )
 
 
@@ -375,36 +415,35 @@ def _cell_text(cell: Cell) -> str:
     return text
 
 
-def lay_out(report: Report, sink: Callable[[Any], None]) -> int:
-    """Lay the report out on A4 matplotlib Figures, handing each finished page to ``sink``; return the count."""
-    writer = PageWriter(report, sink)
+def lay_out(report: Report, canvas: Any) -> int:
+    """Lay the report out on the pages of a reportlab canvas; return the page count."""
+    writer = PageWriter(report, canvas)
     writer.cover()
-    for section in report.sections:
-        if section.anchor in NEW_PAGE_SECTIONS:
+    for i, section in enumerate(report.sections):
+        if section.anchor in NEW_PAGE_SECTIONS and i > 0:
             writer.new_page()
-        else:
+        elif i > 0:
             writer.keep_together(section)
         writer.section(section)
     writer.finish()
     return writer.count
 
 
-def pdf_pages(report: Report) -> list[Any]:
-    """The report's pages as a list of matplotlib Figures (for looking at them; :func:`render_pdf` streams)."""
-    pages: list[Any] = []
-    lay_out(report, pages.append)
-    return pages
-
-
 def render_pdf(report: Report) -> bytes:
-    """The report as PDF bytes (A4 pages, fonts embedded as TrueType)."""
-    import matplotlib
-    from matplotlib.backends.backend_pdf import PdfPages
+    """The report as PDF bytes (A4 pages, the typeface embedded as a TrueType subset)."""
+    from reportlab.pdfgen.canvas import Canvas
 
     buffer = io.BytesIO()
-    with matplotlib.rc_context({"pdf.fonttype": 42}):
-        with PdfPages(
-            buffer, metadata={"Title": report.title, "Creator": report.tool, "Subject": "Standing earth-leakage report"}
-        ) as pdf:
-            lay_out(report, pdf.savefig)
+    canvas = Canvas(
+        buffer,
+        pagesize=(PAGE_W_IN * PT_PER_IN, PAGE_H_IN * PT_PER_IN),
+        pageCompression=1,
+        initialFontName=font_name(False),
+    )
+    canvas.setTitle(report.title)
+    canvas.setCreator(report.tool)
+    canvas.setAuthor("")  # reportlab's default says "anonymous"; who prepared the plan is in the report
+    canvas.setSubject("Standing earth-leakage report")
+    lay_out(report, canvas)
+    canvas.save()
     return buffer.getvalue()
