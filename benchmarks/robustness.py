@@ -6,12 +6,14 @@ Each input goes through ``leakbudget check`` the way a user runs it (tests.robus
 exit code 0, 1 or 2, no traceback, the input's bytes unchanged, an error that is one sentence naming the file
 (and the expected one for a named case), and on 0 or 1 every sheet of the input reading the same in the output.
 Inputs run in worker processes, so one that kills its process (an abort inside a native library) is counted as
-not handled and the run goes on. Then two big inputs run alone to show time and peak memory.
+not handled and the run goes on. Then the number reader is timed on the adversarial cells (every parse from cold
+caches; the worst must stay well under a millisecond), and two big inputs run alone to show time and peak memory.
 """
 
 from __future__ import annotations
 
 import argparse
+import gc
 import json
 import subprocess
 import sys
@@ -99,6 +101,47 @@ def run_share(job_file: Path, todo: list[dict], start: int, stop: int) -> list[d
     return results
 
 
+def parse_times(repeats: int = 200) -> list[str]:
+    """The number reader's time on each adversarial cell (tests.robustness_cases.ADVERSARIAL_CELLS), every parse
+    from cold caches: the worst cell's median and slowest single parse, against a plain '0.75 mA' and against the
+    1 ms a cell may take at most."""
+    from leakbudget.input import units
+    from tests.robustness_cases import ADVERSARIAL_CELLS
+
+    def timings(text: str, unit: str) -> list[float]:
+        out = []
+        gc.disable()  # as timeit does: the collector's pauses belong to no one cell
+        try:
+            for _ in range(repeats):
+                for cache in (units._read_text, units._resolve, units.unit_factor):
+                    cache.cache_clear()
+                start = time.perf_counter()
+                try:
+                    units.to_unit(text, unit)
+                except units.UnitProblem:
+                    pass
+                out.append(time.perf_counter() - start)
+        finally:
+            gc.enable()
+        return sorted(out)
+
+    units.to_unit("1 megaohm", "Mohm")  # pint imported and its registry built once, outside the timings
+    plain = timings("0.75 mA", "mA")[repeats // 2]
+    measured = {text: timings(text, unit) for text, unit in ADVERSARIAL_CELLS}
+    worst = max(measured, key=lambda t: measured[t][repeats // 2])
+    slowest = max(measured, key=lambda t: measured[t][-1])
+    shown = lambda t: repr(t if len(t) <= 24 else t[:20] + f"... ({len(t)} chars)")  # noqa: E731
+    return [
+        f"  number reader, {len(ADVERSARIAL_CELLS)} adversarial cells x {repeats} cold parses: worst median "
+        f"{1e6 * measured[worst][repeats // 2]:.1f} us for {shown(worst)} "
+        f"({measured[worst][repeats // 2] / plain:.1f} x a plain '0.75 mA', {1e6 * plain:.1f} us; "
+        f"{1e-3 / measured[worst][repeats // 2]:.0f} x under 1 ms)",
+        f"  slowest single parse of all {len(ADVERSARIAL_CELLS) * repeats}: {1e6 * measured[slowest][-1]:.1f} us for "
+        f"{shown(slowest)} (a single parse includes the machine's scheduling pauses; the plain cell's slowest: "
+        f"{1e6 * max(timings('0.75 mA', 'mA')):.1f} us)",
+    ]
+
+
 def big_inputs() -> list[str]:
     """Time and peak memory of two big inputs, each in its own process."""
     from tests.robustness_cases import far_cell, million_formatted_rows, run_child, with_part
@@ -146,10 +189,14 @@ def main() -> None:
     parser.add_argument("--random", type=int, default=1000, help="random damaged workbooks to try (default 1000)")
     parser.add_argument("--seed", type=int, default=0, help="first random seed (default 0)")
     parser.add_argument("--workers", type=int, default=2, help="worker processes (default 2)")
+    parser.add_argument("--parse-only", action="store_true", help="only time the number reader on adversarial cells")
     parser.add_argument("--worker", nargs=3, help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.worker:
         worker(Path(args.worker[0]), int(args.worker[1]), int(args.worker[2]))
+        return
+    if args.parse_only:
+        print("\n".join(parse_times()))
         return
 
     from concurrent.futures import ThreadPoolExecutor
@@ -187,7 +234,7 @@ def main() -> None:
             + max(mine, key=lambda r: r["seconds"])["id"]
             + f" ({times[-1]:.1f} s)"
         )
-    for line in big_inputs():
+    for line in parse_times() + big_inputs():
         print(line)
     failed = [r for r in results if r["problems"]]
     for r in failed[:20]:

@@ -12,7 +12,7 @@ from typing import Any
 
 from leakbudget.devices import BUDGET_FRACTION_DEFAULT, BUDGET_OF, TRIP_LEVEL
 from leakbudget.input.schema import normalise
-from leakbudget.input.units import UnitProblem, to_unit
+from leakbudget.input.units import UnitProblem, to_unit, unit_factor
 from leakbudget.provenance import Kind, Source
 
 # Default supplies by market, used when neither the circuit nor the Settings sheet gives one.
@@ -92,7 +92,7 @@ def _shown(value: Any) -> str:
 
 def parse_percentile(value: Any) -> float:
     """A percentile as a fraction strictly between 0.5 and 1 ('95 %' or 0.95)."""
-    result = to_unit(value, "dimensionless")
+    result = to_unit(value, "dimensionless", percent=True)
     if not 0.5 < result < 1.0:
         raise UnitProblem(f"'{_shown(value)}' is not a percentile between 50 % and 100 % (type 95 % or 0.95)")
     return result
@@ -126,14 +126,14 @@ def parse_seed(value: Any) -> int:
 
 def parse_line_share(value: Any) -> float:
     """A share of a line-to-line load's leakage on its first line, from 50 % (symmetric) to 100 %."""
-    result = to_unit(value, "dimensionless")
+    result = to_unit(value, "dimensionless", percent=True)
     if not 0.5 <= result <= 1.0:
         raise UnitProblem(f"'{_shown(value)}' is not a share between 50 % and 100 % (type 60 % or 0.6)")
     return result
 
 
 def _fraction(value: Any) -> float:
-    result = to_unit(value, "dimensionless")
+    result = to_unit(value, "dimensionless", percent=True)
     if not 0.0 < result <= 1.0:
         raise UnitProblem(f"'{value}' is not a fraction between 0 and 1 (type 0.30 or 30 %)")
     return result
@@ -165,12 +165,13 @@ def _positive(unit: str) -> Callable[[Any], float]:
 
 
 def _length_unit(value: Any) -> str:
+    """A unit of length, by name (m, ft, feet, …): looked up, never evaluated."""
     text = str(value).strip()
     try:
-        to_unit(f"1 {text}", "m")
-        to_unit(1.0, text, "m")  # a unit, not a number ("1 12000" parses, as the number 12000)
-    except UnitProblem:
-        raise UnitProblem(f"'{value}' is not a unit of length (use m or ft)") from None
+        unit_factor(text, "m")
+    except UnitProblem as exc:
+        case = exc.hint if exc.hint and exc.hint.startswith("units are case-sensitive") else None
+        raise UnitProblem(f"'{_shown(value)}' is not a unit of length", case or "type m or ft") from None
     return text
 
 
@@ -395,6 +396,7 @@ class Settings:
     sources: dict[str, Source] = field(default_factory=lambda: {s.name: s.default_source for s in SETTING_SPECS})
     from_user: set[str] = field(default_factory=set)
     extra: dict[str, Any] = field(default_factory=dict)  # settings later features read (normalised name → raw)
+    broken: set[str] = field(default_factory=set)  # settings whose cell had a problem (their default stays)
 
     def __getitem__(self, name: str) -> Any:
         return self.values[name]

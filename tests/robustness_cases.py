@@ -467,6 +467,43 @@ BAD_INPUTS: list[BadInput] = [
         edited(lambda s: s.__setitem__("Cables", [["Key", "Capacitance"], ["site-cable", "100 nF/m"]])),
         "sheet 'Cables', row 2, column 'Capacitance', cell B2: '100 nF/m' is 100000 pF/m",
     ),
+    # cells the unit library's expression parser would evaluate: refused by the number reader, each named
+    *[
+        BadInput(f"number-{name}", edited(put(sheet, row, column, text)), f"cell {cell}: '{text}' {says}")
+        for name, sheet, row, column, cell, text, says in (
+            ("fraction", "Loads", 2, 4, "E3", "5/2 mA", "is a calculation or a range"),
+            ("two-numbers", "Loads", 2, 4, "E3", "2 3 mA", "holds more than one number"),
+            ("semicolon", "Loads", 2, 4, "E3", "2;3 mA", "holds more than one number"),
+            ("trailing-number", "Loads", 2, 4, "E3", "2 mA 3", "holds more than one number"),
+            ("pi", "Loads", 2, 4, "E3", "pi mA", "is not a number with a unit: it has no digits"),
+            ("power", "Loads", 2, 4, "E3", "2**3 mA", "is a calculation or a range"),
+            ("power-tower", "Loads", 2, 4, "E3", "9**9**9 mA", "is a calculation or a range"),
+            ("subtraction", "Circuits", 1, 2, "C2", "240-10 V", "is a calculation or a range"),
+            ("underflow", "Loads", 1, 5, "F2", "1e-400", "is too small to tell from zero"),
+            ("percent-as-current", "Loads", 2, 4, "E3", "50 %", "is a percentage or share, which is never a current"),
+            ("bound", "Loads", 2, 4, "E3", "<0.1 mA", "is a bound, not a value"),
+            ("approximation", "Loads", 2, 4, "E3", "~0.4 mA", "is an approximation, not a value"),
+            ("ambiguous-comma", "Circuits", 1, 6, "G2", "1,500 ft", "could be 1500 or 1.500"),
+        )
+    ],
+    BadInput(
+        "number-too-long",
+        edited(put("Loads", 2, 4, "1" * 5000)),
+        "cell E3: the text (5000 characters) is too long to be a number with a unit",
+    ),
+    BadInput(
+        "many-problems-in-one-run",
+        edited(
+            _both(
+                put("Circuits", 1, 2, "240-10 V"),
+                put("Circuits", 2, 1, "gfci-5ma"),
+                put("Loads", 1, 5, "5/2 nF"),
+                put("Loads", 2, 4, "<0.1 mA"),
+                lambda s: s.__setitem__("Settings", [["Setting", "Value"], ["Budget fraction", "30"]]),
+            )
+        ),
+        "plan.xlsx: 5 problems; fix them all, then run again:",
+    ),
     # duplicate ids and keys
     BadInput(
         "duplicate-circuit-odd-case-and-space",
@@ -492,6 +529,37 @@ BAD_INPUTS: list[BadInput] = [
         edited(put("Loads", 0, 9, "leakage")),
         "sheet 'Loads', row 1, cell J1: the column 'leakage' appears twice (also column E)",
     ),
+]
+
+
+# Cells an attacker or a careless user types, for the reader's worst parse time (benchmarks/robustness.py): each
+# (text, the column's unit). Every one is refused or read in microseconds; pint's expression parser would compute
+# the power tower 9**9**9 (a number of 369 million digits) and not answer.
+ADVERSARIAL_CELLS: list[tuple[str, str]] = [
+    ("9**9**9 mA", "mA"),
+    ("9**9**9**9**9", "mA"),
+    ("5/2 mA", "mA"),
+    ("2 3 mA", "mA"),
+    ("2;3 mA", "mA"),
+    ("2 mA 3", "mA"),
+    ("pi mA", "mA"),
+    ("2**3 mA", "mA"),
+    ("240-10 V", "V"),
+    ("1e-400", "mA"),
+    ("1e400 nF", "nF"),
+    ("1e" + "9" * 90, "mA"),
+    ("50 %", "mA"),
+    ("<0.1 mA", "mA"),
+    ("~0.4 mA", "mA"),
+    ("30'", "m"),
+    ("1,500 ft", "m"),
+    ("1," * 49 + "0", "W"),
+    ("(" * 99, "mA"),
+    ("2 " * 50, "mA"),
+    ("9" * 99, "mA"),
+    ("1" * 100_000, "mA"),
+    ("0.75 " + "m" * 94, "mA"),
+    ("1e-3 megohms", "Mohm"),
 ]
 
 
@@ -806,9 +874,7 @@ def judge(path: Path, out: Path | None = None, expected: str | None = None) -> V
     ):
         problems.append("the input file changed")
     if result.exit_code == 2:
-        errors = [line for line in result.output.splitlines() if line.startswith("Error: ")]
-        if len(errors) != 1 or not errors[0].startswith(f"Error: {path.name}") or not errors[0].endswith("."):
-            problems.append(f"not one error sentence naming the file: {result.output.strip()[:300]!r}")
+        problems += _error_problems(result.output, path.name)
         if expected is not None and expected not in result.output:
             problems.append(f"expected {expected!r} in {result.output.strip()[:300]!r}")
         now = sorted(p.name for p in path.parent.iterdir())
@@ -819,6 +885,30 @@ def judge(path: Path, out: Path | None = None, expected: str | None = None) -> V
             problems.append(f"accepted a bad input (exit {result.exit_code}), expected {expected!r}")
         problems += lost_cells(path if out is not None else backup_path(path), out if out is not None else path)
     return Verdict(result.exit_code, result.output, problems)
+
+
+def _error_problems(output: str, name: str) -> list[str]:
+    """What is wrong with the error text of an exit 2: it must be one sentence naming the file (``Error: NAME…``),
+    or a heading ``Error: NAME: N problems; …:`` followed by one sentence a line, each naming the file, the last
+    possibly ``- and K more (…).``"""
+    lines = output.strip().splitlines()
+    errors = [line for line in lines if line.startswith("Error: ")]
+    shown = repr(output.strip()[:300])
+    if len(errors) != 1 or not errors[0].startswith(f"Error: {name}"):
+        return [f"not one error naming the file: {shown}"]
+    at = lines.index(errors[0])
+    if errors[0].endswith("."):
+        return [] if at == len(lines) - 1 else [f"text after the error sentence: {shown}"]
+    heading = re.fullmatch(rf"Error: {re.escape(name)}: (\d+) problems; fix them all, then run again:", errors[0])
+    items = lines[at + 1 :]
+    more = re.fullmatch(r"- and (\d+) more \(the first (\d+) are listed\)\.", items[-1]) if items else None
+    sentences = items[:-1] if more else items
+    if heading is None or len(sentences) < 2 and not more:
+        return [f"not one error sentence nor a list of them: {shown}"]
+    if int(heading.group(1)) != len(sentences) + (int(more.group(1)) if more else 0):
+        return [f"the heading's count is not the list's: {shown}"]
+    bad = [s for s in sentences if not (s.startswith(f"- {name}") and s.endswith("."))]
+    return [f"a listed problem is not one sentence naming the file: {bad[0][:200]!r}"] if bad else []
 
 
 def lost_cells(source: Path, written: Path) -> list[str]:

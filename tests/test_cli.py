@@ -73,6 +73,29 @@ def test_bad_input_exit_2_with_one_line(make_workbook):
     assert path.read_bytes() == before
 
 
+def test_every_bad_cell_is_listed_in_one_run_on_stderr(make_workbook):
+    """Three bad cells on two sheets: one heading and one sentence a line on stderr, exit 2, nothing on stdout
+    (so `--json` output stays a JSON document or nothing), the file untouched and no file beside it."""
+    sheets = basic_sheets()
+    sheets["Circuits"][1][2] = "240-10 V"
+    sheets["Loads"][1][5] = "5/2 nF"
+    sheets["Loads"][2][4] = "<0.1 mA"
+    path = make_workbook(sheets)
+    before = path.read_bytes()
+    for args in ([], ["--json"], ["--no-write"]):
+        result = runner.invoke(app, ["check", str(path), *args])
+        assert result.exit_code == 2 and result.stdout == ""
+        lines = result.stderr.splitlines()
+        assert lines[0] == "Error: plan.xlsx: 3 problems; fix them all, then run again:"
+        assert [line.split(": ")[0] for line in lines[1:]] == [
+            "- plan.xlsx, sheet 'Circuits', row 2, column 'Voltage', cell C2",
+            "- plan.xlsx, sheet 'Loads', row 2, column 'Y capacitance', cell F2",
+            "- plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3",
+        ]
+        assert all(line.endswith(".") for line in lines[1:])
+    assert path.read_bytes() == before and sorted(p.name for p in path.parent.iterdir()) == ["plan.xlsx"]
+
+
 def test_missing_file_is_exit_2(tmp_path):
     result = runner.invoke(app, ["check", str(tmp_path / "nope.xlsx")])
     assert result.exit_code == 2

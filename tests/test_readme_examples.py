@@ -72,3 +72,37 @@ def test_the_waveform_and_budget_examples(make_workbook):
     assert f"0.30 × 6 mA = {ul.budget_ma:.1f} mA by analogy" in text
     share = run(make_workbook, circuits, loads, [["Budget of", "no-trip level"], ["Budget fraction", 0.45]])
     assert f"0.45 × 4 mA = {share.circuits[0].budget_ma:.1f} mA of the no-trip level" in text
+
+
+def bad_input_sheets() -> dict[str, list[list]]:
+    """README "Bad input": an invented workbook with eleven bad cells on three sheets."""
+    return {
+        "Circuits": [
+            CIRCUITS_HEADER,
+            ["K1", "gfci-a", "240-10 V", 60, "single", 20, "30'", "Kitchen"],
+            ["K2", "gfci-5ma", 120, 60, "single", 20, None, "Kitchen"],
+            ["L1", "gfci-a", 120, 60, "single", 20, "1,500 ft", "Laundry"],
+        ],
+        "Loads": [
+            LOADS_HEADER,
+            ["Fridge", "K1", None, 1, "5/2 mA", None, None, None, "Kitchen"],
+            ["Kettle", "K2", None, 1, "<0.1 mA", None, None, None, "Kitchen"],
+            ["Washer", "L1", None, "2 3", "50 %", None, None, None, "Laundry"],
+            ["Dryer", "L9", None, 1, "~0.4 mA", None, None, None, "Laundry"],
+            ["Iron", "L1", None, 1, "0,75 mA", None, None, None, "Laundry"],
+        ],
+        "Settings": [["Setting", "Value"], ["Budget fraction", "30"]],
+    }
+
+
+def test_the_bad_input_example(tmp_path):
+    """The README's bad workbook gives exactly the output shown there (run through the CLI)."""
+    from typer.testing import CliRunner
+
+    from leakbudget.cli.app import app
+    from tests.conftest import write_workbook
+
+    path = write_workbook(tmp_path / "bad.xlsx", bad_input_sheets())
+    result = CliRunner().invoke(app, ["check", str(path)])
+    assert result.exit_code == 2
+    assert f"$ leakbudget check bad.xlsx; echo $?\n{result.stderr}2\n```" in README

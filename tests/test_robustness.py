@@ -286,7 +286,7 @@ def test_header_below_a_title_with_blank_columns_between(tmp_path: Path) -> None
 
 def test_numbers_stored_as_text_and_odd_keys_are_read(tmp_path: Path) -> None:
     sheets = basic_sheets()
-    sheets["Circuits"][1] = [" k1 ", " GFCI-A ", " 120 ", "60", "Single ", "20", "1,000 ft", "Kitchen"]
+    sheets["Circuits"][1] = [" k1 ", " GFCI-A ", " 120 ", "60", "Single ", "20", "1,000.0 ft", "Kitchen"]
     sheets["Circuits"][2] = ["E1", "rcd-30", 230, 50, "single", 32, None, "Office"]
     sheets["Loads"][1] = ["Filter", "K1 ", None, "1", None, "4.7nF", None, " l1 ", "Kitchen"]
     sheets["Loads"][2] = ["Meter", " e1", " Kettle ", 2, "750 µA", None, None, None, "Office"]

@@ -1,14 +1,14 @@
-"""RawTable reads whole columns at once but reports problems row by row, as reading cell by cell would.
+"""RawTable reads whole columns at once; a reading collects every bad cell and lists them in the sheet's order.
 
-References: the row-by-row order of checks in leakbudget.workbook.read.read_loads (Quantity before Leakage in a row), and
-pint, counted as it parses, for "each distinct text once".
+References: the sheet's own order (row, then column) for the list; pint, its lookups counted, for "each distinct
+unit name once" and its conversions for the values.
 """
 
 from __future__ import annotations
 
 import pytest
 
-from leakbudget.errors import WorkbookError
+from leakbudget.errors import WorkbookProblems
 from leakbudget.input import units
 from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
@@ -25,29 +25,48 @@ def load(quantity=1, leakage="0.5 mA"):  # noqa: ANN001, ANN201
     return ["Printer", "E1", None, quantity, leakage, None, None, None, "Office"]
 
 
-@pytest.mark.parametrize(
-    ("loads", "message"),
-    [
-        # the Quantity column is read whole at row 2, with row 3's bad cell, yet row 2's Leakage is reported
-        (
-            [load(leakage="lots"), load(quantity="two")],
-            "plan.xlsx, sheet 'Loads', row 2, column 'Leakage', cell E2: 'lots' is not a number with a unit",
-        ),
-        (
-            [load(quantity="two"), load(leakage="lots")],
-            "plan.xlsx, sheet 'Loads', row 2, column 'Quantity', cell D2: 'two' is not a number with a unit",
-        ),
-        (
-            [load(), load(leakage=-1), load(leakage="lots")],
-            "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '-1' must not be negative",
-        ),
-    ],
-    ids=["later-row-other-column", "earlier-row-first", "sign-checked-on-access"],
-)
-def test_the_first_problem_in_row_order_is_reported(make_workbook, loads, message):
-    with pytest.raises(WorkbookError) as info:
-        read_project(make_workbook(sheets_with_loads(loads)))
-    assert str(info.value).startswith(message)
+def problems_of(path) -> list[str]:  # noqa: ANN001
+    with pytest.raises(WorkbookProblems) as info:
+        read_project(path)
+    return [str(p) for p in info.value.problems]
+
+
+def test_every_bad_cell_of_every_row_is_reported_once_in_the_sheets_order(make_workbook):
+    """Row 2 has two bad cells, row 3 one: all three, by row then column, though the Quantity column is read whole
+    first; the bad Leakage is not reported again as a load without a leakage figure."""
+    path = make_workbook(sheets_with_loads([load(quantity="two", leakage="lots"), load(leakage=-1)]))
+    assert problems_of(path) == [
+        "plan.xlsx, sheet 'Loads', row 2, column 'Quantity', cell D2: 'two' is not a number with a unit: it has no "
+        "digits; type a plain number.",
+        "plan.xlsx, sheet 'Loads', row 2, column 'Leakage', cell E2: 'lots' is not a number with a unit: it has no "
+        "digits; type a number (taken in mA) or a number with a unit of current (mA, µA or A).",
+        "plan.xlsx, sheet 'Loads', row 3, column 'Leakage', cell E3: '-1' must not be negative.",
+    ]
+
+
+def test_a_bad_circuit_row_does_not_make_its_loads_unknown(make_workbook):
+    """A circuit whose Device is unknown is one problem; its loads are not reported as naming an unknown circuit,
+    but a load on a circuit that exists nowhere is."""
+    sheets = sheets_with_loads([load(), ["Lamp", "E9", None, 1, "0.1 mA", None, None, None, "Office"]])
+    sheets["Circuits"][1][1] = "rcd-31"
+    assert [p.split(": ")[0] for p in problems_of(make_workbook(sheets))] == [
+        "plan.xlsx, sheet 'Circuits', row 2, column 'Device', cell B2",
+        "plan.xlsx, sheet 'Loads', row 3, column 'Circuit', cell B3",
+    ]
+
+
+def test_problems_beyond_the_limit_are_counted(make_workbook):
+    from leakbudget.errors import PROBLEM_LIMIT
+
+    path = make_workbook(sheets_with_loads([load(leakage=f"{i}/2 mA") for i in range(PROBLEM_LIMIT + 7)]))
+    with pytest.raises(WorkbookProblems) as info:
+        read_project(path)
+    assert (len(info.value.problems), info.value.unlisted) == (PROBLEM_LIMIT, 7)
+    lines = str(info.value).splitlines()
+    assert lines[0] == f"plan.xlsx: {PROBLEM_LIMIT + 7} problems; fix them all, then run again:"
+    assert lines[1].startswith("- plan.xlsx, sheet 'Loads', row 2, column 'Leakage', cell E2: '0/2 mA' is a calc")
+    assert lines[-1] == f"- and 7 more (the first {PROBLEM_LIMIT} are listed)."
+    assert len(lines) == PROBLEM_LIMIT + 2
 
 
 def test_blank_cells_are_none_whatever_they_hold(make_workbook):
@@ -62,22 +81,24 @@ def test_blank_cells_are_none_whatever_they_hold(make_workbook):
     ]
 
 
-def test_pint_parses_each_distinct_text_once(make_workbook, monkeypatch):
-    """Texts outside the common spellings go to pint's parser: once per distinct text, not once per cell."""
+def test_pint_looks_up_each_distinct_unit_name_once(make_workbook, monkeypatch):
+    """Unit names outside the common spellings are looked up in pint's registry once per name, not once per cell,
+    and read as pint's conversion gives them."""
     texts = ["250 microampere", "0.4 milliampere", "620 microamperes"]
     loads = [["Load", "E1", None, 1, texts[i % 3], None, None, None, None] for i in range(300)]
     path = make_workbook(sheets_with_loads(loads))
-    ureg = units.registry()
-    parsed: list[str] = []
+    looked_up: list[str] = []
+    original = units._pint_name
 
-    class Counting:
-        def Quantity(self, value, *args):  # noqa: ANN001, ANN201, N802
-            if isinstance(value, str) and not args:
-                parsed.append(value)
-            return ureg.Quantity(value, *args)
+    def counting(name: str):  # noqa: ANN202
+        looked_up.append(name)
+        return original(name)
 
-    monkeypatch.setattr(units, "registry", lambda: Counting())
-    units._factor_for_text.cache_clear()
+    monkeypatch.setattr(units, "_pint_name", counting)
+    for cache in (units._read_text, units._resolve, units.unit_factor):
+        cache.cache_clear()
     project = read_project(path)
-    assert sorted(parsed) == sorted(texts)
-    assert [x.leakage_ma for x in project.loads[:3]] == pytest.approx([0.25, 0.4, 0.62])  # pint's own answers
+    assert sorted(looked_up) == ["microampere", "microamperes", "milliampere"]
+    ureg = units.registry()
+    expected = [ureg.Quantity(float(t.split()[0]), t.split()[1]).to("mA").magnitude for t in texts]
+    assert [x.leakage_ma for x in project.loads[:3]] == pytest.approx(expected, rel=1e-12)  # pint's own answers

@@ -6,7 +6,7 @@ import copy
 
 import pytest
 
-from leakbudget.errors import WorkbookError
+from leakbudget.errors import WorkbookError, WorkbookProblems
 from leakbudget.workbook.read import read_project
 from tests.conftest import basic_sheets
 
@@ -125,11 +125,63 @@ CASES = [
 
 @pytest.mark.parametrize(("mutate", "message"), [c[1:] for c in CASES], ids=[c[0] for c in CASES])
 def test_bad_input_is_one_sentence_with_location(make_workbook, mutate, message):
-    with pytest.raises(WorkbookError) as info:
+    with pytest.raises(WorkbookProblems) as info:
         read_project(make_workbook(_broken(mutate)))
-    text = str(info.value)
-    assert text.startswith(message)
-    assert text.endswith(".") and "\n" not in text
+    first = str(info.value.problems[0])
+    assert first.startswith(message)
+    assert all(str(p).endswith(".") and "\n" not in str(p) for p in info.value.problems)
+    if len(info.value.problems) == 1:  # one problem: the exception is that sentence, and names its cell
+        assert str(info.value) == first and info.value.row == info.value.problems[0].row
+
+
+def test_a_renamed_circuit_also_leaves_its_loads_without_a_circuit(make_workbook):
+    """E1 typed as a second k1: the id used twice, and the load on E1 now on no circuit of the sheet; both are
+    true, and both are listed."""
+    with pytest.raises(WorkbookProblems) as info:
+        read_project(make_workbook(_broken(lambda s: s["Circuits"][2].__setitem__(0, "k1"))))
+    assert [p.cell for p in info.value.problems] == ["A3", "B3"]
+
+
+def test_every_sheet_reports_every_bad_row_in_one_run(make_workbook):
+    """Bad cells on Settings, Appliances (two rows: the catalogue reader stops at its first problem, so each row
+    is read alone), Cables, Protection, Circuits, Loads, Readings and Locations: all of them, in the workbook's
+    sheet order, and no follow-on problem (a load on the appliance whose row is bad is not 'unknown')."""
+    sheets = basic_sheets()
+    sheets["Circuits"][1][2] = "240-10 V"
+    sheets["Circuits"][2][6] = "1,500 ft"
+    sheets["Loads"][1][4] = "5/2 mA"
+    sheets["Loads"][2][2] = "site-heater"
+    sheets["Loads"][2][3] = "2 3"
+    sheets["Settings"] = [["Setting", "Value"], ["Budget fraction", "30"], ["Length unit", "furlong 2"]]
+    sheets["Appliances"] = [
+        ["Key", "Typical leakage", "Reference voltage"],
+        ["site-heater", "<0.2 mA", 230],
+        ["site-fan", "~0.1 mA", "2**8 V"],
+        ["site-lamp", 0.1, 230],
+    ]
+    sheets["Cables"] = [["Key", "Capacitance"], ["site-cable", "100 nF/m"]]
+    sheets["Protection"] = [["Id", "Device"], ["RCD1", "rcd-30"], ["RCD1", "rcd-30"]]
+    sheets["Readings"] = [["Circuit", "Reading"], ["E1", "pi mA"]]
+    sheets["Locations"] = [["Room name", "Location kind"], ["Snug", "cave"]]
+    with pytest.raises(WorkbookProblems) as info:
+        read_project(make_workbook(sheets))
+    cells = [(p.sheet, p.cell) for p in info.value.problems]
+    assert cells == [
+        ("Circuits", "C2"),
+        ("Circuits", "G3"),
+        ("Loads", "E2"),
+        ("Loads", "D3"),
+        ("Settings", "B2"),
+        ("Settings", "B3"),
+        ("Appliances", "B2"),
+        ("Appliances", "B3"),
+        ("Appliances", "C3"),
+        ("Cables", "B2"),
+        ("Protection", "A3"),
+        ("Readings", "B2"),
+        ("Locations", "B2"),
+    ]
+    assert str(info.value).splitlines()[0] == "plan.xlsx: 13 problems; fix them all, then run again:"
 
 
 def test_not_a_workbook(tmp_path):
@@ -204,3 +256,48 @@ def test_user_appliance_rows_override_and_are_reported(make_workbook):
     p = read_project(make_workbook(sheets))
     assert p.catalogue.appliances["kettle"].typical_ma == 0.1
     assert any("kettle" in w and "replaces the built-in" in w for w in p.warnings)
+
+
+def test_settings_use_the_same_number_reader(make_workbook):
+    """A percentage where a fraction is meant; a unit of length by name for Length unit (1 ft = 0.3048 m, the
+    international foot); arithmetic, a percentage where a count is meant and a number for a unit refused, each
+    on its own row in one run."""
+    sheets = basic_sheets()
+    sheets["Circuits"][1][6] = 100
+    sheets["Settings"] = [
+        ["Setting", "Value"],
+        ["Budget fraction", "25 %"],
+        ["Length unit", "feet"],
+        ["Line imbalance", "60 %"],
+    ]
+    p = read_project(make_workbook(sheets))
+    assert (p.settings.budget_fraction, p.settings["Line imbalance"]) == (pytest.approx(0.25), pytest.approx(0.6))
+    assert p.circuits[0].cable_length_m == pytest.approx(30.48)
+    sheets["Settings"] = [
+        ["Setting", "Value"],
+        ["Voltage", "240-10 V"],
+        ["Samples", "50 %"],
+        ["Length unit", "1 12000"],
+        ["Switch-on factor", "9**9**9"],
+        ["Seed", "2 3"],
+    ]
+    with pytest.raises(WorkbookProblems) as info:
+        read_project(make_workbook(sheets))
+    assert [str(x).split(": ", 1)[1] for x in info.value.problems] == [
+        "setting 'Voltage': '240-10 V' is a calculation or a range, and leakbudget does no arithmetic; type one "
+        "number, the result you mean, with at most one unit.",
+        "setting 'Samples': '50 %' is a percentage or share, where a plain number belongs; type a plain number.",
+        "setting 'Length unit': '1 12000' is not a unit of length; type m or ft.",
+        "setting 'Switch-on factor': '9**9**9' is a calculation or a range, and leakbudget does no arithmetic; type "
+        "one number, the result you mean, with at most one unit.",
+        "setting 'Seed': '2 3' holds more than one number; type one number with at most one unit in each cell.",
+    ]
+
+
+def test_a_cable_run_in_feet_by_its_prime_is_feet(make_workbook):
+    """30' is 30 ft = 9.144 m (international foot), whatever the Length unit setting says."""
+    sheets = basic_sheets()
+    sheets["Circuits"][1][6] = "30'"
+    sheets["Circuits"][2][6] = "30"
+    p = read_project(make_workbook(sheets))
+    assert [c.cable_length_m for c in p.circuits] == [pytest.approx(9.144), 30.0]

@@ -31,7 +31,10 @@ if TYPE_CHECKING:
 
 
 class _Group(TyperGroup):
-    """Turns every LeakbudgetError into one line on stderr and exit code 2: the one place errors are converted."""
+    """Turns every LeakbudgetError into ``Error: …`` on stderr and exit code 2: the one place errors are converted.
+
+    One problem is one line; a workbook with several (:class:`~leakbudget.errors.WorkbookProblems`) gives a heading
+    line and one sentence a line below it. Nothing goes to stdout, so a `--json` reader sees no document at all."""
 
     def invoke(self, ctx: ClickContext) -> Any:
         try:

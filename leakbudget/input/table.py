@@ -5,24 +5,30 @@ every problem can be reported as "file, sheet, row, column (cell): what is wrong
 
 Access is by row (``table.number(row, "Leakage", "mA")``), but the work is done by column: the first access to a
 column cleans, and for numbers converts, the whole column at once, each distinct text once, and later accesses are
-list lookups. A bad cell is remembered, not raised, until its row asks for it, so the first problem reported is the
-same as cell-by-cell reading would find. The reader puts such cells in the grid itself too (:class:`Unreadable`:
-a formula without saved result, an error value) and merged ranges' values (:class:`MergedValue`).
+list lookups. A bad cell is remembered, not raised, until its row asks for it. The reader puts such cells in the
+grid itself too (:class:`Unreadable`: a formula without saved result, an error value) and merged ranges' values
+(:class:`MergedValue`).
+
+A table given :class:`Problems` collects instead of raising: an accessor that meets a bad cell records its
+sentence and answers None, and ``with table.reading(row):`` records a problem the row's own checks raise and goes on
+with the next row, so one run finds every bad cell of every sheet (:meth:`Problems.raise_if_any`).
 """
 
 from __future__ import annotations
 
 import csv
 import io
+import re
 import unicodedata
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterator, Mapping, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from datetime import date, datetime, time, timedelta
 from importlib import resources
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, final
 
-from leakbudget.errors import CatalogueError, WorkbookError
+from leakbudget.errors import PROBLEM_LIMIT, CatalogueError, WorkbookError, WorkbookProblems
 from leakbudget.input.schema import Column, Sheet, normalise
 from leakbudget.input.units import UnitProblem, to_unit
 from leakbudget.xlsx.cells import column_letter
@@ -125,6 +131,72 @@ def _spread_merged(
                 _put(grid, i, c0, cell)
 
 
+_CELL_REF = re.compile(r"([A-Z]+)([0-9]+)")
+
+
+class Problems:
+    """The problems of one reading of a workbook, collected instead of raised.
+
+    The first problem of a cell counts; a later one on the same cell follows from it (a Leakage that could not be
+    read is then also "blank") and is dropped. At most :data:`~leakbudget.errors.PROBLEM_LIMIT` are kept and the
+    rest counted, so a sheet of a million bad cells costs a count, not a million sentences.
+    """
+
+    def __init__(self, path: Path, limit: int = PROBLEM_LIMIT) -> None:
+        self.path = path
+        self.limit = limit
+        self.kept: list[WorkbookError] = []
+        self.count = 0
+        self._cells: set[tuple[str | None, int | None, str | None]] = set()
+        self._rows: set[tuple[str | None, int]] = set()
+
+    def __bool__(self) -> bool:
+        return self.count > 0
+
+    def add(self, problem: WorkbookError) -> None:
+        """Record ``problem`` (each problem of a :class:`~leakbudget.errors.WorkbookProblems`)."""
+        if isinstance(problem, WorkbookProblems):
+            for each in problem.problems:
+                self.add(each)
+            self.count += problem.unlisted
+            return
+        key = (problem.sheet, problem.row, problem.column if problem.row is not None else problem.detail)
+        if key in self._cells:
+            return
+        self._cells.add(key)
+        if problem.row is not None:
+            self._rows.add((problem.sheet, problem.row))
+        self.count += 1
+        if len(self.kept) < self.limit:
+            self.kept.append(problem)
+
+    def failed(self, sheet: str, row: int, column: str | None = None) -> bool:
+        """True when a problem was recorded on ``row`` of ``sheet`` (in ``column``, as the user typed its name)."""
+        if column is not None:
+            return (sheet, row, column) in self._cells
+        return (sheet, row) in self._rows
+
+    def raise_if_any(self, sheet_order: Sequence[str] = ()) -> None:
+        """Raise :class:`~leakbudget.errors.WorkbookProblems` with every problem recorded, in the workbook's
+        order (``sheet_order``: the sheets as the workbook lists them; then row, then column)."""
+        if not self.count:
+            return
+        order = {name: i for i, name in enumerate(sheet_order)}
+
+        def place(problem: WorkbookError) -> tuple[int, int, int]:
+            sheet = -1 if problem.sheet is None else order.get(problem.sheet, len(order))
+            match = _CELL_REF.fullmatch(problem.cell or "")
+            column = -1
+            if match is not None:
+                column = 0
+                for letter in match.group(1):
+                    column = column * 26 + ord(letter) - 64
+            return (sheet, problem.row or 0, column)
+
+        listed = sorted(self.kept, key=place)
+        raise WorkbookProblems(self.path, listed, self.count - len(listed))
+
+
 @dataclass
 class RawTable:
     """One sheet's header and data rows, with positions for error messages."""
@@ -136,6 +208,8 @@ class RawTable:
     typed_names: dict[str, str]  # normalised column name -> the name as the user typed it
     rows: list[Row] = field(default_factory=list)  # (1-based row number, cell values), in file order
     renamed: dict[str, str] = field(default_factory=dict)  # a former column name as typed -> the current name
+    problems: Problems | None = None  # when given, bad cells are recorded here and read as None
+    _first: int = field(default=0, init=False, repr=False)
     # Whole columns, computed on first access and indexed by row number: column as asked -> cell values, …
     _values: dict[str, list[Any]] = field(default_factory=dict, repr=False)
     _texts: dict[str, list[str | Unreadable | None]] = field(default_factory=dict, repr=False)
@@ -225,31 +299,76 @@ class RawTable:
         rows = [(i + 1, grid[i]) for i in sorted(kept)]
         return cls(path, sheet_name, header_index + 1, columns, typed, rows, renamed=renamed)
 
+    def only(self, rows: list[Row]) -> RawTable:
+        """The same sheet with only ``rows`` (recording into the same :class:`Problems`)."""
+        return RawTable(
+            self.path,
+            self.sheet,
+            self.header_row,
+            self.columns,
+            self.typed_names,
+            rows,
+            renamed=self.renamed,
+            problems=self.problems,
+        )
+
+    def __post_init__(self) -> None:
+        self._first = self.rows[0][0] if self.rows else 0  # the first row's number: column lists start there
+
+    @contextmanager
+    def reading(self, row: Row) -> Iterator[None]:
+        """Read one row: a problem the row raises is recorded (when collecting) and reading goes on after the
+        ``with`` block."""
+        try:
+            yield
+        except WorkbookError as exc:
+            if self.problems is None:
+                raise
+            self.problems.add(exc)
+
+    def failed(self, row: Row, *columns: str) -> bool:
+        """True when a problem was recorded on ``row`` (in one of ``columns``, when given); never when not
+        collecting (the first problem was raised)."""
+        if self.problems is None:
+            return False
+        if not columns:
+            return self.problems.failed(self.sheet, row[0])
+        return any(self.problems.failed(self.sheet, row[0], self.typed_names.get(normalise(c), c)) for c in columns)
+
+    def refuse(self, row: Row | int, column: str | None, message: str, hint: str | None = None) -> None:
+        """Raise the problem, or record it when collecting (the accessor then answers None)."""
+        problem = self.error(row, column, message, hint=hint)
+        if self.problems is None:
+            raise problem
+        self.problems.add(problem)
+
     def has(self, column: str) -> bool:
         return normalise(column) in self.columns
 
     def raw(self, row: Row, column: str) -> Any:
         """The cell's value (a merged range's, on each row it covers), or None when the column is absent or the
-        cell blank. Raises for an :class:`Unreadable` cell."""
+        cell blank. Refuses an :class:`Unreadable` cell (see :meth:`refuse`)."""
         values = self._values.get(column)
         if values is None:
             values = self._values[column] = self._column_values(column)
-        value = values[row[0]]
+        value = values[row[0] - self._first]
         if type(value) is MergedValue:
             value = _plain(value.value)
         if type(value) is Unreadable:
-            raise self.error(row, column, value.message, hint=value.hint)
+            self.refuse(row, column, value.message, hint=value.hint)
+            return None
         return value
 
     def _column_values(self, column: str) -> list[Any]:
         """Every row's cell of ``column``, indexed by row number, blanks (see :func:`is_blank`) as None."""
-        values: list[Any] = [None] * (self.rows[-1][0] + 1 if self.rows else 0)
+        first = self._first
+        values: list[Any] = [None] * (self.rows[-1][0] + 1 - first if self.rows else 0)
         j = self.columns.get(normalise(column))
         if j is None:
             return values
         for number, cells in self.rows:
             if j < len(cells):
-                values[number] = _plain(cells[j])
+                values[number - first] = _plain(cells[j])
         return values
 
     def error(self, row: Row | int, column: str | None, message: str, hint: str | None = None) -> WorkbookError:
@@ -271,9 +390,10 @@ class RawTable:
             if values is None:
                 values = self._values[column] = self._column_values(column)
             texts = self._texts[column] = [_as_text(value) for value in values]
-        text = texts[row[0]]
+        text = texts[row[0] - self._first]
         if type(text) is Unreadable:
-            raise self.error(row, column, text.message, hint=text.hint)
+            self.refuse(row, column, text.message, hint=text.hint)
+            return None
         return text
 
     def number(
@@ -287,30 +407,30 @@ class RawTable:
         non_negative: bool = True,
         plausible: Plausible | None = None,
     ) -> float | None:
-        """The cell as a float in ``target_unit`` (bare numbers in ``default_unit``), or None when blank.
+        """The cell as a float in ``target_unit`` (bare numbers in ``default_unit``), or None when blank (or bad,
+        when collecting problems).
 
         With ``plausible`` (a range in ``target_unit``), a value outside it is refused with the range's hint."""
         key = (column, default_unit, target_unit)
         numbers = self._numbers.get(key)
         if numbers is None:
             numbers = self._numbers[key] = self._column_numbers(column, default_unit, target_unit)
-        result = numbers[row[0]]
+        result = numbers[row[0] - self._first]
         if result is None:
             return None
+        problem: tuple[str, str | None] | None = None
         if type(result) is Unreadable:
-            raise self.error(row, column, result.message, hint=result.hint)
-        if positive and result <= 0:
-            raise self.error(row, column, f"'{self.text(row, column)}' must be greater than zero")
-        if non_negative and result < 0:
-            raise self.error(row, column, f"'{self.text(row, column)}' must not be negative")
-        if plausible is not None and (problem := plausible.problem(result)) is not None:
-            raise self.error(
-                row,
-                column,
-                f"'{self.text(row, column)}' is {result:g} {plausible.unit}, {problem}",
-                hint=plausible.hint,
-            )
-        return result
+            problem = (result.message, result.hint)
+        elif positive and result <= 0:
+            problem = (f"'{self.text(row, column)}' must be greater than zero", None)
+        elif non_negative and result < 0:
+            problem = (f"'{self.text(row, column)}' must not be negative", None)
+        elif plausible is not None and (why := plausible.problem(result)) is not None:
+            problem = (f"'{self.text(row, column)}' is {result:g} {plausible.unit}, {why}", plausible.hint)
+        if problem is not None:
+            self.refuse(row, column, problem[0], hint=problem[1])
+            return None
+        return result  # type: ignore[return-value]
 
     def _column_numbers(
         self, column: str, default_unit: str, target_unit: str | None
@@ -349,10 +469,12 @@ class RawTable:
             return True
         if low in NO:
             return False
-        raise self.error(row, column, f"'{text}' is not yes or no", hint="type yes or no")
+        self.refuse(row, column, f"'{text}' is not yes or no", hint="type yes or no")
+        return None
 
     def choice(self, row: Row, column: str, allowed: tuple[str, ...], default: str | None = None) -> str | None:
-        """The cell as one of ``allowed`` (case-insensitive), or ``default`` when blank."""
+        """The cell as one of ``allowed`` (case-insensitive), or ``default`` when blank (None when it is none of them,
+        when collecting problems)."""
         text = self.text(row, column)
         if text is None:
             return default
@@ -360,9 +482,10 @@ class RawTable:
         for a in allowed:
             if low == a.lower():
                 return a
-        raise self.error(
+        self.refuse(
             row, column, f"'{text}' is not one of {', '.join(allowed)}", hint=f"use one of {', '.join(allowed)}"
         )
+        return None
 
 
 def _plain(value: Any) -> Any:
@@ -398,15 +521,17 @@ def _as_text(value: Any) -> str | Unreadable | None:
 
 def _quantity(value: Any, default_unit: str, target_unit: str | None) -> float | Unreadable:
     """One non-blank cell as a float in ``target_unit``, or the problem with it."""
+    plain = default_unit == "dimensionless"
     if isinstance(value, _DATES):
         return Unreadable(
             f"'{value}' is a date or time, not a quantity",
-            f"format the cell as a number and type the value in {default_unit}",
+            "format the cell as a number and type " + ("a plain number" if plain else f"the value in {default_unit}"),
         )
     try:
         return to_unit(value, default_unit, target_unit)
     except UnitProblem as exc:
-        return Unreadable(str(exc), f"type a number (taken in {default_unit}) or a number with a unit")
+        hint = "type a plain number" if plain else f"type a number (taken in {default_unit}) or a number with a unit"
+        return Unreadable(str(exc), exc.hint or hint)
 
 
 def _data_file(name: str) -> tuple[Path, str]:

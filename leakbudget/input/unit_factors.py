@@ -37,4 +37,6 @@ FACTORS: dict[str, tuple[str, float]] = {
     "mm": ("[length]", 0.001),
     "km": ("[length]", 1000.0),
     "ft": ("[length]", 0.30479999999999996),
+    "feet": ("[length]", 0.30479999999999996),
+    "foot": ("[length]", 0.30479999999999996),
 }
