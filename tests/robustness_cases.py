@@ -529,7 +529,33 @@ BAD_INPUTS: list[BadInput] = [
         edited(put("Loads", 0, 9, "leakage")),
         "sheet 'Loads', row 1, cell J1: the column 'leakage' appears twice (also column E)",
     ),
+    # nothing of the user's is ever lost (the write-back refuses; the input is left as it was)
+    BadInput(
+        "own-sheet-named-like-a-result",
+        edited(lambda s: s.__setitem__("Circuit results", [["My notes on the panel"], ["K1 feeds the island"]])),
+        "sheet 'Circuit results' is a sheet of yours, not one leakbudget wrote",
+    ),
+    BadInput("zip-entry-with-dotdot", lambda folder: _with_entry(workbook(folder), "../outside.xml"), "'..' segment"),
+    BadInput("zip-entry-absolute", lambda folder: _with_entry(workbook(folder), "/etc/owned.xml"), "absolute name"),
+    BadInput("read-only-workbook", lambda folder: _chmod(workbook(folder), 0o444), "the file is read-only"),
+    BadInput("hard-linked-workbook", lambda folder: _linked(workbook(folder)), "2 names (hard links)"),
 ]
+
+
+def _with_entry(path: Path, name: str) -> Path:
+    with zipfile.ZipFile(path, "a") as archive:
+        archive.writestr(name, b"<x/>")
+    return path
+
+
+def _chmod(path: Path, mode: int) -> Path:
+    path.chmod(mode)
+    return path
+
+
+def _linked(path: Path) -> Path:
+    os.link(path, path.with_name("another-name.xlsx"))
+    return path
 
 
 # Cells an attacker or a careless user types, for the reader's worst parse time (benchmarks/robustness.py): each

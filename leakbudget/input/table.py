@@ -86,6 +86,8 @@ def is_blank(value: Any) -> bool:
 
 
 def _has_content(row: list[Any]) -> bool:
+    if row.count("") == len(row):  # the common blank row, counted in C (a stray far cell makes a million of them)
+        return False
     return any(v is not None and v != "" and not is_blank(v) for v in row)
 
 
@@ -209,7 +211,7 @@ class RawTable:
     rows: list[Row] = field(default_factory=list)  # (1-based row number, cell values), in file order
     renamed: dict[str, str] = field(default_factory=dict)  # a former column name as typed -> the current name
     problems: Problems | None = None  # when given, bad cells are recorded here and read as None
-    _first: int = field(default=0, init=False, repr=False)
+    _place: dict[int, int] = field(default_factory=dict, init=False, repr=False)  # row number -> index
     # Whole columns, computed on first access and indexed by row number: column as asked -> cell values, …
     _values: dict[str, list[Any]] = field(default_factory=dict, repr=False)
     _texts: dict[str, list[str | Unreadable | None]] = field(default_factory=dict, repr=False)
@@ -313,7 +315,7 @@ class RawTable:
         )
 
     def __post_init__(self) -> None:
-        self._first = self.rows[0][0] if self.rows else 0  # the first row's number: column lists start there
+        self._place = {number: k for k, (number, _) in enumerate(self.rows)}  # column lists hold the kept rows
 
     @contextmanager
     def reading(self, row: Row) -> Iterator[None]:
@@ -351,7 +353,7 @@ class RawTable:
         values = self._values.get(column)
         if values is None:
             values = self._values[column] = self._column_values(column)
-        value = values[row[0] - self._first]
+        value = values[self._place[row[0]]]
         if type(value) is MergedValue:
             value = _plain(value.value)
         if type(value) is Unreadable:
@@ -361,14 +363,13 @@ class RawTable:
 
     def _column_values(self, column: str) -> list[Any]:
         """Every row's cell of ``column``, indexed by row number, blanks (see :func:`is_blank`) as None."""
-        first = self._first
-        values: list[Any] = [None] * (self.rows[-1][0] + 1 - first if self.rows else 0)
+        values: list[Any] = [None] * len(self.rows)  # one per kept row: a far stray cell costs nothing here
         j = self.columns.get(normalise(column))
         if j is None:
             return values
-        for number, cells in self.rows:
+        for k, (_, cells) in enumerate(self.rows):
             if j < len(cells):
-                values[number - first] = _plain(cells[j])
+                values[k] = _plain(cells[j])
         return values
 
     def error(self, row: Row | int, column: str | None, message: str, hint: str | None = None) -> WorkbookError:
@@ -390,7 +391,7 @@ class RawTable:
             if values is None:
                 values = self._values[column] = self._column_values(column)
             texts = self._texts[column] = [_as_text(value) for value in values]
-        text = texts[row[0] - self._first]
+        text = texts[self._place[row[0]]]
         if type(text) is Unreadable:
             self.refuse(row, column, text.message, hint=text.hint)
             return None
@@ -415,7 +416,7 @@ class RawTable:
         numbers = self._numbers.get(key)
         if numbers is None:
             numbers = self._numbers[key] = self._column_numbers(column, default_unit, target_unit)
-        result = numbers[row[0] - self._first]
+        result = numbers[self._place[row[0]]]
         if result is None:
             return None
         problem: tuple[str, str | None] | None = None

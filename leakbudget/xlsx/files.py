@@ -153,7 +153,7 @@ def refuse_existing_out(path: Path, force: bool) -> None:
     """Refuse to write a new file over one that exists, unless ``force`` (its version is then kept as a backup)."""
     if path.exists() and not force:
         raise WriteBackError(
-            f"{path}: the file exists; leakbudget does not replace it unless told to: give --force (its current "
+            f"{path.name}: the file exists; leakbudget does not replace it unless told to: give --force (its current "
             "version is then kept as a backup beside it), or choose another name."
         )
 
@@ -163,12 +163,12 @@ def refuse_if_unsafe_target(path: Path) -> None:
     info = os.stat(path)
     if not info.st_mode & (stat.S_IWUSR | stat.S_IWGRP | stat.S_IWOTH):
         raise WriteBackError(
-            f"{path}: the file is read-only; leakbudget does not replace it: make it writable, or write the results "
+            f"{path.name}: the file is read-only; leakbudget does not replace it: make it writable, or write the results "
             "to another file with --out."
         )
     if info.st_nlink > 1:
         raise WriteBackError(
-            f"{path}: the file has {info.st_nlink} names (hard links); replacing it would leave the other names on "
+            f"{path.name}: the file has {info.st_nlink} names (hard links); replacing it would leave the other names on "
             "the old version: write the results to another file with --out."
         )
 
