@@ -70,6 +70,10 @@ OutOpt = Annotated[
     typer.Option("--out", "-o", help="Write the results into this new file and leave PATH untouched."),
 ]
 JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON document to stdout instead of tables.")]
+QuietOpt = Annotated[
+    bool,
+    typer.Option("--quiet", "-q", help="Print only the verdict, the counts, where results went and the caution."),
+]
 ForceOpt = Annotated[
     bool,
     typer.Option(
@@ -85,6 +89,7 @@ def check(
     as_json: JsonOpt = False,
     no_write: Annotated[bool, typer.Option("--no-write", help="Check only; write nothing.")] = False,
     force: ForceOpt = False,
+    quiet: QuietOpt = False,
 ) -> None:
     """Estimate standing leakage per protected circuit and shared device; write 'Circuit results', 'Load results'
     and, with a Protection sheet, 'Device results'.
@@ -99,7 +104,7 @@ def check(
     if as_json:
         print_json(job.document())
     else:
-        render_check(job)
+        render_check(job, quiet)
     raise typer.Exit(0 if job.result.all_ok else 1)
 
 
@@ -130,6 +135,7 @@ def review(
     as_json: JsonOpt = False,
     no_write: Annotated[bool, typer.Option("--no-write", help="Review only; write nothing.")] = False,
     force: ForceOpt = False,
+    quiet: QuietOpt = False,
 ) -> None:
     from leakbudget import api
 
@@ -137,7 +143,7 @@ def review(
     if as_json:
         print_json(job.document())
     else:
-        render_review(job)
+        render_review(job, quiet)
     raise typer.Exit(1 if job.review.errors else 0)
 
 
@@ -254,6 +260,7 @@ def split(
         ),
     ] = False,
     force: ForceOpt = False,
+    quiet: QuietOpt = False,
 ) -> None:
     from leakbudget import api
 
@@ -274,9 +281,9 @@ def split(
     if as_json:
         print_json(job.document())
     elif job.applied is not None:
-        render_applied(job)
+        render_applied(job, quiet)
     else:
-        render_split(job)
+        render_split(job, quiet)
     raise typer.Exit(0 if job.plan.feasible and (job.applied is None or job.applied.all_ok) else 1)
 
 
@@ -318,6 +325,7 @@ def report(
             "--all-circuits", help="A detail page (chart and load table) for every circuit, not only those not ok."
         ),
     ] = False,
+    quiet: QuietOpt = False,
 ) -> None:
     """Write a hand-over report: a one-page summary, then job, cautions, settings, tables with sources, a chart and
     load table per circuit that is not ok (every circuit with --all-circuits), findings.
@@ -344,7 +352,7 @@ def report(
         f"{rv.count(Severity.WARNING)} warning(s), {rv.count(Severity.INFO)} info.",
         highlight=False,
     )
-    if job.plan is not None:
+    if job.plan is not None and not quiet:
         from leakbudget.output.split import summary
 
         out_console.print(f"Split plan: {summary(job.plan)}", highlight=False)
@@ -365,6 +373,7 @@ def demo(
             "flat on a dual-RCD board).",
         ),
     ] = EXAMPLES[0],
+    quiet: QuietOpt = False,
 ) -> None:
     """Copy a shipped example (an invented job) into FOLDER and check it there."""
     from leakbudget import api
@@ -385,8 +394,9 @@ def demo(
     dest = api.copy_example(folder, f"{example}.xlsx")
     out_console.print(f"Copied the example workbook to {dest}.", highlight=False)
     job = api.check(dest, write=True)
-    render_check(job)
-    out_console.print(f"Open {dest} to see the 'Circuit results' and 'Load results' sheets.", highlight=False)
+    render_check(job, quiet)
+    if not quiet:
+        out_console.print(f"Open {dest} to see the 'Circuit results' and 'Load results' sheets.", highlight=False)
 
 
 @app.command()

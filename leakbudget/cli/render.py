@@ -241,11 +241,40 @@ def render_board(result: Any, wide: bool) -> None:
             )
 
 
-def render_check(job: Any) -> None:
+def _counts(statuses: list[str]) -> str:
+    """'11 ok, 2 marginal, 1 over-budget': how many of each status, in the order of severity."""
+    order = ("ok", "marginal", "over-budget", "trip-risk", "unprotected")
+    return ", ".join(f"{statuses.count(s)} {s}" for s in order if statuses.count(s))
+
+
+def _written_lines(written: Any) -> None:
+    if written is not None:
+        out_console.print(
+            f"Results written to {written.path} (sheets: {', '.join(written.replaced + written.added)}).",
+            highlight=False,
+        )
+        if written.backup is not None:
+            out_console.print(f"Previous version kept as {written.backup}.", highlight=False)
+
+
+def render_check(job: Any, quiet: bool = False) -> None:
     from leakbudget.output.check import circuit_dict
 
     result = job.result
     project = result.project
+    if quiet:
+        devices = [d.status.value for d in result.devices]
+        out_console.print(
+            f"{project.path.name}: {len(result.circuits)} circuit(s) ({_counts([c.status.value for c in result.circuits]) or 'none'})"
+            + (f", {len(devices)} shared device(s) ({_counts(devices)})" if devices else "")
+            + f"; {'every one within its budget' if result.all_ok else 'not all within budget: see `leakbudget check` without --quiet'}.",
+            highlight=False,
+        )
+        for line in project.warnings:
+            err_console.print(f"[yellow]Warning:[/] {line}", highlight=False)
+        _written_lines(job.written)
+        caution()
+        return
     gate = "phasor" if project.settings.sum_rule == "phasor" else "arithmetic"
     wide = out_console.width >= 110
     table = Table(
@@ -308,9 +337,12 @@ def render_check(job: Any) -> None:
         f"catalogue basis: {s.basis}.",
         highlight=False,
     )
-    if result.risk is not None:
-        for line in result.risk.method:
-            out_console.print(f"Trip likelihood: {line}", highlight=False)
+    if result.risk is not None and result.risk.method:
+        out_console.print(
+            f"Trip likelihood: {result.risk.method[0]} The model and its sources are written in full in the "
+            "'Circuit results' sheet, the report and README 'How the likelihood is computed'.",
+            highlight=False,
+        )
     for r in result.loads:
         if r.measured_on:
             out_console.print(
@@ -369,13 +401,7 @@ def render_check(job: Any) -> None:
         )
     else:
         out_console.print("Every protected circuit is within its budget.")
-    if job.written is not None:
-        out_console.print(
-            f"Results written to {job.written.path} (sheets: {', '.join(job.written.replaced + job.written.added)}).",
-            highlight=False,
-        )
-        if job.written.backup is not None:
-            out_console.print(f"Previous version kept as {job.written.backup}.", highlight=False)
+    _written_lines(job.written)
     caution()
 
 
@@ -385,11 +411,20 @@ SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
 TERMINAL_FINDINGS = 40
 
 
-def render_review(job: Any) -> None:
+def render_review(job: Any, quiet: bool = False) -> None:
     from leakbudget.compliance.rules import Severity
 
     rv = job.review
     project = rv.check.project
+    if quiet:
+        out_console.print(
+            f"Review of {project.path.name} against {rv.label}: {rv.count(Severity.ERROR)} error(s), "
+            f"{rv.count(Severity.WARNING)} warning(s), {rv.count(Severity.INFO)} info.",
+            highlight=False,
+        )
+        report_written(job.written, f"Findings written to {{path}} (sheet '{REVIEW_FINDINGS}').")
+        caution()
+        return
     out_console.print(f"Review of {project.path.name} against {rv.label}.", highlight=False)
     out_console.print(f"Code: {rv.code_source}.", highlight=False)
     shown = rv.findings[:TERMINAL_FINDINGS]  # the review sorts them most severe first, then in circuit order
@@ -427,12 +462,20 @@ def render_review(job: Any) -> None:
     caution()
 
 
-def render_split(job: Any) -> None:
+def render_split(job: Any, quiet: bool = False) -> None:
     from leakbudget.output.split import circuits_list, likelihood_line, summary
 
     plan = job.plan
     project = plan.before.project
     out_console.print(f"Split plan for {project.path.name}: {summary(plan)}", highlight=False)
+    if quiet:
+        if plan.blockers:
+            out_console.print(f"{len(plan.blockers)} problem(s) no plan can fix; see them without --quiet.")
+        if plan.current_warnings:
+            out_console.print(f"Current warnings on {', '.join(plan.current_warnings)}.", highlight=False)
+        report_written(job.written, f"Plan written to {{path}} (sheet '{SPLIT_PLAN}').")
+        caution()
+        return
     changed = [a for a in plan.assignments if a.moved or a.placed]
     if changed:
         moves = Table(title="Moves", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False, padding=(0, 1, 0, 0))
@@ -531,7 +574,7 @@ def render_split(job: Any) -> None:
     caution()
 
 
-def render_applied(job: Any) -> None:
+def render_applied(job: Any, quiet: bool = False) -> None:
     """``split --apply``: the plan in one line, the rows written into the copy, the check of the copy, and that the
     source was not changed."""
     from leakbudget.output.split import summary
@@ -540,6 +583,10 @@ def render_applied(job: Any) -> None:
     cells, result = applied.cells, applied.check.result
     name = applied.path.name
     out_console.print(f"Split plan for {applied.source.name}: {summary(plan)}", highlight=False)
+    if quiet:
+        render_check(applied.check, quiet=True)
+        out_console.print(f"{applied.source.name} was not changed: --apply writes only the new file.", highlight=False)
+        return
     changed = [a for a in plan.assignments if a.load.row in cells.load_cells]
     if changed:
         column = cells.load_cells[changed[0].load.row].column
