@@ -93,6 +93,13 @@ class CheckJob:
         """The document ``leakbudget check --json`` prints."""
         return self._document
 
+    def document_chunks(self) -> Iterator[str]:
+        """The text of :meth:`document` as ``json.dumps(..., indent=2, ensure_ascii=False)`` gives it, a piece at a
+        time, without building the loads' records all at once (what ``check --json`` prints)."""
+        from leakbudget.output.check import json_chunks
+
+        return json_chunks(self.result, _with_written({}, self.written))
+
     def circuits_frame(self) -> pd.DataFrame:
         """One row per circuit: the ``circuits`` records of :meth:`document`."""
         return _frame(self._document["circuits"])

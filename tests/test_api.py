@@ -84,3 +84,17 @@ def test_documents_and_frames_equal_what_the_command_prints(tmp_path, monkeypatc
 def test_read_project_gives_the_workbook_as_a_project():
     project = leakbudget.read_project(example_path())
     assert {c.circuit_id for c in project.circuits} >= {"K-CTR1", "O-DESK"}
+
+
+def test_the_streamed_check_document_is_the_document(tmp_path) -> None:
+    # the streamed text (check --json) must be exactly what json.dumps (the standard library) gives for document()
+    import json
+
+    from tests.conftest import basic_sheets, write_workbook
+
+    for sheets in (basic_sheets(), {**basic_sheets(), "Loads": basic_sheets()["Loads"][:1]}):
+        path = write_workbook(tmp_path / "plan.xlsx", sheets)
+        job = leakbudget.check(path)
+        streamed = "".join(job.document_chunks())
+        assert streamed == json.dumps(job.document(), indent=2, ensure_ascii=False, allow_nan=False)
+        assert json.loads(streamed) == job.document()

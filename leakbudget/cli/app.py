@@ -16,6 +16,7 @@ from leakbudget.cli.render import (
     err_console,
     out_console,
     print_json,
+    print_json_chunks,
     progress_bar,
     render_applied,
     render_check,
@@ -102,7 +103,7 @@ def check(
     with progress_bar(as_json) as progress:
         job = api.check(path, write=not no_write, out=None if no_write else out, progress=progress, force=force)
     if as_json:
-        print_json(job.document())
+        print_json_chunks(job.document_chunks())
     else:
         render_check(job, quiet)
     raise typer.Exit(0 if job.result.all_ok else 1)

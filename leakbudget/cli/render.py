@@ -54,6 +54,13 @@ def print_json(doc: Any) -> None:
     sys.stdout.write(json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n")
 
 
+def print_json_chunks(chunks: Any) -> None:
+    """A JSON document made a piece at a time (the same text :func:`print_json` prints for it)."""
+    for chunk in chunks:
+        sys.stdout.write(chunk)
+    sys.stdout.write("\n")
+
+
 def with_written(doc: dict[str, Any], written: Any) -> dict[str, Any]:
     """Add where the results were written (and the backup kept) to a command's JSON document."""
     doc["written_to"] = str(written.path) if written else None

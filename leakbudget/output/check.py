@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import cmath
 import math
+from collections.abc import Iterator
 from typing import Any
 
 from leakbudget.about import CAUTION, __version__
@@ -199,8 +200,9 @@ def settings_dict(result: CheckResult) -> dict[str, Any]:
     return {name: {"value": s.values[name], "source": str(s.sources[name])} for name in s.values}
 
 
-def to_json(result: CheckResult) -> dict[str, Any]:
-    """The document ``leakbudget check --json`` prints."""
+def to_json(result: CheckResult, with_loads: bool = True) -> dict[str, Any]:
+    """The document ``leakbudget check --json`` prints (``with_loads=False``: its ``loads`` list left empty, for
+    :func:`json_chunks`)."""
     project = result.project
     return {
         "tool": f"leakbudget {__version__}",
@@ -216,10 +218,27 @@ def to_json(result: CheckResult) -> dict[str, Any]:
             {**circuit_dict(c), **tree_keys(c)} if project.protection else circuit_dict(c) for c in result.circuits
         ],
         "devices": [device_dict(d) for d in result.devices],
-        "loads": [load_dict(r) for r in result.loads],
+        "loads": [load_dict(r) for r in result.loads] if with_loads else [],
         "risk": risk_summary(result),
         "readings": readings_list(result),
     }
+
+
+def json_chunks(result: CheckResult, extra: dict[str, Any]) -> Iterator[str]:
+    """The text of ``json.dumps(to_json(result) | extra, indent=2, ensure_ascii=False)``, made a piece at a time:
+    the loads (the bulk of a big workbook's document) are turned into text one by one, never held as dicts all at
+    once, so ``check --json`` needs little more memory than the check itself."""
+    import json
+    import textwrap
+
+    doc = {**to_json(result, with_loads=False), **extra}
+    text = json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False)
+    head, tail = text.split('\n  "loads": []', 1)
+    yield head + '\n  "loads": ['
+    for i, r in enumerate(result.loads):
+        item = json.dumps(load_dict(r), indent=2, ensure_ascii=False, allow_nan=False)
+        yield ("," if i else "") + "\n" + textwrap.indent(item, "    ")
+    yield ("\n  ]" if result.loads else "]") + tail
 
 
 def risk_summary(result: CheckResult) -> dict[str, Any] | None:
