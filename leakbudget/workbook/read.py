@@ -38,6 +38,7 @@ from leakbudget.input.units import UnitProblem
 from leakbudget.leakage import LEG_ANGLES_DEG, SYSTEMS, capacitive_current_ma, parse_leg, resistive_current_ma
 from leakbudget.locations import rows_from_table
 from leakbudget.model import CONNECTION_WORDS, PHASES, PURPOSES, Circuit, Load, Project, SharedDevice
+from leakbudget.ods.guard import GuardedOds
 from leakbudget.progress import Progress
 from leakbudget.provenance import Source
 from leakbudget.settings import (
@@ -50,15 +51,17 @@ from leakbudget.settings import (
 from leakbudget.workbook.readings import read_readings
 from leakbudget.xlsx.guard import CellNote, GuardedPackage
 
-WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
+WORKBOOK_SUFFIXES = (".xlsx", ".xlsm", ".ods")
+ODS_SUFFIX = ".ods"
 RCD_TYPES = ("AC", "A", "F", "B")
 
 
 def open_grids(path: Path) -> SheetGrids:
     """The workbook's sheets by name as typed; each is checked and read only when first asked for.
 
-    Before python-calamine opens the file, :class:`~leakbudget.xlsx.guard.GuardedPackage` says what the file
-    is when it is not an .xlsx package and applies the size limits; see :mod:`leakbudget.xlsx.guard`.
+    Before python-calamine opens the file, :class:`~leakbudget.xlsx.guard.GuardedPackage` (for an .ods,
+    :class:`~leakbudget.ods.guard.GuardedOds`) says what the file is when it is not such a package and applies the
+    size limits; see :mod:`leakbudget.xlsx.guard` and :mod:`leakbudget.ods.guard`.
     """
     import python_calamine
 
@@ -68,11 +71,12 @@ def open_grids(path: Path) -> SheetGrids:
         raise WorkbookError("this is a folder, not a workbook", path=path, hint="give the path of an .xlsx file")
     if path.suffix.lower() not in WORKBOOK_SUFFIXES:
         raise WorkbookError(
-            f"leakbudget reads .xlsx workbooks, not '{path.suffix or 'no extension'}' files",
+            f"leakbudget reads .xlsx and .ods workbooks, not '{path.suffix or 'no extension'}' files",
             path=path,
-            hint="save it as an Excel 2007+ workbook (.xlsx) from your spreadsheet program",
+            hint="save it as an Excel 2007+ workbook (.xlsx) or an OpenDocument spreadsheet (.ods) from your "
+            "spreadsheet program",
         )
-    package = GuardedPackage(path)
+    package = GuardedOds(path) if path.suffix.lower() == ODS_SUFFIX else GuardedPackage(path)
     try:
         book = python_calamine.CalamineWorkbook.from_path(str(path))
         names = list(book.sheet_names)
@@ -110,7 +114,7 @@ class SheetGrid:
 class SheetGrids(Mapping[str, SheetGrid]):
     """The sheets of one workbook by name; a sheet is checked and read when first asked for, and only then."""
 
-    def __init__(self, path: Path, package: GuardedPackage, book: Any, names: list[str]) -> None:
+    def __init__(self, path: Path, package: GuardedPackage | GuardedOds, book: Any, names: list[str]) -> None:
         self.path, self.package, self.book, self.names = path, package, book, names
         self._read: dict[str, SheetGrid] = {}
 
@@ -128,7 +132,7 @@ class SheetGrids(Mapping[str, SheetGrid]):
             try:
                 sheet = self.book.get_sheet_by_name(name)
                 cells = sheet.to_python(skip_empty_area=False)
-                merged = list(sheet.merged_cell_ranges or [])
+                merged = list(sheet.merged_cell_ranges or scan.merged)  # calamine lists none for an .ods
             except BaseException as exc:
                 raise _unreadable_workbook(exc, self.path, name) from None
             self._read[name] = SheetGrid(
