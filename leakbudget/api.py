@@ -27,11 +27,11 @@ from typing import TYPE_CHECKING, Any
 
 from leakbudget.checking import CheckResult
 from leakbudget.checking import check as check_project
-from leakbudget.errors import WorkbookError
+from leakbudget.errors import WorkbookError, WriteBackError
 from leakbudget.model import Project
 from leakbudget.progress import Progress
 from leakbudget.workbook.read import read_project
-from leakbudget.xlsx.package import WriteResult
+from leakbudget.xlsx.package import SheetData, WriteResult
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -120,7 +120,6 @@ def check(
     written.
     """
     from leakbudget.output.check import result_sheets
-    from leakbudget.xlsx.package import write_sheets
 
     path = Path(path)
     writing = _writes(write, out)
@@ -134,6 +133,26 @@ def check(
             progress("Estimating", 1, 1)
         written = write_sheets(path, sheets, _out_path(path, out), progress) if writing else None
     return CheckJob(result, written)
+
+
+def write_sheets(
+    path: Path, sheets: Sequence[SheetData], out: Path | None, progress: Progress | None = None
+) -> WriteResult:
+    """Write result sheets with the writer of the workbook's kind: :func:`leakbudget.ods.package.write_ods` for
+    an .ods, :func:`leakbudget.xlsx.package.write_sheets` otherwise."""
+    ods = path.suffix.lower() == ".ods"
+    if out is not None and (out.suffix.lower() == ".ods") != ods:
+        raise WriteBackError(
+            f"{out}: the results of {path.name} are written in its own format; give --out a name ending in "
+            f"{path.suffix.lower()}."
+        )
+    if ods:
+        from leakbudget.ods.package import write_ods
+
+        return write_ods(path, sheets, out, progress)
+    from leakbudget.xlsx.package import write_sheets as write_xlsx
+
+    return write_xlsx(path, sheets, out, progress)
 
 
 def _read_for_writing(path: Path, out: str | Path | None, write: bool, progress: Progress | None = None) -> Project:
@@ -190,7 +209,6 @@ def review(
     ``out``."""
     from leakbudget.compliance.rules import review as review_project
     from leakbudget.output.review import findings_sheet
-    from leakbudget.xlsx.package import write_sheets
 
     path = Path(path)
     writing = _writes(write, out)
@@ -247,7 +265,6 @@ def split(
     from leakbudget.output.split import split_sheet
     from leakbudget.planner.plan import SplitOptions
     from leakbudget.planner.split import plan_split
-    from leakbudget.xlsx.package import write_sheets
 
     path = Path(path)
     writing = _writes(write, out)
