@@ -237,6 +237,11 @@ def _encrypted_manifest(path: Path) -> None:
             zout.writestr(info, edit(data))
 
 
+def _utf16(data: bytes) -> bytes:
+    """content.xml re-encoded as UTF-16 (python-calamine then finds no sheet at all)."""
+    return data.replace(b'encoding="UTF-8"', b'encoding="UTF-16"', 1).decode("utf-8").encode("utf-16")
+
+
 def _zip_with(path: Path, names: dict[str, bytes]) -> None:
     with zipfile.ZipFile(DATA / "alder-quay.ods") as zin, zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED) as zout:
         for info in zin.infolist():
@@ -304,6 +309,11 @@ BAD_ODS = [
             )
         ),
         "its part content.xml is damaged",
+    ),
+    (
+        "utf-16",
+        lambda p: with_content(DATA / "alder-quay.ods", p, _utf16),
+        "its part content.xml is damaged (it is not UTF-8 encoded)",
     ),
 ]
 
@@ -792,3 +802,49 @@ def test_results_written_into_an_xlsx_then_saved_as_ods_are_replaced(tmp_path: P
     assert job.written is not None and set(job.written.replaced) == ours and job.written.added == ()
     assert user_tables(ods, ours) == tables_before
     assert len(CalamineWorkbook.from_path(str(ods)).sheet_names) == 8
+
+
+@pytest.mark.slow
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(seed=st.integers(0, 2**32 - 1), damages=st.integers(1, 3))
+def test_random_damage_to_content_xml_gets_exit_0_1_or_2_and_keeps_the_input(
+    tmp_path: Path, seed: int, damages: int
+) -> None:
+    """content.xml of LibreOffice's demo .ods damaged at random (bytes flipped, cut, duplicated; a tag repeated):
+    `check --out` exits 0, 1 or 2, prints no traceback, one sentence naming the file on 2, leaves the input as it
+    was, and on 0 or 1 keeps every table of the input byte for byte in the output."""
+    import random
+
+    rng = random.Random(seed)
+
+    def damage(data: bytes) -> bytes:
+        for _ in range(damages):
+            at = rng.randrange(len(data))
+            kind = rng.randrange(4)
+            if kind == 0:
+                data = data[:at] + bytes([rng.randrange(256)]) + data[at + 1 :]
+            elif kind == 1:
+                data = data[:at]
+            elif kind == 2:
+                data = data[:at] + data[at : at + rng.randrange(1, 400)] + data[at:]
+            else:
+                tag = data.find(b"<table:table-cell", at)
+                end = data.find(b">", tag) + 1
+                data = data[:end] + data[tag:end] * rng.randrange(1, 4) + data[end:] if tag >= 0 else data
+        return data
+
+    import tempfile
+
+    folder = Path(tempfile.mkdtemp(prefix=f"case-{seed}-{damages}-", dir=tmp_path))
+    path = with_content(DATA / "alder-quay.ods", folder / "plan.ods", damage)
+    before = path.read_bytes()
+    result = CliRunner().invoke(app, ["check", str(path), "--out", str(folder / "out.ods")])
+    assert result.exit_code in (0, 1, 2), result.output
+    assert "Traceback" not in result.output and not isinstance(result.exception, (TypeError, KeyError, IndexError))
+    assert path.read_bytes() == before
+    if result.exit_code == 2:  # one sentence (a damaged cell's text may hold a line break), naming the file
+        errors = [line for line in result.output.splitlines() if line.startswith("Error: ")]
+        assert len(errors) == 1 and errors[0].startswith("Error: plan.ods"), result.output
+    else:
+        ours = {"Circuit results", "Load results", "Reading results"}
+        assert user_tables(folder / "out.ods", ours) == user_tables(path, ours)

@@ -27,21 +27,11 @@ from xml.parsers import expat
 import defusedxml
 import defusedxml.ElementTree as DET
 
+from leakbudget.ods.scan import check_utf8
 from leakbudget.xlsx.xml_text import BadXmlError, UnsafeXmlError
 
 MARKER_CREATOR = "leakbudget"
 MARKER_START = "Written by leakbudget"
-# Children of <office:spreadsheet> that follow the tables (ODF 1.2 Part 1 §9.1.2, the element's content model).
-AFTER_TABLES = frozenset(
-    {
-        "table:named-expressions",
-        "table:database-ranges",
-        "table:data-pilot-tables",
-        "table:consolidation",
-        "table:dde-links",
-    }
-)
-
 _START_TAG = re.compile(rb'<[^\s/>]+(?:\s+[^\s=/>]+\s*=\s*(?:"[^"]*"|\'[^\']*\'))*\s*(/?)>')
 
 
@@ -78,11 +68,12 @@ class Layout:
     spreadsheet: Element | None
     tables: list[Table]
     styles: list[Element]  # children of <office:automatic-styles> (style:name in attrs)
-    after_tables: list[Element]  # children of <office:spreadsheet> that must follow the tables
 
 
 def root_namespaces(data: bytes) -> dict[str, str]:
-    """The namespace declarations on the root element; refuses a DTD (defusedxml), reads no further."""
+    """The namespace declarations on the root element; refuses a DTD (defusedxml) and a part not in UTF-8, reads
+    no further."""
+    check_utf8(data[:512])
     declared: dict[str, str] = {}
     try:
         for event, item in DET.iterparse(_Bytes(data), events=("start-ns", "start"), forbid_dtd=True):
@@ -121,7 +112,6 @@ def layout(data: bytes) -> Layout:
     found: dict[str, Element] = {}
     tables: list[Table] = []
     styles: list[Element] = []
-    after: list[Element] = []
     first_row = _FirstRow()
 
     def refuse(*_args: object) -> None:
@@ -155,8 +145,6 @@ def layout(data: bytes) -> Layout:
         elif depth == 3 and parent == "office:spreadsheet" and name == "table:table":
             tables.append(Table(element, attrs.get("table:name", "")))
             first_row.begin()
-        elif depth == 3 and parent == "office:spreadsheet" and name in AFTER_TABLES:
-            after.append(element)
         stack.append(element)
         if depth == 3 or (depth == 2 and name != "office:spreadsheet"):
             deep = 1  # what is inside a table or a style is not recorded
@@ -195,7 +183,6 @@ def layout(data: bytes) -> Layout:
         found.get("office:spreadsheet"),
         tables,
         styles,
-        after,
     )
 
 

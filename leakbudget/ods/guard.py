@@ -34,6 +34,7 @@ from leakbudget.ods.scan import (
     CellLimitReached,
     ListLimitReached,
     TableScan,
+    check_utf8,
     fast_scan,
     parsed_scan,
 )
@@ -246,6 +247,8 @@ class GuardedOds:
         """Refuse a DTD before the root element, and namespace prefixes calamine would not follow."""
         declared: dict[str, str] = {}
         try:
+            with self.archive.open(info) as stream:
+                check_utf8(stream.read(512))
             with self.archive.open(info) as stream:
                 for event, item in DET.iterparse(stream, events=("start-ns", "start"), forbid_dtd=True):
                     if event == "start":

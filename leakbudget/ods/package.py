@@ -100,7 +100,8 @@ def _checked_entries(archive: zipfile.ZipFile, path: Path) -> dict[str, zipfile.
     if problem:
         raise _refuse(path, f"refused to open the spreadsheet because {problem}")
     entries = {info.filename: info for info in infos}
-    if MIMETYPE not in entries or archive.read(entries[MIMETYPE])[:200].strip() != ODS_MIMETYPE:
+    mimetype = entries.get(MIMETYPE)
+    if mimetype is None or mimetype.file_size > 200 or archive.read(mimetype).strip() != ODS_MIMETYPE:
         raise _refuse(path, "this is not an OpenDocument spreadsheet (its mimetype entry is missing or different)")
     if SIGNATURES in entries:
         raise _refuse(

@@ -66,6 +66,7 @@ _SAVED_RESULT = (
     "office:time-value",
     "office:boolean-value",
 )
+_ENCODING = re.compile(rb"^<\?xml[^>]*encoding\s*=\s*[\"']([A-Za-z0-9._-]+)[\"']")
 _FORMULA_NAMESPACE = re.compile(r"^[A-Za-z]+:(?==)")  # "of:" (ODF 1.2 Part 2, OpenFormula) or "oooc:"
 _REFERENCE = re.compile(r"\[\$?'?([^\]]*?)'?\]")
 
@@ -238,6 +239,14 @@ def cell_facts(attrs: Mapping[str, str], text: str | None) -> Cell:
         rows_spanned=_count(attrs, "table:number-rows-spanned"),
         columns_spanned=_count(attrs, "table:number-columns-spanned"),
     )
+
+
+def check_utf8(head: bytes) -> None:
+    """Refuse a part that is not UTF-8 (a UTF-16 byte-order mark, or another encoding declared): the scans and the
+    writer work on its bytes as UTF-8, as every ODF producer writes content.xml."""
+    match = _ENCODING.match(head.removeprefix(b"\xef\xbb\xbf"))
+    if head[:2] in (b"\xff\xfe", b"\xfe\xff") or (match and match.group(1).lower() not in (b"utf-8", b"utf8")):
+        raise BadXmlError("it is not UTF-8 encoded")
 
 
 # --------------------------------------------------------------------------------------------- the fast path

@@ -95,9 +95,10 @@ def _unreadable_workbook(exc: BaseException, path: Path, sheet: str | None = Non
         return exc
     text = str(exc).strip()
     detail = f"{type(exc).__name__}: {text.splitlines()[0][:160]}" if text else type(exc).__name__
-    what = f"sheet '{sheet}' is damaged and cannot be read" if sheet else "this is not a readable .xlsx workbook"
+    kind = ".ods" if path.suffix.lower() == ODS_SUFFIX else ".xlsx"
+    what = f"sheet '{sheet}' is damaged and cannot be read" if sheet else f"this is not a readable {kind} workbook"
     return WorkbookError(
-        f"{what} ({detail})", path=path, hint="open it in your spreadsheet program and save it again as .xlsx"
+        f"{what} ({detail})", path=path, hint=f"open it in your spreadsheet program and save it again as {kind}"
     )
 
 
