@@ -33,7 +33,7 @@ from leakbudget.errors import WorkbookError, WriteBackError
 from leakbudget.model import Project
 from leakbudget.progress import Progress
 from leakbudget.workbook.read import read_project
-from leakbudget.xlsx.package import WriteResult
+from leakbudget.xlsx.package import SheetData, WriteResult
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -146,7 +146,6 @@ def check(
     written.
     """
     from leakbudget.output.check import result_sheets
-    from leakbudget.xlsx.package import write_sheets
 
     path = Path(path)
     writing = _writes(write, out)
@@ -160,6 +159,30 @@ def check(
             progress("Estimating", 1, 1)
         written = write_sheets(path, sheets, _out_path(path, out), progress, force) if writing else None
     return CheckJob(result, written)
+
+
+def write_sheets(
+    path: Path,
+    sheets: Sequence[SheetData],
+    out: Path | None,
+    progress: Progress | None = None,
+    force: bool = False,
+) -> WriteResult:
+    """Write result sheets with the writer of the workbook's kind: :func:`leakbudget.ods.package.write_ods` for
+    an .ods, :func:`leakbudget.xlsx.package.write_sheets` otherwise."""
+    ods = path.suffix.lower() == ".ods"
+    if out is not None and (out.suffix.lower() == ".ods") != ods:
+        raise WriteBackError(
+            f"{out}: the results of {path.name} are written in its own format; give --out a name ending in "
+            f"{path.suffix.lower()}."
+        )
+    if ods:
+        from leakbudget.ods.package import write_ods
+
+        return write_ods(path, sheets, out, progress, force)
+    from leakbudget.xlsx.package import write_sheets as write_xlsx
+
+    return write_xlsx(path, sheets, out, progress, force)
 
 
 def _read_for_writing(
@@ -233,7 +256,6 @@ def review(
     ``out``."""
     from leakbudget.compliance.rules import review as review_project
     from leakbudget.output.review import findings_sheet
-    from leakbudget.xlsx.package import write_sheets
 
     path = Path(path)
     writing = _writes(write, out)
@@ -306,7 +328,6 @@ def split(
     from leakbudget.output.split import split_sheet
     from leakbudget.planner.plan import SplitOptions
     from leakbudget.planner.split import plan_split
-    from leakbudget.xlsx.package import write_sheets
 
     path = Path(path)
     writing = _writes(write, out)
@@ -349,6 +370,11 @@ class AppliedCopy:
 
 def refuse_apply_target(source: Path, out: Path) -> None:
     """A planned copy goes into a new file of the same kind as ``source``, never into ``source`` itself."""
+    if source.suffix.lower() == ".ods":
+        raise WriteBackError(
+            f"{source.name}: --apply writes the plan into .xlsx workbooks only; save a copy as .xlsx in your "
+            "spreadsheet program and apply the plan to that, or move the loads in the .ods yourself."
+        )
     from leakbudget.xlsx.files import same_file
 
     suggestion = f"{source.stem}-planned{source.suffix}"

@@ -299,7 +299,11 @@ BAD_INPUTS: list[BadInput] = [
         copied("legacy.xls", "plan.xlsx"),
         "plan.xlsx: this is an Excel 97-2003 workbook (.xls), not an .xlsx workbook",
     ),
-    BadInput("xls-suffix", copied("legacy.xls", "plan.xls"), "plan.xls: leakbudget reads .xlsx workbooks, not '.xls'"),
+    BadInput(
+        "xls-suffix",
+        copied("legacy.xls", "plan.xls"),
+        "plan.xls: leakbudget reads .xlsx and .ods workbooks, not '.xls'",
+    ),
     BadInput("ods-renamed", file_with(ods_file), "plan.xlsx: this is an OpenDocument spreadsheet (.ods)"),
     BadInput(
         "word-renamed",

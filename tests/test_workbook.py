@@ -194,7 +194,7 @@ def test_not_a_workbook(tmp_path):
 def test_wrong_extension(tmp_path):
     p = tmp_path / "plan.csv"
     p.write_text("a,b")
-    with pytest.raises(WorkbookError, match="reads .xlsx workbooks"):
+    with pytest.raises(WorkbookError, match="reads .xlsx and .ods workbooks"):
         read_project(p)
 
 

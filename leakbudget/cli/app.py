@@ -65,7 +65,7 @@ app = typer.Typer(
 )
 
 
-PathArg = Annotated[Path, typer.Argument(help="The workbook (.xlsx).", show_default=False, metavar="PATH")]
+PathArg = Annotated[Path, typer.Argument(help="The workbook (.xlsx or .ods).", show_default=False, metavar="PATH")]
 OutOpt = Annotated[
     Path | None,
     typer.Option("--out", "-o", help="Write the results into this new file and leave PATH untouched."),

@@ -45,6 +45,7 @@ from leakbudget.input.units import UnitProblem
 from leakbudget.leakage import LEG_ANGLES_DEG, SYSTEMS, capacitive_current_ma, parse_leg, resistive_current_ma
 from leakbudget.locations import LocationRow, rows_from_table
 from leakbudget.model import CONNECTION_WORDS, PHASES, PURPOSES, Circuit, Load, Project, SharedDevice
+from leakbudget.ods.guard import GuardedOds
 from leakbudget.progress import Progress
 from leakbudget.provenance import Source
 from leakbudget.settings import (
@@ -57,7 +58,8 @@ from leakbudget.settings import (
 from leakbudget.workbook.readings import read_readings
 from leakbudget.xlsx.guard import CellNote, GuardedPackage
 
-WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
+WORKBOOK_SUFFIXES = (".xlsx", ".xlsm", ".ods")
+ODS_SUFFIX = ".ods"
 RCD_TYPES = ("AC", "A", "F", "B")
 TYPED_SUPPLY = Source.measured("Circuits sheet (your value)")  # a circuit whose Voltage and Frequency are typed
 
@@ -65,8 +67,9 @@ TYPED_SUPPLY = Source.measured("Circuits sheet (your value)")  # a circuit whose
 def open_grids(path: Path) -> SheetGrids:
     """The workbook's sheets by name as typed; each is checked and read only when first asked for.
 
-    Before python-calamine opens the file, :class:`~leakbudget.xlsx.guard.GuardedPackage` says what the file
-    is when it is not an .xlsx package and applies the size limits; see :mod:`leakbudget.xlsx.guard`.
+    Before python-calamine opens the file, :class:`~leakbudget.xlsx.guard.GuardedPackage` (for an .ods,
+    :class:`~leakbudget.ods.guard.GuardedOds`) says what the file is when it is not such a package and applies the
+    size limits; see :mod:`leakbudget.xlsx.guard` and :mod:`leakbudget.ods.guard`.
     """
     import python_calamine
 
@@ -76,13 +79,16 @@ def open_grids(path: Path) -> SheetGrids:
         raise WorkbookError("this is a folder, not a workbook", path=path, hint="give the path of an .xlsx file")
     if path.suffix.lower() not in WORKBOOK_SUFFIXES:
         raise WorkbookError(
-            f"leakbudget reads .xlsx workbooks, not '{path.suffix or 'no extension'}' files",
+            f"leakbudget reads .xlsx and .ods workbooks, not '{path.suffix or 'no extension'}' files",
             path=path,
-            hint="save it as an Excel 2007+ workbook (.xlsx) from your spreadsheet program",
+            hint="save it as an Excel 2007+ workbook (.xlsx) or an OpenDocument spreadsheet (.ods) from your "
+            "spreadsheet program",
         )
-    package = GuardedPackage(path)
+    package = GuardedOds(path) if path.suffix.lower() == ODS_SUFFIX else GuardedPackage(path)
     try:
-        if package.encoded_targets:  # calamine looks parts up by the literal target: give it decoded targets
+        if (
+            isinstance(package, GuardedPackage) and package.encoded_targets
+        ):  # calamine looks parts up by the literal target: give it decoded targets
             import io
 
             book = python_calamine.CalamineWorkbook.from_filelike(io.BytesIO(package.decoded_copy()))
@@ -104,9 +110,10 @@ def _unreadable_workbook(exc: BaseException, path: Path, sheet: str | None = Non
         return exc
     text = str(exc).strip()
     detail = f"{type(exc).__name__}: {text.splitlines()[0][:160]}" if text else type(exc).__name__
-    what = f"sheet '{sheet}' is damaged and cannot be read" if sheet else "this is not a readable .xlsx workbook"
+    kind = ".ods" if path.suffix.lower() == ODS_SUFFIX else ".xlsx"
+    what = f"sheet '{sheet}' is damaged and cannot be read" if sheet else f"this is not a readable {kind} workbook"
     return WorkbookError(
-        f"{what} ({detail})", path=path, hint="open it in your spreadsheet program and save it again as .xlsx"
+        f"{what} ({detail})", path=path, hint=f"open it in your spreadsheet program and save it again as {kind}"
     )
 
 
@@ -123,7 +130,7 @@ class SheetGrid:
 class SheetGrids(Mapping[str, SheetGrid]):
     """The sheets of one workbook by name; a sheet is checked and read when first asked for, and only then."""
 
-    def __init__(self, path: Path, package: GuardedPackage, book: Any, names: list[str]) -> None:
+    def __init__(self, path: Path, package: GuardedPackage | GuardedOds, book: Any, names: list[str]) -> None:
         self.path, self.package, self.book, self.names = path, package, book, names
         self._read: dict[str, SheetGrid] = {}
 
@@ -141,7 +148,7 @@ class SheetGrids(Mapping[str, SheetGrid]):
             try:
                 sheet = self.book.get_sheet_by_name(name)
                 cells = sheet.to_python(skip_empty_area=False)
-                merged = list(sheet.merged_cell_ranges or [])
+                merged = list(sheet.merged_cell_ranges or scan.merged)  # calamine lists none for an .ods
             except BaseException as exc:
                 raise _unreadable_workbook(exc, self.path, name) from None
             self._read[name] = SheetGrid(

@@ -139,8 +139,9 @@ def _size(n_bytes: int) -> str:
 # --------------------------------------------------------------------------------------------- what the file is
 
 
-def identify(path: Path) -> None:
-    """Raise :class:`WorkbookError` saying what ``path`` is when it is not a zip package (so not an .xlsx)."""
+def identify(path: Path, expected: str = "an .xlsx workbook", resave: str = RESAVE) -> None:
+    """Raise :class:`WorkbookError` saying what ``path`` is when it is not a zip package (so not ``expected``:
+    an .xlsx workbook, or an OpenDocument spreadsheet for :mod:`leakbudget.ods.guard`); ``resave`` is the hint."""
     with open(path, "rb") as handle:
         head = handle.read(4096)
     if not head:
@@ -152,14 +153,14 @@ def identify(path: Path) -> None:
     if head.startswith(ZIP_SIGNATURES):
         return
     if head.startswith(CFB_SIGNATURE):
-        raise _compound_file_error(path)
+        raise _compound_file_error(path, expected, resave)
     kind = _text_kind(head)
     if kind is not None:
-        raise WorkbookError(f"this is a text file ({kind}), not an .xlsx workbook", path=path, hint=RESAVE)
-    raise WorkbookError("this is not an .xlsx workbook (it does not start like a zip package)", path=path, hint=RESAVE)
+        raise WorkbookError(f"this is a text file ({kind}), not {expected}", path=path, hint=resave)
+    raise WorkbookError(f"this is not {expected} (it does not start like a zip package)", path=path, hint=resave)
 
 
-def _compound_file_error(path: Path) -> WorkbookError:
+def _compound_file_error(path: Path, expected: str, resave: str) -> WorkbookError:
     with open(path, "rb") as handle, mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ) as data:
         if data.find(ENCRYPTED_PACKAGE_STREAM) >= 0:
             return WorkbookError(
@@ -170,11 +171,11 @@ def _compound_file_error(path: Path) -> WorkbookError:
             )
         if any(data.find(name) >= 0 for name in XLS_STREAMS):
             return WorkbookError(
-                "this is an Excel 97-2003 workbook (.xls), not an .xlsx workbook",
+                f"this is an Excel 97-2003 workbook (.xls), not {expected}",
                 path=path,
-                hint=RESAVE + " (it will ask for the password if the file has one)",
+                hint=resave + " (it will ask for the password if the file has one)",
             )
-    return WorkbookError("this is an older Office compound file, not an .xlsx workbook", path=path, hint=RESAVE)
+    return WorkbookError(f"this is an older Office compound file, not {expected}", path=path, hint=resave)
 
 
 def _text_kind(head: bytes) -> str | None:
@@ -220,6 +221,9 @@ class SheetScan:
     rows: int = 0  # 1 + the largest 0-based row of a cell with content (0 for an empty sheet)
     columns: int = 0  # 1 + the largest 0-based column of a cell with content
     notes: dict[tuple[int, int], CellNote] = field(default_factory=dict)  # (row, column) -> note
+    # merged ranges ((first row, first column), (last row, last column)), 0-based, where the reader must find them
+    # itself (calamine lists none for an .ods); empty for an .xlsx, whose merges calamine reports
+    merged: list[tuple[tuple[int, int], tuple[int, int]]] = field(default_factory=list)
 
     @property
     def cells(self) -> int:
@@ -282,7 +286,9 @@ class GuardedPackage:
     def _check_kind(self) -> None:
         if "mimetype" in self._names and self.archive.read(self._names["mimetype"]).strip() == ODS_MIMETYPE:
             raise WorkbookError(
-                "this is an OpenDocument spreadsheet (.ods), not an .xlsx workbook", path=self.path, hint=RESAVE
+                "this is an OpenDocument spreadsheet (.ods), not an .xlsx workbook",
+                path=self.path,
+                hint="rename it to end in .ods, which leakbudget reads as an OpenDocument spreadsheet",
             )
         if "xl/workbook.bin" in self._names:
             raise WorkbookError(

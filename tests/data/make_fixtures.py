@@ -13,6 +13,12 @@ Needs LibreOffice (``soffice``) and Gnumeric (``ssconvert``) on PATH.
    ``customXml/item1.xml`` part with its properties part, and an ``extLst`` element with a private extension at
    the end of the first worksheet.
 The committed fixtures are the outputs; the source workbook is made in a temporary folder and not kept.
+
+``python tests/data/make_fixtures.py ods`` makes only the OpenDocument fixtures used by tests/test_ods.py, each
+LibreOffice's own conversion (``soffice --headless --convert-to ods``, LibreOffice 7.4 when they were made):
+``libreoffice.ods`` from ``libreoffice.xlsx`` (the panel above: formulas, comments, merged cells, a chart and an
+image), and ``alder-quay.ods`` from ``alder-quay.xlsx``, a copy of the shipped demo workbook
+(``examples/alder-quay-remodel.xlsx``) kept here so that the pair stays consistent when the demo changes.
 """
 
 from __future__ import annotations
@@ -145,6 +151,34 @@ def add_extension_parts(source: Path, target: Path) -> None:
         zout.writestr("customXml/_rels/item1.xml.rels", item_rels)
 
 
+def soffice_convert(source: Path, kind: str, outdir: Path, profile: Path) -> Path:
+    """Convert ``source`` with LibreOffice (its own private profile, so no running instance interferes)."""
+    subprocess.run(
+        [
+            "soffice",
+            "--headless",
+            f"-env:UserInstallation={profile.as_uri()}",
+            "--convert-to",
+            kind,
+            "--outdir",
+            str(outdir),
+            str(source),
+        ],
+        check=True,
+        capture_output=True,
+        timeout=180,
+    )
+    return outdir / (source.stem + "." + kind.split(":")[0])
+
+
+def make_ods() -> None:
+    shutil.copyfile(HERE.parent.parent / "examples" / "alder-quay-remodel.xlsx", HERE / "alder-quay.xlsx")
+    with tempfile.TemporaryDirectory() as tmp_name:
+        tmp = Path(tmp_name)
+        for name in ("libreoffice", "alder-quay"):
+            shutil.copyfile(soffice_convert(HERE / f"{name}.xlsx", "ods", tmp, tmp / "profile"), HERE / f"{name}.ods")
+
+
 def main() -> None:
     with tempfile.TemporaryDirectory() as tmp_name:
         tmp = Path(tmp_name)
@@ -170,4 +204,9 @@ def main() -> None:
 
 
 if __name__ == "__main__":
-    main()
+    import sys
+
+    if sys.argv[1:] == ["ods"]:
+        make_ods()
+    else:
+        main()
