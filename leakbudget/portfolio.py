@@ -6,8 +6,8 @@ run the single-workbook job of :mod:`leakbudget.api` on each in its own worker p
 the one sentence saying why it could not be checked. A bad workbook never stops the others.
 
 Workers are local processes (``jobs``; default the machine's cores) or, with ``cluster``, the workers of a Dask
-distributed scheduler, which run the very same per-workbook function :func:`run_task`. The files must then be on
-storage every worker reads at the same path.
+distributed scheduler, which run the very same per-workbook function :func:`run_task` (a few workbooks to a Dask
+task, :func:`run_tasks`). The files must then be on storage every worker reads at the same path.
 
 Local processes start by ``forkserver`` where the platform has it (Linux, macOS), else ``spawn``, never by plain
 ``fork``: a forked child copies the caller's threads' locks (the progress bar's refresh thread, a notebook's or a
@@ -19,8 +19,10 @@ process start and the pickling of every result.
 
 from __future__ import annotations
 
+import math
 import os
 import stat
+import sys
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -30,7 +32,6 @@ from leakbudget.about import CAUTION, __version__
 from leakbudget.errors import LeakbudgetError, WriteBackError
 from leakbudget.output.portfolio import EXIT_OK, record, summary_row
 from leakbudget.progress import Progress
-from leakbudget.workbook.read import WORKBOOK_SUFFIXES
 from leakbudget.xlsx.files import BACKUP_MARK
 
 if TYPE_CHECKING:
@@ -59,6 +60,10 @@ WORKER_MODULES = (
 # Seconds to wait for a Dask scheduler to answer before saying it cannot be reached (modelling choice: long
 # enough for a scheduler across a network, short enough that a wrong address is told at once).
 CLUSTER_CONNECT_TIMEOUT_S = 10
+
+# Dask tasks per worker a portfolio is cut into (modelling choice): enough pieces that a worker finishing early
+# takes another while the others finish theirs, few enough that the scheduler's per-task cost stays small.
+CLUSTER_PIECES_PER_WORKER = 8
 
 NEW_FILE_MODE = 0o644  # owner writes, everyone reads (common practice), when no workbook is there to copy from
 SUMMARY_TITLE = "leakbudget portfolio summary"  # the title of a summary workbook, by which a rerun recognises it
@@ -89,6 +94,8 @@ def find_workbooks(items: Iterable[str | Path], recursive: bool = False, skip: I
     A workbook reached twice is checked once; files and folders in ``skip`` (the summary workbook, the --out-dir
     folder) are left out of folder searches. A folder holding no workbook is an error (nothing is checked).
     """
+    from leakbudget.workbook.read import WORKBOOK_SUFFIXES
+
     skipped = {os.path.normcase(Path(p).resolve()) for p in skip}
     found: list[Found] = []
     seen: set[str] = set()
@@ -222,6 +229,12 @@ def run_task(task: Task) -> WorkbookResult:
     )
 
 
+def run_tasks(tasks: list[Task]) -> list[WorkbookResult]:
+    """:func:`run_task` on each of a few workbooks: one Dask task, so that the scheduler's cost per task (a few
+    milliseconds) is paid once for several workbooks."""
+    return [run_task(task) for task in tasks]
+
+
 # ------------------------------------------------------------------------------------------------- the portfolio
 
 
@@ -348,6 +361,8 @@ def _many(
     progress: Progress | None,
     keep: Keep,
 ) -> Portfolio:
+    if cluster is None and (jobs or machine_cores()) > 1:
+        _start_fork_server()  # it imports the library while this process finds the workbooks
     items = [paths] if isinstance(paths, (str, Path)) else list(paths)
     out_folder = Path(out_dir).resolve() if out_dir is not None else None
     summary_path = Path(summary) if summary is not None else None
@@ -449,9 +464,23 @@ def _context() -> Any:
 
     if "forkserver" in multiprocessing.get_all_start_methods():
         context = multiprocessing.get_context("forkserver")
-        context.set_forkserver_preload(list(WORKER_MODULES))
+        # Each worker also runs the caller's main script again (as spawn does; the fork server's own '__main__'
+        # preload never takes effect, its main_path is not passed); the leakbudget modules the caller has
+        # already loaded (the command line's, when it is the caller) make that a lookup in the fork server's cache.
+        loaded = sorted(name for name in sys.modules if name.startswith("leakbudget."))
+        context.set_forkserver_preload(list(dict.fromkeys([*WORKER_MODULES, *loaded])))
         return context
     return multiprocessing.get_context("spawn")
+
+
+def _start_fork_server() -> None:
+    """Start the fork server now (a fresh interpreter, started as a subprocess is, so safe beside threads), so that
+    its imports overlap this process's own work; the pool then forks its workers from it."""
+    context = _context()
+    if context.get_start_method() == "forkserver":
+        from multiprocessing import forkserver
+
+        forkserver.ensure_running()
 
 
 def _start_worker() -> None:
@@ -503,20 +532,24 @@ def _run_on_cluster(
             info = client.scheduler_info()
         workers = len(info.get("workers", {}))
         _tell(progress, stage, 0, len(tasks))
-        futures = client.map(run_task, tasks, pure=False)
-        index = {future.key: i for i, future in enumerate(futures)}
+        size = max(1, math.ceil(len(tasks) / (max(1, workers) * CLUSTER_PIECES_PER_WORKER)))
+        pieces = [list(range(start, min(start + size, len(tasks)))) for start in range(0, len(tasks), size)]
+        futures = client.map(run_tasks, [[tasks[i] for i in piece] for piece in pieces], pure=False)
+        index = {future.key: piece for future, piece in zip(futures, pieces)}
         try:
             for future in as_completed(futures, loop=client.loop):
-                i = index[future.key]
+                piece = index[future.key]
                 try:
-                    results[i] = future.result()
+                    for i, result in zip(piece, future.result()):
+                        results[i] = result
                 except Exception as exc:  # the worker died, or cannot import leakbudget
-                    results[i] = _failed(
-                        tasks[i],
-                        f"{tasks[i].path.name}: no Dask worker could run its job ({type(exc).__name__}: {exc}); "
-                        "install the same leakbudget on every worker and check it alone to see more.",
-                    )
-                done += 1
+                    for i in piece:
+                        results[i] = _failed(
+                            tasks[i],
+                            f"{tasks[i].path.name}: no Dask worker could run its job ({type(exc).__name__}: {exc}); "
+                            "install the same leakbudget on every worker and check it alone to see more.",
+                        )
+                done += len(piece)
                 _tell(progress, stage, done, len(tasks))
         except KeyboardInterrupt:
             client.cancel(futures)

@@ -530,6 +530,20 @@ def _workbooks_to_show(results: list[Any]) -> list[Any]:
     return [results[i] for i in sorted(sorted(range(len(results)), key=rank)[:TERMINAL_TABLE_ROWS])]
 
 
+def _common_folder(shown: list[str]) -> tuple[str, Any]:
+    """The folder every workbook shown is in (said once, in the title), and how to name a workbook inside it."""
+    import os
+    from pathlib import Path
+
+    try:
+        common = os.path.commonpath([str(Path(w).parent) for w in shown])
+    except ValueError:  # absolute and relative paths mixed, or different drives
+        common = ""
+    if common in ("", "."):
+        return "", lambda w: w
+    return common, lambda w: os.path.relpath(w, common)
+
+
 def render_portfolio(portfolio: Any, out_dir: Any, written: bool) -> None:
     """A portfolio's summary: one row per workbook, the sentence of each that could not be checked, the counts,
     where the results went."""
@@ -539,27 +553,31 @@ def render_portfolio(portfolio: Any, out_dir: Any, written: bool) -> None:
         how = f"on the Dask cluster at {portfolio.cluster} ({portfolio.workers} workers)"
     else:
         how = f"with {portfolio.workers} worker process{'es' if portfolio.workers != 1 else ''}"
+    folder, name = _common_folder([r.workbook for r in results])
+    where = f" in {folder}" if folder else ""
     table = Table(
-        title=f"Portfolio: {len(results):,} workbook(s) {'reviewed' if review else 'checked'} {how}",
+        title=f"Portfolio: {len(results):,} workbook(s){where} {'reviewed' if review else 'checked'} {how}",
         title_justify="left",
         box=box.SIMPLE_HEAD,
         pad_edge=False,
         padding=(0, 1, 0, 0),
     )
     table.add_column("Workbook", overflow="fold", min_width=12)
-    headers = ["Circuits", "Devices", "Worst", "Over", "Used"] + (["Errors", "Warnings"] if review else ["At"])
+    at = not review and out_console.width >= 100  # which circuit or device used most: on a wide terminal
+    headers = ["Circuits", "Devices", "Worst", "Over", "Used"] + (["Errors"] if review else [])
+    headers += ["At"] if at else []
     for header in headers:
         table.add_column(header, justify="left" if header in ("Worst", "At") else "right", no_wrap=True)
     shown = _workbooks_to_show(results)
     for r in shown:
         s = r.summary
         if r.error is not None:
-            table.add_row(r.workbook, "-", "-", "[bold red]not checked[/]", *["-"] * (len(headers) - 3))
+            table.add_row(name(r.workbook), "-", "-", "[bold red]not checked[/]", *["-"] * (len(headers) - 3))
             continue
         worst = s["worst_status"]
         share = s["highest_share_used"]
         cells = [
-            r.workbook,
+            name(r.workbook),
             f"{s['circuits']:,}",
             f"{s['shared_devices']:,}",
             f"[{STATUS_STYLE[worst]}]{worst}[/]" if worst else "-",
@@ -567,15 +585,16 @@ def render_portfolio(portfolio: Any, out_dir: Any, written: bool) -> None:
             f"{100 * share:.0f}%" if share is not None else "-",
         ]
         if review:
-            cells += [f"{s['error_findings']:,}", f"{s['warning_findings']:,}"]
-        else:
+            cells.append(f"{s['error_findings']:,}")
+        if at:
             cells.append(s["highest_share_at"] or "-")
         table.add_row(*cells)
     out_console.print(table)
     out_console.print(
         "Devices: shared devices (Protection sheet). Worst: the worst status of any circuit or shared device; Over: "
         "how many are over budget; Used: the highest share of a budget used"
-        + ("; Errors, Warnings: review findings." if review else ", At: by which."),
+        + (", At: by which" if at else "")
+        + ("; Errors: error findings of the review (warnings too in --json and --summary)." if review else "."),
         highlight=False,
     )
     if len(shown) < len(results):

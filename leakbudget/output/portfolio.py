@@ -11,10 +11,10 @@ import math
 from typing import TYPE_CHECKING, Any
 
 from leakbudget.about import CAUTION, __version__
-from leakbudget.checking import CheckResult
 from leakbudget.devices import Status
 
-if TYPE_CHECKING:
+if TYPE_CHECKING:  # the figures come from these; a portfolio's parent process needs only the records
+    from leakbudget.checking import CheckResult
     from leakbudget.compliance.rules import Review
 
 # How bad a status is, for "the worst status" of a workbook (modelling choice: an unprotected circuit is not judged
