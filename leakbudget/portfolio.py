@@ -101,15 +101,15 @@ def find_workbooks(items: Iterable[str | Path], recursive: bool = False, skip: I
     seen: set[str] = set()
 
     def add(path: Path, shown: str, relative: Path) -> None:
-        key = os.path.normcase(path)
+        key = os.path.normcase(path.resolve())  # the same file, however reached (a link, another spelling)
         if key not in seen:
             seen.add(key)
-            found.append(Found(path, shown, relative))
+            found.append(Found(path.absolute(), shown, relative))
 
     for item in items:
         item = Path(item)
         if not item.is_dir():
-            add(item.resolve(), str(item), Path(item.name))
+            add(item, str(item), Path(item.name))
             continue
         candidates = item.rglob("*") if recursive else item.iterdir()
         inside = []
@@ -122,15 +122,15 @@ def find_workbooks(items: Iterable[str | Path], recursive: bool = False, skip: I
             resolved = candidate.resolve()
             if any(os.path.normcase(p) in skipped for p in (resolved, *resolved.parents)):
                 continue
-            inside.append((relative, resolved))
+            inside.append((relative, candidate))
         if not inside:
             deeper = "" if recursive else " (subfolders are searched only when asked: --recursive)"
             raise LeakbudgetError(
                 f"{item}: this folder holds no workbook ({', '.join(WORKBOOK_SUFFIXES)}){deeper}; name workbooks or "
                 "another folder."
             )
-        for relative, resolved in sorted(inside, key=lambda x: [p.lower() for p in x[0].parts]):
-            add(resolved, str(item / relative), relative)
+        for relative, candidate in sorted(inside, key=lambda x: [p.lower() for p in x[0].parts]):
+            add(candidate, str(candidate), relative)
     return found
 
 
@@ -588,7 +588,7 @@ def refuse_summary_path(path: Path, workbooks: Sequence[Path] = ()) -> None:
     if not path.parent.is_dir():
         raise WriteBackError(f"{path}: the folder {path.parent} does not exist; create it or name another one.")
     resolved = path.resolve()
-    if any(os.path.normcase(resolved) == os.path.normcase(w) for w in workbooks):
+    if any(os.path.normcase(resolved) == os.path.normcase(Path(w).resolve()) for w in workbooks):
         raise WriteBackError(f"{path}: this is one of the workbooks to check; name a new file for the summary.")
     if path.exists() and not _is_summary(path):
         raise WriteBackError(
@@ -659,5 +659,5 @@ def result_of(job: CheckJob | ReviewJob, path: Path) -> WorkbookResult:
     else:
         command, figures = "check", summary_row(job.result)
     written = str(job.written.path) if job.written is not None else None
-    resolved = path.resolve()
-    return WorkbookResult(str(path), resolved, record(command, str(path), str(resolved), figures, written, None), job)
+    full = path.absolute()
+    return WorkbookResult(str(path), full, record(command, str(path), str(full), figures, written, None), job)
