@@ -39,10 +39,11 @@ def test_the_readme_python_session_runs_with_its_shown_output(tmp_path, monkeypa
 
 def test_front_door_names_and_a_cheap_import():
     assert set(leakbudget.__all__) >= {"check", "split", "review", "report", "read_project"}
-    # Importing the package loads neither pandas, scipy nor matplotlib, nor the CLI's typer and rich.
+    # Importing the package loads neither pandas, scipy nor matplotlib, nor the CLI's typer and rich, nor Dask.
     code = (
-        "import sys, leakbudget; leakbudget.check; "
-        "print([m for m in ('pandas', 'scipy', 'matplotlib', 'typer', 'rich') if m in sys.modules])"
+        "import sys, leakbudget; leakbudget.check; leakbudget.check_many; "
+        "print([m for m in ('pandas', 'scipy', 'matplotlib', 'typer', 'rich', 'dask', 'distributed') "
+        "if m in sys.modules])"
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"

@@ -11,6 +11,19 @@ from rich.table import Table
 from typer.core import TyperGroup
 
 from leakbudget.about import __version__
+from leakbudget.cli.portfolio import (
+    ClusterOpt,
+    JobsOpt,
+    OutDirOpt,
+    PathsArg,
+    RecursiveOpt,
+    SummaryOpt,
+    refuse_summary,
+    run_portfolio,
+    single_out,
+    wants_portfolio,
+    write_single_summary,
+)
 from leakbudget.cli.render import (
     caution,
     err_console,
@@ -85,27 +98,53 @@ ForceOpt = Annotated[
 
 @app.command()
 def check(
-    path: PathArg,
+    paths: PathsArg,
     out: OutOpt = None,
     as_json: JsonOpt = False,
     no_write: Annotated[bool, typer.Option("--no-write", help="Check only; write nothing.")] = False,
     force: ForceOpt = False,
     quiet: QuietOpt = False,
+    out_dir: OutDirOpt = None,
+    jobs: JobsOpt = None,
+    recursive: RecursiveOpt = False,
+    summary: SummaryOpt = None,
+    cluster: ClusterOpt = None,
 ) -> None:
     """Estimate standing leakage per protected circuit and shared device; write 'Circuit results', 'Load results'
     and, with a Protection sheet, 'Device results'.
 
+    Several workbooks or folders (their .xlsx files; subfolders with --recursive) are checked --jobs at a time, one
+    process each, and summarised one row per workbook (--summary writes that as a workbook); a workbook that
+    cannot be read is reported in one sentence and the others go on.
+
     Exit code 0 when every protected circuit and shared device is within budget and none is marginal, 1 when
-    any is not, 2 on bad input.
+    any is not, 2 on bad input (for several workbooks: 2 when any could not be read, else 1 when any is not within
+    budget).
     """
     from leakbudget import api
 
+    if wants_portfolio(paths, cluster):
+        run_portfolio(
+            "check",
+            paths,
+            out=out,
+            out_dir=out_dir,
+            no_write=no_write,
+            as_json=as_json,
+            jobs=jobs,
+            recursive=recursive,
+            summary=summary,
+            cluster=cluster,
+        )
+    path, out = paths[0], single_out(paths[0], out, out_dir, no_write)
+    refuse_summary(summary, path)
     with progress_bar(as_json) as progress:
         job = api.check(path, write=not no_write, out=None if no_write else out, progress=progress, force=force)
     if as_json:
         print_json_chunks(job.document_chunks())
     else:
         render_check(job, quiet)
+    write_single_summary(summary, job, path, as_json)
     raise typer.Exit(0 if job.result.all_ok else 1)
 
 
@@ -114,7 +153,10 @@ REVIEW_HELP = (
     "Each finding has a severity (error, warning, info), a rule, the circuit and load it concerns, and the rule's "
     "source. Rooms are classified from their names; for a name the built-in table does not know, add a Locations "
     f"sheet with Room name and Location kind ({', '.join(LOCATION_KINDS)}).\n\n"
-    "Exit code 0 when there is no error finding, 1 when there is, 2 on bad input."
+    "Several workbooks or folders are reviewed --jobs at a time and summarised one row per workbook, as for "
+    "check.\n\n"
+    "Exit code 0 when there is no error finding, 1 when there is, 2 on bad input (for several workbooks: 2 when any "
+    "could not be read, else 1 when any has an error finding)."
 )
 
 
@@ -130,21 +172,43 @@ CodeOpt = Annotated[
 
 @app.command(help=REVIEW_HELP)
 def review(
-    path: PathArg,
+    paths: PathsArg,
     code: CodeOpt = None,
     out: OutOpt = None,
     as_json: JsonOpt = False,
     no_write: Annotated[bool, typer.Option("--no-write", help="Review only; write nothing.")] = False,
     force: ForceOpt = False,
     quiet: QuietOpt = False,
+    out_dir: OutDirOpt = None,
+    jobs: JobsOpt = None,
+    recursive: RecursiveOpt = False,
+    summary: SummaryOpt = None,
+    cluster: ClusterOpt = None,
 ) -> None:
     from leakbudget import api
 
+    if wants_portfolio(paths, cluster):
+        run_portfolio(
+            "review",
+            paths,
+            code=code,
+            out=out,
+            out_dir=out_dir,
+            no_write=no_write,
+            as_json=as_json,
+            jobs=jobs,
+            recursive=recursive,
+            summary=summary,
+            cluster=cluster,
+        )
+    path, out = paths[0], single_out(paths[0], out, out_dir, no_write)
+    refuse_summary(summary, path)
     job = api.review(path, code, write=not no_write, out=None if no_write else out, force=force)
     if as_json:
         print_json(job.document())
     else:
         render_review(job, quiet)
+    write_single_summary(summary, job, path, as_json)
     raise typer.Exit(1 if job.review.errors else 0)
 
 

@@ -686,4 +686,128 @@ def render_applied(job: Any, quiet: bool = False) -> None:
         f"{applied.source.name} was not changed: --apply writes only the new file, no result sheets either.",
         highlight=False,
     )
+
+
+def _workbooks_to_show(results: list[Any]) -> list[Any]:
+    """All workbooks when they fit the terminal table, else the ``TERMINAL_TABLE_ROWS`` in most need of a look
+    (not checked, then a problem found, then the highest share used), in the order found."""
+    if len(results) <= TERMINAL_TABLE_ROWS:
+        return results
+
+    def rank(i: int) -> tuple[int, float]:
+        share = results[i].summary.get("highest_share_used")
+        return -results[i].exit_code, -(share if share is not None else -1.0)
+
+    return [results[i] for i in sorted(sorted(range(len(results)), key=rank)[:TERMINAL_TABLE_ROWS])]
+
+
+def _common_folder(shown: list[str]) -> tuple[str, Any]:
+    """The folder every workbook shown is in (said once, in the title), and how to name a workbook inside it."""
+    import os
+    from pathlib import Path
+
+    try:
+        common = os.path.commonpath([str(Path(w).parent) for w in shown])
+    except ValueError:  # absolute and relative paths mixed, or different drives
+        common = ""
+    if common in ("", "."):
+        return "", lambda w: w
+    return common, lambda w: os.path.relpath(w, common)
+
+
+def render_portfolio(portfolio: Any, out_dir: Any, written: bool) -> None:
+    """A portfolio's summary: one row per workbook, the sentence of each that could not be checked, the counts,
+    where the results went."""
+    results = portfolio.results
+    review = portfolio.command == "review"
+    if portfolio.cluster is not None:
+        how = f"on the Dask cluster at {portfolio.cluster} ({portfolio.workers} workers)"
+    else:
+        how = f"with {portfolio.workers} worker process{'es' if portfolio.workers != 1 else ''}"
+    folder, name = _common_folder([r.workbook for r in results])
+    where = f" in {folder}" if folder else ""
+    table = Table(
+        title=f"Portfolio: {len(results):,} workbook(s){where} {'reviewed' if review else 'checked'} {how}",
+        title_justify="left",
+        box=box.SIMPLE_HEAD,
+        pad_edge=False,
+        padding=(0, 1, 0, 0),
+    )
+    table.add_column("Workbook", overflow="fold", min_width=12)
+    at = not review and out_console.width >= 100  # which circuit or device used most: on a wide terminal
+    headers = ["Circuits", "Devices", "Worst", "Over", "Used"] + (["Errors"] if review else [])
+    headers += ["At"] if at else []
+    for header in headers:
+        table.add_column(header, justify="left" if header in ("Worst", "At") else "right", no_wrap=True)
+    shown = _workbooks_to_show(results)
+    for r in shown:
+        s = r.summary
+        if r.error is not None:
+            table.add_row(name(r.workbook), "-", "-", "[bold red]not checked[/]", *["-"] * (len(headers) - 3))
+            continue
+        worst = s["worst_status"]
+        share = s["highest_share_used"]
+        cells = [
+            name(r.workbook),
+            f"{s['circuits']:,}",
+            f"{s['shared_devices']:,}",
+            f"[{STATUS_STYLE[worst]}]{worst}[/]" if worst else "-",
+            f"{s['over_budget']:,}",
+            f"{100 * share:.0f}%" if share is not None else "-",
+        ]
+        if review:
+            cells.append(f"{s['error_findings']:,}")
+        if at:
+            cells.append(s["highest_share_at"] or "-")
+        table.add_row(*cells)
+    out_console.print(table)
+    out_console.print(
+        "Devices: shared devices (Protection sheet). Worst: the worst status of any circuit or shared device; Over: "
+        "how many are over budget; Used: the highest share of a budget used"
+        + (", At: by which" if at else "")
+        + ("; Errors: error findings of the review (warnings too in --json and --summary)." if review else "."),
+        highlight=False,
+    )
+    if len(shown) < len(results):
+        out_console.print(
+            f"Showing {len(shown)} of {len(results):,} workbooks: those in most need of a look; every workbook is in "
+            "--summary (and in --json).",
+            highlight=False,
+        )
+    for r in portfolio.errors[:TERMINAL_TABLE_ROWS]:
+        out_console.print(f"[bold red]Error:[/] {r.error}", highlight=False)
+    if len(portfolio.errors) > TERMINAL_TABLE_ROWS:
+        out_console.print(f"… and {len(portfolio.errors) - TERMINAL_TABLE_ROWS:,} more not checked.", highlight=False)
+    warned = [r for r in results if r.summary.get("warnings")]
+    for r in warned[:TERMINAL_TABLE_ROWS]:
+        err_console.print(f"[yellow]Warning:[/] {r.workbook}: {r.summary['warnings']}", highlight=False)
+    if len(warned) > TERMINAL_TABLE_ROWS:
+        err_console.print(f"… and warnings on {len(warned) - TERMINAL_TABLE_ROWS:,} more workbooks.", highlight=False)
+    counts = [sum(r.exit_code == code for r in results) for code in (0, 1, 2)]
+    fine, problem = ("without error findings", "with error findings") if review else ("within budget", "not")
+    out_console.print(
+        f"[bold]{len(results):,} workbook(s): {counts[0]:,} {fine}, {counts[1]:,} {problem}, {counts[2]:,} could not "
+        "be checked.[/]",
+        highlight=False,
+    )
+    if counts[1]:
+        nxt = "leakbudget review WORKBOOK" if review else "leakbudget check WORKBOOK"
+        out_console.print(
+            f"`{nxt}` shows one of them in full; `leakbudget split WORKBOOK` plans the changes."
+            if not review
+            else f"`{nxt}` shows one of them with every finding.",
+            highlight=False,
+        )
+    checked = len(results) - counts[2]
+    sheets = f"'{REVIEW_FINDINGS}'" if review else "result sheets"
+    if written and out_dir is not None and checked:
+        out_console.print(f"Copies with the {sheets} written to {out_dir}.", highlight=False)
+    elif written and checked:
+        out_console.print(
+            f"The {sheets} written into each workbook checked (previous versions kept beside them, "
+            "*.before-leakbudget.xlsx).",
+            highlight=False,
+        )
+    if portfolio.summary_written is not None:
+        out_console.print(f"Summary written to {portfolio.summary_written}.", highlight=False)
     caution()
