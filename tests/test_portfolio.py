@@ -260,11 +260,11 @@ def test_ctrl_c_stops_after_the_workbooks_in_hand_and_says_how_many(tmp_path: Pa
 
     with pytest.raises(portfolio.PortfolioInterrupted) as stop:
         leakbudget.check_many(paths, jobs=2, write=True, progress=interrupt)
-    assert (stop.value.done, stop.value.total) == (1, 10)
-    untouched = sum(p.read_bytes() == b for p, b in zip(paths, before))
+    written = sum(p.read_bytes() != b for p, b in zip(paths, before))
+    assert (stop.value.done, stop.value.total) == (written, 10)  # the count says what happened to the files
     # done: the one finished, the two in the workers' hands and the three the pool had queued for them at most
     # (concurrent.futures queues max_workers + 1 calls); the other four were never started
-    assert untouched >= 4
+    assert 1 <= written <= 6
 
 
 def test_a_cluster_address_nobody_answers_is_one_sentence(folder: Path, monkeypatch):
