@@ -306,3 +306,12 @@ def test_a_terminal_gets_one_bar_across_the_workbooks_and_json_none(folder: Path
     assert json.loads(shown[: shown.rindex("}") + 1])["command"] == "check"
     piped = runner.invoke(app, ["check", str(folder), "--no-write"])
     assert "Checking workbooks" not in piped.output and "━" not in piped.output
+
+
+def test_a_dask_worker_that_cannot_see_a_file_says_so(tmp_path: Path):
+    task = portfolio.Task("check", tmp_path / "elsewhere.xlsx", "elsewhere.xlsx", False, None, remote=True)
+    result = portfolio.run_task(task)  # as a worker runs it
+    assert result.exit_code == 2 and result.job is None
+    assert "cannot see this file; put the workbooks on storage every worker reads at the same path" in result.error
+    local = portfolio.run_task(portfolio.Task("check", tmp_path / "elsewhere.xlsx", "elsewhere.xlsx", False, None))
+    assert local.error == "elsewhere.xlsx: the file does not exist; check the path."  # the single command's words
