@@ -339,13 +339,15 @@ def review_many(
 
 
 class PortfolioInterrupted(KeyboardInterrupt):
-    """Ctrl-C during a portfolio: ``done`` of ``total`` workbooks were finished (their results written, if asked)
-    before the work stopped; the others were not touched."""
+    """Ctrl-C during a portfolio: ``done`` of ``total`` workbooks were finished (their results written, if asked),
+    those the workers held when it came included; the others were not touched. On a cluster (``on_cluster``) the
+    workbooks a worker had already begun may still be finished after the count."""
 
-    def __init__(self, done: int, total: int) -> None:
+    def __init__(self, done: int, total: int, on_cluster: bool = False) -> None:
         super().__init__(done, total)
         self.done = done
         self.total = total
+        self.on_cluster = on_cluster
 
 
 def _many(
@@ -452,7 +454,8 @@ def _run_locally(tasks: list[Task], workers: int, progress: Progress | None, sta
             _tell(progress, stage, done, len(tasks))
     except KeyboardInterrupt:
         pool.shutdown(wait=True, cancel_futures=True)  # the workers ignore Ctrl-C and finish what they hold
-        raise PortfolioInterrupted(done, len(tasks)) from None
+        finished = sum(f.done() and not f.cancelled() and f.exception() is None for f in futures)
+        raise PortfolioInterrupted(finished, len(tasks)) from None
     finally:
         pool.shutdown(wait=True)
     return [r for r in results if r is not None]
@@ -553,7 +556,7 @@ def _run_on_cluster(
                 _tell(progress, stage, done, len(tasks))
         except KeyboardInterrupt:
             client.cancel(futures)
-            raise PortfolioInterrupted(done, len(tasks)) from None
+            raise PortfolioInterrupted(done, len(tasks), on_cluster=True) from None
     finally:
         if own:
             client.close()

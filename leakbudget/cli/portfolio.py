@@ -133,9 +133,13 @@ def run_portfolio(
                 result = portfolio.check_many(paths, progress=progress, **options)
     except portfolio.PortfolioInterrupted as stop:
         done = "their results written" if not no_write else "nothing written"
+        rest = (
+            "those the cluster's workers had begun may still be finished, the others are not touched"
+            if stop.on_cluster
+            else "the others were not touched"
+        )
         err_console.print(
-            f"Interrupted: {stop.done} of {stop.total} workbooks were done ({done}); the others were not touched.",
-            highlight=False,
+            f"Interrupted: {stop.done} of {stop.total} workbooks were done ({done}); {rest}.", highlight=False
         )
         raise typer.Exit(130) from None
     if as_json:
