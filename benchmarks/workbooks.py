@@ -57,7 +57,7 @@ def make_workbook(path: Path, n_loads: int, seed: int = 7) -> Path:
         "Power",
         "Leg",
         "Room",
-        "Fixed",
+        "Stays",
         "Note",
     ]
     loads.write_row(0, 0, header)
