@@ -147,7 +147,11 @@ def test_original_cells_formulas_and_names_survive(workbook: Path) -> None:
     assert circuits[7][2] == sum(1 for r in data_rows if r[2] > 16)
     names = re.search(rb"<definedNames>.*</definedNames>", workbook_xml, re.S)
     assert names is not None and b"localSheetId" in names.group(0)
-    assert names.group(0) in entries(workbook)["xl/workbook.xml"]
+    # every name of the user's stays byte for byte (the result sheets' print titles are added after them)
+    user_names = re.findall(rb"<definedName .*?</definedName>", names.group(0), re.S)
+    written = entries(workbook)["xl/workbook.xml"]
+    assert user_names and all(n in written for n in user_names)
+    assert written.index(user_names[-1]) < written.index(b"_xlnm.Print_Titles")
 
 
 def test_unknown_extension_parts_survive(tmp_path: Path) -> None:
@@ -622,3 +626,18 @@ def test_result_sheets_print_landscape_fitted_to_the_page_width(tmp_path: Path) 
         ours = archive.read("xl/" + target.group(1).lstrip("/").removeprefix("xl/"))
     assert b'orientation="landscape"' in ours and b'fitToHeight="0"' in ours and b'fitToPage="1"' in ours
     assert b'state="frozen"' in ours
+
+
+def test_result_sheets_repeat_their_header_row_on_printed_pages(tmp_path: Path) -> None:
+    # ECMA-376 Part 1 §18.2.6: the built-in name _xlnm.Print_Titles, scoped to the sheet (localSheetId), repeats
+    # row 1 on every printed page; a second run adds no second one; Gnumeric still opens the file
+    path = copy_fixture(tmp_path, "gnumeric")
+    for _ in range(2):
+        write_sheets(path, [circuit_sheet()])
+    with zipfile.ZipFile(path) as archive:
+        workbook = archive.read("xl/workbook.xml").decode()
+    names = re.findall(r'<sheet [^>]*name="([^"]+)"', workbook)
+    titles = re.findall(r'<definedName name="_xlnm.Print_Titles" localSheetId="(\d+)">([^<]*)</definedName>', workbook)
+    assert titles == [(str(names.index("Circuit results")), "'Circuit results'!$1:$1")]
+    done = subprocess.run(["ssconvert", str(path), str(tmp_path / "out.csv")], capture_output=True)
+    assert done.returncode == 0

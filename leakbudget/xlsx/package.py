@@ -365,6 +365,7 @@ class _Graft:
         rel_ids = _register_relationships(self.workbook_rels, self.rel_list, self.new_rels)
         sheet_ids = [rid for rid, (kind, _) in zip(rel_ids, self.new_rels) if kind == REL_TYPE_WORKSHEET]
         _register_sheets(self.workbook, self.sheets_span, list(zip(self.new_sheets, sheet_ids)))
+        _register_print_titles(self.workbook, self.sheets_span, self.replaced, self.new_sheets)
         _register_content_types(self.content_types, self.content_type_of, self.removed - set(self.writes))
         for name, xml in (
             (CONTENT_TYPES, self.content_types),
@@ -608,6 +609,59 @@ def _register_sheets(workbook: XmlPart, sheets_span: Span, entries: list[tuple[s
             f'<{prefix}sheet{declare} name={quoteattr(name)} sheetId="{next_id + offset}" {rel_prefix}:id="{rid}"/>'
         )
     workbook.append_children(sheets_span, "".join(fragments).encode())
+
+
+# CT_Workbook's children that come after definedNames (ECMA-376 Part 1 §18.2.27): a new definedNames goes before the
+# first of them that is present.
+_AFTER_DEFINED_NAMES = (
+    "calcPr",
+    "oleSize",
+    "customWorkbookViews",
+    "pivotCaches",
+    "smartTagPr",
+    "smartTagTypes",
+    "webPublishing",
+    "fileRecoveryPr",
+    "webPublishObjects",
+    "extLst",
+)
+
+
+def _register_print_titles(workbook: XmlPart, sheets_span: Span, replaced: list[str], added: list[str]) -> None:
+    """Repeat the header row on every printed page of each result sheet: a ``_xlnm.Print_Titles`` defined name of
+    row 1, scoped to the sheet (ECMA-376 Part 1 §18.2.5; built-in names §18.2.6), unless the sheet has one."""
+    sheets = workbook.find("sheet", 2, within=sheets_span)
+    names = [sp.attrs.get("name", "") for sp in sheets] + list(added)
+    position = {n.casefold(): i for i, n in enumerate(names)}
+    defined = workbook.find("definedNames", 1)
+    have = set()
+    if defined:
+        for span in workbook.find("definedName", 2, within=defined[0]):
+            if span.attrs.get("name") == "_xlnm.Print_Titles":
+                have.add(span.attrs.get("localSheetId", ""))
+    prefix = sheets_span.prefix
+    entries = []
+    for name in [*replaced, *added]:
+        index = position.get(name.casefold())
+        if index is None or str(index) in have:
+            continue
+        reference = "'" + name.replace("'", "''") + "'!$1:$1"
+        entries.append(
+            f'<{prefix}definedName name="_xlnm.Print_Titles" localSheetId="{index}">'
+            f"{reference.replace('&', '&amp;').replace('<', '&lt;')}</{prefix}definedName>"
+        )
+    if not entries:
+        return
+    fragment = "".join(entries).encode()
+    if defined:
+        workbook.append_children(defined[0], fragment)
+        return
+    block = f"<{prefix}definedNames>".encode() + fragment + f"</{prefix}definedNames>".encode()
+    later = [sp for local in _AFTER_DEFINED_NAMES for sp in workbook.find(local, 1)]
+    if later:
+        workbook.insert_before(min(later, key=lambda sp: sp.start), block)
+    else:
+        workbook.append_children(workbook.spans[0], block)
 
 
 def _register_content_types(xml: XmlPart, content_types: dict[str, str], removed: set[str]) -> None:
