@@ -47,6 +47,7 @@ from leakbudget.xlsx.guard import (
     ZIP_DAMAGE,
     SheetScan,
     identify,
+    xml_part_error,
     zip_problem,
 )
 from leakbudget.xlsx.xml_text import BadXmlError, UnsafeXmlError, local_name, parse
@@ -176,18 +177,7 @@ class GuardedOds:
         return info
 
     def _xml_error(self, part: str, exc: Exception) -> WorkbookError:
-        if isinstance(exc, UnsafeXmlError):
-            return WorkbookError(
-                f"its part {part} declares a DTD or entities, which an .ods never needs (it may be an "
-                "entity-expansion attack), so it was not read",
-                path=self.path,
-                hint="re-save the spreadsheet in a spreadsheet program, or ask whoever sent it",
-            )
-        return WorkbookError(
-            f"its part {part} is damaged ({exc})",
-            path=self.path,
-            hint="re-save the spreadsheet in a spreadsheet program and run again",
-        )
+        return xml_part_error(self.path, part, exc, ".ods", "spreadsheet")
 
     def _check_manifest(self) -> None:
         info = self._limited(MANIFEST, MAX_INDEX_PART_BYTES)

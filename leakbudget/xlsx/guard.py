@@ -127,6 +127,23 @@ def decoded(part: str) -> str:
     return unquote(part) if "%" in part else part
 
 
+def xml_part_error(path: Path, part: str, exc: Exception, suffix: str, noun: str) -> WorkbookError:
+    """The error for an XML part of a package (``suffix`` .xlsx or .ods, ``noun`` workbook or spreadsheet) that
+    declares a DTD or entities, or is damaged."""
+    if isinstance(exc, UnsafeXmlError):
+        return WorkbookError(
+            f"its part {part} declares a DTD or entities, which an {suffix} never needs (it may be an "
+            "entity-expansion attack), so it was not read",
+            path=path,
+            hint=f"re-save the {noun} in a spreadsheet program, or ask whoever sent it",
+        )
+    return WorkbookError(
+        f"its part {part} is damaged ({exc})",
+        path=path,
+        hint=f"re-save the {noun} in a spreadsheet program and run again",
+    )
+
+
 def quoteattr_value(text: str) -> bytes:
     """``text`` escaped for a double-quoted XML attribute value, UTF-8."""
     return text.replace("&", "&amp;").replace("<", "&lt;").replace('"', "&quot;").encode("utf-8")
@@ -311,18 +328,7 @@ class GuardedPackage:
         return info
 
     def _xml_error(self, part: str, exc: Exception) -> WorkbookError:
-        if isinstance(exc, UnsafeXmlError):
-            return WorkbookError(
-                f"its part {part} declares a DTD or entities, which an .xlsx never needs (it may be an "
-                "entity-expansion attack), so it was not read",
-                path=self.path,
-                hint="re-save the workbook in a spreadsheet program, or ask whoever sent it",
-            )
-        return WorkbookError(
-            f"its part {part} is damaged ({exc})",
-            path=self.path,
-            hint="re-save the workbook in a spreadsheet program and run again",
-        )
+        return xml_part_error(self.path, part, exc, ".xlsx", "workbook")
 
     def _read_xml(self, part: str) -> ET.Element:
         try:
