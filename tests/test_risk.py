@@ -198,8 +198,10 @@ def test_unprotected_device_has_no_trip_probability():
         risk.trip_probability([D(FIXED, 1.0)], DEVICES["none"])
 
 
-def test_many_circuits_at_once_equal_one_at_a_time_and_blocks_do_not_matter():
-    # Vectorised over circuits (and cut into tiny blocks) must equal the per-circuit pure function exactly.
+@pytest.mark.parametrize("sparse", [False, True], ids=["reduceat", "sparse-product"])
+def test_many_circuits_at_once_equal_one_at_a_time_and_blocks_do_not_matter(sparse, monkeypatch):
+    # Vectorised over circuits (and cut into tiny blocks) must equal the per-circuit pure function exactly; with
+    # ``sparse`` the many-circuit runs sum by the sparse matrix product of large workbooks, the reference by reduceat.
     rng = np.random.default_rng(5)
     groups, loads = [], []
     for g in range(40):
@@ -220,12 +222,15 @@ def test_many_circuits_at_once_equal_one_at_a_time_and_blocks_do_not_matter():
     levels = [(4.0, 6.0) if g % 5 else (15.0, 30.0) for g in range(40)]
     levels[3] = None  # an unprotected circuit
     for rule in ("arithmetic", "phasor"):
+        if sparse:
+            monkeypatch.setattr(risk, "SPARSE_SUM_ELEMENTS", 0)
         together = risk.group_trip_probabilities(
             [groups[i] for i in order], [loads[i] for i in order], 40, levels, sum_rule=rule, samples=500, seed=2
         )
         tiny_blocks = risk.group_trip_probabilities(
             groups, loads, 40, levels, sum_rule=rule, samples=500, seed=2, block_elements=700
         )
+        monkeypatch.undo()
         for g in range(40):
             mine = [d for d, gg in zip(loads, groups) if gg == g]
             if levels[g] is None:
