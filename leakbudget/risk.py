@@ -579,9 +579,9 @@ def _segment_sums(
 
         n_weights, samples = len(weights), values.shape[1]
         seg_of = np.repeat(np.arange(len(segs)), np.diff(np.r_[starts, len(group)]))
-        m, r = np.nonzero(weights)
+        which, row = np.nonzero(weights)
         matrix = csr_array(
-            (weights[m, r].astype(np.float32), (seg_of[r] * n_weights + m, r)),
+            (weights[which, row].astype(np.float32), (seg_of[row] * n_weights + which, row)),
             shape=(len(segs) * n_weights, len(group)),
         )
         return segs, (matrix @ values).reshape(len(segs), n_weights, samples)
