@@ -390,9 +390,12 @@ def leakage_on(load: Load, appliance: Appliance | None, circuit: Circuit, basis:
 
 def load_waveform(r: LoadResult) -> str:
     """A load's leakage waveform: its Waveform column, else its catalogue row's, else sine (cable runs: sine)."""
-    if r.load is None:
+    load = r.load
+    if load is None:
         return SINE
-    return _waveform(r.load, r.appliance)
+    if load.waveform:
+        return load.waveform
+    return r.appliance.waveform if r.appliance is not None else SINE
 
 
 def trip_weight(circuit: Circuit, waveform: str) -> float:
@@ -417,11 +420,14 @@ def device_trip_weight(dev: Device, rcd_type: str | None, waveform: str) -> floa
 
 def trip_weights(project: Project, loads: Sequence[LoadResult]) -> np.ndarray:
     """:func:`trip_weight` of every placed load and cable run (unplaced ones: 1)."""
-    circuits = {c.circuit_id: c for c in project.circuits}
+    # Only an RCD of known type weighs a waveform other than 1: the loads of other circuits are passed over.
+    circuits = {c.circuit_id: c for c in project.circuits if c.rcd_type and c.device.family is Family.RCD}
     cache: dict[tuple[str, str], float] = {}
     out = np.ones(len(loads))
+    if not circuits:
+        return out
     for i, r in enumerate(loads):
-        if r.circuit_id is None:
+        if r.circuit_id not in circuits:
             continue
         key = (r.circuit_id, load_waveform(r))
         if key not in cache:
@@ -446,7 +452,8 @@ def evaluate(project: Project, loads: list[LoadResult]) -> list[CircuitResult]:
     weights = trip_weights(project, placed)
     weighted_arithmetic = phys.arithmetic_sums(idx, mags * weights, n)
     weighted_vector = np.abs(phys.phasor_sums(idx, phasors * weights, n))
-    waves = np.array([WAVEFORMS.index(load_waveform(r)) for r in placed], dtype=np.int64)
+    code = {w: k for k, w in enumerate(WAVEFORMS)}
+    waves = np.fromiter((code[load_waveform(r)] for r in placed), dtype=np.int64, count=len(placed))
     by_wave = {w: phys.arithmetic_sums(idx[waves == k], mags[waves == k], n) for k, w in enumerate(WAVEFORMS)}
     counts = np.bincount(idx, minlength=n)
     cable = np.zeros(n)
