@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import cmath
 import math
-from collections.abc import Iterator
+from collections.abc import Iterable, Iterator
 from typing import Any
 
 from leakbudget.about import CAUTION, __version__
@@ -201,8 +201,8 @@ def settings_dict(result: CheckResult) -> dict[str, Any]:
 
 
 def to_json(result: CheckResult, with_loads: bool = True) -> dict[str, Any]:
-    """The document ``leakbudget check --json`` prints (``with_loads=False``: its ``loads`` list left empty, for
-    :func:`json_chunks`)."""
+    """The document ``leakbudget check --json`` prints (``with_loads=False``: its ``circuits`` and ``loads`` lists
+    left empty, for :func:`json_chunks`)."""
     project = result.project
     return {
         "tool": f"leakbudget {__version__}",
@@ -214,9 +214,7 @@ def to_json(result: CheckResult, with_loads: bool = True) -> dict[str, Any]:
         "defaults_used": project.defaults_used,
         "warnings": project.warnings,
         "caution": CAUTION,
-        "circuits": [
-            {**circuit_dict(c), **tree_keys(c)} if project.protection else circuit_dict(c) for c in result.circuits
-        ],
+        "circuits": [_circuit_record(result, c) for c in result.circuits] if with_loads else [],
         "devices": [device_dict(d) for d in result.devices],
         "loads": [load_dict(r) for r in result.loads] if with_loads else [],
         "risk": risk_summary(result),
@@ -224,20 +222,31 @@ def to_json(result: CheckResult, with_loads: bool = True) -> dict[str, Any]:
     }
 
 
+def _circuit_record(result: CheckResult, c: CircuitResult) -> dict[str, Any]:
+    return {**circuit_dict(c), **tree_keys(c)} if result.project.protection else circuit_dict(c)
+
+
 def json_chunks(result: CheckResult, extra: dict[str, Any]) -> Iterator[str]:
     """The text of ``json.dumps(to_json(result) | extra, indent=2, ensure_ascii=False)``, made a piece at a time:
-    the loads (the bulk of a big workbook's document) are turned into text one by one, never held as dicts all at
-    once, so ``check --json`` needs little more memory than the check itself."""
+    the circuits and the loads (the bulk of a big workbook's document) are turned into text one by one, never held
+    as dicts or as one text all at once, so ``check --json`` needs little more memory than the check itself."""
     import json
     import textwrap
 
+    def records(items: Iterable[dict[str, Any]]) -> Iterator[str]:
+        for i, item in enumerate(items):
+            text = json.dumps(item, indent=2, ensure_ascii=False, allow_nan=False)
+            yield ("," if i else "") + "\n" + textwrap.indent(text, "    ")
+
     doc = {**to_json(result, with_loads=False), **extra}
     text = json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False)
-    head, tail = text.split('\n  "loads": []', 1)
-    yield head + '\n  "loads": ['
-    for i, r in enumerate(result.loads):
-        item = json.dumps(load_dict(r), indent=2, ensure_ascii=False, allow_nan=False)
-        yield ("," if i else "") + "\n" + textwrap.indent(item, "    ")
+    head, rest = text.split('\n  "circuits": []', 1)
+    middle, tail = rest.split('\n  "loads": []', 1)
+    del text, rest
+    yield head + '\n  "circuits": ['
+    yield from records(_circuit_record(result, c) for c in result.circuits)
+    yield ("\n  ]" if result.circuits else "]") + middle + '\n  "loads": ['
+    yield from records(load_dict(r) for r in result.loads)
     yield ("\n  ]" if result.loads else "]") + tail
 
 
