@@ -181,6 +181,61 @@ def test_any_rows_read_back_as_xlsxwriter_writes_them(tmp_path: Path, rows: list
     assert dimension(sheet_part(fast)) == dimension(entries(reference)["xl/worksheets/sheet1.xml"])
 
 
+COLUMN_VALUES = {
+    "text": st.one_of(
+        st.none(),
+        st.sampled_from(["K1", "catalogue", "=1+2", "-x", " pad", "a & b", "x|=y", "_x0041_"]),
+        st.text(max_size=12),
+    ),
+    "float": st.one_of(st.none(), st.sampled_from([0.0, -0.0, 230.0, 0.575, 1e-5, 1.5e300]), st.floats()),
+    "int": st.one_of(st.none(), st.sampled_from([0, 1, 2, -7]), st.integers(-(10**20), 10**20)),
+}
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(
+    kinds=st.lists(st.sampled_from(sorted(COLUMN_VALUES)), min_size=1, max_size=4),
+    data=st.data(),
+    height=st.integers(0, 14),
+    blanks=st.booleans(),
+)
+def test_columns_of_one_kind_read_back_as_xlsxwriter_writes_them(
+    tmp_path: Path, monkeypatch, kinds: list[str], data, height: int, blanks: bool
+) -> None:
+    """Columns all text, all floats or all ints (what result sheets hold), with repeated values, blanks, and rows
+    in pieces of four rows: the same cells as XlsxWriter's cell-by-cell writing."""
+    from leakbudget.xlsx import rows as xlsx_rows
+
+    monkeypatch.setattr(xlsx_rows, "ROWS_PER_CHUNK", 4)
+    columns = []
+    for kind in kinds:
+        values = COLUMN_VALUES[kind] if blanks else COLUMN_VALUES[kind].filter(lambda v: v is not None)
+        pool = data.draw(st.lists(values, min_size=1, max_size=3))  # few distinct values: many repeats
+        columns.append([data.draw(st.sampled_from(pool) | values) for _ in range(height)])
+    rows = [list(row) for row in zip(*columns)]
+    rows = [
+        [v.replace("\ufffe", "\ufffd").replace("\uffff", "\ufffd") if isinstance(v, str) else v for v in row]
+        for row in rows
+    ]
+    folder = tmp_path / f"case{abs(hash(repr(rows)))}"
+    folder.mkdir(exist_ok=True)
+    header = [f"c{i}" for i in range(len(kinds))]
+    fast = fast_workbook(folder, "K", header, rows)
+    reference = reference_workbook(folder / "reference.xlsx", "K", header, rows)
+    assert_same_cells(cells(fast)["K"], cells(reference)["K"])
+    assert dimension(sheet_part(fast)) == dimension(entries(reference)["xl/worksheets/sheet1.xml"])
+
+
+def test_repeated_numbers_are_written_exactly_signed_zeros_too() -> None:
+    """Each number's text is its shortest round-trip form (Python's repr), also where a piece of rows repeats a
+    few numbers (each formatted once) and where 0.0 and -0.0, equal as keys, are both among them."""
+    values = [0.0, -0.0, 230.0, 0.575, 230.0, -0.0] * 50
+    piece = b"".join(rows_xml([[v, 7] for v in values], ["", ""]))
+    written = re.findall(rb'<c r="A\d+"><v>([^<]*)</v>', piece)
+    assert [w.decode() for w in written] == [repr(v) for v in values]
+    assert re.findall(rb'<c r="B\d+"><v>([^<]*)</v>', piece) == [b"7"] * len(values)
+
+
 def test_every_row_keeps_its_columns_format(tmp_path: Path) -> None:
     """ECMA-376 Part 1 §18.8: each cell's s → cellXfs/xf → numFmtId → numFmt/@formatCode, on every row."""
     n = 2 * ROWS_PER_CHUNK + 7  # more than one piece of output
