@@ -19,7 +19,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from leakbudget.xlsx.package import SheetData, write_sheets
-from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER, ROWS_PER_CHUNK, escape_text, rows_xml
+from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER, ROWS_PER_CHUNK, ColumnRows, escape_text, rows_xml
 from tests.test_xlsx_package import DATA, MAIN, cells, entries, real_program_csv
 
 AWKWARD_TEXT = [
@@ -203,7 +203,8 @@ def test_columns_of_one_kind_read_back_as_xlsxwriter_writes_them(
     tmp_path: Path, monkeypatch, kinds: list[str], data, height: int, blanks: bool
 ) -> None:
     """Columns all text, all floats or all ints (what result sheets hold), with repeated values, blanks, and rows
-    in pieces of four rows: the same cells as XlsxWriter's cell-by-cell writing."""
+    in pieces of four rows, given as rows or as columns (ColumnRows): the same cells as XlsxWriter's cell-by-cell
+    writing."""
     from leakbudget.xlsx import rows as xlsx_rows
 
     monkeypatch.setattr(xlsx_rows, "ROWS_PER_CHUNK", 4)
@@ -220,7 +221,8 @@ def test_columns_of_one_kind_read_back_as_xlsxwriter_writes_them(
     folder = tmp_path / f"case{abs(hash(repr(rows)))}"
     folder.mkdir(exist_ok=True)
     header = [f"c{i}" for i in range(len(kinds))]
-    fast = fast_workbook(folder, "K", header, rows)
+    kept = ColumnRows([list(column) for column in zip(*rows)]) if rows and data.draw(st.booleans()) else rows
+    fast = fast_workbook(folder, "K", header, kept)  # rows as lists, or kept as their columns
     reference = reference_workbook(folder / "reference.xlsx", "K", header, rows)
     assert_same_cells(cells(fast)["K"], cells(reference)["K"])
     assert dimension(sheet_part(fast)) == dimension(entries(reference)["xl/worksheets/sheet1.xml"])
@@ -297,3 +299,20 @@ def test_a_sheet_streamed_with_zip64_sizes_reads_back(tmp_path: Path, monkeypatc
         assert info.extract_version >= 45  # APPNOTE.TXT 4.4.3.2: 4.5 = uses ZIP64 format extensions
     assert cells(path)["Big"] == [["circuit", "leakage_ma"], *rows]
     assert real_program_csv(path, "Big")[1:] == [["K1", "0.85"], ["K2", "1.4"]]
+
+
+def test_rows_kept_as_columns_are_a_sequence_of_rows() -> None:
+    """ColumnRows reads as the list of tuples zip makes of its columns (the standard library as reference)."""
+    columns = [["a", "b", "c"], [1.5, None, 3.0], [1, 2, 3]]
+    rows = ColumnRows([list(c) for c in columns])
+    expected = list(zip(*columns))
+    assert len(rows) == 3 and list(rows) == expected and rows[1] == expected[1] and rows[-1] == expected[-1]
+    assert rows[1:] == expected[1:] and rows[::-1] == expected[::-1]
+    rows.append(["d"])
+    assert rows[3] == ("d", None, None)
+    with pytest.raises(IndexError):
+        rows[4]
+    with pytest.raises(ValueError):
+        rows.append(["too", "many", "cells", "here"])
+    with pytest.raises(ValueError):
+        ColumnRows([[1, 2], [1]])

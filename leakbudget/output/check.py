@@ -20,8 +20,10 @@ from leakbudget.protection import DeviceResult
 from leakbudget.readings import COVERAGE, THRESHOLDS, ReadingResult
 from leakbudget.risk import TripProbability, likelihood_text
 from leakbudget.xlsx.package import ChartSpec, SheetData
+from leakbudget.xlsx.rows import ColumnRows
 
 PROBABILITY_DIGITS = 6
+ROUNDING_BLOCK = 4096  # values rounded together by _rounded
 
 
 def _num(value: float | None, digits: int = 4) -> float | None:
@@ -359,7 +361,7 @@ READING_COLUMNS: tuple[tuple[str, str, str | None], ...] = (
 def _sheet(
     name: str,
     columns: tuple[tuple[str, str, str | None], ...],
-    rows: list[Sequence[Any]],
+    rows: list[Sequence[Any]] | ColumnRows,
     footer: list[str],
     chart: ChartSpec | None = None,
 ) -> SheetData:
@@ -383,9 +385,9 @@ def _records_rows(columns: tuple[tuple[str, str, str | None], ...], records: lis
     return [[rec.get(key) for _, key, _ in columns] for rec in records]
 
 
-def _columns_rows(columns: tuple[tuple[str, str, str | None], ...], values: dict[str, list[Any]]) -> list[Any]:
-    """Rows from a sheet's columns of values (one list per key of ``columns``)."""
-    return list(zip(*(values[key] for _, key, _ in columns)))
+def _columns_rows(columns: tuple[tuple[str, str, str | None], ...], values: dict[str, list[Any]]) -> ColumnRows:
+    """Rows from a sheet's columns of values (one list per key of ``columns``), kept as columns."""
+    return ColumnRows([values[key] for _, key, _ in columns])
 
 
 def _rounded(values: list[float | None], digits: int = 4) -> list[float | None]:
@@ -402,17 +404,22 @@ def _rounded(values: list[float | None], digits: int = 4) -> list[float | None]:
     import numpy as np
 
     kinds = set(map(type, values))
-    if not kinds <= {float, type(None)} or not values:
+    if not kinds <= {float, type(None)}:
         return [_num(v, digits) for v in values]
-    x = np.array(values if type(None) not in kinds else [math.nan if v is None else v for v in values], dtype=float)
+    if type(None) in kinds:
+        values = [math.nan if v is None else v for v in values]  # NaN gives None too
     scale = 10.0**digits
-    with np.errstate(invalid="ignore", over="ignore"):
-        y = x * scale
-        size = np.abs(y)
-        exact = (size < 2.0**50) & (np.abs(y - np.floor(y) - 0.5) > 2.0**-50 * size)
-        out: list[float | None] = (np.rint(y) / scale).tolist()
-    for i in np.flatnonzero(~exact).tolist():
-        out[i] = _num(values[i], digits)
+    out: list[float | None] = []
+    for start in range(0, len(values), ROUNDING_BLOCK):  # small arrays, reused from the heap and in the cache
+        block = values[start : start + ROUNDING_BLOCK]
+        with np.errstate(invalid="ignore", over="ignore"):
+            y = np.array(block, dtype=float) * scale
+            size = np.abs(y)
+            exact = (size < 2.0**50) & (np.abs(y - np.floor(y) - 0.5) > 2.0**-50 * size)
+        rounded: list[float | None] = (np.rint(y) / scale).tolist()
+        for i in np.flatnonzero(~exact).tolist():
+            rounded[i] = _num(block[i], digits)
+        out += rounded
     return out
 
 

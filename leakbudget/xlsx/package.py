@@ -47,7 +47,7 @@ from leakbudget.xlsx.guard import (  # noqa: F401 (the limits are part of this m
     decoded,
     zip_problem,
 )
-from leakbudget.xlsx.rows import QUOTE_ROW, SAMPLE_ROW, SheetXml, with_rows
+from leakbudget.xlsx.rows import QUOTE_ROW, SAMPLE_ROW, SheetXml, rows_width, with_rows
 from leakbudget.xlsx.styles import merge_styles, remap_cell_styles
 from leakbudget.xlsx.xml_text import BadXmlError, Span, UnsafeXmlError, XmlPart, local_name, parse, quoteattr
 
@@ -798,7 +798,7 @@ def _render(sheets: Sequence[SheetData]) -> bytes:
             for column, title in enumerate(sheet.header):
                 _write_text(worksheet, 0, column, str(title), bold)
             if sheet.rows:
-                width = max(len(sheet.header), max(map(len, sheet.rows)), *(c + 1 for c in sheet.number_formats))
+                width = max(len(sheet.header), rows_width(sheet.rows), *(c + 1 for c in sheet.number_formats))
                 for column in range(width):
                     worksheet.write_number(SAMPLE_ROW - 1, column, 0, formats.get(column))
                 worksheet.write_number(QUOTE_ROW - 1, 0, 0, quoted)  # the quote-prefix style's sample cell

@@ -18,7 +18,7 @@ import numbers
 import re
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, overload
 
 # Largest number a cell holds (Microsoft, "Excel specifications and limits"); beyond it, and for ±inf, the value
 # is written as text.
@@ -36,6 +36,54 @@ ROWS_PER_CHUNK = 2000  # rows joined into one piece of output (and one progress 
 
 Cell = str | float | int | bool | None
 RowProgress = Callable[[int, int], None]  # (rows written, rows in all)
+
+
+class ColumnRows(Sequence[tuple[Cell, ...]]):
+    """Rows kept as their columns (one list per column, all of one length): a sheet of many rows built a column at
+    a time, which :func:`rows_xml` writes without making the rows. As a sequence it gives each row as a tuple."""
+
+    def __init__(self, columns: list[list[Cell]]) -> None:
+        if len({len(column) for column in columns}) > 1:
+            raise ValueError("the columns of ColumnRows must be of one length")
+        self.columns = columns
+
+    def __len__(self) -> int:
+        return len(self.columns[0]) if self.columns else 0
+
+    @overload
+    def __getitem__(self, index: int) -> tuple[Cell, ...]: ...
+
+    @overload
+    def __getitem__(self, index: slice) -> list[tuple[Cell, ...]]: ...
+
+    def __getitem__(self, index: int | slice) -> tuple[Cell, ...] | list[tuple[Cell, ...]]:
+        if isinstance(index, slice):
+            return list(zip(*(column[index] for column in self.columns)))
+        if not -len(self) <= index < len(self):
+            raise IndexError(index)
+        return tuple(column[index] for column in self.columns)
+
+    def __iter__(self) -> Iterator[tuple[Cell, ...]]:
+        return iter(zip(*self.columns))
+
+    def append(self, row: Sequence[Cell]) -> None:
+        """Add a row: a value per column, missing ones None."""
+        if len(row) > len(self.columns):
+            raise ValueError(f"a row of {len(row)} cells for {len(self.columns)} columns")
+        for column, value in itertools.zip_longest(self.columns, row):
+            column.append(value)
+
+    def extend(self, rows: Iterable[Sequence[Cell]]) -> None:
+        for row in rows:
+            self.append(row)
+
+
+def rows_width(rows: Sequence[Sequence[Cell]]) -> int:
+    """The most cells a row has."""
+    if isinstance(rows, ColumnRows):
+        return len(rows.columns) if rows else 0
+    return max(map(len, rows), default=0)
+
 
 # Anything in a text that needs more than copying: XML specials, C0 controls other than tab and line feed (XML 1.0
 # cannot hold most of them, and a parser would turn a carriage return into a line feed), U+FFFE/U+FFFF, lone
@@ -104,9 +152,10 @@ def used_range(rows: Sequence[Sequence[Cell]], header_width: int) -> str:
         if _last_filled(rows[number - SAMPLE_ROW]) >= 0:
             last_row = number
             break
-    for row in rows:  # only a row longer than the header can widen the range
-        if len(row) > last_column + 1:
-            last_column = max(last_column, _last_filled(row))
+    if rows_width(rows) > last_column + 1:
+        for row in rows:  # only a row longer than the header can widen the range
+            if len(row) > last_column + 1:
+                last_column = max(last_column, _last_filled(row))
     end = f"{xl_col_to_name(max(last_column, 0))}{last_row}"
     return "A1" if end == "A1" else f"A1:{end}"
 
@@ -251,15 +300,20 @@ def rows_xml(
     """
     from xlsxwriter.utility import xl_col_to_name
 
-    width = max((len(row) for row in rows), default=0)
+    width = rows_width(rows)
     styles = list(styles) + [""] * (width - len(styles))
     columns = [_Column(xl_col_to_name(c), styles[c], quoted) for c in range(width)]
     total = len(rows)
     for first in range(0, total, ROWS_PER_CHUNK):
-        chunk = rows[first : first + ROWS_PER_CHUNK]
-        count = len(chunk)
+        by_column: Iterable[Sequence[Cell]]
+        if isinstance(rows, ColumnRows):
+            by_column = [column[first : first + ROWS_PER_CHUNK] for column in rows.columns]
+            count = min(ROWS_PER_CHUNK, total - first)
+        else:
+            chunk = rows[first : first + ROWS_PER_CHUNK]
+            by_column = zip(*chunk) if len(set(map(len, chunk))) == 1 else itertools.zip_longest(*chunk)
+            count = len(chunk)
         numbers = [str(n) for n in range(first + SAMPLE_ROW, first + SAMPLE_ROW + count)]
-        by_column = zip(*chunk) if len(set(map(len, chunk))) == 1 else itertools.zip_longest(*chunk)
         pieces: Pieces = ['<row r="', numbers, '">']
         full = False  # some column has a cell in every row: no row is empty
         for column, values in zip(columns, by_column):
