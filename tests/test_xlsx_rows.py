@@ -316,3 +316,15 @@ def test_rows_kept_as_columns_are_a_sequence_of_rows() -> None:
         rows.append(["too", "many", "cells", "here"])
     with pytest.raises(ValueError):
         ColumnRows([[1, 2], [1]])
+
+
+def test_text_beyond_ascii_is_written_as_character_references(tmp_path: Path) -> None:
+    """The rows are ASCII: other characters as references (XML 1.0 §4.1), which an XML parser (defusedxml here)
+    turns back into the same text, in plain texts, repeated ones, escaped ones and beside blanks."""
+    texts = ["Küche", "2πfCV × 5 m", "IΔn = 30 mA", "中文 😀 𝄞", "a & ü", " ü padded ", "Küche"]
+    rows = [[t, t if i % 2 else None, "same ü"] for i, t in enumerate(texts)]
+    part = b"".join(rows_xml(rows, ["", "", ""]))
+    assert part.isascii() and b"&#" in part
+    root = DET.fromstring(b'<sheetData xmlns="' + MAIN[1:-1].encode() + b'">' + part + b"</sheetData>")
+    got = [["".join(c.itertext()) for c in row] for row in root]
+    assert got == [[v for v in row if v is not None] for row in rows]

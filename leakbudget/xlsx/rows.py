@@ -8,6 +8,10 @@ calls. Text is always text (never a formula, never markup): XML escapes, control
 literal ``_xHHHH_`` protected as ``_x005F_xHHHH_`` (ECMA-376 Part 1 §22.9.2.19, ST_Xstring). Lone surrogates and
 the noncharacters U+FFFE and U+FFFF, which XML 1.0 §2.2 excludes and which no reader we test decodes from an
 escape, become U+FFFD (XlsxWriter writes ``_xFFFE_``, which python-calamine shows as those seven characters).
+Characters beyond ASCII are written as character references (XML 1.0 §4.1, ``&#960;`` for π), which every XML
+reader turns back into the same characters: the rows are then ASCII, whose text Python joins and encodes to UTF-8
+by copying (text with one character beyond Latin-1 is held two bytes a character and encoded character by
+character).
 """
 
 from __future__ import annotations
@@ -203,8 +207,10 @@ class _Column:
             return [], False
         top = EXCEL_MAX_NUMBER
         if kinds == {str}:
-            if self.plain(set(values)):
-                return [self.start, numbers, self.text, values, "</t></is></c>"], True
+            distinct = set(values)
+            if self.plain(distinct):
+                shown = values if all(map(str.isascii, distinct)) else _as_ascii(values, distinct)
+                return [self.start, numbers, self.text, shown, "</t></is></c>"], True
             return [self.start, numbers, [self._text(v) for v in values]], True
         if kinds == {float}:
             total = sum(values)  # NaN or ±inf when a value is (or when the sum overflows)
@@ -220,9 +226,12 @@ class _Column:
         start, number, top = self.start, self.number, EXCEL_MAX_NUMBER
         kinds = set(map(type, values))
         if kinds == {str, type(None)}:
-            if self.plain(v for v in set(values) if v is not None):
+            distinct = set(values)
+            distinct.discard(None)
+            if self.plain(distinct):
                 text = self.text
-                return ["" if v is None else f"{start}{n}{text}{v}</t></is></c>" for v, n in zip(values, numbers)]
+                shown = values if all(map(str.isascii, distinct)) else _as_ascii(values, distinct)
+                return ["" if v is None else f"{start}{n}{text}{v}</t></is></c>" for v, n in zip(shown, numbers)]
             return ["" if v is None else f"{start}{n}{self._text(v)}" for v, n in zip(values, numbers)]
         if kinds <= {float, type(None)}:
             return [
@@ -259,7 +268,7 @@ class _Column:
         found = self.texts.get(text)
         if found is None:
             chosen = self.quoted if self.quoted and text.startswith(FORMULA_STARTS) else self.style
-            found = self.texts[text] = f'"{chosen}{text_cell(text)}'
+            found = self.texts[text] = f'"{chosen}{text_cell(text)}'.encode("ascii", "xmlcharrefreplace").decode()
         return found
 
     def plain(self, texts: Iterable[str]) -> bool:
@@ -277,6 +286,16 @@ class _Column:
         ):
             return False
         return max(map(len, texts), default=0) <= _PLAIN_LENGTH
+
+
+def _as_ascii(values: Sequence[Any], distinct: Iterable[str]) -> list[Any]:
+    """``values`` (texts of a plain chunk, perhaps None) with every character beyond ASCII as a character reference
+    (XML 1.0 §4.1, ``&#960;`` for π): each distinct text converted once, all of them in one call."""
+    texts = list(distinct)
+    ascii_texts = "\n".join(texts).encode("ascii", "xmlcharrefreplace").decode().split("\n")  # no "\n" in them
+    table: dict[Any, Any] = dict(zip(texts, ascii_texts))
+    table[None] = None
+    return list(map(table.__getitem__, values))
 
 
 def _shown(values: Sequence[Any], show: Callable[[Any], str]) -> list[str]:
