@@ -13,6 +13,7 @@ import difflib
 import gzip
 import math
 import os
+import random
 import re
 import shutil
 import signal
@@ -22,6 +23,7 @@ import subprocess
 import sys
 import time
 import zipfile
+from io import BytesIO
 from pathlib import Path
 
 import defusedxml.ElementTree as DET
@@ -641,3 +643,113 @@ def test_result_sheets_repeat_their_header_row_on_printed_pages(tmp_path: Path) 
     assert titles == [(str(names.index("Circuit results")), "'Circuit results'!$1:$1")]
     done = subprocess.run(["ssconvert", str(path), str(tmp_path / "out.csv")], capture_output=True)
     assert done.returncode == 0
+
+
+# ------------------------------------------------------------------------- unchanged entries, copied as they are
+
+
+def _raw(path: Path, name: str) -> tuple[zipfile.ZipInfo, bytes]:
+    """An entry's central directory record and its compressed bytes, found through its local header
+    (APPNOTE.TXT 4.3.7: 30 bytes, the name and the extra field, then the data)."""
+    with zipfile.ZipFile(path) as archive, open(path, "rb") as handle:
+        info = archive.getinfo(name)
+        handle.seek(info.header_offset)
+        header = handle.read(30)
+        assert header[:4] == b"PK\x03\x04"
+        name_length, extra_length = struct.unpack("<HH", header[26:30])
+        handle.seek(info.header_offset + 30 + name_length + extra_length)
+        return info, handle.read(info.compress_size)
+
+
+class _Unseekable:
+    """A write-only stream: zipfile then puts sizes and CRC-32 in data descriptors (flag bit 3, APPNOTE 4.3.9)."""
+
+    def __init__(self) -> None:
+        self.data = bytearray()
+
+    def write(self, b: bytes) -> int:
+        self.data += b
+        return len(b)
+
+    def flush(self) -> None:
+        pass
+
+
+def _repacked(tmp_path: Path, shape: str) -> Path:
+    """The Gnumeric fixture with three parts added (a few MB, one stored), packed in the given shape."""
+    random_bytes = random.Random(7).randbytes(1 << 20)
+    extra = {
+        "xl/media/big.bin": random_bytes + bytes(range(256)) * 8192,  # 3 MiB, half incompressible
+        "xl/media/stored.bin": random_bytes * 2,
+        "customXml/item9.xml": b"<x>" + b"same words again " * 50_000 + b"</x>",
+    }
+    with zipfile.ZipFile(DATA / "gnumeric.xlsx") as source:
+        parts = [(info, source.read(info)) for info in source.infolist()]
+    parts += [(zipfile.ZipInfo(name, (2024, 5, 6, 7, 8, 10)), data) for name, data in extra.items()]
+    target = tmp_path / f"{shape}.xlsx"
+    sink: _Unseekable | BytesIO = _Unseekable() if shape == "descriptors" else BytesIO()
+    # deflate level 1, where ours is 6: a part deflated again would not have the same compressed bytes
+    with zipfile.ZipFile(sink, "w", zipfile.ZIP_DEFLATED, compresslevel=1) as archive:  # type: ignore[arg-type]
+        for info, data in parts:
+            if shape == "zip64":  # ZIP64 extra fields in the local headers (APPNOTE.TXT 4.5.3)
+                with archive.open(info.filename, "w", force_zip64=True) as handle:
+                    handle.write(data)
+                continue
+            entry = zipfile.ZipInfo(info.filename, info.date_time)
+            entry.compress_type = zipfile.ZIP_STORED if info.filename.endswith("stored.bin") else zipfile.ZIP_DEFLATED
+            if shape == "bzip2" and info.filename.endswith("item9.xml"):
+                entry.compress_type = zipfile.ZIP_BZIP2  # a method copied the slow way (inflated, compressed again)
+            archive.writestr(entry, data, compresslevel=1)
+    data = bytes(sink.data) if isinstance(sink, _Unseekable) else sink.getvalue()
+    target.write_bytes(b"MZ self-extractor stub " * 100 + data if shape == "prefixed" else data)
+    return target
+
+
+@pytest.mark.parametrize("shape", ["deflated", "descriptors", "zip64", "prefixed", "bzip2"])
+def test_unchanged_entries_are_copied_compressed_as_they_are(tmp_path: Path, shape: str) -> None:
+    """An entry the write leaves alone keeps its compressed bytes, method and CRC-32 (APPNOTE.TXT: its sizes now in
+    the local header, no data descriptor); zipfile's own check and calamine read the result, cells unchanged."""
+    path = _repacked(tmp_path, shape)
+    before = entries(path)
+    if shape == "descriptors":
+        assert all(info.flag_bits & 0x08 for info in zipfile.ZipFile(path).infolist())
+    old = {name: _raw(path, name) for name in before if name not in REGISTRATION}
+    original_cells = cells(path)
+    write_sheets(path, [circuit_sheet(), load_sheet()])
+    with zipfile.ZipFile(path) as archive:
+        assert archive.testzip() is None
+    after = entries(path)
+    for name, (info, raw) in old.items():
+        assert after[name] == before[name], name
+        new_info, new_raw = _raw(path, name)
+        assert new_info.compress_type == info.compress_type and new_info.CRC == info.CRC, name
+        assert not new_info.flag_bits & 0x08, name
+        if info.compress_type != zipfile.ZIP_BZIP2:
+            assert new_raw == raw, name  # copied, not compressed again
+    got = cells(path)
+    assert {name: got[name] for name in original_cells} == original_cells
+    assert got["Circuit results"][1:] == CIRCUIT_ROWS
+
+
+def test_a_real_program_opens_a_package_whose_entries_were_copied_as_they_are(tmp_path: Path) -> None:
+    """Gnumeric reads the user's sheet and ours from a package written from data-descriptor entries."""
+    path = _repacked(tmp_path, "descriptors")
+    expected = real_program_csv(path, "Circuits")
+    write_sheets(path, [circuit_sheet()])
+    assert real_program_csv(path, "Circuits") == expected
+    rows = real_program_csv(path, "Circuit results")
+    assert [[r[0], float(r[1]), float(r[2]), r[3]] for r in rows[1:]] == CIRCUIT_ROWS
+
+
+def test_a_damaged_unchanged_entry_is_refused_not_copied(tmp_path: Path) -> None:
+    """A stored entry whose bytes no longer match its CRC-32 (APPNOTE.TXT 4.4.7): the write refuses, as zipfile
+    refuses to read it, and the workbook stays as it was."""
+    path = _repacked(tmp_path, "deflated")
+    info, raw = _raw(path, "xl/media/stored.bin")
+    data = bytearray(path.read_bytes())
+    start = data.index(raw)
+    data[start + 1000] ^= 0xFF
+    path.write_bytes(bytes(data))
+    with pytest.raises(WriteBackError, match=r"deflated.xlsx: the workbook's zip package is damaged .*Bad CRC-32"):
+        write_sheets(path, [circuit_sheet()])
+    assert path.read_bytes() == bytes(data)

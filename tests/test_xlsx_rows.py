@@ -19,7 +19,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from leakbudget.xlsx.package import SheetData, write_sheets
-from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER, ROWS_PER_CHUNK, escape_text, rows_xml
+from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER, ROWS_PER_CHUNK, ColumnRows, escape_text, rows_xml
 from tests.test_xlsx_package import DATA, MAIN, cells, entries, real_program_csv
 
 AWKWARD_TEXT = [
@@ -181,6 +181,63 @@ def test_any_rows_read_back_as_xlsxwriter_writes_them(tmp_path: Path, rows: list
     assert dimension(sheet_part(fast)) == dimension(entries(reference)["xl/worksheets/sheet1.xml"])
 
 
+COLUMN_VALUES = {
+    "text": st.one_of(
+        st.none(),
+        st.sampled_from(["K1", "catalogue", "=1+2", "-x", " pad", "a & b", "x|=y", "_x0041_"]),
+        st.text(max_size=12),
+    ),
+    "float": st.one_of(st.none(), st.sampled_from([0.0, -0.0, 230.0, 0.575, 1e-5, 1.5e300]), st.floats()),
+    "int": st.one_of(st.none(), st.sampled_from([0, 1, 2, -7]), st.integers(-(10**20), 10**20)),
+}
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(
+    kinds=st.lists(st.sampled_from(sorted(COLUMN_VALUES)), min_size=1, max_size=4),
+    data=st.data(),
+    height=st.integers(0, 14),
+    blanks=st.booleans(),
+)
+def test_columns_of_one_kind_read_back_as_xlsxwriter_writes_them(
+    tmp_path: Path, monkeypatch, kinds: list[str], data, height: int, blanks: bool
+) -> None:
+    """Columns all text, all floats or all ints (what result sheets hold), with repeated values, blanks, and rows
+    in pieces of four rows, given as rows or as columns (ColumnRows): the same cells as XlsxWriter's cell-by-cell
+    writing."""
+    from leakbudget.xlsx import rows as xlsx_rows
+
+    monkeypatch.setattr(xlsx_rows, "ROWS_PER_CHUNK", 4)
+    columns = []
+    for kind in kinds:
+        values = COLUMN_VALUES[kind] if blanks else COLUMN_VALUES[kind].filter(lambda v: v is not None)
+        pool = data.draw(st.lists(values, min_size=1, max_size=3))  # few distinct values: many repeats
+        columns.append([data.draw(st.sampled_from(pool) | values) for _ in range(height)])
+    rows = [list(row) for row in zip(*columns)]
+    rows = [
+        [v.replace("\ufffe", "\ufffd").replace("\uffff", "\ufffd") if isinstance(v, str) else v for v in row]
+        for row in rows
+    ]
+    folder = tmp_path / f"case{abs(hash(repr(rows)))}"
+    folder.mkdir(exist_ok=True)
+    header = [f"c{i}" for i in range(len(kinds))]
+    kept = ColumnRows([list(column) for column in zip(*rows)]) if rows and data.draw(st.booleans()) else rows
+    fast = fast_workbook(folder, "K", header, kept)  # rows as lists, or kept as their columns
+    reference = reference_workbook(folder / "reference.xlsx", "K", header, rows)
+    assert_same_cells(cells(fast)["K"], cells(reference)["K"])
+    assert dimension(sheet_part(fast)) == dimension(entries(reference)["xl/worksheets/sheet1.xml"])
+
+
+def test_repeated_numbers_are_written_exactly_signed_zeros_too() -> None:
+    """Each number's text is its shortest round-trip form (Python's repr), also where a piece of rows repeats a
+    few numbers (each formatted once) and where 0.0 and -0.0, equal as keys, are both among them."""
+    values = [0.0, -0.0, 230.0, 0.575, 230.0, -0.0] * 50
+    piece = b"".join(rows_xml([[v, 7] for v in values], ["", ""]))
+    written = re.findall(rb'<c r="A\d+"><v>([^<]*)</v>', piece)
+    assert [w.decode() for w in written] == [repr(v) for v in values]
+    assert re.findall(rb'<c r="B\d+"><v>([^<]*)</v>', piece) == [b"7"] * len(values)
+
+
 def test_every_row_keeps_its_columns_format(tmp_path: Path) -> None:
     """ECMA-376 Part 1 §18.8: each cell's s → cellXfs/xf → numFmtId → numFmt/@formatCode, on every row."""
     n = 2 * ROWS_PER_CHUNK + 7  # more than one piece of output
@@ -242,3 +299,32 @@ def test_a_sheet_streamed_with_zip64_sizes_reads_back(tmp_path: Path, monkeypatc
         assert info.extract_version >= 45  # APPNOTE.TXT 4.4.3.2: 4.5 = uses ZIP64 format extensions
     assert cells(path)["Big"] == [["circuit", "leakage_ma"], *rows]
     assert real_program_csv(path, "Big")[1:] == [["K1", "0.85"], ["K2", "1.4"]]
+
+
+def test_rows_kept_as_columns_are_a_sequence_of_rows() -> None:
+    """ColumnRows reads as the list of tuples zip makes of its columns (the standard library as reference)."""
+    columns = [["a", "b", "c"], [1.5, None, 3.0], [1, 2, 3]]
+    rows = ColumnRows([list(c) for c in columns])
+    expected = list(zip(*columns))
+    assert len(rows) == 3 and list(rows) == expected and rows[1] == expected[1] and rows[-1] == expected[-1]
+    assert rows[1:] == expected[1:] and rows[::-1] == expected[::-1]
+    rows.append(["d"])
+    assert rows[3] == ("d", None, None)
+    with pytest.raises(IndexError):
+        rows[4]
+    with pytest.raises(ValueError):
+        rows.append(["too", "many", "cells", "here"])
+    with pytest.raises(ValueError):
+        ColumnRows([[1, 2], [1]])
+
+
+def test_text_beyond_ascii_is_written_as_character_references(tmp_path: Path) -> None:
+    """The rows are ASCII: other characters as references (XML 1.0 §4.1), which an XML parser (defusedxml here)
+    turns back into the same text, in plain texts, repeated ones, escaped ones and beside blanks."""
+    texts = ["Küche", "2πfCV × 5 m", "IΔn = 30 mA", "中文 😀 𝄞", "a & ü", " ü padded ", "Küche"]
+    rows = [[t, t if i % 2 else None, "same ü"] for i, t in enumerate(texts)]
+    part = b"".join(rows_xml(rows, ["", "", ""]))
+    assert part.isascii() and b"&#" in part
+    root = DET.fromstring(b'<sheetData xmlns="' + MAIN[1:-1].encode() + b'">' + part + b"</sheetData>")
+    got = [["".join(c.itertext()) for c in row] for row in root]
+    assert got == [[v for v in row if v is not None] for row in rows]

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import cmath
 import math
-from collections.abc import Iterable, Iterator
+from collections.abc import Iterable, Iterator, Sequence
 from typing import Any
 
 from leakbudget.about import CAUTION, __version__
@@ -20,8 +20,10 @@ from leakbudget.protection import DeviceResult
 from leakbudget.readings import COVERAGE, THRESHOLDS, ReadingResult
 from leakbudget.risk import TripProbability, likelihood_text
 from leakbudget.xlsx.package import ChartSpec, SheetData
+from leakbudget.xlsx.rows import ColumnRows
 
 PROBABILITY_DIGITS = 6
+ROUNDING_BLOCK = 4096  # values rounded together by _rounded
 
 
 def _num(value: float | None, digits: int = 4) -> float | None:
@@ -368,11 +370,10 @@ READING_COLUMNS: tuple[tuple[str, str, str | None], ...] = (
 def _sheet(
     name: str,
     columns: tuple[tuple[str, str, str | None], ...],
-    records: list[dict[str, Any]],
+    rows: list[Sequence[Any]] | ColumnRows,
     footer: list[str],
     chart: ChartSpec | None = None,
 ) -> SheetData:
-    rows: list[list[Any]] = [[rec.get(key) for _, key, _ in columns] for rec in records]
     if footer:
         rows.append([None] * len(columns))
         rows.extend([[line] + [None] * (len(columns) - 1) for line in footer])
@@ -389,17 +390,143 @@ def _sheet(
     )
 
 
+def _records_rows(columns: tuple[tuple[str, str, str | None], ...], records: list[dict[str, Any]]) -> list[Any]:
+    return [[rec.get(key) for _, key, _ in columns] for rec in records]
+
+
+def _columns_rows(columns: tuple[tuple[str, str, str | None], ...], values: dict[str, list[Any]]) -> ColumnRows:
+    """Rows from a sheet's columns of values (one list per key of ``columns``), kept as columns."""
+    return ColumnRows([values[key] for _, key, _ in columns])
+
+
+def _rounded(values: list[float | None], digits: int = 4) -> list[float | None]:
+    """:func:`_num` of each value (None for None, NaN and ±inf, else ``round(float(value), digits)``), a column at
+    a time rather than a call per value, with the same results.
+
+    ``round(x, n)`` rounds the exact binary value of x to n decimals (ties to even) and returns the double nearest
+    that decimal (CPython, ``float.__round__``). Here y = x·10ⁿ is computed in floating point (its rounding error is
+    at most 2⁻⁵³·|y|, IEEE 754) and rounded to an integer k; wherever y lies farther than 2⁻⁵⁰·|y| from a half-
+    integer, the exact x·10ⁿ rounds to the same k, and k / 10ⁿ, one correctly rounded division of exact numbers,
+    is the double nearest k·10⁻ⁿ, i.e. ``round(x, n)``. Values nearer a tie, |y| ≥ 2⁵⁰ and anything but floats
+    and None go through :func:`_num` itself (computed, IEEE 754 arithmetic; tested against ``round``).
+    """
+    import numpy as np
+
+    kinds = set(map(type, values))
+    if not kinds <= {float, type(None)}:
+        return [_num(v, digits) for v in values]
+    if type(None) in kinds:
+        values = [math.nan if v is None else v for v in values]  # NaN gives None too
+    scale = 10.0**digits
+    out: list[float | None] = []
+    for start in range(0, len(values), ROUNDING_BLOCK):  # small arrays, reused from the heap and in the cache
+        block = values[start : start + ROUNDING_BLOCK]
+        with np.errstate(invalid="ignore", over="ignore"):
+            y = np.array(block, dtype=float) * scale
+            size = np.abs(y)
+            exact = (size < 2.0**50) & (np.abs(y - np.floor(y) - 0.5) > 2.0**-50 * size)
+        rounded: list[float | None] = (np.rint(y) / scale).tolist()
+        for i in np.flatnonzero(~exact).tolist():
+            rounded[i] = _num(block[i], digits)
+        out += rounded
+    return out
+
+
+def _phases_deg(phasors: list[complex]) -> list[float | None]:
+    """:func:`phase_deg` of each phasor [mA], a column at a time: None for a zero phasor, else its angle in
+    degrees to one decimal (NaN stays NaN, as ``round`` keeps it)."""
+    import numpy as np
+
+    angles = _rounded(list(map(math.degrees, map(cmath.phase, phasors))), 1)
+    values = np.array(phasors, dtype=complex)
+    for i in np.flatnonzero(np.isnan(values)).tolist():  # an angle is finite or NaN; _rounded made NaN None
+        angles[i] = math.nan if angles[i] is None else angles[i]
+    for i in np.flatnonzero(values == 0).tolist():  # abs(p) == 0 exactly when both parts are zero
+        angles[i] = None
+    return angles
+
+
+def _circuit_values(results: Sequence[CircuitResult]) -> dict[str, list[Any]]:
+    """The values :func:`circuit_dict` gives each circuit under the keys of :data:`CIRCUIT_COLUMNS`, made a column
+    at a time (a sheet of many circuits is written without a record per circuit)."""
+    circuits = [c.circuit for c in results]
+    levels = [c.guarding_device or c.circuit.device for c in results]
+    protected = [d.protected for d in levels]
+    risks = [c.risk for c in results]
+    digits = PROBABILITY_DIGITS
+    return {
+        "circuit": [x.circuit_id for x in circuits],
+        "device": [x.device.key for x in circuits],
+        "rcd_type": [x.rcd_type for x in circuits],
+        "system": [x.system for x in circuits],
+        "voltage_v": [x.voltage_v for x in circuits],
+        "frequency_hz": [x.frequency_hz for x in circuits],
+        "supply_source": [str(x.supply_source) for x in circuits],
+        "load_count": [c.load_count for c in results],
+        "cable_leakage_ma": _rounded([c.cable_ma for c in results]),
+        "leakage_ma": _rounded([c.leakage_ma for c in results]),
+        "phasor_ma": _rounded([c.phasor_ma for c in results]),
+        "budget_ma": _rounded([c.budget_ma for c in results]),
+        "budget_source": [str(c.budget_source) if p else None for c, p in zip(results, protected)],
+        "no_trip_ma": _rounded([d.no_trip_ma for d in levels]),
+        "no_trip_source": [str(d.no_trip_source) if p else None for d, p in zip(levels, protected)],
+        "trip_ma": _rounded([d.trip_ma for d in levels]),
+        "trip_source": [str(d.trip_source) if p else None for d, p in zip(levels, protected)],
+        "headroom_used": _rounded([c.headroom_used for c in results]),
+        "status": [c.status.value for c in results],
+        "largest_contributor": [c.largest for c in results],
+        "largest_contributor_ma": _rounded([c.largest_ma for c in results]),
+        "trip_probability": _rounded([r.dry if r else None for r in risks], digits),
+        "trip_probability_se": _rounded([r.dry_se if r else None for r in risks], digits),
+        "trip_probability_switch_on": _rounded([r.switch_on if r else None for r in risks], digits),
+        "trip_probability_switch_on_se": _rounded([r.switch_on_se if r else None for r in risks], digits),
+        "trip_probability_text": [likelihood_text(r) for r in risks],
+        "pulsating_dc_ma": _rounded([c.pulsating_dc_ma for c in results]),
+        "smooth_dc_ma": _rounded([c.smooth_dc_ma for c in results]),
+        "trip_equivalent_ma": _rounded([c.trip_equivalent_ma for c in results]),
+        "note": [x.note for x in circuits],
+    }
+
+
+def _load_values(results: Sequence[LoadResult]) -> dict[str, list[Any]]:
+    """The values :func:`load_dict` gives each load under the keys of :data:`LOAD_COLUMNS`, made a column at a
+    time (the sheet of a big workbook's loads is written without a record per load)."""
+    loads = [r.load for r in results]
+    phases = _phases_deg([r.phasor_ma for r in results])
+    return {
+        "load": [r.name for r in results],
+        "row": [x.row if x else None for x in loads],
+        "circuit": [r.circuit_id for r in results],
+        "appliance": [r.appliance.key if r.appliance else None for r in results],
+        "quantity": [r.quantity for r in results],
+        "per_unit_ma": _rounded([r.per_unit_ma for r in results]),
+        "leakage_ma": _rounded([r.leakage_ma for r in results]),
+        "phase_deg": phases,
+        "basis": [r.basis for r in results],
+        "source": [r.source for r in results],
+        "voltage_v": [r.voltage_v for r in results],
+        "frequency_hz": [r.frequency_hz for r in results],
+        "leg": [x.leg_text if x else None for x in loads],
+        "room": [x.room if x else None for x in loads],
+        "model": [x.model if x else None for x in loads],
+        "measured_on": [r.measured_on for r in results],
+    }
+
+
 def result_sheets(result: CheckResult) -> list[SheetData]:
-    """The ``Circuit results`` and ``Load results`` sheets for write-back."""
-    doc = to_json(result)
+    """The ``Circuit results`` and ``Load results`` sheets for write-back (and, when there are any, the shared
+    devices' and the readings' sheets): the cells hold the values of the ``--json`` document's records."""
+    project = result.project
+    risk = risk_summary(result)
     footer = [
         f"Written by leakbudget {__version__}; this sheet is replaced on every run.",
-        *(f"Default used: {d}" for d in doc["defaults_used"]),
-        *(f"Warning: {w}" for w in doc["warnings"]),
-        *(f"Trip likelihood: {line}" for line in (doc["risk"] or {}).get("method", [])),
+        *(f"Default used: {d}" for d in project.defaults_used),
+        *(f"Warning: {w}" for w in project.warnings),
+        *(f"Trip likelihood: {line}" for line in (risk or {}).get("method", [])),
         f"Caution: {CAUTION}",
     ]
     headers = [h for h, _, _ in CIRCUIT_COLUMNS]
+    circuits = result.circuits
     chart = (
         ChartSpec(
             title="Standing leakage against budget and no-trip level",
@@ -410,25 +537,32 @@ def result_sheets(result: CheckResult) -> list[SheetData]:
                 headers.index("No-trip level (mA)"),
             ),
             y_axis_title="mA",
-            anchor=f"B{len(doc['circuits']) + len(footer) + 4}",
-            data_rows=len(doc["circuits"]),
+            anchor=f"B{len(circuits) + len(footer) + 4}",
+            data_rows=len(circuits),
             colours=(SEGMENT_COLOURS[0], BUDGET_COLOUR, NO_TRIP_COLOUR),  # the report's colours for the same things
         )
-        if doc["circuits"]
+        if circuits
         else None
     )
     sheets = [
-        _sheet(CIRCUIT_RESULTS, CIRCUIT_COLUMNS, doc["circuits"], footer, chart),
-        _sheet(LOAD_RESULTS, LOAD_COLUMNS, doc["loads"], footer[:1]),
+        _sheet(
+            CIRCUIT_RESULTS, CIRCUIT_COLUMNS, _columns_rows(CIRCUIT_COLUMNS, _circuit_values(circuits)), footer, chart
+        ),
+        _sheet(LOAD_RESULTS, LOAD_COLUMNS, _columns_rows(LOAD_COLUMNS, _load_values(result.loads)), footer[:1]),
     ]
-    if doc["devices"]:
+    if result.devices:
         records = [
             {**d, "circuits_text": ", ".join(d["circuits"]), "lost_text": ", ".join(d["circuits_lost_on_trip"])}
-            for d in doc["devices"]
+            for d in map(device_dict, result.devices)
         ]
-        sheets.append(_sheet(DEVICE_RESULTS, DEVICE_COLUMNS, records, footer[:1]))
-    if doc["readings"]:
+        sheets.append(_sheet(DEVICE_RESULTS, DEVICE_COLUMNS, _records_rows(DEVICE_COLUMNS, records), footer[:1]))
+    if result.readings:
         sheets.append(
-            _sheet(READING_RESULTS, READING_COLUMNS, doc["readings"], [footer[0], f"Thresholds: {THRESHOLDS}"])
+            _sheet(
+                READING_RESULTS,
+                READING_COLUMNS,
+                _records_rows(READING_COLUMNS, readings_list(result)),
+                [footer[0], f"Thresholds: {THRESHOLDS}"],
+            )
         )
     return sheets

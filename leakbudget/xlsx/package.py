@@ -7,7 +7,8 @@ the user's) are grafted into the user's package, the rows generated into each sh
 Only what registering them needs is edited, by byte splices (:mod:`leakbudget.xlsx.xml_text`): ``xl/workbook.xml``
 (a ``<sheet>`` entry), ``xl/_rels/workbook.xml.rels``, ``[Content_Types].xml`` and additive entries in
 ``xl/styles.xml`` (:mod:`leakbudget.xlsx.styles`). Every other part is copied with the same decompressed bytes in
-the same entry order, so formulas, comments, charts, images and extensions we do not understand survive untouched.
+the same entry order, so formulas, comments, charts, images and extensions we do not understand survive untouched;
+a stored or deflated part is copied compressed as it is, after its CRC-32 has been checked (:func:`_copy_entry`).
 Package structure follows ECMA-376 Part 2 (Open Packaging Conventions): part names compare case-insensitively
 and relationship targets resolve against the source part's folder.
 
@@ -22,6 +23,7 @@ from __future__ import annotations
 import posixpath
 import re
 import shutil
+import struct
 import tempfile
 import time
 import zipfile
@@ -45,7 +47,7 @@ from leakbudget.xlsx.guard import (  # noqa: F401 (the limits are part of this m
     decoded,
     zip_problem,
 )
-from leakbudget.xlsx.rows import QUOTE_ROW, SAMPLE_ROW, SheetXml, with_rows
+from leakbudget.xlsx.rows import QUOTE_ROW, SAMPLE_ROW, SheetXml, rows_width, with_rows
 from leakbudget.xlsx.styles import merge_styles, remap_cell_styles
 from leakbudget.xlsx.xml_text import BadXmlError, Span, UnsafeXmlError, XmlPart, local_name, parse, quoteattr
 
@@ -390,12 +392,89 @@ def _write_package(
             if info.filename in pending:
                 _write_entry(out, _entry_like(info, info.filename), pending.pop(info.filename), progress)
             elif info.filename not in removed:
-                copy = _entry_like(info, info.filename, keep_time=True)
-                copy.file_size = info.file_size
-                with user.archive.open(info) as src, out.open(copy, "w") as dst:
-                    shutil.copyfileobj(src, dst, COPY_CHUNK_BYTES)
+                _copy_entry(user.archive, out, info)
         for name, data in pending.items():
             _write_entry(out, _entry_like(None, name), data, progress)
+
+
+# APPNOTE.TXT (PKWARE, version 6.3.10) 4.3.7: a local file header is these 30 bytes (signature, versions, flags,
+# method, time, date, CRC-32, sizes, name length, extra field length), then the name and the extra field; the
+# compressed data follows.
+_LOCAL_HEADER = struct.Struct("<4s2B4HL2L2H")
+_LOCAL_SIGNATURE = b"PK\x03\x04"
+# General purpose bits (APPNOTE.TXT 4.4.4) an entry copied as it is may carry: deflate's speed options (1, 2),
+# sizes in a data descriptor (3: the copy writes them in its local header instead) and UTF-8 names (11).
+_RAW_COPY_FLAGS = 0x0002 | 0x0004 | 0x0008 | 0x0800
+
+
+def _copy_entry(archive: zipfile.ZipFile, out: zipfile.ZipFile, info: zipfile.ZipInfo) -> None:
+    """Copy an entry the write leaves unchanged: its compressed bytes as they are (same method, CRC-32 and sizes),
+    once inflating them has checked their CRC-32 as a copy through zipfile does; an entry with anything unusual
+    (:func:`_compressed_start`) is inflated and deflated again."""
+    entry = _entry_like(info, info.filename, keep_time=True)
+    entry.file_size = info.file_size
+    start = _compressed_start(archive, info, out)
+    with archive.open(info) as src:
+        if start is None:
+            with out.open(entry, "w") as dst:
+                shutil.copyfileobj(src, dst, COPY_CHUNK_BYTES)
+            return
+        while src.read(COPY_CHUNK_BYTES):  # a damaged entry is refused, as before, and never copied
+            pass
+    _append_compressed(out, entry, info, archive.fp, start)  # type: ignore[arg-type]
+
+
+def _compressed_start(archive: zipfile.ZipFile, info: zipfile.ZipInfo, out: zipfile.ZipFile) -> int | None:
+    """Where the entry's compressed bytes start in ``archive``'s file (after its local header, which
+    ``archive.open`` checks), or None when they are not to be copied as they are: a method other than stored and
+    deflated, a flag beyond :data:`_RAW_COPY_FLAGS`, no local header there, or files that are not seekable."""
+    source, target = getattr(archive, "fp", None), getattr(out, "fp", None)
+    if (
+        info.compress_type not in (zipfile.ZIP_STORED, zipfile.ZIP_DEFLATED)
+        or info.flag_bits & ~_RAW_COPY_FLAGS
+        or source is None
+        or target is None
+        or not (source.seekable() and target.seekable())
+    ):
+        return None
+    source.seek(info.header_offset)
+    header = source.read(_LOCAL_HEADER.size)
+    if len(header) != _LOCAL_HEADER.size or not header.startswith(_LOCAL_SIGNATURE):
+        return None
+    name_length, extra_length = _LOCAL_HEADER.unpack(header)[-2:]
+    return info.header_offset + _LOCAL_HEADER.size + name_length + extra_length
+
+
+def _append_compressed(
+    out: zipfile.ZipFile, entry: zipfile.ZipInfo, info: zipfile.ZipInfo, source: IO[bytes], start: int
+) -> None:
+    """Append ``entry`` to ``out`` with ``info``'s compressed bytes, read from ``source`` at ``start``.
+
+    zipfile has no public way to do this; it uses four of ``ZipFile``'s attributes as ``ZipFile.open(…, "w")``
+    does (``fp``, ``start_dir``, ``filelist``, ``NameToInfo``) and ``ZipInfo.FileHeader``; the sizes and CRC-32
+    go into the local header (no data descriptor), with a ZIP64 extra field when they need one (APPNOTE.TXT
+    4.5.3), as ``ZipFile.close`` writes them into the central directory.
+    """
+    entry.compress_type, entry.CRC, entry.compress_size = info.compress_type, info.CRC, info.compress_size
+    if not entry.external_attr:
+        entry.external_attr = 0o600 << 16  # what ZipFile.open(…, "w") gives an entry without permissions
+    zip64 = entry.file_size > zipfile.ZIP64_LIMIT or entry.compress_size > zipfile.ZIP64_LIMIT
+    target = out.fp
+    assert target is not None
+    target.seek(out.start_dir)
+    entry.header_offset = target.tell()
+    target.write(entry.FileHeader(zip64))
+    source.seek(start)
+    left = info.compress_size
+    while left > 0:
+        chunk = source.read(min(left, COPY_CHUNK_BYTES))
+        if not chunk:
+            raise EOFError(f"entry {info.filename} ends early")
+        target.write(chunk)
+        left -= len(chunk)
+    out.start_dir = target.tell()
+    out.filelist.append(entry)
+    out.NameToInfo[entry.filename] = entry
 
 
 def _write_entry(
@@ -719,7 +798,7 @@ def _render(sheets: Sequence[SheetData]) -> bytes:
             for column, title in enumerate(sheet.header):
                 _write_text(worksheet, 0, column, str(title), bold)
             if sheet.rows:
-                width = max(len(sheet.header), max(map(len, sheet.rows)), *(c + 1 for c in sheet.number_formats))
+                width = max(len(sheet.header), rows_width(sheet.rows), *(c + 1 for c in sheet.number_formats))
                 for column in range(width):
                     worksheet.write_number(SAMPLE_ROW - 1, column, 0, formats.get(column))
                 worksheet.write_number(QUOTE_ROW - 1, 0, 0, quoted)  # the quote-prefix style's sample cell
