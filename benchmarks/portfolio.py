@@ -105,7 +105,7 @@ def machine_speedup(pool: ProcessPoolExecutor, n: int = 2_000_000, pieces: int =
 
 def separate(paths: list[Path], out: Path, env: dict[str, str]) -> float:
     """Wall seconds of one `leakbudget check` process per workbook, one after another."""
-    python = [sys.executable, "-m", "leakbudget", "check"]
+    python = [sys.executable, "-m", "leakbudget", "check", "--force"]
     shutil.rmtree(out, ignore_errors=True)
     out.mkdir()
     run([*python, str(paths[0]), "--out", str(out / paths[0].name)], env)  # untimed: bytecode compiled
