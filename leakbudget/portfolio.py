@@ -1,7 +1,7 @@
 """Many workbooks in one go: check or review a portfolio (a building's units, a landlord's homes) and summarise it.
 
 :func:`check_many` and :func:`review_many` find the workbooks (files named, and the workbooks in folders named),
-run the single-workbook job of :mod:`leakbudget.api` on each in its own worker process, and gather one
+run the single-workbook job of :mod:`leakbudget.api` on each in a worker process, and gather one
 :class:`WorkbookResult` per workbook, in the order found: its job (or its document, or only its summary record), or
 the one sentence saying why it could not be checked. A bad workbook never stops the others.
 
@@ -13,8 +13,8 @@ Local processes start by ``forkserver`` where the platform has it (Linux, macOS)
 ``fork``: a forked child copies the caller's threads' locks (the progress bar's refresh thread, a notebook's or a
 Dask client's threads) in whatever state they were, and can hang on one. The fork server is a clean process that
 imports the library once (:data:`WORKER_MODULES`) and forks each worker from itself, so a worker starts in
-milliseconds with everything imported. One worker (``jobs=1``) runs in this process: a pool of one only adds a
-process start and the pickling of every result.
+milliseconds with everything imported. This process is one of the ``jobs`` workers: it checks workbooks beside a
+pool of ``jobs - 1`` (with ``jobs=1``, alone), starting at once while the pool's processes start.
 """
 
 from __future__ import annotations
@@ -23,6 +23,7 @@ import math
 import os
 import stat
 import sys
+from collections import deque
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -47,6 +48,7 @@ Command = Literal["check", "review"]
 Keep = Literal["jobs", "documents", "summary"]
 
 # Imported once by the fork server (or by each spawned worker): every module a check or a review runs.
+POOL_AHEAD = 2  # workbooks handed to each pool worker ahead of time, so that it never waits for the next
 WORKER_MODULES = (
     "leakbudget.api",
     "leakbudget.output.check",
@@ -411,20 +413,32 @@ def _tell(progress: Progress | None, stage: str, done: int, total: int) -> None:
 
 
 def _run_locally(tasks: list[Task], workers: int, progress: Progress | None, stage: str) -> list[WorkbookResult]:
+    """Run the tasks on ``workers`` processes: this one and a pool of ``workers - 1``.
+
+    This process has the library loaded already, so it starts on the last workbooks at once while the pool's
+    processes start; the pool is fed from the front, a few workbooks ahead (:data:`POOL_AHEAD` each), so its
+    workers never wait for this process to hand out work. If the pool dies (a worker killed, out of memory), the
+    workbooks it held are reported as not checked and this process checks the rest itself.
+    """
     results: list[WorkbookResult | None] = [None] * len(tasks)
+    done = 0
+
+    def finished(i: int, result: WorkbookResult) -> None:
+        nonlocal done
+        results[i] = result
+        done += 1
+        _tell(progress, stage, done, len(tasks))
+
     _tell(progress, stage, 0, len(tasks))
-    if workers <= 1:
-        done = 0
+    if workers <= 1 or len(tasks) <= 1:
         try:
             for i, task in enumerate(tasks):
-                results[i] = run_task(task)
-                done += 1
-                _tell(progress, stage, done, len(tasks))
+                finished(i, run_task(task))
         except KeyboardInterrupt:
             raise PortfolioInterrupted(done, len(tasks)) from None
         return [r for r in results if r is not None]
 
-    from concurrent.futures import ProcessPoolExecutor, as_completed
+    from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
     from concurrent.futures.process import BrokenProcessPool
 
     def lost(i: int) -> WorkbookResult:
@@ -435,27 +449,40 @@ def _run_locally(tasks: list[Task], workers: int, progress: Progress | None, sta
             f"{tasks[i].path.name}`.",
         )
 
-    done = 0
-    pool = ProcessPoolExecutor(max_workers=workers, mp_context=_context(), initializer=_start_worker)
-    try:
-        futures = {}
-        for i, task in enumerate(tasks):
+    queue = deque(range(len(tasks)))
+    futures: dict[Future[WorkbookResult], int] = {}
+    broken = False
+    pool = ProcessPoolExecutor(max_workers=workers - 1, mp_context=_context(), initializer=_start_worker)
+
+    def collect(ready: Iterable[Future[WorkbookResult]]) -> None:
+        nonlocal broken
+        for future in ready:
+            i = futures.pop(future)
             try:
-                futures[pool.submit(run_task, task)] = i
-            except BrokenProcessPool:  # the pool died before all were handed out
-                results[i] = lost(i)
-        for future in as_completed(futures):
-            i = futures[future]
-            try:
-                results[i] = future.result()
+                result = future.result()
             except BrokenProcessPool:
-                results[i] = lost(i)
-            done += 1
-            _tell(progress, stage, done, len(tasks))
+                broken, result = True, lost(i)
+            finished(i, result)
+
+    try:
+        while queue or futures:
+            while queue and not broken and len(futures) < POOL_AHEAD * (workers - 1):
+                try:
+                    future = pool.submit(run_task, tasks[queue[0]])
+                except BrokenProcessPool:
+                    broken = True
+                else:
+                    futures[future] = queue.popleft()
+            if queue:
+                i = queue.pop()  # this process works from the back
+                finished(i, run_task(tasks[i]))
+                collect([f for f in futures if f.done()])
+            else:
+                collect(wait(futures, return_when=FIRST_COMPLETED).done)
     except KeyboardInterrupt:
         pool.shutdown(wait=True, cancel_futures=True)  # the workers ignore Ctrl-C and finish what they hold
-        finished = sum(f.done() and not f.cancelled() and f.exception() is None for f in futures)
-        raise PortfolioInterrupted(finished, len(tasks)) from None
+        held = sum(f.done() and not f.cancelled() and f.exception() is None for f in futures)
+        raise PortfolioInterrupted(done + held, len(tasks)) from None
     finally:
         pool.shutdown(wait=True)
     return [r for r in results if r is not None]
