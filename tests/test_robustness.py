@@ -245,6 +245,62 @@ def test_fast_and_parsed_scans_agree_and_cover_calamines_grid(cells: list[tuple[
             assert scan.rows >= len(grid) and scan.columns >= width
 
 
+@settings(max_examples=40, deadline=None)
+@given(
+    st.lists(st.tuples(st.integers(0, 300), st.integers(0, 40)), min_size=1, max_size=120, unique=True),
+    st.randoms(use_true_random=False),
+    st.sampled_from([64, 512, 4 << 20]),
+    st.sampled_from([1, package_guard.MAX_BEYOND_CELLS]),
+)
+def test_the_fast_scan_finds_the_rectangle_whatever_the_order_of_rows_and_chunks(
+    cells: list[tuple[int, int]], order: random.Random, chunk_bytes: int, beyond: int
+) -> None:
+    """Rows written in any order, some cells formatted but empty, and the part read in chunks of a few bytes to
+    4 MiB, a chunk's cells listed after one cell beyond its first guess or after the usual number: the fast scan's
+    rectangle is exactly the grid python-calamine builds from the part, and agrees with the parsed scan (its cells
+    are where they are written, so the parsed scan counts the same)."""
+    import io
+    from unittest import mock
+
+    from leakbudget.xlsx.cells import column_letter
+
+    rows: dict[int, list[bytes]] = {}
+    for r, c in sorted(cells):
+        ref = b"%s%d" % (column_letter(c).encode(), r + 1)
+        rows.setdefault(r, []).append(
+            b'<c r="%s" s="1"/>' % ref if (r + c) % 5 == 0 else b'<c r="%s"><v>1</v></c>' % ref
+        )
+    written = list(rows.items())
+    order.shuffle(written)
+    xml = _sheet_xml([b'<row r="%d">' % (r + 1) + b"".join(cs) + b"</row>" for r, cs in written])
+    buffer = io.BytesIO()
+    with (
+        zipfile.ZipFile(io.BytesIO(_one_sheet_package())) as base,
+        zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as out,
+    ):
+        for info in base.infolist():
+            out.writestr(info.filename, xml if info.filename == "xl/worksheets/sheet1.xml" else base.read(info))
+    archive = zipfile.ZipFile(io.BytesIO(buffer.getvalue()))
+    info = archive.getinfo("xl/worksheets/sheet1.xml")
+    with (
+        mock.patch.object(package_guard, "SCAN_CHUNK_BYTES", chunk_bytes),
+        mock.patch.object(package_guard, "MAX_BEYOND_CELLS", beyond),
+    ):
+        fast = _fast_scan(archive, info, MAX_SHEET_CELLS)
+    parsed = _parsed_scan(archive, info, MAX_SHEET_CELLS)
+    grid = (
+        CalamineWorkbook.from_filelike(io.BytesIO(buffer.getvalue()))
+        .get_sheet_by_name("S")
+        .to_python(skip_empty_area=False)
+    )
+    valued = [(r, c) for r, c in cells if (r + c) % 5 != 0]
+    expected = (1 + max(r for r, _ in valued), 1 + max(c for _, c in valued)) if valued else (0, 0)
+    assert fast is not None
+    assert (fast.rows, fast.columns) == (parsed.rows, parsed.columns) == expected
+    if valued:  # calamine's grid from A1 to the last value
+        assert (len(grid), max(len(row) for row in grid)) == expected
+
+
 @functools.lru_cache(maxsize=1)
 def _one_sheet_package() -> bytes:
     """A one-sheet workbook (sheet 'S') whose sheet part the scan property test replaces."""

@@ -22,6 +22,7 @@ The scan has a fast path over the raw bytes for packages written the usual way (
 
 from __future__ import annotations
 
+import functools
 import html
 import mmap
 import posixpath
@@ -437,7 +438,10 @@ class GuardedPackage:
 # --------------------------------------------------------------------------------------------- sheet scans
 
 _PREFIX = rb"(?:[A-Za-z_][\w.-]*:)?"
-_ATTRIBUTE = rb' [A-Za-z_][\w:.-]*+="[^"<>]*+"'  # one space before it, double quotes (possessive: fast)
+# one space before it, double quotes (possessive, and \w spelt out: fast)
+_ATTRIBUTE = rb' [A-Za-z_][A-Za-z0-9_:.-]*+="[^"<>]*+"'
+_REF = rb'([A-Z]{1,3})([1-9][0-9]{0,6})"'  # after 'c r="': the reference of a strict start tag
+_OPEN_TAIL = rb"(?:(?! r=)" + _ATTRIBUTE + rb")*+ ?>"  # its other attributes (no second r) and its end
 
 
 class _CellPatterns:
@@ -446,10 +450,9 @@ class _CellPatterns:
     def __init__(self, prefix: bytes) -> None:
         self.any = re.compile(rb"<" + prefix + rb"c[\s/>]")
         # a cell start tag that may have children: its reference first, no second r attribute
-        self.open = re.compile(
-            rb"<" + prefix + rb'c r="([A-Z]{1,3})([1-9][0-9]{0,6})"(?:(?! r=)' + _ATTRIBUTE + rb")*+ ?>"
-        )
+        self.open = re.compile(rb"<" + prefix + rb'c r="' + _REF + _OPEN_TAIL)
         self.empty = re.compile(rb"<" + prefix + rb"c(?:" + _ATTRIBUTE + rb")*+ ?/>")
+        self.odd = re.compile(rb"<" + prefix + rb'c(?=[\s/>])(?! r="' + _REF + _OPEN_TAIL + rb")")  # not open
         formula = rb"<" + prefix + rb"f(?:\s[^<>]*)?(?:/>|>([^<]*)</" + prefix + rb"f>)"
         value = rb"(<" + prefix + rb"v\s*/>|<" + prefix + rb"v>([^<]*)</" + prefix + rb"v>)?"
         self.formula_cell = re.compile(
@@ -512,15 +515,34 @@ def _refuse_doctype(head: bytes) -> None:
 
 
 def _scan_chunk(data: bytes, scan: SheetScan) -> bool:
+    """Add one chunk's rectangle and notes to ``scan``; False when a cell tag is in neither strict form.
+
+    An unprefixed chunk is checked by one search for a tag in neither form, and its rectangle grown by a search
+    for the cells beyond it (:func:`_grow_rectangle`): no list of its cells is made. A prefixed chunk, or one
+    whose cells are far out of order, has its cell tags listed."""
     patterns = _PREFIXED if b":c" in data else _PLAIN
-    rest = patterns.empty.sub(b"", data)  # most cells of a formatted but empty area are empty-element tags
-    opened = patterns.open.findall(rest)
-    if len(patterns.any.findall(rest)) != len(opened):  # a cell tag in neither strict form
-        return False
-    if opened:
-        scan.rows = max(scan.rows, max(int(row) for _, row in opened))
-        scan.columns = max(scan.columns, 1 + max(column_index(c.decode()) for c in {c for c, _ in opened}))
-    if b"f>" in rest or b"f/>" in rest or b"f " in rest:
+    # most cells of a formatted but empty area are empty-element tags; without a "/>" the chunk has none
+    rest = patterns.empty.sub(b"", data) if b"/>" in data else data
+    listed = patterns is _PREFIXED
+    if not listed:
+        if _PLAIN.odd.search(rest) is not None:  # a cell tag in neither strict form
+            return False
+        listed = not _grow_rectangle(rest, scan)
+    if listed:
+        opened = patterns.open.findall(rest)
+        if len(patterns.any.findall(rest)) != len(opened):  # a cell tag in neither strict form
+            return False
+        if opened:
+            scan.rows = max(scan.rows, max(int(row) for _, row in opened))
+            scan.columns = max(scan.columns, 1 + max(column_index(c.decode()) for c in {c for c, _ in opened}))
+    _scan_notes(rest, patterns, scan)
+    return True
+
+
+def _scan_notes(rest: bytes, patterns: _CellPatterns, scan: SheetScan) -> None:
+    """Note the formulas without a saved result and the error values in ``rest`` (a chunk without its strict
+    empty-element cell tags). A formula element starts with ``<f`` or ``<prefix:f``; an error cell has ``t="e"``."""
+    if b"<f" in rest or (patterns is _PREFIXED and b":f" in rest):
         for col, row, attrs, formula, value_tag, value in patterns.formula_cell.findall(rest):
             cell_type = _TYPE.search(attrs)
             kind = cell_type.group(1) if cell_type else b"n"
@@ -531,7 +553,59 @@ def _scan_chunk(data: bytes, scan: SheetScan) -> bool:
     if b't="e"' in rest:
         for col, row, value in patterns.error_cell.findall(rest):
             _note(scan, col, row, None, value)
-    return True
+
+
+MAX_BEYOND_CELLS = 64  # cells found beyond a chunk's guessed rectangle before its cells are listed instead
+
+
+def _grow_rectangle(rest: bytes, scan: SheetScan) -> bool:
+    """Grow ``scan``'s rectangle to the cells of ``rest`` (an unprefixed chunk without its empty-element cell
+    tags, every cell tag in it a strict start tag) without listing them: guess the rectangle from the chunk's
+    last cell and its first row's last cell, then search for a cell beyond the guess and grow the guess by each
+    one found. False (``scan`` unchanged) after :data:`MAX_BEYOND_CELLS` of them (the cells are far out of
+    order), and the caller lists the cells instead."""
+    bounds = (scan.rows, scan.columns)
+    for start in (rest.rfind(b'<c r="'), rest.rfind(b'<c r="', 0, max(rest.find(b"</row>"), 0))):
+        bounds = _with_cell(rest, start, bounds)
+    at = 0
+    for _ in range(MAX_BEYOND_CELLS):
+        found = _beyond(*bounds).search(rest, at)
+        if found is None:
+            scan.rows, scan.columns = bounds
+            return True
+        at = found.start()
+        bounds = _with_cell(rest, at, bounds)
+        at += 1
+    return False
+
+
+def _with_cell(rest: bytes, start: int, bounds: tuple[int, int]) -> tuple[int, int]:
+    """``bounds`` (rows, columns) grown to the strict cell start tag at ``start`` (none when ``start`` is -1)."""
+    cell = _PLAIN.open.match(rest, start) if start >= 0 else None
+    if cell is None:
+        return bounds
+    return max(bounds[0], int(cell.group(2))), max(bounds[1], 1 + column_index(cell.group(1).decode()))
+
+
+@functools.lru_cache(maxsize=256)
+def _beyond(rows: int, columns: int) -> re.Pattern[bytes]:
+    """The start of a cell start tag whose reference lies below row ``rows`` or right of the first ``columns``
+    columns."""
+    letters = _greater(column_letter(columns - 1) if columns else "", "[A-Z]", "Z", "[A-Z]")
+    digits = _greater(str(rows) if rows else "", "[1-9]", "9", "[0-9]")
+    return re.compile(rb'<c r="(?:' + letters + rb"[0-9]|[A-Z]{1,3}" + digits + rb'")')
+
+
+def _greater(text: str, lead: str, high: str, each: str) -> bytes:
+    """A pattern for the words greater than ``text`` in the order of cell references (longer is greater, then
+    letter by letter): column letters, and row numbers, which have no leading zero. ``each`` is the class of any
+    character (``high`` the last), ``lead`` of a longer word's first one."""
+    words = [f"{lead}{each}{{{len(text)},}}"]
+    for i, char in enumerate(text):
+        if char < high:
+            after = chr(ord(char) + 1)
+            words.append(f"{text[:i]}[{after}-{high}]{each}{{{len(text) - i - 1}}}")
+    return ("(?:" + "|".join(words) + ")").encode()
 
 
 def _note(scan: SheetScan, col: bytes, row: bytes, formula: bytes | None, error: bytes | None) -> None:
