@@ -219,23 +219,13 @@ def test_fast_and_parsed_scans_agree_and_cover_calamines_grid(cells: list[tuple[
         ref = f"{column_letter(c)}{r + 1}".encode()
         rows.setdefault(r, []).append(CELL_FORMS[form](r, c, ref))
     xml = _sheet_xml([b'<row r="%d">' % (r + 1) + b"".join(cs) + b"</row>" for r, cs in sorted(rows.items())])
-    buffer = io.BytesIO()
-    with (
-        zipfile.ZipFile(io.BytesIO(_one_sheet_package())) as base,
-        zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as out,
-    ):
-        for info in base.infolist():
-            out.writestr(info.filename, xml if info.filename == "xl/worksheets/sheet1.xml" else base.read(info))
-    archive = zipfile.ZipFile(io.BytesIO(buffer.getvalue()))
-    info = archive.getinfo("xl/worksheets/sheet1.xml")
+    package, archive, info = _with_sheet(xml)
     parsed = _parsed_scan(archive, info, MAX_SHEET_CELLS)
     fast = _fast_scan(archive, info, MAX_SHEET_CELLS)
     assert fast is None or fast.notes == parsed.notes
     try:
         grid = (
-            CalamineWorkbook.from_filelike(io.BytesIO(buffer.getvalue()))
-            .get_sheet_by_name("S")
-            .to_python(skip_empty_area=False)
+            CalamineWorkbook.from_filelike(io.BytesIO(package)).get_sheet_by_name("S").to_python(skip_empty_area=False)
         )
     except Exception:  # calamine refuses some hostile forms outright; nothing to cover then
         return
@@ -273,26 +263,14 @@ def test_the_fast_scan_finds_the_rectangle_whatever_the_order_of_rows_and_chunks
     written = list(rows.items())
     order.shuffle(written)
     xml = _sheet_xml([b'<row r="%d">' % (r + 1) + b"".join(cs) + b"</row>" for r, cs in written])
-    buffer = io.BytesIO()
-    with (
-        zipfile.ZipFile(io.BytesIO(_one_sheet_package())) as base,
-        zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as out,
-    ):
-        for info in base.infolist():
-            out.writestr(info.filename, xml if info.filename == "xl/worksheets/sheet1.xml" else base.read(info))
-    archive = zipfile.ZipFile(io.BytesIO(buffer.getvalue()))
-    info = archive.getinfo("xl/worksheets/sheet1.xml")
+    package, archive, info = _with_sheet(xml)
     with (
         mock.patch.object(package_guard, "SCAN_CHUNK_BYTES", chunk_bytes),
         mock.patch.object(package_guard, "MAX_BEYOND_CELLS", beyond),
     ):
         fast = _fast_scan(archive, info, MAX_SHEET_CELLS)
     parsed = _parsed_scan(archive, info, MAX_SHEET_CELLS)
-    grid = (
-        CalamineWorkbook.from_filelike(io.BytesIO(buffer.getvalue()))
-        .get_sheet_by_name("S")
-        .to_python(skip_empty_area=False)
-    )
+    grid = CalamineWorkbook.from_filelike(io.BytesIO(package)).get_sheet_by_name("S").to_python(skip_empty_area=False)
     valued = [(r, c) for r, c in cells if (r + c) % 5 != 0]
     expected = (1 + max(r for r, _ in valued), 1 + max(c for _, c in valued)) if valued else (0, 0)
     assert fast is not None
@@ -302,6 +280,21 @@ def test_the_fast_scan_finds_the_rectangle_whatever_the_order_of_rows_and_chunks
 
 
 @functools.lru_cache(maxsize=1)
+def _with_sheet(xml: bytes) -> tuple[bytes, zipfile.ZipFile, zipfile.ZipInfo]:
+    """The one-sheet package with ``xml`` as its sheet: its bytes, the open archive and the sheet's entry."""
+    import io
+
+    buffer = io.BytesIO()
+    with (
+        zipfile.ZipFile(io.BytesIO(_one_sheet_package())) as base,
+        zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as out,
+    ):
+        for info in base.infolist():
+            out.writestr(info.filename, xml if info.filename == "xl/worksheets/sheet1.xml" else base.read(info))
+    archive = zipfile.ZipFile(io.BytesIO(buffer.getvalue()))
+    return buffer.getvalue(), archive, archive.getinfo("xl/worksheets/sheet1.xml")
+
+
 def _one_sheet_package() -> bytes:
     """A one-sheet workbook (sheet 'S') whose sheet part the scan property test replaces."""
     with tempfile.TemporaryDirectory() as tmp:
