@@ -6,10 +6,19 @@ unit name once" and its conversions for the values.
 
 from __future__ import annotations
 
-import pytest
+import unicodedata
+from pathlib import Path
 
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from leakbudget.catalogue import WAVEFORMS
 from leakbudget.errors import WorkbookProblems
 from leakbudget.input import units
+from leakbudget.input.ranges import STANDING_LEAKAGE_MA
+from leakbudget.input.schema import LOADS
+from leakbudget.input.table import BAD, NO, YES, Problems, RawTable, Unreadable
 from leakbudget.workbook.read import read_project
 from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
 
@@ -102,3 +111,94 @@ def test_pint_looks_up_each_distinct_unit_name_once(make_workbook, monkeypatch):
     ureg = units.registry()
     expected = [ureg.Quantity(float(t.split()[0]), t.split()[1]).to("mA").magnitude for t in texts]
     assert [x.leakage_ma for x in project.loads[:3]] == pytest.approx(expected, rel=1e-12)  # pint's own answers
+
+
+# ---------------------------------------------------------------- whole columns agree with the row accessors
+
+_CELLS = st.one_of(
+    st.none(),
+    st.sampled_from(["", "  ", "yes", "No", "x", "maybe", "plug", "SINE", "pulsating_dc", "L1", " 12 ", "1,500"]),
+    st.sampled_from(["0.5 mA", "750 uA", "-3", "2 kg", "5/2", "1e400", "4.7 nF", "nan", "30 %", "0"]),
+    st.floats(allow_nan=True, allow_infinity=True, width=32),
+    st.integers(-5, 5),
+    st.booleans(),
+    st.builds(lambda m: Unreadable(m, "fix it"), st.sampled_from(["a formula with no saved result", "#DIV/0!"])),
+)
+
+
+def _table(rows: list[list]) -> RawTable:
+    grid = [["Load", "Circuit", "Quantity", "Leakage", "Stays", "Waveform"], *rows]
+    table = RawTable.from_grid(Path("plan.xlsx"), "Loads", grid, LOADS)
+    table.problems = Problems(Path("plan.xlsx"))
+    return table
+
+
+READS = [
+    ("text", "Load", ()),
+    ("number", "Quantity", ("dimensionless",), {"positive": True}),
+    ("number", "Leakage", ("mA",), {"plausible": STANDING_LEAKAGE_MA}),
+    ("number", "Circuit", ("A",), {"non_negative": False}),
+    ("flag", "Stays", ()),
+    ("choice", "Waveform", (WAVEFORMS,)),
+    ("choice", "Circuit", (("plug", "fixed"), "plug")),
+]
+
+
+def _expected(kind: str, cell: object, args: tuple, kwargs: dict) -> object:
+    """What a cell reads as, written out from the rules the README gives for each kind of column (the reference):
+    BAD for a cell that is a problem."""
+    if isinstance(cell, Unreadable) or (isinstance(cell, float) and cell != cell):
+        return BAD
+    blank = cell is None or (isinstance(cell, str) and not cell.strip())
+    if kind == "number":
+        if blank:
+            return None
+        try:
+            value = units.to_unit(cell, *args)
+        except units.UnitProblem:
+            return BAD
+        positive, non_negative = kwargs.get("positive", False), kwargs.get("non_negative", True)
+        plausible = kwargs.get("plausible")
+        if (positive and value <= 0) or (non_negative and value < 0):
+            return BAD
+        return BAD if plausible is not None and not plausible.low <= value <= plausible.high else value
+    if blank:
+        text = None
+    elif isinstance(cell, bool):
+        text = "yes" if cell else "no"
+    elif isinstance(cell, float) and cell.is_integer():
+        text = str(int(cell))
+    else:
+        text = unicodedata.normalize("NFC", str(cell).strip())
+    if kind == "text":
+        return text
+    if kind == "flag":
+        if text is None:
+            return None
+        return True if text.lower() in YES else False if text.lower() in NO else BAD
+    allowed, default = args[0], (args[1] if len(args) > 1 else None)
+    if text is None:
+        return default
+    return next((a for a in allowed if a.lower() == text.lower().replace("_", "-")), BAD)
+
+
+@settings(max_examples=80, deadline=None)
+@given(st.lists(st.lists(_CELLS, min_size=6, max_size=6), min_size=1, max_size=12))
+def test_a_column_read_whole_answers_what_each_row_answers(rows):
+    """Each whole-column read gives, row by row, what the column's rules give (:func:`_expected`), BAD exactly
+    where they find a problem; the row accessor answers the same and records the problem there."""
+    header = ["Load", "Circuit", "Quantity", "Leakage", "Stays", "Waveform"]
+    for kind, column, args, *options in READS:
+        kwargs = options[0] if options else {}
+        whole, by_row = _table(rows), _table(rows)
+        plural = {"text": "texts", "number": "numbers", "flag": "flags", "choice": "choices"}[kind]
+        column_values = getattr(whole, plural)(column, *args, **kwargs)
+        for k, row in enumerate(by_row.rows):
+            expected = _expected(kind, row[1][header.index(column)], args, kwargs)
+            assert column_values[k] == expected or (column_values[k] is BAD and expected is BAD), (kind, row)
+            answer = getattr(by_row, kind)(row, column, *args, **kwargs)
+            if expected is BAD:
+                assert by_row.failed(row, column) and answer in (None, args[-1] if kind == "choice" else None)
+            else:
+                assert not by_row.failed(row, column) and answer == expected, (kind, row, answer)
+        assert not whole.problems  # reading a column whole records nothing

@@ -23,9 +23,13 @@ class Plausible:
     source: str
     hint: str
 
+    def holds(self, value: float) -> bool:
+        """True when ``value`` (in ``unit``) is believable."""
+        return self.low <= value <= self.high
+
     def problem(self, value: float) -> str | None:
         """Why ``value`` (in ``unit``) is not believable ("not plausible for …"), or None when it is."""
-        if self.low <= value <= self.high:
+        if self.holds(value):
             return None
         return f"not plausible for {self.what} ({self.low:g} to {self.high:g} {self.unit}, {self.source})"
 

@@ -5,7 +5,10 @@ every problem can be reported as "file, sheet, row, column (cell): what is wrong
 
 Access is by row (``table.number(row, "Leakage", "mA")``), but the work is done by column: the first access to a
 column cleans, and for numbers converts, the whole column at once, each distinct text once, and later accesses are
-list lookups. A bad cell is remembered, not raised, until its row asks for it. The reader puts such cells in the
+list lookups. A bad cell is remembered, not raised, until its row asks for it. A sheet of many rows is read a
+column at a time (:meth:`RawTable.texts`, :meth:`~RawTable.numbers`, :meth:`~RawTable.flags`,
+:meth:`~RawTable.choices`): the same values the row accessors answer, with :data:`BAD` where the row accessor would
+find a problem; only such a cell is then read again through its row accessor, which records the problem. The reader puts such cells in the
 grid itself too (:class:`Unreadable`: a formula without saved result, an error value) and merged ranges' values
 (:class:`MergedValue`).
 
@@ -20,13 +23,14 @@ import csv
 import io
 import re
 import unicodedata
-from collections.abc import Iterator, Mapping, Sequence
+from collections.abc import Iterable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from datetime import date, datetime, time, timedelta
 from importlib import resources
+from operator import itemgetter
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, final
+from typing import TYPE_CHECKING, Any, Final, final
 
 from leakbudget.errors import PROBLEM_LIMIT, CatalogueError, WorkbookError, WorkbookProblems
 from leakbudget.input.schema import Column, Sheet, normalise
@@ -43,6 +47,19 @@ NO = frozenset({"no", "n", "false", "0", ""})
 _DATES = (datetime, date, time, timedelta)
 
 Row = tuple[int, list[Any]]  # (1-based row number in the file, cell values)
+
+
+@final
+class _Bad:
+    """The type of :data:`BAD`."""
+
+    __slots__ = ()
+
+    def __repr__(self) -> str:
+        return "BAD"
+
+
+BAD: Final = _Bad()  # in a column read whole: this cell has a problem; read it with the row accessor to record it
 
 
 @final  # never subclassed: `type(x) is Unreadable` tells it apart from every other value
@@ -218,6 +235,9 @@ class RawTable:
     _numbers: dict[tuple[str, str, str | None], list[float | Unreadable | None]] = field(
         default_factory=dict, repr=False
     )
+    _whole: dict[tuple[Any, ...], list[Any]] = field(default_factory=dict, repr=False)  # texts(), numbers(), …
+    _cells: list[list[Any]] | None = field(default=None, init=False, repr=False)  # the rows' cells, in order
+    _width: int = field(default=0, init=False, repr=False)  # the shortest row's number of cells
 
     @classmethod
     def from_grid(
@@ -324,9 +344,13 @@ class RawTable:
         try:
             yield
         except WorkbookError as exc:
-            if self.problems is None:
-                raise
-            self.problems.add(exc)
+            self.record(exc)
+
+    def record(self, problem: WorkbookError) -> None:
+        """Record a problem a row's own checks raised, or raise it again when not collecting."""
+        if self.problems is None:
+            raise problem
+        self.problems.add(problem)
 
     def failed(self, row: Row, *columns: str) -> bool:
         """True when a problem was recorded on ``row`` (in one of ``columns``, when given); never when not
@@ -350,10 +374,7 @@ class RawTable:
     def raw(self, row: Row, column: str) -> Any:
         """The cell's value (a merged range's, on each row it covers), or None when the column is absent or the
         cell blank. Refuses an :class:`Unreadable` cell (see :meth:`refuse`)."""
-        values = self._values.get(column)
-        if values is None:
-            values = self._values[column] = self._column_values(column)
-        value = values[self._place[row[0]]]
+        value = self._value_column(column)[self._place[row[0]]]
         if type(value) is MergedValue:
             value = _plain(value.value)
         if type(value) is Unreadable:
@@ -361,16 +382,37 @@ class RawTable:
             return None
         return value
 
+    def _value_column(self, column: str) -> list[Any]:
+        values = self._values.get(column)
+        if values is None:
+            values = self._values[column] = self._column_values(column)
+        return values
+
+    def _grid(self) -> list[list[Any]]:
+        if self._cells is None:
+            self._cells = [cells for _, cells in self.rows]
+            self._width = min(map(len, self._cells), default=0)
+        return self._cells
+
     def _column_values(self, column: str) -> list[Any]:
         """Every row's cell of ``column``, indexed by row number, blanks (see :func:`is_blank`) as None."""
-        values: list[Any] = [None] * len(self.rows)  # one per kept row: a far stray cell costs nothing here
         j = self.columns.get(normalise(column))
         if j is None:
-            return values
-        for k, (_, cells) in enumerate(self.rows):
-            if j < len(cells):
-                values[k] = _plain(cells[j])
-        return values
+            return [None] * len(self.rows)  # one per kept row: a far stray cell costs nothing here
+        grid = self._grid()
+        if j < self._width:  # every row has the cell: one C-level pass
+            cells_j: Iterable[Any] = map(itemgetter(j), grid)
+        else:
+            cells_j = (cells[j] if j < len(cells) else "" for cells in grid)
+        # _plain, inlined for the common plain text and number (a million cells at building scale)
+        return [
+            (v if v.strip() else None)
+            if (kind := type(v)) is str
+            else (v if v == v else NAN)
+            if kind is float
+            else _plain(v)
+            for v in cells_j
+        ]
 
     def error(self, row: Row | int, column: str | None, message: str, hint: str | None = None) -> WorkbookError:
         number = row if isinstance(row, int) else row[0]
@@ -385,17 +427,33 @@ class RawTable:
 
     def text(self, row: Row, column: str) -> str | None:
         """The cell as stripped text (numbers as written, 12.0 → '12'), or None when blank."""
-        texts = self._texts.get(column)
-        if texts is None:
-            values = self._values.get(column)
-            if values is None:
-                values = self._values[column] = self._column_values(column)
-            texts = self._texts[column] = [_as_text(value) for value in values]
-        text = texts[self._place[row[0]]]
+        text = self._text_column(column)[self._place[row[0]]]
         if type(text) is Unreadable:
             self.refuse(row, column, text.message, hint=text.hint)
             return None
         return text
+
+    def _text_column(self, column: str) -> list[str | Unreadable | None]:
+        texts = self._texts.get(column)
+        if texts is None:
+            nfc = unicodedata.normalize
+            texts = self._texts[column] = [
+                nfc("NFC", v.strip()) if type(v) is str else _as_text(v) for v in self._value_column(column)
+            ]
+        return texts
+
+    def texts(self, column: str) -> list[Any]:
+        """Every row's :meth:`text` of ``column``, in row order; :data:`BAD` where :meth:`text` finds a problem."""
+        key = ("text", column)
+        got: list[Any] | None = self._whole.get(key)
+        if got is None:
+            texts: list[Any] = self._text_column(column)
+            if Unreadable in set(map(type, texts)):
+                got = [BAD if type(t) is Unreadable else t for t in texts]
+            else:
+                got = texts  # the same list: no cell is unreadable
+            self._whole[key] = got
+        return got
 
     def number(
         self,
@@ -412,34 +470,70 @@ class RawTable:
         when collecting problems).
 
         With ``plausible`` (a range in ``target_unit``), a value outside it is refused with the range's hint."""
+        k = self._place[row[0]]
+        checked = self.numbers(
+            column, default_unit, target_unit, positive=positive, non_negative=non_negative, plausible=plausible
+        )[k]
+        if checked is not BAD:
+            return checked
+        result = self._number_column(column, default_unit, target_unit)[k]
+        problem: tuple[str, str | None]
+        if type(result) is Unreadable:
+            problem = (result.message, result.hint)
+        elif positive and result <= 0:  # type: ignore[operator]
+            problem = (f"'{self.text(row, column)}' must be greater than zero", None)
+        elif non_negative and result < 0:  # type: ignore[operator]
+            problem = (f"'{self.text(row, column)}' must not be negative", None)
+        else:
+            assert plausible is not None and result is not None
+            why = plausible.problem(result)
+            problem = (f"'{self.text(row, column)}' is {result:g} {plausible.unit}, {why}", plausible.hint)
+        self.refuse(row, column, problem[0], hint=problem[1])
+        return None
+
+    def numbers(
+        self,
+        column: str,
+        default_unit: str,
+        target_unit: str | None = None,
+        *,
+        positive: bool = False,
+        non_negative: bool = True,
+        plausible: Plausible | None = None,
+    ) -> list[Any]:
+        """Every row's :meth:`number` of ``column`` (same arguments), in row order; :data:`BAD` where
+        :meth:`number` finds a problem."""
+        key = ("number", column, default_unit, target_unit, positive, non_negative, plausible)
+        got: list[Any] | None = self._whole.get(key)
+        if got is None:
+
+            def good(value: float) -> bool:
+                return (
+                    (not positive or value > 0)
+                    and (not non_negative or value >= 0)
+                    and (plausible is None or plausible.holds(value))
+                )
+
+            got = self._whole[key] = [
+                v if v is None or (type(v) is not Unreadable and good(v)) else BAD
+                for v in self._number_column(column, default_unit, target_unit)
+            ]
+        return got
+
+    def _number_column(
+        self, column: str, default_unit: str, target_unit: str | None
+    ) -> list[float | Unreadable | None]:
         key = (column, default_unit, target_unit)
         numbers = self._numbers.get(key)
         if numbers is None:
             numbers = self._numbers[key] = self._column_numbers(column, default_unit, target_unit)
-        result = numbers[self._place[row[0]]]
-        if result is None:
-            return None
-        problem: tuple[str, str | None] | None = None
-        if type(result) is Unreadable:
-            problem = (result.message, result.hint)
-        elif positive and result <= 0:
-            problem = (f"'{self.text(row, column)}' must be greater than zero", None)
-        elif non_negative and result < 0:
-            problem = (f"'{self.text(row, column)}' must not be negative", None)
-        elif plausible is not None and (why := plausible.problem(result)) is not None:
-            problem = (f"'{self.text(row, column)}' is {result:g} {plausible.unit}, {why}", plausible.hint)
-        if problem is not None:
-            self.refuse(row, column, problem[0], hint=problem[1])
-            return None
-        return result  # type: ignore[return-value]
+        return numbers
 
     def _column_numbers(
         self, column: str, default_unit: str, target_unit: str | None
     ) -> list[float | Unreadable | None]:
         """Every row's cell of ``column`` converted (each distinct text or number once), problems kept as such."""
-        values = self._values.get(column)
-        if values is None:
-            values = self._values[column] = self._column_values(column)
+        values = self._value_column(column)
         converted: dict[Any, float | Unreadable] = {}  # str and float keys only (True == 1 must not share an entry)
         out: list[float | Unreadable | None] = []
         for value in values:
@@ -461,32 +555,65 @@ class RawTable:
 
     def flag(self, row: Row, column: str) -> bool | None:
         """The cell as yes/no (yes, y, true, 1, x / no, n, false, 0), or None when blank."""
-        value = self.raw(row, column)
-        if value is None:
-            return None
-        text = self.text(row, column)
-        low = (text or "").lower()
-        if low in YES:
-            return True
-        if low in NO:
-            return False
-        self.refuse(row, column, f"'{text}' is not yes or no", hint="type yes or no")
+        value = self.flags(column)[self._place[row[0]]]
+        if value is not BAD:
+            return value
+        text = self.text(row, column)  # an unreadable cell is refused here
+        if text is not None:
+            self.refuse(row, column, f"'{text}' is not yes or no", hint="type yes or no")
         return None
+
+    def flags(self, column: str) -> list[Any]:
+        """Every row's :meth:`flag` of ``column``, in row order; :data:`BAD` where :meth:`flag` finds a problem."""
+        key = ("flag", column)
+        got: list[Any] | None = self._whole.get(key)
+        if got is None:
+            texts = self._text_column(column)
+            words: dict[Any, Any] = {t: _yes_no(t) for t in set(texts) if type(t) is str}
+            got = self._whole[key] = [None if t is None else words.get(t, BAD) for t in texts]
+        return got
 
     def choice(self, row: Row, column: str, allowed: tuple[str, ...], default: str | None = None) -> str | None:
         """The cell as one of ``allowed`` (case-insensitive), or ``default`` when blank (None when it is none of them,
         when collecting problems)."""
-        text = self.text(row, column)
+        value = self.choices(column, allowed, default)[self._place[row[0]]]
+        if value is not BAD:
+            return value
+        text = self.text(row, column)  # an unreadable cell is refused here
         if text is None:
             return default
-        low = text.lower().replace("_", "-")
-        for a in allowed:
-            if low == a.lower():
-                return a
         self.refuse(
             row, column, f"'{text}' is not one of {', '.join(allowed)}", hint=f"use one of {', '.join(allowed)}"
         )
         return None
+
+    def choices(self, column: str, allowed: tuple[str, ...], default: str | None = None) -> list[Any]:
+        """Every row's :meth:`choice` of ``column`` (same arguments), in row order; :data:`BAD` where
+        :meth:`choice` finds a problem."""
+        key = ("choice", column, allowed, default)
+        got: list[Any] | None = self._whole.get(key)
+        if got is None:
+            texts = self._text_column(column)
+            words: dict[Any, Any] = {t: _chosen(t, allowed) for t in set(texts) if type(t) is str}
+            got = self._whole[key] = [default if t is None else words.get(t, BAD) for t in texts]
+        return got
+
+
+def _yes_no(text: str) -> bool | _Bad:
+    low = text.lower()
+    if low in YES:
+        return True
+    if low in NO:
+        return False
+    return BAD
+
+
+def _chosen(text: str, allowed: tuple[str, ...]) -> str | _Bad:
+    low = text.lower().replace("_", "-")
+    for a in allowed:
+        if low == a.lower():
+            return a
+    return BAD
 
 
 def _plain(value: Any) -> Any:

@@ -40,7 +40,7 @@ from leakbudget.input.schema import (
     Sheet,
     normalise,
 )
-from leakbudget.input.table import MergedRange, Problems, RawTable, Row, Unreadable
+from leakbudget.input.table import BAD, MergedRange, Problems, RawTable, Row, Unreadable
 from leakbudget.input.units import UnitProblem
 from leakbudget.leakage import LEG_ANGLES_DEG, SYSTEMS, capacitive_current_ma, parse_leg, resistive_current_ma
 from leakbudget.locations import LocationRow, rows_from_table
@@ -659,17 +659,37 @@ def read_loads(
     unusable: Unusable | None = None,
 ) -> list[Load]:
     """The Loads sheet; every problem names its cell. A collecting table records every bad cell of every row;
-    references to the ids and keys in ``unusable`` are not reported again."""
+    references to the ids and keys in ``unusable`` are not reported again.
+
+    The sheet is read a column at a time (a building has a hundred thousand loads); a cell the column finds
+    :data:`~leakbudget.input.table.BAD` is read again through its row accessor, which records its problem."""
     shared = shared or {}
     unusable = unusable if unusable is not None else Unusable()
     by_id = {c.circuit_id.lower(): c for c in circuits}
+    appliances = catalogue.appliances
+    names, cids, keys = table.texts("Load"), table.texts("Circuit"), table.texts("Appliance")
+    quantities = table.numbers("Quantity", "dimensionless", positive=True)
+    leakages = table.numbers("Leakage", "mA", plausible=STANDING_LEAKAGE_MA)
+    y_caps = table.numbers("Y capacitance", "nF")
+    resistances = table.numbers("Insulation resistance", "Mohm", positive=True)
+    leg_texts, powers, currents = table.texts("Leg"), table.numbers("Power", "W"), table.numbers("Current", "A")
+    rooms, stays, notes = table.texts("Room"), table.flags("Stays"), table.texts("Note")
+    waveforms, models = table.choices("Waveform", cat.WAVEFORMS), table.texts("Model")
+    bonds, groups = table.flags("Neutral-earth bond"), table.texts("Group")
+    connections = table.texts("Connection")
+    devices_named = bool(shared or unusable.devices or "device" in unusable.whole)
+    legs_read: dict[tuple[str, str], tuple[str, ...] | str] = {}  # (Leg text, system) -> lines, or the problem
     loads: list[Load] = []
-    for row in table.rows:
-        with table.reading(row):
-            name = table.text(row, "Load")
+    for k, row in enumerate(table.rows):
+        try:
+            name = names[k]
+            if name is BAD:
+                name = table.text(row, "Load")
             if name is None and not table.failed(row, "Load"):
                 table.refuse(row, "Load", "the load name is blank", hint="name every load")
-            cid = table.text(row, "Circuit")
+            cid = cids[k]
+            if cid is BAD:
+                cid = table.text(row, "Circuit")
             circuit = None
             if cid is not None:
                 circuit = by_id.get(cid.lower())
@@ -681,17 +701,21 @@ def read_loads(
                         hint="use a circuit id from the Circuits sheet, or leave it blank to have "
                         "`leakbudget split` place the load",
                     )
-            key = table.text(row, "Appliance")
+            key = keys[k]
+            if key is BAD:
+                key = table.text(row, "Appliance")
             if key is not None:
                 key = key.lower()
-                if key not in catalogue.appliances and not unusable.has("appliance", key):
+                if key not in appliances and not unusable.has("appliance", key):
                     table.refuse(
                         row,
                         "Appliance",
                         f"'{key}' is not in the appliance catalogue",
                         hint="see `leakbudget appliances WORD`, or add your own row on an Appliances sheet",
                     )
-            qty_value = table.number(row, "Quantity", "dimensionless", positive=True)
+            qty_value = quantities[k]
+            if qty_value is BAD:
+                qty_value = table.number(row, "Quantity", "dimensionless", positive=True)
             if qty_value is not None and not float(qty_value).is_integer():
                 table.refuse(
                     row,
@@ -699,10 +723,17 @@ def read_loads(
                     f"'{table.text(row, 'Quantity')}' is not a whole number",
                     hint="type a whole number of identical units",
                 )
-            leakage = table.number(row, "Leakage", "mA", plausible=STANDING_LEAKAGE_MA)
-            y_cap = table.number(row, "Y capacitance", "nF")
-            ins_r = table.number(row, "Insulation resistance", "Mohm", positive=True)
-            _refuse_implausible_components(table, row, circuit, y_cap, ins_r)
+            leakage = leakages[k]
+            if leakage is BAD:
+                leakage = table.number(row, "Leakage", "mA", plausible=STANDING_LEAKAGE_MA)
+            y_cap = y_caps[k]
+            if y_cap is BAD:
+                y_cap = table.number(row, "Y capacitance", "nF")
+            ins_r = resistances[k]
+            if ins_r is BAD:
+                ins_r = table.number(row, "Insulation resistance", "Mohm", positive=True)
+            if y_cap is not None or ins_r is not None:
+                _refuse_implausible_components(table, row, circuit, y_cap, ins_r)
             figures = ("Leakage", "Y capacitance", "Insulation resistance", "Appliance")
             if leakage is None and y_cap is None and ins_r is None and key is None and not table.failed(row, *figures):
                 table.refuse(
@@ -712,13 +743,47 @@ def read_loads(
                     hint="give a Leakage, a Y capacitance or Insulation resistance, or an Appliance key",
                 )
             system = circuit.system if circuit is not None else "three"
-            appliance = catalogue.appliances.get(key) if key else None
-            leg_text = table.text(row, "Leg") or _default_leg(appliance, system)
-            legs: tuple[str, ...] = ()
-            try:
-                legs = parse_leg(leg_text, system)
-            except ValueError as exc:
-                table.refuse(row, "Leg", str(exc))
+            leg_text = leg_texts[k]
+            if leg_text is BAD:
+                leg_text = table.text(row, "Leg")
+            if leg_text is None:
+                leg_text = _default_leg(appliances.get(key) if key else None, system)
+            legs = legs_read.get((leg_text, system))
+            if legs is None:
+                try:
+                    legs = parse_leg(leg_text, system)
+                except ValueError as exc:
+                    legs = str(exc)
+                legs_read[(leg_text, system)] = legs
+            if isinstance(legs, str):
+                table.refuse(row, "Leg", legs)
+                legs = ()
+            power, current = powers[k], currents[k]
+            if power is BAD:
+                power = table.number(row, "Power", "W")
+            if current is BAD:
+                current = table.number(row, "Current", "A")
+            room, stay, note = rooms[k], stays[k], notes[k]
+            if room is BAD:
+                room = table.text(row, "Room")
+            if stay is BAD:
+                stay = table.flag(row, "Stays")
+            if note is BAD:
+                note = table.text(row, "Note")
+            waveform, model, bond, group = waveforms[k], models[k], bonds[k], groups[k]
+            if waveform is BAD:
+                waveform = table.choice(row, "Waveform", cat.WAVEFORMS)
+            if model is BAD:
+                model = table.text(row, "Model")
+            device_id = (
+                _protected_by(table, row, shared, board_level=False, unusable=unusable) if devices_named else None
+            )
+            if bond is BAD:
+                bond = table.flag(row, "Neutral-earth bond")
+            connection = connections[k]
+            connection = _connection(table, row) if connection is not None else None
+            if group is BAD:
+                group = table.text(row, "Group")
             load = Load(
                 name=name or "",
                 circuit_id=circuit.circuit_id if circuit else None,
@@ -727,25 +792,25 @@ def read_loads(
                 leakage_ma=leakage,
                 y_capacitance_nf=y_cap,
                 insulation_resistance_mohm=ins_r,
-                power_w=table.number(row, "Power", "W"),
-                current_a=table.number(row, "Current", "A"),
+                power_w=power,
+                current_a=current,
                 leg=legs,
                 leg_text="-".join(legs),
-                room=table.text(row, "Room"),
-                stays=bool(table.flag(row, "Stays")),
-                note=table.text(row, "Note"),
+                room=room,
+                stays=bool(stay),
+                note=note,
                 row=row[0],
-                waveform=table.choice(row, "Waveform", cat.WAVEFORMS),
-                model=table.text(row, "Model"),
-                protected_by=_protected_by(table, row, shared, board_level=False, unusable=unusable)
-                if shared or unusable.devices or "device" in unusable.whole
-                else None,
-                neutral_earth_bond=table.flag(row, "Neutral-earth bond"),
-                connection=_connection(table, row),
-                group=table.text(row, "Group"),
+                waveform=waveform,
+                model=model,
+                protected_by=device_id,
+                neutral_earth_bond=bond,
+                connection=connection,
+                group=group,
             )
             if not table.failed(row):
                 loads.append(load)
+        except WorkbookError as exc:  # a problem the row's own checks raised
+            table.record(exc)
     return loads
 
 
