@@ -314,33 +314,38 @@ def estimate(project: Project) -> list[LoadResult]:
     settings = project.settings
     basis = settings.basis
     first_line = float(settings["Line imbalance"])
-    voltage = np.empty(n)
-    frequency = np.empty(n)
+    volts: list[float] = [0.0] * n
+    hertz: list[float] = [0.0] * n
     systems: list[str] = ["three"] * n  # an unplaced load's legs were read as on a three-phase circuit
     apps: list[Appliance | None] = [None] * n
     for i, load in enumerate(loads):
         circuit = circuits.get(load.circuit_id) if load.circuit_id else None
         if circuit is not None:
-            voltage[i], frequency[i] = circuit.voltage_v, circuit.frequency_hz
+            volts[i], hertz[i] = circuit.voltage_v, circuit.frequency_hz
             systems[i] = circuit.system
         else:
-            voltage[i], frequency[i] = _fallback_supply(project, load)
+            volts[i], hertz[i] = _fallback_supply(project, load)
         if load.appliance_key:
             apps[i] = appliances.get(load.appliance_key)
+    voltage, frequency = np.array(volts, dtype=float), np.array(hertz, dtype=float)
     quantity = np.array([x.quantity for x in loads], dtype=float)
     per_unit, per_unit_phasor, is_measured, is_computed, imbalance = per_unit_leakage(
         loads, apps, systems, voltage, frequency, basis, first_line
     )
-    phasor = per_unit_phasor * quantity
+    # Python floats and complexes, element by element, from whole arrays (numpy's scalars are slow to take apart)
+    volts, hertz = voltage.tolist(), frequency.tolist()
+    per_units, totals = per_unit.tolist(), (per_unit * quantity).tolist()
+    phasors, imbalances = (per_unit_phasor * quantity).tolist(), (imbalance * quantity).tolist()
+    measured, computed = is_measured.tolist(), is_computed.tolist()
 
     catalogue_texts: dict[tuple[str, float, float], str] = {}
     results: list[LoadResult] = []
     for i, load in enumerate(loads):
-        v, f = float(voltage[i]), float(frequency[i])
+        v, f = volts[i], hertz[i]
         appliance = apps[i]
-        if is_measured[i]:
+        if measured[i]:
             kind, text = MEASURED, "measured (your Leakage value)"
-        elif is_computed[i]:
+        elif computed[i]:
             kind, text = COMPUTED, _computed_text(load, v, f)
         else:
             assert appliance is not None  # the reader guarantees a leakage source
@@ -356,14 +361,14 @@ def estimate(project: Project) -> list[LoadResult]:
                 load=load,
                 appliance=appliance,
                 quantity=load.quantity,
-                per_unit_ma=float(per_unit[i]),
-                leakage_ma=float(per_unit[i] * quantity[i]),
-                phasor_ma=complex(phasor[i]),
+                per_unit_ma=per_units[i],
+                leakage_ma=totals[i],
+                phasor_ma=complex(phasors[i]),
                 basis=kind,
                 source=text,
                 voltage_v=v,
                 frequency_hz=f,
-                imbalance_ma=complex(imbalance[i] * quantity[i]),
+                imbalance_ma=complex(imbalances[i]),
             )
         )
     for circuit in project.circuits:
