@@ -20,6 +20,7 @@ from hypothesis import strategies as st
 
 from leakbudget.xlsx.package import SheetData, write_sheets
 from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER, ROWS_PER_CHUNK, ColumnRows, escape_text, rows_xml
+from leakbudget.xlsx.zipped import deflated
 from tests.test_xlsx_package import DATA, MAIN, cells, entries, real_program_csv
 
 AWKWARD_TEXT = [
@@ -287,11 +288,28 @@ def test_progress_hears_every_row_once_in_order() -> None:
     assert b"".join(pieces).count(b"<row ") == total
 
 
-def test_a_sheet_streamed_with_zip64_sizes_reads_back(tmp_path: Path, monkeypatch) -> None:
-    """Sheets of more than ZIP64_ROWS rows get ZIP64 sizes (APPNOTE.TXT 4.5.3); both readers must accept them."""
+@pytest.mark.parametrize("how", ["deflated by zlib-ng", "streamed through zipfile"])
+def test_a_sheet_with_zip64_sizes_reads_back(tmp_path: Path, monkeypatch, how: str) -> None:
+    """A sheet part beyond zip's 32-bit sizes gets ZIP64 sizes (APPNOTE.TXT 4.5.3), whether deflated whole (sizes
+    known: the limit is lowered to reach it) or streamed (more than ZIP64_ROWS rows); both readers accept them."""
     from leakbudget.xlsx import package as xlsx_package
 
-    monkeypatch.setattr(xlsx_package, "ZIP64_ROWS", 0)
+    if how == "deflated by zlib-ng":
+        write_package = xlsx_package._write_package
+
+        def with_a_low_limit(*args, **kwargs):  # noqa: ANN002, ANN003, ANN202 (only while our package is written)
+            with monkeypatch.context() as inside:
+                inside.setattr(zipfile, "ZIP64_LIMIT", 64)
+                return write_package(*args, **kwargs)
+
+        monkeypatch.setattr(xlsx_package, "_write_package", with_a_low_limit)
+        parts = []
+        monkeypatch.setattr(
+            xlsx_package, "deflated", lambda chunks, entry: parts.append(entry) or deflated(chunks, entry)
+        )
+    else:
+        monkeypatch.setattr(xlsx_package, "ZIP64_ROWS", 0)
+        monkeypatch.setattr(xlsx_package, "can_append", lambda out: False)
     rows = [["K1", 0.85], ["K2", 1.4]]
     path = fast_workbook(tmp_path, "Big", ["circuit", "leakage_ma"], rows)
     with zipfile.ZipFile(path) as archive:
@@ -299,6 +317,8 @@ def test_a_sheet_streamed_with_zip64_sizes_reads_back(tmp_path: Path, monkeypatc
         assert info.extract_version >= 45  # APPNOTE.TXT 4.4.3.2: 4.5 = uses ZIP64 format extensions
     assert cells(path)["Big"] == [["circuit", "leakage_ma"], *rows]
     assert real_program_csv(path, "Big")[1:] == [["K1", "0.85"], ["K2", "1.4"]]
+    if how == "deflated by zlib-ng":
+        assert [e.filename for e in parts] == ["xl/worksheets/leakbudget_sheet1.xml"]
 
 
 def test_rows_kept_as_columns_are_a_sequence_of_rows() -> None:

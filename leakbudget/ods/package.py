@@ -37,6 +37,7 @@ from leakbudget.xlsx.files import COPY_CHUNK_BYTES, rewrite
 from leakbudget.xlsx.guard import MAX_INDEX_PART_BYTES, ODS_MIMETYPE, zip_problem
 from leakbudget.xlsx.package import SheetData, WriteResult
 from leakbudget.xlsx.xml_text import BadXmlError, UnsafeXmlError, parse, quoteattr
+from leakbudget.xlsx.zipped import write_deflated
 
 ODS_SUFFIX = ".ods"
 SIGNATURES = "META-INF/documentsignatures.xml"
@@ -313,9 +314,7 @@ def _write_package(archive: zipfile.ZipFile, entries: dict[str, zipfile.ZipInfo]
             if info.filename == MIMETYPE:
                 continue
             if info.filename == CONTENT:
-                entry = _entry_like(info, keep_time=False)
-                entry.compress_type = zipfile.ZIP_DEFLATED
-                out.writestr(entry, new)
+                write_deflated(out, _entry_like(info, keep_time=False), [new])
                 continue
             copy = _entry_like(info)
             if info.is_dir():
