@@ -10,12 +10,17 @@ invented workbook of benchmarks/workbooks.py. It prints:
 - `check --json` peak memory against `check --out`'s at N loads. Target ≤ 1.2×.
 - `review --out` printing to a terminal-wide pipe against `review --json` at M loads (default 10,000). Target
   ≤ 1.3×.
+
+Each command runs once untimed, then `--runs` times (default 3), and its least disturbed (fastest) run counts.
+Python's compiled bytecode is kept in a scratch folder (PYTHONPYCACHEPREFIX), as an installed package has it: with
+PYTHONDONTWRITEBYTECODE=1 a source checkout would compile every leakbudget module on every start.
 """
 
 from __future__ import annotations
 
 import argparse
 import os
+import shutil
 import subprocess
 import sys
 import tempfile
@@ -40,9 +45,13 @@ with zipfile.ZipFile(sys.argv[3]) as done:
 """
 
 
+BYTECODE = Path(tempfile.mkdtemp(prefix="leakbudget-bytecode-"))
+
+
 def run(command: list[str]) -> tuple[float, float]:
     """CPU seconds and peak resident memory [MB] of one process."""
-    env = {**os.environ, "PYTHONPATH": str(ROOT), "COLUMNS": "120"}
+    env = {key: value for key, value in os.environ.items() if key != "PYTHONDONTWRITEBYTECODE"}
+    env.update(PYTHONPATH=str(ROOT), PYTHONPYCACHEPREFIX=str(BYTECODE), COLUMNS="120")
     process = subprocess.Popen(command, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     _, status, usage = os.wait4(process.pid, 0)
     code = os.waitstatus_to_exitcode(status)
@@ -51,37 +60,47 @@ def run(command: list[str]) -> tuple[float, float]:
     return usage.ru_utime + usage.ru_stime, usage.ru_maxrss / 1024
 
 
-def best(command: list[str], runs: int) -> tuple[float, float]:
-    results = [run(command) for _ in range(runs)]
-    return min(r[0] for r in results), max(r[1] for r in results)
+def best(commands: dict[str, list[str]], runs: int) -> dict[str, tuple[float, float]]:
+    """Each command's least CPU time and greatest peak memory over ``runs`` runs, the commands taking turns (so
+    that a slower spell of a shared machine weighs on all of them alike), after one untimed run of each in order
+    (it compiles the bytecode and warms the file cache)."""
+    for command in commands.values():
+        run(command)
+    results: dict[str, list[tuple[float, float]]] = {name: [] for name in commands}
+    for _ in range(runs):
+        for name, command in commands.items():
+            results[name].append(run(command))
+    return {name: (min(r[0] for r in got), max(r[1] for r in got)) for name, got in results.items()}
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--loads", type=int, default=100_000)
     parser.add_argument("--review-loads", type=int, default=10_000)
-    parser.add_argument("--runs", type=int, default=1)
+    parser.add_argument("--runs", type=int, default=3)
     args = parser.parse_args()
     python = sys.executable
     with tempfile.TemporaryDirectory() as folder:
         big = make_workbook(Path(folder) / "site.xlsx", args.loads)
         out = Path(folder) / "out.xlsx"
-        check_cpu, check_mb = best(
-            [python, "-m", "leakbudget", "check", str(big), "--out", str(out), "--force"], args.runs
-        )
         copy = Path(folder) / "copy.xlsx"
-        floor_cpu, _ = best([python, "-c", FLOOR, str(big), str(copy), str(out)], args.runs)
-        json_cpu, json_mb = best([python, "-m", "leakbudget", "check", str(big), "--json", "--no-write"], args.runs)
-        with zipfile.ZipFile(out) as done:
-            result_mb = sum(i.file_size for i in done.infolist() if i.file_size > 1_000_000) / 1e6
         review_book = make_workbook(Path(folder) / "review.xlsx", args.review_loads)
         review_out = Path(folder) / "review-out.xlsx"
-        terminal_cpu, _ = best(
-            [python, "-m", "leakbudget", "review", str(review_book), "--out", str(review_out), "--force"], args.runs
+        lb = [python, "-m", "leakbudget"]
+        got = best(
+            {
+                "check": [*lb, "check", str(big), "--out", str(out), "--force"],
+                "floor": [python, "-c", FLOOR, str(big), str(copy), str(out)],  # after check: it deflates check's XML
+                "json": [*lb, "check", str(big), "--json", "--no-write"],
+                "review": [*lb, "review", str(review_book), "--out", str(review_out), "--force"],
+                "review json": [*lb, "review", str(review_book), "--json", "--no-write"],
+            },
+            args.runs,
         )
-        review_json_cpu, _ = best(
-            [python, "-m", "leakbudget", "review", str(review_book), "--json", "--no-write"], args.runs
-        )
+        (check_cpu, check_mb), (floor_cpu, _), (json_cpu, json_mb) = got["check"], got["floor"], got["json"]
+        terminal_cpu, review_json_cpu = got["review"][0], got["review json"][0]
+        with zipfile.ZipFile(out) as done:
+            result_mb = sum(i.file_size for i in done.infolist() if i.file_size > 1_000_000) / 1e6
     print(f"check --out at {args.loads:,} loads: {check_cpu:.2f} s CPU, {check_mb:.0f} MB peak")
     print(
         f"floor (calamine read of 2 sheets, package copy, deflating {result_mb:.0f} MB of result XML): {floor_cpu:.2f} s"
@@ -96,4 +115,7 @@ def main() -> None:
 
 
 if __name__ == "__main__":
-    main()
+    try:
+        main()
+    finally:
+        shutil.rmtree(BYTECODE, ignore_errors=True)
