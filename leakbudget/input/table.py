@@ -438,7 +438,8 @@ class RawTable:
         if texts is None:
             nfc = unicodedata.normalize
             texts = self._texts[column] = [
-                nfc("NFC", v.strip()) if type(v) is str else _as_text(v) for v in self._value_column(column)
+                None if v is None else nfc("NFC", v.strip()) if type(v) is str else _as_text(v)
+                for v in self._value_column(column)
             ]
         return texts
 
