@@ -403,7 +403,8 @@ def render_check(job: Any, quiet: bool = False) -> None:
         )
     elif marginal:
         out_console.print(
-            f"Every protected circuit is within its budget, but {len(marginal)} are marginal (likely to trip when "
+            f"Every protected circuit is within its budget, but {len(marginal)} "
+            f"{'is' if len(marginal) == 1 else 'are'} marginal (likely to trip when "
             "cold heating elements switch on): measure them, or give the heating loads circuits of their own."
         )
     else:
