@@ -348,3 +348,17 @@ def test_text_beyond_ascii_is_written_as_character_references(tmp_path: Path) ->
     root = DET.fromstring(b'<sheetData xmlns="' + MAIN[1:-1].encode() + b'">' + part + b"</sheetData>")
     got = [["".join(c.itertext()) for c in row] for row in root]
     assert got == [[v for v in row if v is not None] for row in rows]
+
+
+def test_awkward_header_texts_read_back_as_xlsxwriter_writes_them(tmp_path: Path) -> None:
+    """The header row's texts go in as every text cell does (XlsxWriter writes only bold sample cells there), with
+    or without rows under them; python-calamine and Gnumeric read them as XlsxWriter's own cell-by-cell file
+    (the reference) gives them."""
+    header = [t for t in AWKWARD_TEXT if len(t) < 100 and t.strip() and "\n" not in t and "\r" not in t][:12]
+    for rows in ([], [[1.5] * len(header)]):
+        fast = fast_workbook(tmp_path, "Odd", header, rows)
+        reference = reference_workbook(tmp_path / "reference.xlsx", "Odd", header, rows)
+        assert_same_cells(cells(fast)["Odd"], cells(reference)["Odd"])
+        assert real_program_csv(fast, "Odd")[0] == real_program_csv(reference, "Odd")[0]
+        shared = "xl/sharedStrings.xml"
+        assert entries(fast)[shared] == entries(DATA / "gnumeric.xlsx")[shared]  # nothing added to the user's

@@ -25,7 +25,6 @@ import posixpath
 import re
 import shutil
 import struct
-import tempfile
 import time
 import zipfile
 import zlib
@@ -765,57 +764,41 @@ def _register_content_types(xml: XmlPart, content_types: dict[str, str], removed
 def _render(sheets: Sequence[SheetData]) -> bytes:
     """The sheets' frames as an XlsxWriter package whose first sheet is a placeholder holding the tab selection.
 
-    Each sheet gets its header and, if it has rows, a sample row (:data:`leakbudget.xlsx.rows.SAMPLE_ROW`) with a
-    cell in every column's format, which :func:`leakbudget.xlsx.rows.with_rows` replaces with the real rows.
-    constant_memory mode writes text as inline strings (XlsxWriter ignores it with in_memory, hence a scratch
-    folder), so nothing has to be added to the user's shared-strings part.
+    Each sheet gets its header row as bold sample cells (numbers, which :func:`leakbudget.xlsx.rows.with_rows`
+    turns into the header's texts, as inline strings) and, if it has rows, a sample row
+    (:data:`leakbudget.xlsx.rows.SAMPLE_ROW`) with a cell in every column's format, which ``with_rows`` replaces
+    with the real rows. XlsxWriter writes no text at all, so its package has no shared strings to merge into the
+    user's, and it is built in memory: no scratch files (creating and deleting them took a third of the time of a
+    small workbook's check on a shared machine).
     """
     import xlsxwriter
 
     buffer = BytesIO()
     names = {s.name.casefold() for s in sheets}
     placeholder = next(f"placeholder{n}" for n in range(len(names) + 1) if f"placeholder{n}" not in names)
-    with tempfile.TemporaryDirectory(prefix="leakbudget-") as scratch_folder:
-        book = xlsxwriter.Workbook(buffer, {"constant_memory": True, "tmpdir": scratch_folder})
-        book.add_worksheet(placeholder).activate()  # so no grafted sheet is tabSelected (Excel would group them)
-        bold = book.add_format({"bold": True})
-        quoted = book.add_format({"quote_prefix": True})
-        for sheet in sheets:
-            worksheet = book.add_worksheet(sheet.name)
-            formats = {column: book.add_format({"num_format": code}) for column, code in sheet.number_formats.items()}
-            for column, width in sheet.column_widths.items():
-                worksheet.set_column(column, column, width)
-            worksheet.freeze_panes(1, 0)
-            worksheet.set_landscape()  # prints well: landscape, every column on the page's width, pages as long as needed
-            worksheet.fit_to_pages(1, 0)
-            for column, title in enumerate(sheet.header):
-                _write_text(worksheet, 0, column, str(title), bold)
-            if sheet.rows:
-                width = max(len(sheet.header), rows_width(sheet.rows), *(c + 1 for c in sheet.number_formats))
-                for column in range(width):
-                    worksheet.write_number(SAMPLE_ROW - 1, column, 0, formats.get(column))
-                worksheet.write_number(QUOTE_ROW - 1, 0, 0, quoted)  # the quote-prefix style's sample cell
-            if sheet.chart is not None and sheet.rows:
-                _add_chart(book, worksheet, sheet)
-        book.close()
+    book = xlsxwriter.Workbook(buffer, {"in_memory": True})
+    book.add_worksheet(placeholder).activate()  # so no grafted sheet is tabSelected (Excel would group them)
+    bold = book.add_format({"bold": True})
+    quoted = book.add_format({"quote_prefix": True})
+    for sheet in sheets:
+        worksheet = book.add_worksheet(sheet.name)
+        formats = {column: book.add_format({"num_format": code}) for column, code in sheet.number_formats.items()}
+        for column, width in sheet.column_widths.items():
+            worksheet.set_column(column, column, width)
+        worksheet.freeze_panes(1, 0)
+        worksheet.set_landscape()  # prints well: landscape, every column on the page's width, pages as long as needed
+        worksheet.fit_to_pages(1, 0)
+        for column in range(len(sheet.header)):
+            worksheet.write_number(0, column, 0, bold)  # the header's cell, its text put in by with_rows
+        if sheet.rows:
+            width = max(len(sheet.header), rows_width(sheet.rows), *(c + 1 for c in sheet.number_formats))
+            for column in range(width):
+                worksheet.write_number(SAMPLE_ROW - 1, column, 0, formats.get(column))
+            worksheet.write_number(QUOTE_ROW - 1, 0, 0, quoted)  # the quote-prefix style's sample cell
+        if sheet.chart is not None and sheet.rows:
+            _add_chart(book, worksheet, sheet)
+    book.close()
     return buffer.getvalue()
-
-
-def _write_text(worksheet, row: int, column: int, text: str, cell_format) -> None:  # noqa: ANN001
-    """Write ``text`` as a text cell, whatever it looks like (never a formula, never markup).
-
-    XlsxWriter escapes control characters as ``_xHHHH_`` (ECMA-376 Part 1, type ST_Xstring), but in constant_memory
-    mode it copies text that starts with ``<r>`` and ends with ``</r>`` into the XML unescaped (it takes it for a
-    rich string); such text is written as a three-run rich string instead, which reads back as the same text. Lone
-    surrogates cannot be encoded in UTF-8 and become U+FFFD.
-    """
-    if any("\ud800" <= ch <= "\udfff" for ch in text):
-        text = "".join("\ufffd" if "\ud800" <= ch <= "\udfff" else ch for ch in text)
-    if text.startswith("<r>") and text.endswith("</r>"):
-        fragments = (text[:1], text[1:2], text[2:])  # XlsxWriter wants at least three fragments
-        worksheet.write_rich_string(row, column, *fragments, *([cell_format] if cell_format else []))
-    else:
-        worksheet.write_string(row, column, text, cell_format)
 
 
 def _add_chart(book, worksheet, sheet: SheetData) -> None:  # noqa: ANN001

@@ -24,6 +24,8 @@ from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from typing import Any, overload
 
+from leakbudget.xlsx.cells import column_index
+
 # Largest number a cell holds (Microsoft, "Excel specifications and limits"); beyond it, and for ±inf, the value
 # is written as text.
 EXCEL_MAX_NUMBER = 9.99999999999999e307
@@ -99,6 +101,7 @@ _NOT_A_CHARACTER = re.compile("[\ud800-\udfff\ufffe\uffff]")
 _SAMPLE_CELL = re.compile(rb'<c r="([A-Z]+%d)"( s="\d+")?' % SAMPLE_ROW)
 _DIMENSION = re.compile(rb'<dimension ref="[^"]*"/>')
 _QUOTE_CELL = re.compile(rb'<c r="A%d"( s="\d+")?' % QUOTE_ROW)
+_HEADER_CELL = re.compile(rb'(<c r="([A-Z]+)1"(?: s="\d+")?)><v>0</v></c>')
 
 
 def escape_text(text: str) -> str:
@@ -378,9 +381,25 @@ class SheetXml:
         yield self.tail
 
 
+def with_header(frame: bytes, header: Sequence[str]) -> bytes:
+    """``frame`` with the header's texts (inline strings, escaped as every text cell) in the header row's sample
+    cells (a number in each, in the bold style)."""
+    if not header:
+        return frame
+    start = frame.index(b'<row r="1"')
+    end = frame.index(b"</row>", start)
+
+    def text(cell: re.Match[bytes]) -> bytes:
+        title = str(header[column_index(cell.group(2).decode())])
+        return cell.group(1) + text_cell(title).encode("ascii", "xmlcharrefreplace")
+
+    return frame[:start] + _HEADER_CELL.sub(text, frame[start:end]) + frame[end:]
+
+
 def with_rows(frame: bytes, name: str, header: Sequence[str], rows: Sequence[Sequence[Cell]]) -> SheetXml | bytes:
-    """Put ``rows`` in place of the sample row of ``frame`` (a worksheet part XlsxWriter wrote); with no rows,
-    ``frame`` is returned as it is (it has no sample row)."""
+    """Put the header's texts in the header row (:func:`with_header`) and ``rows`` in place of the sample row of
+    ``frame`` (a worksheet part XlsxWriter wrote); with no rows, that is all (the frame has no sample row)."""
+    frame = with_header(frame, header)
     if not rows:
         return frame
     from xlsxwriter.utility import xl_cell_to_rowcol
