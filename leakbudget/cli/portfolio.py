@@ -125,6 +125,7 @@ def run_portfolio(
         "summary": summary,
         "keep": "documents" if as_json else "summary",
     }
+    portfolio.keep_freed_memory()  # this process checks workbooks too
     try:
         with progress_bar(as_json) as progress:
             if command == "review":
