@@ -6,9 +6,10 @@ per five loads) into a scratch folder, then times, in fresh processes, with the 
 - one `leakbudget check FILE --out COPY` per workbook, one after another (what a portfolio cost before);
 - one `leakbudget check FOLDER --out-dir COPIES` with `--jobs 1` and with `--jobs 2`;
 - the same command with `--cluster ADDRESS` on a dask.distributed LocalCluster of two worker processes (one
-  thread each) started here and warmed by one untimed run, as a long-running cluster would be: one with the worker
-  setting README recommends (no MALLOC_TRIM_THRESHOLD_), one with Dask's default (these run in turn, round after
-  round, so that a burst of other work on the machine hits them alike);
+  thread each) started here for each of its runs and warmed by one untimed run, as a long-running cluster would
+  be, and closed after it (an idle cluster's heartbeats take about a tenth of a core, which would fall on the other
+  commands): one with the worker setting README recommends (no MALLOC_TRIM_THRESHOLD_), one with Dask's default
+  (all of these run in turn, round after round, so that a burst of other work on the machine hits them alike);
 and, after each round, the machine's own parallel speed-up (a pure-Python loop on two processes against one: 2.0
 on two idle cores, less when other work takes a share). It prints the ratios against their targets: separate
 commands / one command (the default, --jobs = cores) ≥ 5; --jobs 1 / --jobs 2 ≥ 1.7 on 2 cores; cluster / --jobs 2
@@ -29,8 +30,11 @@ import subprocess
 import sys
 import tempfile
 import time
+from collections.abc import Callable, Iterator
 from concurrent.futures import ProcessPoolExecutor
+from contextlib import AbstractContextManager, contextmanager
 from pathlib import Path
+from typing import Any
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
@@ -66,11 +70,20 @@ def run(command: list[str], env: dict[str, str]) -> float:
 
 
 def interleaved(
-    commands: dict[str, list[str]], out: Path, env: dict[str, str], runs: int, pool: ProcessPoolExecutor
+    commands: dict[str, list[str]],
+    clusters: dict[str, Callable[[], AbstractContextManager[list[str]]]],
+    out: Path,
+    env: dict[str, str],
+    runs: int,
+    pool: ProcessPoolExecutor,
 ) -> tuple[dict[str, list[float]], list[float]]:
     """``runs`` timed rounds of every command in turn (so that a burst of other work on the machine hits them alike)
-    after one untimed round, each run into an empty ``out`` folder; and the machine's parallel speed-up in each."""
-    times: dict[str, list[float]] = {name: [] for name in commands}
+    after one untimed round, each run into an empty ``out`` folder; and the machine's parallel speed-up in each.
+
+    A cluster's command (``clusters``: a function that starts the cluster and gives the command) runs on a cluster
+    started for it, once untimed (it warms the workers), then timed, and the cluster is closed again: an idle
+    LocalCluster of two workers takes about a tenth of a core (heartbeats), which must not fall on the others."""
+    times: dict[str, list[float]] = {name: [] for name in [*commands, *clusters]}
     control = []
     for round_ in range(runs + 1):
         for name, command in commands.items():
@@ -78,8 +91,15 @@ def interleaved(
             elapsed = run(command, env)
             if round_:
                 times[name].append(elapsed)
-        if round_:
-            control.append(machine_speedup(pool))
+        if not round_:
+            continue
+        for name, start in clusters.items():
+            with start() as command:
+                shutil.rmtree(out, ignore_errors=True)
+                run(command, env)  # untimed: the workers import the library
+                shutil.rmtree(out, ignore_errors=True)
+                times[name].append(run(command, env))
+        control.append(machine_speedup(pool))
     return times, control
 
 
@@ -139,16 +159,20 @@ def main() -> None:
         if cores != 2:
             commands[f"--jobs {cores} (the default)"] = one
         two_workers = {"n_workers": 2, "threads_per_worker": 1, "processes": True, "dashboard_address": None}
-        with dask.config.set({NO_TRIM: None}):  # the worker setting README recommends (read as the workers start)
-            recommended = LocalCluster(**two_workers)
-        with (
-            recommended,
-            LocalCluster(**two_workers) as dask_default,
-            ProcessPoolExecutor(2, mp_context=multiprocessing.get_context("forkserver")) as pool,
-        ):
-            commands[CLUSTER] = [*one, "--cluster", recommended.scheduler_address]
-            commands[CLUSTER_DEFAULT] = [*one, "--cluster", dask_default.scheduler_address]
-            cases, control = interleaved(commands, out, env, args.runs, pool)
+
+        @contextmanager
+        def on_cluster(settings: dict[str, Any]) -> Iterator[list[str]]:
+            with dask.config.set(settings):  # read as the workers start
+                cluster = LocalCluster(**two_workers)
+            with cluster:
+                yield [*one, "--cluster", cluster.scheduler_address]
+
+        clusters = {
+            CLUSTER: lambda: on_cluster({NO_TRIM: None}),  # the worker setting README recommends
+            CLUSTER_DEFAULT: lambda: on_cluster({}),
+        }
+        with ProcessPoolExecutor(2, mp_context=multiprocessing.get_context("forkserver")) as pool:
+            cases, control = interleaved(commands, clusters, out, env, args.runs, pool)
         cases[f"{args.workbooks} separate commands"] = [separate(paths, out, env)]
 
     default = cases["--jobs 2"] if cores == 2 else cases[f"--jobs {cores} (the default)"]

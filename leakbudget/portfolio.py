@@ -23,6 +23,7 @@ import math
 import os
 import stat
 import sys
+import threading
 from collections import deque
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
@@ -424,7 +425,8 @@ def _run_locally(tasks: list[Task], workers: int, progress: Progress | None, sta
     """Run the tasks on ``workers`` processes: this one and a pool of ``workers - 1``.
 
     This process has the library loaded already, so it starts on the last workbooks at once while the pool's
-    processes start; the pool is fed from the front, a few workbooks ahead (:data:`POOL_AHEAD` each), so its
+    processes start (a thread waits for them: the pool's first submit blocks until the fork server has imported
+    the library); the pool is then fed from the front, a few workbooks ahead (:data:`POOL_AHEAD` each), so its
     workers never wait for this process to hand out work. If the pool dies (a worker killed, out of memory), the
     workbooks it held are reported as not checked and this process checks the rest itself.
     """
@@ -461,6 +463,10 @@ def _run_locally(tasks: list[Task], workers: int, progress: Progress | None, sta
     futures: dict[Future[WorkbookResult], int] = {}
     broken = False
     pool = ProcessPoolExecutor(max_workers=workers - 1, mp_context=_context(), initializer=_start_worker)
+    # The pool's first submit starts its processes and waits for the fork server to be ready (its imports, about
+    # 0.3 s): a thread waits for that with a trivial task while this process checks its first workbooks.
+    starting = threading.Thread(target=_start_pool, args=(pool,), name="leakbudget-pool-start", daemon=True)
+    starting.start()
 
     def collect(ready: Iterable[Future[WorkbookResult]]) -> None:
         nonlocal broken
@@ -473,8 +479,10 @@ def _run_locally(tasks: list[Task], workers: int, progress: Progress | None, sta
             finished(i, result)
 
     try:
-        while queue or futures:
-            while queue and not broken and len(futures) < POOL_AHEAD * (workers - 1):
+        while queue or futures or starting.is_alive():
+            if not queue:
+                starting.join()
+            while queue and not broken and not starting.is_alive() and len(futures) < POOL_AHEAD * (workers - 1):
                 try:
                     future = pool.submit(run_task, tasks[queue[0]])
                 except BrokenProcessPool:
@@ -485,7 +493,7 @@ def _run_locally(tasks: list[Task], workers: int, progress: Progress | None, sta
                 i = queue.pop()  # this process works from the back
                 finished(i, run_task(tasks[i]))
                 collect([f for f in futures if f.done()])
-            else:
+            elif futures:
                 collect(wait(futures, return_when=FIRST_COMPLETED).done)
     except KeyboardInterrupt:
         pool.shutdown(wait=True, cancel_futures=True)  # the workers ignore Ctrl-C and finish what they hold
@@ -494,6 +502,16 @@ def _run_locally(tasks: list[Task], workers: int, progress: Progress | None, sta
     finally:
         pool.shutdown(wait=True)
     return [r for r in results if r is not None]
+
+
+def _start_pool(pool: Any) -> None:
+    """Start ``pool``'s processes (a trivial task; a pool that cannot start shows at the next submit)."""
+    from concurrent.futures.process import BrokenProcessPool
+
+    try:
+        pool.submit(int)
+    except (BrokenProcessPool, RuntimeError):
+        pass
 
 
 def _context() -> Any:
@@ -525,14 +543,12 @@ def keep_freed_memory() -> bool:
     """Where malloc is glibc's, set its thresholds for many workbooks in one process (:data:`MMAP_THRESHOLD_BYTES`,
     :data:`TRIM_THRESHOLD_BYTES`); True when set. Elsewhere (macOS, Windows, musl) nothing changes."""
     import ctypes
-    import ctypes.util
 
     if not sys.platform.startswith("linux"):
         return False
     try:
-        libc = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6")
-        mallopt = libc.mallopt
-    except (OSError, AttributeError):
+        mallopt = ctypes.CDLL(None).mallopt  # the C library the interpreter runs on (find_library would run ldconfig)
+    except (OSError, AttributeError):  # not glibc (musl has no mallopt)
         return False
     m_trim_threshold, m_mmap_threshold = -1, -3  # <malloc.h>
     return bool(mallopt(m_mmap_threshold, MMAP_THRESHOLD_BYTES) and mallopt(m_trim_threshold, TRIM_THRESHOLD_BYTES))
