@@ -374,7 +374,8 @@ def _many(
     progress: Progress | None,
     keep: Keep,
 ) -> Portfolio:
-    if cluster is None and (jobs or machine_cores()) > 1:
+    fork = _can_fork()
+    if cluster is None and (jobs or machine_cores()) > 1 and not fork:
         _start_fork_server()  # it imports the library while this process finds the workbooks
     items = [paths] if isinstance(paths, (str, Path)) else list(paths)
     out_folder = Path(out_dir).resolve() if out_dir is not None else None
@@ -396,7 +397,7 @@ def _many(
         results, workers, address = _run_on_cluster(tasks, cluster, progress, stage)
     else:
         workers = max(1, min(jobs or machine_cores(), len(tasks)))
-        results, address = _run_locally(tasks, workers, progress, stage), None
+        results, address = _run_locally(tasks, workers, progress, stage, fork), None
     portfolio = Portfolio(command, results, workers, address)
     if summary_path is not None:
         portfolio.summary_written = write_summary(summary_path, command, results)
@@ -421,8 +422,11 @@ def _tell(progress: Progress | None, stage: str, done: int, total: int) -> None:
         progress(stage, done, total)
 
 
-def _run_locally(tasks: list[Task], workers: int, progress: Progress | None, stage: str) -> list[WorkbookResult]:
-    """Run the tasks on ``workers`` processes: this one and a pool of ``workers - 1``.
+def _run_locally(
+    tasks: list[Task], workers: int, progress: Progress | None, stage: str, fork: bool = False
+) -> list[WorkbookResult]:
+    """Run the tasks on ``workers`` processes: this one and a pool of ``workers - 1``, forked from this process
+    when ``fork`` (:func:`_can_fork`), else from the fork server.
 
     This process has the library loaded already, so it starts on the last workbooks at once while the pool's
     processes start (a thread waits for them: the pool's first submit blocks until the fork server has imported
@@ -462,11 +466,17 @@ def _run_locally(tasks: list[Task], workers: int, progress: Progress | None, sta
     queue = deque(range(len(tasks)))
     futures: dict[Future[WorkbookResult], int] = {}
     broken = False
-    pool = ProcessPoolExecutor(max_workers=workers - 1, mp_context=_context(), initializer=_start_worker)
-    # The pool's first submit starts its processes and waits for the fork server to be ready (its imports, about
-    # 0.3 s): a thread waits for that with a trivial task while this process checks its first workbooks.
-    starting = threading.Thread(target=_start_pool, args=(pool,), name="leakbudget-pool-start", daemon=True)
-    starting.start()
+    starting: threading.Thread | None = None
+    if fork:  # the workers get the library, imported once here, as this process has it
+        _import_library()
+        pool = ProcessPoolExecutor(max_workers=workers - 1, mp_context=_context(fork=True), initializer=_start_worker)
+        _start_pool(pool)  # forks the workers now, from this thread, the only one
+    else:
+        pool = ProcessPoolExecutor(max_workers=workers - 1, mp_context=_context(), initializer=_start_worker)
+        # The pool's first submit starts its processes and waits for the fork server to be ready (its imports,
+        # about 0.3 s): a thread waits for that with a trivial task while this process checks its first workbooks.
+        starting = threading.Thread(target=_start_pool, args=(pool,), name="leakbudget-pool-start", daemon=True)
+        starting.start()
 
     def collect(ready: Iterable[Future[WorkbookResult]]) -> None:
         nonlocal broken
@@ -479,10 +489,11 @@ def _run_locally(tasks: list[Task], workers: int, progress: Progress | None, sta
             finished(i, result)
 
     try:
-        while queue or futures or starting.is_alive():
-            if not queue:
+        while queue or futures or (starting is not None and starting.is_alive()):
+            if not queue and starting is not None:
                 starting.join()
-            while queue and not broken and not starting.is_alive() and len(futures) < POOL_AHEAD * (workers - 1):
+            started = starting is None or not starting.is_alive()
+            while queue and not broken and started and len(futures) < POOL_AHEAD * (workers - 1):
                 try:
                     future = pool.submit(run_task, tasks[queue[0]])
                 except BrokenProcessPool:
@@ -514,10 +525,22 @@ def _start_pool(pool: Any) -> None:
         pass
 
 
-def _context() -> Any:
-    """The multiprocessing context of the worker pool: forkserver preloading the library, else spawn."""
+def _can_fork() -> bool:
+    """Whether the pool's workers can be forked from this process: on Linux, with no thread but this one.
+
+    A forked child has only the forking thread, and inherits the locks other threads held in whatever state they
+    were (a progress bar's refresh thread, a notebook's or a Dask client's threads), so with any other Python
+    thread the fork server is used instead; macOS's system libraries are not safe across fork at all."""
+    return sys.platform.startswith("linux") and threading.active_count() == 1
+
+
+def _context(fork: bool = False) -> Any:
+    """The multiprocessing context of the worker pool: fork when asked (:func:`_can_fork`), else forkserver
+    preloading the library, else spawn."""
     import multiprocessing
 
+    if fork:
+        return multiprocessing.get_context("fork")
     if "forkserver" in multiprocessing.get_all_start_methods():
         context = multiprocessing.get_context("forkserver")
         # Each worker also runs the caller's main script again (as spawn does; the fork server's own '__main__'
@@ -557,12 +580,18 @@ def keep_freed_memory() -> bool:
 def _start_worker() -> None:
     """In each worker: leave Ctrl-C to the parent (which lets running workbooks finish, and reports), keep freed
     memory for the next workbook (:func:`keep_freed_memory`), and import the library (already there when forked
-    from the fork server)."""
-    import importlib
+    from the fork server or from this process)."""
     import signal
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     keep_freed_memory()
+    _import_library()
+
+
+def _import_library() -> None:
+    """Import every module a check or a review runs (:data:`WORKER_MODULES`)."""
+    import importlib
+
     for module in WORKER_MODULES:
         importlib.import_module(module)
 

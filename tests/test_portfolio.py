@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import math
+import sys
 from pathlib import Path
 
 import pytest
@@ -349,3 +350,25 @@ def test_a_process_that_checks_many_workbooks_keeps_freed_memory_for_the_next():
         return
     pages = sum(4 * ((i % 7) + 1) * 256 * 1024 for i in range(200)) // 4096  # touched in all
     assert kept and without > pages / 4 and with_it < pages / 20, (with_it, without)
+
+
+@pytest.mark.parametrize("fork", [True, False], ids=["forked from this process", "from the fork server"])
+def test_workers_forked_here_or_by_the_fork_server_give_the_one_process_results(tmp_path: Path, fork: bool):
+    """Four workbooks on two processes, the pool forked from this process (Linux, no other thread) or started by the
+    fork server: every workbook's summary as one process gives it (the reference: each run alone), in order, and
+    the progress is told in this process only."""
+    import os
+    import threading
+
+    paths = []
+    for i in range(4):
+        paths.append(tmp_path / f"flat-{i}.xlsx")
+        write_workbook(paths[-1], over_sheets() if i % 2 else basic_sheets())
+    tasks = [portfolio.Task("check", p, p.name, False, None, None, "summary") for p in paths]
+    alone = [portfolio.run_task(t).summary for t in tasks]
+    workers: set[int] = set()
+
+    assert portfolio._can_fork() == (sys.platform.startswith("linux") and threading.active_count() == 1)
+    results = portfolio._run_locally(tasks, 2, lambda *a: workers.add(os.getpid()), "Checking", fork=fork)
+    assert [r.summary for r in results] == alone
+    assert workers == {os.getpid()}

@@ -127,7 +127,7 @@ def run_portfolio(
     }
     portfolio.keep_freed_memory()  # this process checks workbooks too
     try:
-        with progress_bar(as_json) as progress:
+        with progress_bar(as_json, refresh_thread=False) as progress:
             if command == "review":
                 result = portfolio.review_many(paths, code, progress=progress, **options)
             else:

@@ -74,9 +74,12 @@ def interactive() -> bool:
 
 
 @contextmanager
-def progress_bar(as_json: bool = False) -> Iterator[Progress | None]:
+def progress_bar(as_json: bool = False, refresh_thread: bool = True) -> Iterator[Progress | None]:
     """A progress callback for a job (:mod:`leakbudget.progress`) drawing one rich bar per stage on stderr,
-    gone when the job ends; None (no bar) with ``--json`` or when output is piped."""
+    gone when the job ends; None (no bar) with ``--json`` or when output is piped.
+
+    Without ``refresh_thread`` the bars are redrawn at each report, not by a thread of their own (a portfolio
+    reports at every workbook, and a process with no other thread can fork its workers)."""
     if as_json or not interactive():
         yield None
         return
@@ -90,13 +93,14 @@ def progress_bar(as_json: bool = False) -> Iterator[Progress | None]:
         TimeElapsedColumn(),
         console=err_console,
         transient=True,
+        auto_refresh=refresh_thread,
     )
     tasks: dict[str, Any] = {}
 
     def report(stage: str, done: int, total: int) -> None:
         if stage not in tasks:
             tasks[stage] = bars.add_task(stage, total=total)
-        bars.update(tasks[stage], completed=done, total=total)
+        bars.update(tasks[stage], completed=done, total=total, refresh=not refresh_thread)
 
     with bars:
         yield report
