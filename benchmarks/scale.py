@@ -73,7 +73,7 @@ def stages(path: Path, out: Path) -> dict[str, float]:
         t3 = time.perf_counter()
         sheets = result_sheets(result)
         t4 = time.perf_counter()
-        write_sheets(path, sheets, out)
+        write_sheets(path, sheets, out, force=True)
         t5 = time.perf_counter()
     times["read"] = t1 - t0
     times["estimate+sum"] = t2 - t1
