@@ -154,6 +154,24 @@ def test_exact_plan_matches_exhaustive_search(seed):
     assert got[2] == pytest.approx(expected[2], abs=1e-5)
 
 
+def test_a_bin_filled_to_exactly_its_current_spare_is_feasible():
+    """First-fit puts 3.4 A where 14.1 - 7.5 - 3.2 A is left: the circuit carries 3.4 + 7.5 + 3.2 = 14.1 A, exactly its
+    spare (arithmetic), though in floating point the sum is 14.100000000000001; that must not count as over (found
+    by the property test below, seed 8766)."""
+    p = packing(
+        [1.0, 0.14, 0.29, 0.29],
+        amps=[3.1, 3.4, 7.5, 3.2],
+        spares=[1.02, 0.44],
+        new_spare=1.8,
+        amp_spares=[14.1, 15.2],
+        new_amps=16.0,
+        start=[0, -1, 0, 0],
+    )
+    solution = first_fit_decreasing(p)
+    assert sorted(np.flatnonzero(solution.bin_of == 0).tolist()) == [1, 2, 3]
+    assert 3.4 + 7.5 + 3.2 > 14.1 and not solution.violations(p)
+
+
 def test_moves_lower_bound_by_hand():
     # Existing bin with 1.0 mA spare holding 0.6 + 0.5 + 0.3 (1.4 mA): removing the 0.6 alone cures it, so at
     # least one move; one unplaced item always counts.

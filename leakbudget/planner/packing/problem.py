@@ -22,6 +22,10 @@ import numpy as np
 # from the solver are accepted up to SOLVER_TOLERANCE_MA and SOLVER_TOLERANCE_A over a spare, less than the
 # margin for leakage and than the allowance planner_rules.CURRENT_TOLERANCE_A leaves for current.
 MARGIN_MA = 1e-4
+# A bin filled to exactly its spare is feasible, whichever order its figures are added in: sums of floats differ in
+# the last bits (3.4 + 7.5 + 3.2 is 14.100000000000001 A, the heuristic's 14.1 - 3.4 - 7.5 - 3.2 is not below 0), so
+# a total may pass its spare by this much (1e-9 mA or A is far below any real figure; modelling choice).
+FLOAT_SUM_TOLERANCE = 1e-9
 SOLVER_TOLERANCE_MA = 5e-5
 SOLVER_TOLERANCE_A = 2.5e-4
 
@@ -126,8 +130,8 @@ class Solution:
         problems += [f"item {i} on a bin it may not use" for i in bad]
         leak, amps = self.bin_totals(p)
         spare_cols = self.bin_columns(p)
-        over_leak = leak > p.spare_leak_ma[spare_cols] + (SOLVER_TOLERANCE_MA if solver else 0.0)
-        over_amps = amps > p.spare_amps_a[spare_cols] + (SOLVER_TOLERANCE_A if solver else 0.0)
+        over_leak = leak > p.spare_leak_ma[spare_cols] + (SOLVER_TOLERANCE_MA if solver else FLOAT_SUM_TOLERANCE)
+        over_amps = amps > p.spare_amps_a[spare_cols] + (SOLVER_TOLERANCE_A if solver else FLOAT_SUM_TOLERANCE)
         problems += [f"bin {j} over its leakage spare" for j in np.flatnonzero(over_leak)]
         problems += [f"bin {j} over its current spare" for j in np.flatnonzero(over_amps)]
         used = np.unique(self.bin_of[self.bin_of >= p.n_existing]) - p.n_existing
