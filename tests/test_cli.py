@@ -129,3 +129,17 @@ def test_the_workbook_format_tables_are_made_from_the_schema():
     from tests import readme_tables
 
     assert readme_tables.current() == readme_tables.tables().strip()
+
+
+def test_the_terminal_rounds_each_figure_once(make_workbook):
+    """10.034989 mA is 10.03 mA to two decimals (arithmetic); rounding it first to the JSON document's four
+    decimals (10.035) and then to two would print 10.04. The table and the sentences print it once rounded."""
+    from tests.conftest import CIRCUITS_HEADER, LOADS_HEADER
+
+    sheets = {
+        "Circuits": [CIRCUITS_HEADER, ["E1", "rcd-30", 230, 50, "single", 32, None, "Office"]],
+        "Loads": [LOADS_HEADER, ["Printer", "E1", None, 1, "10.034989 mA", None, None, None, "Office"]],
+    }
+    result = runner.invoke(app, ["check", str(make_workbook(sheets)), "--no-write"])
+    row = next(line for line in result.output.splitlines() if line.lstrip().startswith("E1 "))
+    assert row.split()[2:4] == ["10.03", "10.03"], row

@@ -216,9 +216,9 @@ def render_board(result: Any, wide: bool) -> None:
         table.add_row(
             "  " * depth + d["id"],
             *((d["device"],) if wide else ()),
-            fmt(d["leakage_ma"], 2),
-            fmt(d["phasor_ma"], 2),
-            f"{fmt(d['budget_ma'], 2)}/{fmt(d['no_trip_ma'], 2)}",
+            fmt(node.leakage_ma, 2),  # from the result itself: the document's figures are rounded already
+            fmt(node.phasor_ma, 2),
+            f"{fmt(node.budget_ma, 2)}/{fmt(node.shared.device.no_trip_ma, 2)}",
             used,
             f"[{STATUS_STYLE[d['status']]}]{d['status']}[/]",
             _short_probability(d["trip_probability_text"], d["trip_probability"], wide),
@@ -309,17 +309,18 @@ def render_check(job: Any, quiet: bool = False) -> None:
     shown = _circuits_to_show(result.circuits)
     inside = {d.shared.circuit_id: d.device_id for d in result.devices if d.shared.circuit_id is not None}
     for c in shown:
-        d = circuit_dict(c)
+        d = circuit_dict(c)  # its figures rounded for the JSON document; milliamperes shown from the result itself
         used = "-" if d["headroom_used"] is None else f"{100 * d['headroom_used']:.0f}%"
-        budget, no_trip = fmt(d["budget_ma"], 2), fmt(d["no_trip_ma"], 2)
+        levels = c.guarding_device or c.circuit.device
+        budget, no_trip = fmt(c.budget_ma, 2), fmt(levels.no_trip_ma if d["no_trip_ma"] is not None else None, 2)
         own = d["device"] if c.circuit.device.protected or c.protected_by is None else f"↳{c.protected_by}"
         if own == "none" and c.circuit.circuit_id in inside:
             own = f"in:{inside[c.circuit.circuit_id]}"  # a device inside the circuit (a GFCI receptacle)
         cells = [
             d["circuit"],
             own,
-            fmt(d["leakage_ma"], 2),
-            fmt(d["phasor_ma"], 2),
+            fmt(c.leakage_ma, 2),
+            fmt(c.phasor_ma, 2),
             *((budget, no_trip) if wide else (f"{budget}/{no_trip}" if d["budget_ma"] is not None else "-",)),
             used,
             f"[{STATUS_STYLE[d['status']]}]{d['status']}[/]",
@@ -327,11 +328,7 @@ def render_check(job: Any, quiet: bool = False) -> None:
             _short_probability(d["trip_probability_switch_on_text"], d["trip_probability_switch_on"], wide),
         ]
         if wide:
-            cells.append(
-                f"{d['largest_contributor']} ({fmt(d['largest_contributor_ma'], 2)})"
-                if d["largest_contributor"]
-                else "-"
-            )
+            cells.append(f"{d['largest_contributor']} ({fmt(c.largest_ma, 2)})" if d["largest_contributor"] else "-")
         table.add_row(*cells)
     out_console.print(table)
     if result.devices:
@@ -409,7 +406,8 @@ def render_check(job: Any, quiet: bool = False) -> None:
         out_console.print(
             f"Every protected circuit is within its budget, but {len(marginal)} "
             f"{'is' if len(marginal) == 1 else 'are'} marginal (likely to trip when "
-            "cold heating elements switch on): measure them, or give the heating loads circuits of their own."
+            f"cold heating elements switch on): measure {'it' if len(marginal) == 1 else 'them'}, or give the heating "
+            "loads circuits of their own."
         )
     else:
         out_console.print("Every protected circuit is within its budget.")
