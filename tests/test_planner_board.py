@@ -80,3 +80,54 @@ def test_the_uk_flat_moves_two_circuits_to_rcd2(tmp_path, monkeypatch):
         assert d["leakage_ma"] <= d["budget_ma"]  # every RCD within 0.30 × 30 mA = 9 mA
     lights = {m["circuit"]: m["to"] for m in doc["circuit_assignments"] if m["circuit"] in ("C4", "C5")}
     assert set(lights.values()) == {"RCD1", "RCD2"}  # one trip never darkens the whole flat
+
+
+def _fill(path, sheets: dict[str, list[dict]]) -> None:  # noqa: ANN001
+    """Rows appended under the template's headers, by column name."""
+    import openpyxl
+
+    book = openpyxl.load_workbook(path)
+    for name, rows in sheets.items():
+        sheet = book[name]
+        header = [c.value for c in sheet[1]]
+        first = sheet.max_row + 1 if sheet.max_row > 1 and sheet.cell(sheet.max_row, 1).value else 2
+        for r, row in enumerate(rows, start=first):
+            for column, value in row.items():
+                sheet.cell(r, header.index(column) + 1, value)
+    book.save(path)
+
+
+def test_a_circuit_is_never_moved_under_a_less_sensitive_device(tmp_path, monkeypatch):
+    """A board with a 100 mA time-delayed RCD above two 30 mA RCDs, the first over its budget: moving a circuit up
+    under the 100 mA one alone would cure it with the fewest moves, but takes away its 30 mA protection (BS
+    7671:2018 reg. 411.3.3); the plan keeps every circuit under a 30 mA RCD and brings both within budget."""
+    monkeypatch.chdir(tmp_path)
+    runner = CliRunner()
+    assert runner.invoke(app, ["template", "board.xlsx"]).exit_code == 0
+    circuit = {"Device": "none", "Voltage": 230, "Frequency": 50}
+    _fill(
+        tmp_path / "board.xlsx",
+        {
+            "Protection": [
+                {"Id": "MAIN", "Device": "rcd-100s", "RCD type": "A", "Rating": 100, "Board": "CU1"},
+                {"Id": "RCD1", "Device": "rcd-30", "RCD type": "A", "Upstream": "MAIN", "Rating": 63, "Board": "CU1"},
+                {"Id": "RCD2", "Device": "rcd-30", "RCD type": "A", "Upstream": "MAIN", "Rating": 63, "Board": "CU1"},
+            ],
+            "Circuits": [
+                {"Circuit": "C1", **circuit, "Rating": 32, "Rooms": "Kitchen", "Protected by": "RCD1"},
+                {"Circuit": "C2", **circuit, "Rating": 32, "Rooms": "Lounge", "Protected by": "RCD1"},
+                {"Circuit": "C3", **circuit, "Rating": 20, "Rooms": "Utility", "Protected by": "RCD2"},
+            ],
+            "Loads": [
+                {"Load": "Freezer", "Circuit": "C1", "Leakage": "5 mA", "Room": "Kitchen"},
+                {"Load": "Desktops", "Circuit": "C2", "Leakage": "4.5 mA", "Room": "Lounge"},
+                {"Load": "Washer", "Circuit": "C3", "Leakage": "2 mA", "Room": "Utility"},
+            ],
+        },
+    )
+    result = runner.invoke(app, ["split", "board.xlsx", "--json", "--no-write"])
+    assert result.exit_code == 0, result.output
+    doc = json.loads(result.stdout)
+    under = {m["circuit"]: m["to"] for m in doc["circuit_assignments"]}
+    assert set(under.values()) <= {"RCD1", "RCD2"}, under  # nothing under MAIN alone
+    assert all(d["leakage_ma"] <= d["budget_ma"] for d in doc["devices"])  # 9 mA each (0.3 × 30 mA)

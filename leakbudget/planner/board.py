@@ -11,7 +11,11 @@ new devices, then circuits moved. Constraints, on the arithmetic sum (the conser
   up to 10 mA of smooth DC in total, BS 7671:2018 reg. 531.3.3 notes);
 * where the board has two or more devices and two or more lighting circuits, the lighting circuits spread over at
   least two of them (BS 7671:2018 reg. 314.1; common practice on dual-RCD boards);
-* an RCBO of its own only for a circuit within that RCBO's budget (the shared device's kind).
+* an RCBO of its own only for a circuit within that RCBO's budget (the shared device's kind);
+* never under a less sensitive device than the one it hangs under now (a larger trip level): moving a socket
+  circuit from a 30 mA RCD to a 100 mA time-delayed one above it would cure the trips by taking away its
+  additional protection (BS 7671:2018 reg. 411.3.3 asks for 30 mA on socket-outlets; never up-rate protection to
+  cure trips).
 
 * every shared device with a ``Rating`` within it by the current rule (:mod:`leakbudget.planner.current`): under
   ``diversity`` the largest circuit's current (itself after diversity) in full and the Diversity share of the
@@ -80,6 +84,11 @@ def _may_hang_under(circuit: Circuit, d: SharedDevice) -> bool:
     return circuit.system != "single" or circuit.phase in LEG_ANGLES_DEG[d.system]
 
 
+def _as_sensitive(target: SharedDevice, now: SharedDevice) -> bool:
+    """Whether a circuit under ``now`` may move under ``target``: its trip level is no larger."""
+    return target.device.trip_ma <= now.device.trip_ma
+
+
 def device_limit_key(device_id: str) -> tuple[str, str | None]:
     """Key of a shared device in the planner's lowered budgets (the trip-likelihood cap)."""
     return "device", device_id.lower()
@@ -130,7 +139,12 @@ def plan_board(
         budget = np.array([budget_of(d) for d in members])
         allowed = np.array(
             [
-                [_may_hang_under(c, d.shared) and _dc_fits(smooth[c.circuit_id], d.shared) for d in members]
+                [
+                    _may_hang_under(c, d.shared)
+                    and _dc_fits(smooth[c.circuit_id], d.shared)
+                    and _as_sensitive(d.shared, devices[c.protected_by or ""].shared)
+                    for d in members
+                ]
                 for c in movable
             ]
         ).reshape(len(movable), m)
