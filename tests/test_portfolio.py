@@ -372,3 +372,13 @@ def test_workers_forked_here_or_by_the_fork_server_give_the_one_process_results(
     results = portfolio._run_locally(tasks, 2, lambda *a: workers.add(os.getpid()), "Checking", fork=fork)
     assert [r.summary for r in results] == alone
     assert workers == {os.getpid()}
+
+
+def test_a_dask_task_keeps_the_workers_freed_memory_too(monkeypatch, tmp_path: Path):
+    """run_tasks (what a Dask worker runs) sets the worker's malloc as a pool worker's before its workbooks."""
+    calls = []
+    monkeypatch.setattr(portfolio, "keep_freed_memory", lambda: calls.append("kept") or True)
+    path = tmp_path / "flat.xlsx"
+    write_workbook(path, basic_sheets())
+    results = portfolio.run_tasks([portfolio.Task("check", path, path.name, False, None, None, "summary")])
+    assert calls == ["kept"] and results[0].error is None
