@@ -37,7 +37,7 @@ def capacitive_current_ma(capacitance_nf, voltage_v, frequency_hz):
 
 def resistive_current_ma(resistance_mohm, voltage_v):
     """Leakage through an insulation resistance to earth, I = V / R [mA] (R in [MΩ], V in [V])."""
-    return np.asarray(voltage_v) / (np.asarray(resistance_mohm) * 1e6) * 1e3
+    return np.asarray(voltage_v) / np.asarray(resistance_mohm) * 1e-3  # V / (R × 1e6 Ω) in mA, R never scaled up
 
 
 def rescale(resistive_ma, capacitive_ma, from_voltage_v, from_frequency_hz, to_voltage_v, to_frequency_hz):

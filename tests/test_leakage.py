@@ -121,3 +121,14 @@ def test_nature_split_keeps_magnitude():
     for nature in phys.NATURE_ANGLE_DEG:
         r, c = phys.split_by_nature(2.0, nature)
         assert math.hypot(r, c) == pytest.approx(2.0)
+
+
+def test_a_vast_insulation_resistance_leaks_next_to_nothing_without_overflow():
+    """V / R for R = 1e305 MΩ is 2.3e-306 mA at 230 V (arithmetic), with no overflow on the way (the megohms are
+    never multiplied up to ohms first); 2 MΩ at 230 V is 0.115 mA (Ohm's law)."""
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        assert float(phys.resistive_current_ma(1e305, 230.0)) == pytest.approx(2.3e-306, rel=1e-12)
+    assert float(phys.resistive_current_ma(2.0, 230.0)) == pytest.approx(0.115, rel=1e-12)
