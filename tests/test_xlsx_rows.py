@@ -18,6 +18,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from leakbudget.xlsx import zipped
 from leakbudget.xlsx.package import SheetData, write_sheets
 from leakbudget.xlsx.rows import EXCEL_MAX_NUMBER, ROWS_PER_CHUNK, ColumnRows, escape_text, rows_xml
 from leakbudget.xlsx.zipped import deflated
@@ -304,12 +305,10 @@ def test_a_sheet_with_zip64_sizes_reads_back(tmp_path: Path, monkeypatch, how: s
 
         monkeypatch.setattr(xlsx_package, "_write_package", with_a_low_limit)
         parts = []
-        monkeypatch.setattr(
-            xlsx_package, "deflated", lambda chunks, entry: parts.append(entry) or deflated(chunks, entry)
-        )
+        monkeypatch.setattr(zipped, "deflated", lambda chunks, entry: parts.append(entry) or deflated(chunks, entry))
     else:
         monkeypatch.setattr(xlsx_package, "ZIP64_ROWS", 0)
-        monkeypatch.setattr(xlsx_package, "can_append", lambda out: False)
+        monkeypatch.setattr(zipped, "can_append", lambda out: False)
     rows = [["K1", 0.85], ["K2", 1.4]]
     path = fast_workbook(tmp_path, "Big", ["circuit", "leakage_ma"], rows)
     with zipfile.ZipFile(path) as archive:

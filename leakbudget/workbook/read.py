@@ -651,6 +651,9 @@ def _default_leg(appliance: cat.Appliance | None, system: str) -> str:
     return "L1-L2" if appliance is not None and appliance.line_to_line and system != "single" else "L1"
 
 
+LEAKAGE_FIGURES = ("Leakage", "Y capacitance", "Insulation resistance", "Appliance")  # a load needs one of them
+
+
 def read_loads(
     table: RawTable,
     circuits: list[Circuit],
@@ -734,8 +737,13 @@ def read_loads(
                 ins_r = table.number(row, "Insulation resistance", "Mohm", positive=True)
             if y_cap is not None or ins_r is not None:
                 _refuse_implausible_components(table, row, circuit, y_cap, ins_r)
-            figures = ("Leakage", "Y capacitance", "Insulation resistance", "Appliance")
-            if leakage is None and y_cap is None and ins_r is None and key is None and not table.failed(row, *figures):
+            if (
+                leakage is None
+                and y_cap is None
+                and ins_r is None
+                and key is None
+                and not table.failed(row, *LEAKAGE_FIGURES)
+            ):
                 table.refuse(
                     row,
                     "Appliance",

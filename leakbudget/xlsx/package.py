@@ -50,7 +50,7 @@ from leakbudget.xlsx.guard import (  # noqa: F401 (the limits are part of this m
 from leakbudget.xlsx.rows import QUOTE_ROW, SAMPLE_ROW, SheetXml, rows_width, with_rows
 from leakbudget.xlsx.styles import merge_styles, remap_cell_styles
 from leakbudget.xlsx.xml_text import BadXmlError, Span, UnsafeXmlError, XmlPart, local_name, parse, quoteattr
-from leakbudget.xlsx.zipped import append_compressed, can_append, deflated
+from leakbudget.xlsx.zipped import append_compressed, can_append, write_deflated
 
 # zipfile must know before streaming an entry whether it may pass 2 GiB (ZIP64); a sheet of more rows than this
 # could, at 10 KB a row, so it gets ZIP64 sizes (APPNOTE.TXT 4.5.3; Excel, LibreOffice and calamine read them).
@@ -429,13 +429,13 @@ def _compressed_start(archive: zipfile.ZipFile, info: zipfile.ZipInfo, out: zipf
     """Where the entry's compressed bytes start in ``archive``'s file (after its local header, which
     ``archive.open`` checks), or None when they are not to be copied as they are: a method other than stored and
     deflated, a flag beyond :data:`_RAW_COPY_FLAGS`, no local header there, or files that are not seekable."""
-    source, target = getattr(archive, "fp", None), getattr(out, "fp", None)
+    source = getattr(archive, "fp", None)
     if (
         info.compress_type not in (zipfile.ZIP_STORED, zipfile.ZIP_DEFLATED)
         or info.flag_bits & ~_RAW_COPY_FLAGS
         or source is None
-        or target is None
-        or not (source.seekable() and target.seekable())
+        or not source.seekable()
+        or not can_append(out)
     ):
         return None
     source.seek(info.header_offset)
@@ -469,18 +469,14 @@ def _append_compressed(
 def _write_entry(
     out: zipfile.ZipFile, entry: zipfile.ZipInfo, data: bytes | SheetXml, progress: Progress | None
 ) -> None:
-    """One entry: bytes as they are, a sheet's rows streamed into the compressor as they are made."""
+    """One entry: bytes as they are, a sheet's rows deflated by zlib-ng as they are made
+    (:func:`leakbudget.xlsx.zipped.write_deflated`)."""
     if isinstance(data, bytes):
         out.writestr(entry, data)
         return
     stage = f"Writing '{data.name}'"
     report = None if progress is None else (lambda done, total: progress(stage, done, total))
-    if can_append(out):  # deflated by zlib-ng (leakbudget.xlsx.zipped), about 2.6 times faster than zlib
-        append_compressed(out, entry, deflated(data.chunks(report), entry))
-        return
-    with out.open(entry, "w", force_zip64=len(data.rows) > ZIP64_ROWS) as sink:
-        for chunk in data.chunks(report):
-            sink.write(chunk)
+    write_deflated(out, entry, data.chunks(report), force_zip64=len(data.rows) > ZIP64_ROWS)
 
 
 def _entry_like(info: zipfile.ZipInfo | None, name: str, keep_time: bool = False) -> zipfile.ZipInfo:

@@ -41,12 +41,14 @@ def can_append(out: zipfile.ZipFile) -> bool:
     return target is not None and target.seekable()
 
 
-def write_deflated(out: zipfile.ZipFile, entry: zipfile.ZipInfo, chunks: Iterable[bytes]) -> None:
-    """Add ``entry`` to ``out`` with ``chunks`` as its content, deflated by zlib-ng (through zipfile when ``out``
-    cannot be appended to)."""
+def write_deflated(
+    out: zipfile.ZipFile, entry: zipfile.ZipInfo, chunks: Iterable[bytes], force_zip64: bool = False
+) -> None:
+    """Add ``entry`` to ``out`` with ``chunks`` as its content, deflated by zlib-ng; through zipfile when ``out``
+    cannot be appended to (streamed, so ``force_zip64`` says beforehand whether the part may pass 4 GiB)."""
     if not can_append(out):
         entry.compress_type = zipfile.ZIP_DEFLATED
-        with out.open(entry, "w") as sink:
+        with out.open(entry, "w", force_zip64=force_zip64) as sink:
             for chunk in chunks:
                 sink.write(chunk)
         return
