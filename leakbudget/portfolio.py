@@ -34,7 +34,7 @@ from leakbudget.about import CAUTION, __version__
 from leakbudget.errors import LeakbudgetError, WriteBackError
 from leakbudget.output.portfolio import EXIT_OK, record, summary_row
 from leakbudget.progress import Progress
-from leakbudget.xlsx.files import BACKUP_MARK
+from leakbudget.xlsx.files import is_backup
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -94,8 +94,9 @@ class Found:
 
 def _skipped(name: str) -> bool:
     """Files in a folder that are not the user's workbooks: a spreadsheet program's lock files (``~$…``), hidden
-    files (``._…`` from macOS), and the previous versions leakbudget keeps (``….before-leakbudget.xlsx``)."""
-    return name.startswith(("~$", ".")) or Path(name).stem.endswith(BACKUP_MARK)
+    files (``._…`` from macOS), and the previous versions leakbudget keeps (``….before-leakbudget.xlsx``, and the
+    numbered ones, ``….before-leakbudget-2.xlsx`` …)."""
+    return name.startswith(("~$", ".")) or is_backup(name)
 
 
 def find_workbooks(items: Iterable[str | Path], recursive: bool = False, skip: Iterable[Path] = ()) -> list[Found]:

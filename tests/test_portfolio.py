@@ -65,7 +65,7 @@ def test_folders_give_their_workbooks_in_name_order_once(tmp_path: Path):
     write_workbook(tmp_path / "A.xlsx", basic_sheets())
     (tmp_path / "sub").mkdir()
     write_workbook(tmp_path / "sub" / "c.xlsx", basic_sheets())
-    for other in ("~$b.xlsx", "b.before-leakbudget.xlsx", "notes.txt", ".hidden.xlsx"):
+    for other in ("~$b.xlsx", "b.before-leakbudget.xlsx", "b.before-leakbudget-3.xlsx", "notes.txt", ".hidden.xlsx"):
         (tmp_path / other).write_text("not the user's workbook", encoding="utf-8")
     found = portfolio.find_workbooks([tmp_path, tmp_path / "b.xlsx"])
     assert [f.path.name for f in found] == ["A.xlsx", "b.xlsx"]  # the file named again is checked once
@@ -146,7 +146,9 @@ def test_results_are_written_into_each_workbook_or_into_copies(folder: Path, tmp
     for name in ("flat-1.xlsx", "flat-2.xlsx"):
         assert "Circuit results" in openpyxl.load_workbook(folder / name).sheetnames
         assert (folder / name.replace(".xlsx", ".before-leakbudget.xlsx")).read_bytes() == before[name]
-    # a rerun over the folder does not take the kept previous versions for workbooks
+    # a rerun over the folder does not take the kept previous versions for workbooks, the numbered ones included
+    result = runner.invoke(app, ["check", str(folder / "flat-1.xlsx"), "--jobs", "1"])
+    assert result.exit_code == 0 and (folder / "flat-1.before-leakbudget-2.xlsx").exists()
     assert [f.path.name for f in portfolio.find_workbooks([folder])] == ["flat-1.xlsx", "flat-2.xlsx", "flat-3.xlsx"]
 
 

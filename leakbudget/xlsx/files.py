@@ -33,6 +33,16 @@ def backup_path(source: Path) -> Path:
     return source.with_name(source.stem + BACKUP_MARK + source.suffix)
 
 
+def is_backup(name: str) -> bool:
+    """``name`` is one of the previous versions leakbudget keeps: ``<stem>.before-leakbudget<suffix>`` or a
+    numbered one, ``<stem>.before-leakbudget-<n><suffix>``."""
+    stem = Path(name).stem
+    if stem.endswith(BACKUP_MARK):
+        return True
+    head, mark, number = stem.rpartition(BACKUP_MARK + "-")
+    return bool(head and mark) and number.isdigit()
+
+
 def _numbered(source: Path, n: int) -> Path:
     return source.with_name(f"{source.stem}{BACKUP_MARK}-{n}{source.suffix}")
 
