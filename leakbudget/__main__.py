@@ -1,3 +1,3 @@
-from leakbudget.cli import main
+from leakbudget.cli import script
 
-main()
+script()

@@ -1,5 +1,5 @@
 """The command line: typer commands (:mod:`leakbudget.cli.app`) over :mod:`leakbudget.api`."""
 
-from leakbudget.cli.app import app, main
+from leakbudget.cli.app import app, main, script
 
-__all__ = ["app", "main"]
+__all__ = ["app", "main", "script"]

@@ -2,8 +2,12 @@
 
 from __future__ import annotations
 
+import atexit
+import os
+import sys
+import threading
 from pathlib import Path
-from typing import TYPE_CHECKING, Annotated, Any
+from typing import TYPE_CHECKING, Annotated, Any, NoReturn
 
 import typer
 from rich import box
@@ -616,5 +620,35 @@ def root(
 
 
 def main() -> None:
-    """Entry point of the console script and ``python -m leakbudget``."""
+    """Run the command line on ``sys.argv``; ends by raising SystemExit with the exit status, as click does (for
+    callers that wrap it). The console script and ``python -m leakbudget`` run :func:`script`."""
     app()
+
+
+def script() -> NoReturn:
+    """Entry point of the console script and ``python -m leakbudget``: run the command, then leave at once."""
+    try:
+        main()
+    except SystemExit as stop:
+        leave(stop.code)
+    leave(0)
+
+
+def leave(code: object) -> NoReturn:
+    """End the process with exit status ``code`` without Python's teardown of every module and object.
+
+    The teardown frees what the operating system frees anyway, and takes 60-100 ms after a portfolio (measured on
+    the 2-core machine: 0.06 s after only the imports), time spent on every command's critical path. The exit
+    functions still run (multiprocessing's, logging's, any caller's), and standard output and error are flushed;
+    when they cannot be (a closed pipe), when the status is not a number, or when another thread is still running,
+    Python's usual exit takes over and behaves as it always has.
+    """
+    if not isinstance(code, int) or threading.active_count() > 1:
+        raise SystemExit(code)
+    atexit._run_exitfuncs()
+    try:
+        sys.stdout.flush()
+        sys.stderr.flush()
+    except (OSError, ValueError):  # a reader that went away, or a stream already closed
+        raise SystemExit(code) from None
+    os._exit(code)
