@@ -143,3 +143,17 @@ def test_the_terminal_rounds_each_figure_once(make_workbook):
     result = runner.invoke(app, ["check", str(make_workbook(sheets)), "--no-write"])
     row = next(line for line in result.output.splitlines() if line.lstrip().startswith("E1 "))
     assert row.split()[2:4] == ["10.03", "10.03"], row
+
+
+def test_an_option_taken_for_a_file_name_is_refused(make_workbook, tmp_path):
+    """`report x.xlsx --html --pdf r.pdf` forgot the HTML file's name: click would take `--pdf` for it."""
+    path = make_workbook()
+    result = runner.invoke(app, ["report", str(path), "--html", "--pdf", str(tmp_path / "r.pdf")])
+    assert result.exit_code == 2
+    assert "--pdf looks like an option, not a file name: give the file name after --html" in " ".join(
+        result.output.split()
+    )
+    assert not (tmp_path / "r.pdf").exists() and not Path("--pdf").exists()
+    for args in (["check", str(path), "--out", "--force"], ["check", str(path), "--summary", "-q"]):
+        result = runner.invoke(app, args)
+        assert result.exit_code == 2 and "looks like an option" in " ".join(result.output.split())

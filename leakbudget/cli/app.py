@@ -15,6 +15,7 @@ from rich.table import Table
 from typer.core import TyperGroup
 
 from leakbudget.about import __version__
+from leakbudget.cli.options import named_file
 from leakbudget.cli.portfolio import (
     ClusterOpt,
     JobsOpt,
@@ -85,7 +86,9 @@ app = typer.Typer(
 PathArg = Annotated[Path, typer.Argument(help="The workbook (.xlsx or .ods).", show_default=False, metavar="PATH")]
 OutOpt = Annotated[
     Path | None,
-    typer.Option("--out", "-o", help="Write the results into this new file and leave PATH untouched."),
+    typer.Option(
+        "--out", "-o", help="Write the results into this new file and leave PATH untouched.", callback=named_file
+    ),
 ]
 JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON document to stdout instead of tables.")]
 QuietOpt = Annotated[
@@ -374,10 +377,14 @@ def report(
     html: Annotated[
         Path | None,
         typer.Option(
-            "--html", help="Write the report as one self-contained HTML file (charts inline, no external links)."
+            "--html",
+            help="Write the report as one self-contained HTML file (charts inline, no external links).",
+            callback=named_file,
         ),
     ] = None,
-    pdf: Annotated[Path | None, typer.Option("--pdf", help="Write the report as a PDF (A4 pages).")] = None,
+    pdf: Annotated[
+        Path | None, typer.Option("--pdf", help="Write the report as a PDF (A4 pages).", callback=named_file)
+    ] = None,
     code: CodeOpt = None,
     split: Annotated[
         bool, typer.Option("--split", help="Also plan a split (as `leakbudget split`) and put the plan in the report.")
@@ -433,7 +440,9 @@ EXAMPLES = ("alder-quay-remodel", "tanners-row-flat")
 
 @app.command()
 def demo(
-    folder: Annotated[Path, typer.Option("--folder", help="Where to put the example workbook.")] = Path("."),
+    folder: Annotated[
+        Path, typer.Option("--folder", help="Where to put the example workbook.", callback=named_file)
+    ] = Path("."),
     example: Annotated[
         str,
         typer.Option(

@@ -12,6 +12,7 @@ from typing import TYPE_CHECKING, Annotated, Any, NoReturn
 
 import typer
 
+from leakbudget.cli.options import named_file
 from leakbudget.cli.render import err_console, out_console, print_json, progress_bar, render_portfolio
 from leakbudget.errors import LeakbudgetError
 
@@ -40,11 +41,14 @@ OutDirOpt = Annotated[
     typer.Option(
         "--out-dir",
         help="Write the results into copies in this folder (same file names) and leave the workbooks untouched.",
+        callback=named_file,
     ),
 ]
 SummaryOpt = Annotated[
     Path | None,
-    typer.Option("--summary", help="Also write a new summary workbook (.xlsx): one row per workbook."),
+    typer.Option(
+        "--summary", help="Also write a new summary workbook (.xlsx): one row per workbook.", callback=named_file
+    ),
 ]
 ClusterOpt = Annotated[
     str | None,
