@@ -157,3 +157,38 @@ def test_an_option_taken_for_a_file_name_is_refused(make_workbook, tmp_path):
     for args in (["check", str(path), "--out", "--force"], ["check", str(path), "--summary", "-q"]):
         result = runner.invoke(app, args)
         assert result.exit_code == 2 and "looks like an option" in " ".join(result.output.split())
+
+
+def test_circuits_judged_by_an_over_budget_shared_device_say_so_and_fit_80_columns(tmp_path):
+    """The example UK board: RCD1 carries 14.12 mA against its 9 mA budget (30 % of IΔn = 30 mA, BS 7671:2018
+    reg. 531.3.2), while each of its five circuits alone is within it. The terminal names RCD1 as the reason, once,
+    and no figure is cut short at 80 columns."""
+    source = ROOT / "examples" / "tanners-row-flat.xlsx"
+    result = runner.invoke(app, ["check", str(source), "--no-write"], terminal_width=80)
+    assert result.exit_code == 1
+    text = " ".join(result.output.split())
+    assert "C1, C2, C3, C4 and C5 are over-budget because RCD1 above them is" in text
+    assert "RCD1 carries 14.12 mA against its 9.00 mA budget" in text
+    assert "C1 is over-budget: largest contributor" not in text
+    assert "5 circuit(s) over budget, through RCD1. Move circuits from RCD1 to another device" in text
+    assert "…" not in result.output and "9.00/15.00" in result.output
+    assert all(len(line) <= 80 for line in result.output.splitlines())
+
+
+def test_marginal_circuits_share_one_sentence_naming_the_likeliest(tmp_path):
+    """Fifteen marginal circuits (an invented 600-load workbook): one sentence, the ten with the highest switch-on
+    likelihood in falling order, and how many more, instead of a line each."""
+    from benchmarks.workbooks import make_workbook
+
+    from leakbudget import api
+
+    path = make_workbook(tmp_path / "wing.xlsx", 600, seed=7)
+    marginal = [c for c in api.check(path).result.circuits if c.status.value == "marginal"]
+    assert len(marginal) == 15
+    result = runner.invoke(app, ["check", str(path), "--no-write"], terminal_width=100)
+    text = " ".join(result.output.split())
+    assert "15 circuits are marginal: within their budget, but their switch-on trip likelihood is above" in text
+    assert "5 more in the 'Circuit results' sheet." in text and " is marginal: within its budget" not in text
+    likeliest = sorted(marginal, key=lambda c: -c.risk.switch_on)
+    named = text.split("the highest: ")[1].split("; 5 more")[0].split("; ")
+    assert [n.split()[0] for n in named] == [c.circuit.circuit_id for c in likeliest[:10]]

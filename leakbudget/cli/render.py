@@ -187,6 +187,13 @@ def _circuits_to_show(circuits: list[Any]) -> list[Any]:
     return [circuits[i] for i in sorted(sorted(range(len(circuits)), key=rank)[:TERMINAL_TABLE_ROWS])]
 
 
+MARGINAL_LISTED = 10  # marginal circuits named in the terminal's one sentence about them, the likeliest first
+SWITCH_ON = "Switch-\non"  # a narrow table's header for the switch-on likelihood, as wide as its figures
+# A narrow table's one column for the budget and the no-trip level, its header on two lines (a pair such as
+# 9.00/15.00 never wraps, and the header takes no more room than the pair).
+BUDGET_PAIR = "Budget/\nno-trip"
+
+
 def render_board(result: Any, wide: bool) -> None:
     """The protection tree: each shared device with what hangs under it, indented, and its accumulated total."""
     from leakbudget.output.check import device_dict
@@ -195,16 +202,14 @@ def render_board(result: Any, wide: bool) -> None:
         title="Shared devices: everything below each one (mA)",
         title_justify="left",
         box=box.SIMPLE_HEAD,
+        show_edge=False,
         pad_edge=False,
         padding=(0, 1, 0, 0),
     )
-    headers = ("Device", "Key", "Sum", "Phasor", "Budget/ no-trip", "Used", "Status", "P(trip)", "Switch-on")
+    headers = ("Device", "Key", "Sum", "Phasor", BUDGET_PAIR, "Used", "Status", "P(trip)", "Switch-on")
     for header in headers if wide else tuple(h for h in headers if h != "Key"):
         table.add_column(
-            header,
-            justify="left" if header in ("Device", "Key", "Status") else "right",
-            no_wrap=header != "Device",
-            min_width=10 if header == "Budget/ no-trip" else None,
+            header, justify="left" if header in ("Device", "Key", "Status") else "right", no_wrap=header != "Device"
         )
     devices = {d.device_id: d for d in result.devices}
     circuits = {c.circuit.circuit_id: c for c in result.circuits}
@@ -292,18 +297,14 @@ def render_check(job: Any, quiet: bool = False) -> None:
         title=f"Standing leakage per circuit (mA): {project.path.name}",
         title_justify="left",
         box=box.SIMPLE_HEAD,
+        show_edge=False,
         pad_edge=False,
         padding=(0, 1, 0, 0),
     )
     table.add_column("Circuit", overflow="fold", min_width=6)
-    levels = ("Budget", "No-trip") if wide else ("Budget/ no-trip",)
-    for header in ("Device", "Sum", "Phasor", *levels, "Used", "Status", "P(trip)", "Switch-on"):
-        table.add_column(
-            header,
-            justify="left" if header in ("Device", "Status") else "right",
-            no_wrap=header != "Budget/ no-trip",
-            min_width=9 if header == "Budget/ no-trip" else None,
-        )
+    levels = ("Budget", "No-trip") if wide else (BUDGET_PAIR,)
+    for header in ("Device", "Sum", "Phasor", *levels, "Used", "Status", "P(trip)", "Switch-on" if wide else SWITCH_ON):
+        table.add_column(header, justify="left" if header in ("Device", "Status") else "right", no_wrap=True)
     if wide:
         table.add_column("Largest contributor", overflow="fold")
     shown = _circuits_to_show(result.circuits)
@@ -331,14 +332,22 @@ def render_check(job: Any, quiet: bool = False) -> None:
             cells.append(f"{d['largest_contributor']} ({fmt(c.largest_ma, 2)})" if d["largest_contributor"] else "-")
         table.add_row(*cells)
     out_console.print(table)
-    if result.devices:
-        render_board(result, wide)
     if len(shown) < len(result.circuits):
         out_console.print(
             f"Showing {len(shown)} of {len(result.circuits):,} circuits: those using most of their budget; "
             "every circuit is in the 'Circuit results' sheet (and in --json).",
             highlight=False,
         )
+    if any(c.guarding_device is not None for c in shown):
+        out_console.print(
+            "↳ no device of its own: the shared device named judges the circuit (budget, status, likelihood), and "
+            "Used is the circuit's share of that device's budget.",
+            highlight=False,
+        )
+    if result.devices:
+        out_console.print()
+        render_board(result, wide)
+    out_console.print()
     s = project.settings
     out_console.print(
         f"Budget = {s.budget_fraction:g} × trip level ({s.sources['Budget fraction']}); gated by the {gate} sum; "
@@ -365,9 +374,25 @@ def render_check(job: Any, quiet: bool = False) -> None:
     if result.unplaced:
         out_console.print(f"{len(result.unplaced)} load(s) have no circuit yet; `leakbudget split` can place them.")
     bad = [c for c in result.circuits if c.status.value in ("over-budget", "trip-risk")]
+    # A circuit with no device of its own takes the status of the shared device above it: say so, once per device.
+    judged_above: dict[str, list[str]] = {}
     for c in bad[:TERMINAL_TABLE_ROWS]:
+        if c.guarding_device is not None and c.protected_by is not None:
+            judged_above.setdefault(c.protected_by, []).append(c.circuit.circuit_id)
+            continue
         out_console.print(
             f"{c.circuit.circuit_id} is {c.status.value}: largest contributor {c.largest} ({c.largest_ma:.2f} mA).",
+            highlight=False,
+        )
+    by_device = {d.device_id: d for d in result.devices}
+    for device_id, ids in judged_above.items():
+        x = by_device[device_id]
+        names = ids[0] if len(ids) == 1 else f"{', '.join(ids[:-1])} and {ids[-1]}"
+        out_console.print(
+            f"{names} {'is' if len(ids) == 1 else 'are'} {x.status.value} because {device_id} above "
+            f"{'it' if len(ids) == 1 else 'them'} is: {'it has' if len(ids) == 1 else 'they have'} no device of "
+            f"{'its' if len(ids) == 1 else 'their'} own, and {device_id} carries {fmt(x.gate_ma, 2)} mA against its "
+            f"{fmt(x.budget_ma, 2)} mA budget.",
             highlight=False,
         )
     if len(bad) > TERMINAL_TABLE_ROWS:
@@ -380,10 +405,21 @@ def render_check(job: Any, quiet: bool = False) -> None:
 
     marginal = [c for c in result.circuits if c.status.value == "marginal"]
     limit = float(project.settings["Switch-on limit"])
-    for c in marginal[:TERMINAL_TABLE_ROWS]:
+    if len(marginal) == 1:
+        c = marginal[0]
         out_console.print(
             f"{c.circuit.circuit_id} is marginal: within its budget, but its switch-on trip likelihood "
             f"{likelihood_text(c.risk, switch_on=True)} is above the Switch-on limit of {100 * limit:g} %.",
+            highlight=False,
+        )
+    elif marginal:
+        highest = sorted(marginal, key=lambda c: -c.risk.switch_on)[:MARGINAL_LISTED]
+        listed = "; ".join(f"{c.circuit.circuit_id} {likelihood_text(c.risk, switch_on=True)}" for c in highest)
+        more = len(marginal) - len(highest)
+        out_console.print(
+            f"{len(marginal):,} circuits are marginal: within their budget, but their switch-on trip likelihood is "
+            f"above the Switch-on limit of {100 * limit:g} %"
+            + (f"; the highest: {listed}; {more:,} more in the 'Circuit results' sheet." if more else f": {listed}."),
             highlight=False,
         )
     for c in result.circuits:
@@ -397,11 +433,25 @@ def render_check(job: Any, quiet: bool = False) -> None:
     if not result.circuits:
         out_console.print("The Circuits sheet has no circuits yet: add one row per circuit.")
     elif bad:
-        out_console.print(
-            f"[bold]{len(bad)} circuit(s) over budget.[/] Split loads across circuits (`leakbudget split`), measure "
-            "the largest contributors, and repair appliances that leak far above their typical value; never remove "
-            "or up-rate protection."
+        shared = [d.device_id for d in result.devices if d.status.value in ("over-budget", "trip-risk")]
+        board = (
+            f" Move circuits from {' and '.join(shared)} to another device of the board, or give the largest a "
+            "device of its own (an RCBO); `leakbudget split` plans the board."
+            if shared
+            else ""
         )
+        if len(judged_above) == len(shared) and sum(map(len, judged_above.values())) == len(bad):
+            out_console.print(  # every one through its shared device: splitting a circuit's loads changes nothing
+                f"[bold]{len(bad)} circuit(s) over budget, through {' and '.join(shared)}.[/]{board} Measure the "
+                "largest contributors, and repair appliances that leak far above their typical value; never remove "
+                "or up-rate protection."
+            )
+        else:
+            out_console.print(
+                f"[bold]{len(bad)} circuit(s) over budget.[/]{board} Split loads across circuits (`leakbudget "
+                "split`), measure the largest contributors, and repair appliances that leak far above their typical "
+                "value; never remove or up-rate protection."
+            )
     elif marginal:
         out_console.print(
             f"Every protected circuit is within its budget, but {len(marginal)} "

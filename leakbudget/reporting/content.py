@@ -240,10 +240,16 @@ def _changes(
             )
         )
     if over:
+        board = (
+            " For a shared device, move circuits to another device of the board, or give the largest a device of "
+            "its own (an RCBO); `leakbudget split` plans the board."
+            if any(x.get("circuits") for x in over)
+            else ""
+        )
         items.append(
             Paragraph(
                 "Cure: split loads across circuits, measure the largest contributors, and repair an appliance that "
-                "leaks far above its typical value; never remove or up-rate protection."
+                f"leaks far above its typical value; never remove or up-rate protection.{board}"
             )
         )
     marginal = [_name(x) for x in (*doc["devices"], *doc["circuits"]) if x["status"] == "marginal"]
