@@ -75,7 +75,7 @@ UNIT_SPREAD_DEFAULT = 1.15
 UNIT_SPREAD_SOURCE = Source.from_memory("geometric standard deviation 1.15 between units of one model")
 SWITCH_ON_FACTOR_DEFAULT = 3.0
 SWITCH_ON_FACTOR_SOURCE = Source.from_memory(
-    "damp heating element at switch-on leaks 3 × its dry value (guidance says only 'several times')"
+    "a damp heating element leaks about 3 × its dry value at switch-on; published guidance says only 'several times'"
 )
 SEED_DEFAULT = 1
 SEED_SOURCE = Source(Kind.DEFAULT, "default seed 1")

@@ -59,9 +59,7 @@ def _switch_on(settings: Settings) -> tuple[float, Source]:
     factor = float(settings["Switch-on factor"])
     origin = settings.sources["Switch-on factor"]
     return factor, Source(
-        origin.kind,
-        f"switch-on leakage of a cold heating element about {factor:g} × its dry "
-        f"value ({origin}); moist elements: BS 7671:2001 guidance",
+        origin.kind, f"Switch-on factor {factor:g}: {origin}; moist elements at switch-on: BS 7671:2001 guidance"
     )
 
 
@@ -997,9 +995,9 @@ def rule_switch_on(views: list[_Circuit], code: Code, result: CheckResult) -> It
                 v.cid,
                 None,
                 f"{v.cid} is within its budget, but its switch-on trip likelihood {100 * c.risk.switch_on:.2g} % "
-                f"is above the Switch-on limit of {100 * limit:g} %, so it is marginal: its heating elements, "
-                f"{factor:g} × their dry leakage when cold ({source}), may trip it; measure them at switch-on, or "
-                "give them a circuit of their own (`leakbudget split --max-trip-likelihood`).",
+                f"is above the Switch-on limit of {100 * limit:g} %, so it is marginal: its heating elements may "
+                f"trip it, leaking about {factor:g} × their dry value when switched on cold. Measure them at "
+                f"switch-on, or give them a circuit of their own (`leakbudget split --max-trip-likelihood`). {source}.",
             )
 
 
