@@ -179,7 +179,6 @@ def test_marginal_circuits_share_one_sentence_naming_the_likeliest(tmp_path):
     """Fifteen marginal circuits (an invented 600-load workbook): one sentence, the ten with the highest switch-on
     likelihood in falling order, and how many more, instead of a line each."""
     from benchmarks.workbooks import make_workbook
-
     from leakbudget import api
 
     path = make_workbook(tmp_path / "wing.xlsx", 600, seed=7)

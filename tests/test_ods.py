@@ -339,6 +339,32 @@ def test_a_repeat_bomb_is_refused_before_calamine_allocates_it(tmp_path: Path) -
     assert memory_kb < 400_000
 
 
+def _cut_after_a_row(data: bytes) -> bytes:
+    return data[: data.index(b"</table:table-row>", data.index(b'table:name="Loads"')) + len(b"</table:table-row>")]
+
+
+def _table_end_removed(data: bytes) -> bytes:
+    at = data.rindex(b"</table:table>")
+    return data[:at] + data[at + len(b"</table:table>") :]
+
+
+@pytest.mark.parametrize(
+    "damage",
+    [_cut_after_a_row, lambda data: _cut_after_a_row(data) + b"\n  \n", _table_end_removed],
+    ids=["cut after a row", "cut after a row, then blanks", "a table's end tag gone"],
+)
+def test_a_table_left_open_is_refused_before_calamine_reads_it(tmp_path: Path, damage) -> None:  # noqa: ANN001
+    """python-calamine 0.9.1 reads a table until its end tag and loops for ever when the part ends first (found by
+    the random-damage test: a content.xml cut short after a row end). The guard hands such a part to the XML
+    parser, which names where it breaks. Run in a child process with a timeout, since a regression would hang."""
+    path = with_content(DATA / "alder-quay.ods", tmp_path / "cut.ods", damage)
+    code, out, err, _ = run_child("check", str(path), "--out", str(tmp_path / "out.ods"), timeout=60)
+    assert code == 2, out + err
+    line = next(line for line in (out + err).splitlines() if line.startswith("Error:"))
+    assert line.startswith("Error: cut.ods: its part content.xml is damaged (content.xml:"), line
+    assert not (tmp_path / "out.ods").exists()
+
+
 def test_error_cells_and_formulas_without_results_are_reported_by_cell(tmp_path: Path) -> None:
     """A cell LibreOffice marks as an error (calcext:value-type="error", which calamine reads as empty text) and a
     formula with no saved result are named by cell, as for an .xlsx."""
