@@ -60,8 +60,10 @@ TRIM_THRESHOLD_BYTES = 128 * 1024 * 1024
 # Workbooks handed to each pool worker ahead of time, so that it never waits for the next: this process tops the
 # pool up only between its own workbooks, which take as long as the worker's. Measured with --jobs 2 on 200 small
 # workbooks: with 2 ahead the worker waited 13 to 19 times a run, 4 to 28 ms each (about 0.1 s in all); with 4, never
-# more than 1.7 ms (modelling choice).
+# more than 1.7 ms (modelling choice). Near the end of the list fewer, so that this process does not wait while
+# the pool works through the last ones: with 4 to the end, the pool finished 55 to 180 ms after this process.
 POOL_AHEAD = 4
+POOL_AHEAD_AT_THE_END = 2
 # Imported once before the pool's workers are forked (or by the fork server, or by each spawned worker): every
 # module a check or a review runs, those it imports on first use included (about 50 ms in each worker).
 WORKER_MODULES = (
@@ -444,9 +446,9 @@ def _run_locally(
 
     This process has the library loaded already, so it starts on the last workbooks at once while the pool's
     processes start (a thread waits for them: the pool's first submit blocks until the fork server has imported
-    the library); the pool is then fed from the front, a few workbooks ahead (:data:`POOL_AHEAD` each), so its
-    workers never wait for this process to hand out work. If the pool dies (a worker killed, out of memory), the
-    workbooks it held are reported as not checked and this process checks the rest itself.
+    the library); the pool is then fed from the front, a few workbooks ahead (:data:`POOL_AHEAD` each, fewer near
+    the end), so its workers never wait for this process to hand out work. If the pool dies (a worker killed, out
+    of memory), the workbooks it held are reported as not checked and this process checks the rest itself.
     """
     results: list[WorkbookResult | None] = [None] * len(tasks)
     done = 0
@@ -507,7 +509,8 @@ def _run_locally(
             if not queue and starting is not None:
                 starting.join()
             started = starting is None or not starting.is_alive()
-            while queue and not broken and started and len(futures) < POOL_AHEAD * (workers - 1):
+            ahead = POOL_AHEAD if len(queue) > 2 * POOL_AHEAD * (workers - 1) else POOL_AHEAD_AT_THE_END
+            while queue and not broken and started and len(futures) < ahead * (workers - 1):
                 try:
                     future = pool.submit(run_task, tasks[queue[0]])
                 except BrokenProcessPool:
