@@ -16,6 +16,11 @@ commands / one command (the default, --jobs = cores) ≥ 5; --jobs 1 / --jobs 2 
 ≤ 1.5 (the same number of workers); and the workbooks an hour each way serves. The machine may be busy with other work, so each command's fastest of ``--runs`` is
 compared (the least disturbed run), the median beside it; the separate commands run once (they take longest).
 
+The machine's speed drifts both ways within seconds (the control has read above 2.0, the serial run slowed), so
+fastest against fastest can pair a lucky --jobs 1 with an ordinary --jobs 2. ``--pairs`` more runs of --jobs 1
+and --jobs 2 back to back (in turns, which goes first) give the paired estimate printed beside it: the median of
+the ratios of runs next to each other, over those pairs and the rounds.
+
 Bytecode is cached in a scratch folder and each command runs once untimed first, as in benchmarks/startup.py.
 """
 
@@ -103,6 +108,18 @@ def interleaved(
     return times, control
 
 
+def back_to_back(one: list[str], two: list[str], out: Path, env: dict[str, str], pairs: int) -> list[float]:
+    """``pairs`` ratios --jobs 1 / --jobs 2 of runs next to each other, taking turns at going first."""
+    ratios = []
+    for i in range(pairs):
+        times = {}
+        for name, command in (("two", two), ("one", one)) if i % 2 else (("one", one), ("two", two)):
+            shutil.rmtree(out, ignore_errors=True)
+            times[name] = run(command, env)
+        ratios.append(times["one"] / times["two"])
+    return ratios
+
+
 def burn(n: int) -> int:
     """Pure-Python work of about a second: the control for how much parallel speed the machine offers."""
     total = 0
@@ -140,6 +157,7 @@ def main() -> None:
     parser.add_argument("--workbooks", type=int, default=200)
     parser.add_argument("--loads", type=int, default=25)
     parser.add_argument("--runs", type=int, default=3)
+    parser.add_argument("--pairs", type=int, default=10, help="extra back-to-back --jobs 1 / --jobs 2 runs")
     args = parser.parse_args()
 
     import dask
@@ -173,6 +191,8 @@ def main() -> None:
         }
         with ProcessPoolExecutor(2, mp_context=multiprocessing.get_context("forkserver")) as pool:
             cases, control = interleaved(commands, clusters, out, env, args.runs, pool)
+        paired = [one_s / two_s for one_s, two_s in zip(cases["--jobs 1"], cases["--jobs 2"])]
+        paired += back_to_back(commands["--jobs 1"], commands["--jobs 2"], out, env, args.pairs)
         cases[f"{args.workbooks} separate commands"] = [separate(paths, out, env)]
 
     default = cases["--jobs 2"] if cores == 2 else cases[f"--jobs {cores} (the default)"]
@@ -190,7 +210,9 @@ def main() -> None:
     separate_s = best[f"{args.workbooks} separate commands"]
     print(
         f"separate / one command = {separate_s / min(default):.1f} (target ≥ {TARGET_ONE_COMMAND:g}); "
-        f"--jobs 1 / --jobs 2 = {best['--jobs 1'] / best['--jobs 2']:.2f} (target ≥ {TARGET_JOBS:g} on 2 cores); "
+        f"--jobs 1 / --jobs 2 = {best['--jobs 1'] / best['--jobs 2']:.2f} fastest against fastest, "
+        f"{statistics.median(paired):.2f} paired (median of {len(paired)}, {min(paired):.2f} to {max(paired):.2f}) "
+        f"(target ≥ {TARGET_JOBS:g} on 2 cores); "
         f"cluster / --jobs 2 = {best[CLUSTER] / best['--jobs 2']:.2f} (target ≤ {TARGET_CLUSTER:g}; with Dask's "
         f"default trim {best[CLUSTER_DEFAULT] / best['--jobs 2']:.2f})"
     )
