@@ -526,7 +526,10 @@ def appliances(
         )
         return
     table = Table(
-        title=f"Appliance catalogue ({len(rows)} rows)", title_justify="left", show_lines=True, box=box.SIMPLE_HEAD
+        title=f"Appliance catalogue ({len(rows)} row{'' if len(rows) == 1 else 's'})",
+        title_justify="left",
+        show_lines=True,
+        box=box.SIMPLE_HEAD,
     )
     table.add_column("Key", no_wrap=True)
     table.add_column("Typical / upper mA", no_wrap=True)
@@ -535,11 +538,19 @@ def appliances(
         table.add_row(
             a.key,
             f"{a.typical_ma:g} / {a.upper_ma:g}\nat {a.reference_voltage_v:g} V {a.reference_frequency_hz:g} Hz",
-            f"{a.description} ({a.nature}, {a.waveform})\ntypical: {a.typical_source}\nupper: {a.upper_source}",
+            f"{a.description} ({a.nature}, {a.waveform})\ntypical: {_said_once('typical', a.typical_source)}"
+            f"\nupper: {_said_once('upper', a.upper_source)}",
         )
     out_console.print(table)
     if not rows:
         out_console.print(f"No catalogue row matches '{word}'.", highlight=False)
+
+
+def _said_once(label: str, source: object) -> str:
+    """A catalogue figure's source after its label, without saying the label twice ("typical: from memory" for the
+    source "typical, from memory")."""
+    text = str(source)
+    return text.removeprefix(f"{label}, ")
 
 
 @app.command()
