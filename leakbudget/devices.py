@@ -28,8 +28,8 @@ BUDGET_FRACTION_SOURCE = Source.published("BS 7671:2018 reg. 531.3.2 (30 % of IÎ
 # Applying the 30 % rule to a UL 943 device is by analogy, not a published US rule: a modelling choice.
 BUDGET_FRACTION_SOURCE_UL = Source(
     Kind.DEFAULT,
-    "modelling choice: 30 % of the trip level, by analogy with BS 7671:2018 reg. 531.3.2 (no US rule sets a "
-    "standing-leakage budget; the Budget of setting offers a share of the no-trip level instead)",
+    "modelling choice: 30 % of the trip level, by analogy with BS 7671:2018 reg. 531.3.2; no US rule sets a "
+    "standing-leakage budget, and the Budget of setting offers a share of the no-trip level instead",
 )
 TRIP_LEVEL, NO_TRIP_LEVEL = BUDGET_OF = ("trip level", "no-trip level")
 

@@ -191,3 +191,16 @@ def test_marginal_circuits_share_one_sentence_naming_the_likeliest(tmp_path):
     likeliest = sorted(marginal, key=lambda c: -c.risk.switch_on)
     named = text.split("the highest: ")[1].split("; 5 more")[0].split("; ")
     assert [n.split()[0] for n in named] == [c.circuit.circuit_id for c in likeliest[:10]]
+
+
+def test_the_budget_line_cites_what_each_device_kind_rests_on(make_workbook):
+    """The 30 % budget is BS 7671:2018 reg. 531.3.2 for an RCD; for a UL 943 GFCI no US rule sets one, so the line
+    must not present BS 7671 as its source, only the analogy (a modelling choice)."""
+    result = runner.invoke(app, ["check", str(make_workbook()), "--no-write"])
+    text = " ".join(result.output.split())
+    line = text[text.index("Budget = ") : text.index("; gated by")]
+    assert line == (
+        "Budget = 0.3 × trip level (modelling choice: 30 % of the trip level, by analogy with BS 7671:2018 reg. "
+        "531.3.2; no US rule sets a standing-leakage budget, and the Budget of setting offers a share of the no-trip "
+        "level instead; BS 7671:2018 reg. 531.3.2 (30 % of IΔn))"
+    ), line

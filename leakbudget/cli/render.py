@@ -257,6 +257,17 @@ def render_board(result: Any, wide: bool) -> None:
             )
 
 
+def _budget_sources(result: Any) -> str:
+    """Where the budgets come from: the Settings cell when the user set the fraction or what it is of, else what
+    the devices' budgets cite (BS 7671 for an RCD, a modelling choice by analogy for a UL device), each once."""
+    s = result.project.settings
+    if "Budget fraction" in s.from_user or "Budget of" in s.from_user:
+        return str(s.sources["Budget fraction" if "Budget fraction" in s.from_user else "Budget of"])
+    own = [c.budget_source for c in result.circuits if c.guarding_device is None and c.circuit.device.protected]
+    cited = dict.fromkeys(str(x) for x in [*own, *(d.budget_source for d in result.devices)] if x is not None)
+    return "; ".join(cited) or str(s.sources["Budget fraction"])
+
+
 def _counts(statuses: list[str]) -> str:
     """'11 ok, 2 marginal, 1 over-budget': how many of each status, in the order of severity."""
     order = ("ok", "marginal", "over-budget", "trip-risk", "unprotected")
@@ -350,7 +361,7 @@ def render_check(job: Any, quiet: bool = False) -> None:
     out_console.print()
     s = project.settings
     out_console.print(
-        f"Budget = {s.budget_fraction:g} × trip level ({s.sources['Budget fraction']}); gated by the {gate} sum; "
+        f"Budget = {s.budget_fraction:g} × {s.budget_of} ({_budget_sources(result)}); gated by the {gate} sum; "
         f"catalogue basis: {s.basis}.",
         highlight=False,
     )
@@ -548,12 +559,14 @@ def render_split(job: Any, quiet: bool = False) -> None:
             )
         out_console.print(moves)
     if plan.board is not None and plan.board.circuit_moves:
+        title = "Circuit moves between shared devices (board plan)"
         board = Table(
-            title="Circuit moves between shared devices (board plan)",
+            title=title,
             title_justify="left",
             box=box.SIMPLE_HEAD,
             pad_edge=False,
             padding=(0, 1, 0, 0),
+            min_width=len(title),  # the title on one line, however narrow the columns
         )
         for header in ("Circuit", "From", "To"):
             board.add_column(header, overflow="fold")
