@@ -618,7 +618,7 @@ def render_split(job: Any, quiet: bool = False) -> None:
         )
     gate = "phasor" if project.settings.sum_rule == "phasor" else "arithmetic"
     out_console.print(
-        f"Limits: budget = {project.settings.budget_fraction:g} × trip level on the arithmetic sum "
+        f"Limits: budget = {project.settings.budget_fraction:g} × {project.settings.budget_of} on the arithmetic sum "
         f"(check gates on the {gate} sum). {plan.current_rule.describe()}",
         highlight=False,
     )
