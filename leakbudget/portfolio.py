@@ -485,10 +485,10 @@ def _run_locally(
     starting: threading.Thread | None = None
     if fork:  # the workers get the library, imported once here, as this process has it
         _import_library()
-        pool = ProcessPoolExecutor(max_workers=workers - 1, mp_context=_context(fork=True), initializer=_start_worker)
+    pool = ProcessPoolExecutor(max_workers=workers - 1, mp_context=_context(fork), initializer=_start_worker)
+    if fork:
         _start_pool(pool)  # forks the workers now, from this thread, the only one
     else:
-        pool = ProcessPoolExecutor(max_workers=workers - 1, mp_context=_context(), initializer=_start_worker)
         # The pool's first submit starts its processes and waits for the fork server to be ready (its imports,
         # about 0.3 s): a thread waits for that with a trivial task while this process checks its first workbooks.
         starting = threading.Thread(target=_start_pool, args=(pool,), name="leakbudget-pool-start", daemon=True)

@@ -19,6 +19,7 @@ from rich.table import Table
 
 from leakbudget.about import CAUTION
 from leakbudget.input.schema import REVIEW_FINDINGS, SPLIT_PLAN
+from leakbudget.output.portfolio import OVER
 
 if TYPE_CHECKING:
     from leakbudget.progress import Progress
@@ -257,6 +258,11 @@ def render_board(result: Any, wide: bool) -> None:
             )
 
 
+def _judged_above(c: Any) -> bool:
+    """The circuit has no device of its own: the shared device above it judges it (its status is that device's)."""
+    return c.guarding_device is not None and c.protected_by is not None
+
+
 def _budget_sources(result: Any) -> str:
     """Where the budgets come from: the Settings cell when the user set the fraction or what it is of, else what
     the devices' budgets cite (BS 7671 for an RCD, a modelling choice by analogy for a UL device), each once."""
@@ -384,11 +390,11 @@ def render_check(job: Any, quiet: bool = False) -> None:
         err_console.print(f"[yellow]Warning:[/] {line}", highlight=False)
     if result.unplaced:
         out_console.print(f"{len(result.unplaced)} load(s) have no circuit yet; `leakbudget split` can place them.")
-    bad = [c for c in result.circuits if c.status.value in ("over-budget", "trip-risk")]
+    bad = [c for c in result.circuits if c.status in OVER]
     # A circuit with no device of its own takes the status of the shared device above it: say so, once per device.
     judged_above: dict[str, list[str]] = {}
     for c in bad[:TERMINAL_TABLE_ROWS]:
-        if c.guarding_device is not None and c.protected_by is not None:
+        if _judged_above(c):
             judged_above.setdefault(c.protected_by, []).append(c.circuit.circuit_id)
             continue
         out_console.print(
@@ -399,11 +405,12 @@ def render_check(job: Any, quiet: bool = False) -> None:
     for device_id, ids in judged_above.items():
         x = by_device[device_id]
         names = ids[0] if len(ids) == 1 else f"{', '.join(ids[:-1])} and {ids[-1]}"
+        are, them, they_have, their = (
+            ("is", "it", "it has", "its") if len(ids) == 1 else ("are", "them", "they have", "their")
+        )
         out_console.print(
-            f"{names} {'is' if len(ids) == 1 else 'are'} {x.status.value} because {device_id} above "
-            f"{'it' if len(ids) == 1 else 'them'} is: {'it has' if len(ids) == 1 else 'they have'} no device of "
-            f"{'its' if len(ids) == 1 else 'their'} own, and {device_id} carries {fmt(x.gate_ma, 2)} mA against its "
-            f"{fmt(x.budget_ma, 2)} mA budget.",
+            f"{names} {are} {x.status.value} because {device_id} above {them} is: {they_have} no device of {their} "
+            f"own, and {device_id} carries {fmt(x.gate_ma, 2)} mA against its {fmt(x.budget_ma, 2)} mA budget.",
             highlight=False,
         )
     if len(bad) > TERMINAL_TABLE_ROWS:
@@ -444,14 +451,14 @@ def render_check(job: Any, quiet: bool = False) -> None:
     if not result.circuits:
         out_console.print("The Circuits sheet has no circuits yet: add one row per circuit.")
     elif bad:
-        shared = [d.device_id for d in result.devices if d.status.value in ("over-budget", "trip-risk")]
+        shared = [d.device_id for d in result.devices if d.status in OVER]
         board = (
             f" Move circuits from {' and '.join(shared)} to another device of the board, or give the largest a "
             "device of its own (an RCBO); `leakbudget split` plans the board."
             if shared
             else ""
         )
-        if len(judged_above) == len(shared) and sum(map(len, judged_above.values())) == len(bad):
+        if all(map(_judged_above, bad)):
             out_console.print(  # every one through its shared device: splitting a circuit's loads changes nothing
                 f"[bold]{len(bad)} circuit(s) over budget, through {' and '.join(shared)}.[/]{board} Measure the "
                 "largest contributors, and repair appliances that leak far above their typical value; never remove "
@@ -729,8 +736,8 @@ def render_applied(job: Any, quiet: bool = False) -> None:
             )
     for line in result.project.warnings:
         err_console.print(f"[yellow]Warning:[/] {line}", highlight=False)
-    bad = [c.circuit.circuit_id for c in result.circuits if c.status.value in ("over-budget", "trip-risk")]
-    bad += [d.device_id for d in result.devices if d.status.value in ("over-budget", "trip-risk")]
+    bad = [c.circuit.circuit_id for c in result.circuits if c.status in OVER]
+    bad += [d.device_id for d in result.devices if d.status in OVER]
     marginal = [c.circuit.circuit_id for c in result.circuits if c.status.value == "marginal"]
     marginal += [d.device_id for d in result.devices if d.status.value == "marginal"]
     if applied.all_ok:
